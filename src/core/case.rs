@@ -1,0 +1,185 @@
+//! The validated case: doses, levels, plan, targets and threshold on one time axis.
+//!
+//! Values here have passed validation (see `casefile`): levels are above zero, times are in
+//! order where they must be, and every unit has what it needs to convert.
+
+use crate::core::clock::{Clock, Stamp};
+use crate::core::model::{Given, Route};
+use crate::core::units::Scale;
+
+/// Who the patient is, as far as dosing needs (every field optional).
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Patient {
+    /// Free text shown on screen and in the note.
+    pub label: Option<String>,
+    /// Body weight in kg.
+    pub weight_kg: Option<f64>,
+    /// Age in years.
+    pub age_years: Option<f64>,
+    /// Sex, for creatinine clearance.
+    pub sex: Option<Sex>,
+    /// Serum creatinine in mg/dL (converted from umol/L when given that way).
+    pub creatinine_mg_dl: Option<f64>,
+}
+
+/// Sex as used by creatinine-clearance equations.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Sex {
+    /// female
+    Female,
+    /// male
+    Male,
+}
+
+/// The drug and how its levels are reported.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Drug {
+    /// Free-text name.
+    pub name: String,
+    /// The drug profile's file stem, when one is named.
+    pub profile: Option<String>,
+    /// Converts mg/L to the level unit.
+    pub scale: Scale,
+    /// Molar mass in g/mol, when known.
+    pub molar_mass_g_mol: Option<f64>,
+}
+
+/// A dose actually given.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Dose {
+    /// Row in the file, counting from 1.
+    pub row: usize,
+    /// When it was given (start of the infusion).
+    pub time: Stamp,
+    /// Hours on the case's axis.
+    pub t: f64,
+    /// Amount in mg, when known.
+    pub amount_mg: Option<f64>,
+    /// How it was given.
+    pub route: Route,
+}
+
+impl Dose {
+    /// When the dose has fully entered, in hours.
+    pub fn end(&self) -> f64 {
+        self.t + self.route.infusion_h()
+    }
+}
+
+/// A measured plasma level.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Level {
+    /// Row in the file, counting from 1.
+    pub row: usize,
+    /// When it was drawn.
+    pub time: Stamp,
+    /// Hours on the case's axis.
+    pub t: f64,
+    /// The measured value in the case's level unit.
+    pub value: f64,
+    /// The value in mg/L.
+    pub mg_l: f64,
+    /// Whether the user lets it into the fit.
+    pub use_in_fit: bool,
+    /// Free text.
+    pub note: Option<String>,
+}
+
+/// The regimen to project.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Plan {
+    /// Dose in mg.
+    pub dose_mg: f64,
+    /// Dosing interval tau in hours.
+    pub interval_h: f64,
+    /// Route of each plan dose.
+    pub route: Route,
+    /// First plan dose, hours on the axis (given, or last dose + interval).
+    pub start_t: f64,
+    /// Whether `start_t` came from the file.
+    pub start_given: bool,
+}
+
+/// Acceptable steady-state figures, in the level unit (AUC in level unit x h).
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Targets {
+    /// Acceptable peak range, inclusive.
+    pub peak: Option<[f64; 2]>,
+    /// The trough must be at or below this.
+    pub trough_max: Option<f64>,
+    /// Acceptable AUC over 24 h, inclusive.
+    pub auc24: Option<[f64; 2]>,
+}
+
+impl Targets {
+    /// Whether no target is set.
+    pub fn is_empty(&self) -> bool {
+        self.peak.is_none() && self.trough_max.is_none() && self.auc24.is_none()
+    }
+}
+
+/// A level the drug must fall below, and perhaps the time it must be below by.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Threshold {
+    /// The level in the case's unit.
+    pub below: f64,
+    /// The procedure time in hours on the axis, if given.
+    pub procedure_t: Option<f64>,
+}
+
+/// A whole validated case.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Case {
+    /// The patient.
+    pub patient: Patient,
+    /// The drug.
+    pub drug: Drug,
+    /// Doses sorted by time (rows keep their file numbers).
+    pub doses: Vec<Dose>,
+    /// Levels sorted by time (rows keep their file numbers).
+    pub levels: Vec<Level>,
+    /// The regimen to project.
+    pub plan: Option<Plan>,
+    /// Targets from the case (or the profile).
+    pub targets: Targets,
+    /// The threshold, if any.
+    pub threshold: Option<Threshold>,
+    /// The time axis.
+    pub clock: Clock,
+}
+
+impl Case {
+    /// The doses as the model sees them, or the rows that have no amount.
+    pub fn given(&self) -> std::result::Result<Vec<Given>, Vec<usize>> {
+        let missing: Vec<usize> = self
+            .doses
+            .iter()
+            .filter(|d| d.amount_mg.is_none())
+            .map(|d| d.row)
+            .collect();
+        if !missing.is_empty() {
+            return Err(missing);
+        }
+        Ok(self
+            .doses
+            .iter()
+            .filter_map(|d| {
+                d.amount_mg.map(|a| Given {
+                    t: d.t,
+                    amount_mg: a,
+                    route: d.route,
+                })
+            })
+            .collect())
+    }
+
+    /// The stamp of an hour on the axis, to the minute, or `None` if out of the calendar.
+    pub fn stamp(&self, t: f64) -> Option<Stamp> {
+        self.clock.at_minute(t)
+    }
+
+    /// The level's row number in the file, as `level N`.
+    pub fn level_name(&self, i: usize) -> String {
+        format!("level {}", self.levels[i].row)
+    }
+}

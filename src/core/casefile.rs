@@ -1,0 +1,694 @@
+//! Case files: TOML to a validated `Case` (a serde mirror first, then validation) and back.
+
+use std::path::Path;
+
+use chrono::{FixedOffset, NaiveDate, NaiveDateTime, NaiveTime};
+use serde::{Deserialize, Serialize};
+use toml::value::{Datetime, Offset};
+
+use crate::core::case::{Case, Dose, Drug, Level, Patient, Plan, Sex, Targets, Threshold};
+use crate::core::clock::{Clock, Stamp};
+use crate::core::error::{Error, Result};
+use crate::core::model::Route;
+use crate::core::units::{LevelUnit, Scale};
+
+/// The case file as written: every field as the user typed it, before validation.
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct CaseFile {
+    /// Contract version; missing means 1.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub schema: Option<i64>,
+    /// The patient.
+    #[serde(default)]
+    pub patient: PatientFile,
+    /// The drug.
+    #[serde(default)]
+    pub drug: DrugFile,
+    /// Doses given.
+    #[serde(default, rename = "dose", skip_serializing_if = "Vec::is_empty")]
+    pub doses: Vec<DoseFile>,
+    /// Levels measured.
+    #[serde(default, rename = "level", skip_serializing_if = "Vec::is_empty")]
+    pub levels: Vec<LevelFile>,
+    /// The regimen to project.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub plan: Option<PlanFile>,
+    /// Targets.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub targets: Option<TargetsFile>,
+    /// Threshold.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub threshold: Option<ThresholdFile>,
+}
+
+/// `[patient]` as written.
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+#[allow(missing_docs)]
+pub struct PatientFile {
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub label: Option<String>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub weight_kg: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub age_years: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub sex: Option<String>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub creatinine_mg_dl: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub creatinine_umol_l: Option<f64>,
+}
+
+/// `[drug]` as written.
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+#[allow(missing_docs)]
+pub struct DrugFile {
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub name: Option<String>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub profile: Option<String>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub level_unit: Option<String>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub molar_mass_g_mol: Option<f64>,
+}
+
+/// One `[[dose]]` as written.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+#[allow(missing_docs)]
+pub struct DoseFile {
+    pub time: Datetime,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub amount_mg: Option<f64>,
+    pub route: String,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub infusion_h: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub bioavailability: Option<f64>,
+}
+
+/// One `[[level]]` as written.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+#[allow(missing_docs)]
+pub struct LevelFile {
+    pub time: Datetime,
+    pub value: f64,
+    #[serde(default, rename = "use", skip_serializing_if = "Option::is_none")]
+    pub use_in_fit: Option<bool>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub note: Option<String>,
+}
+
+/// `[plan]` as written.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+#[allow(missing_docs)]
+pub struct PlanFile {
+    pub dose_mg: f64,
+    pub interval_h: f64,
+    pub route: String,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub infusion_h: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub bioavailability: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub start: Option<Datetime>,
+}
+
+/// `[targets]` as written.
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+#[allow(missing_docs)]
+pub struct TargetsFile {
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub peak: Option<Vec<f64>>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub trough_max: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub auc24: Option<Vec<f64>>,
+}
+
+/// `[threshold]` as written.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+#[allow(missing_docs)]
+pub struct ThresholdFile {
+    pub below: f64,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub procedure: Option<Datetime>,
+}
+
+/// Defaults a drug profile may supply where the case is silent.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Defaults {
+    /// Molar mass in g/mol.
+    pub molar_mass_g_mol: Option<f64>,
+    /// Oral bioavailability.
+    pub bioavailability: Option<f64>,
+    /// Targets, used when the case has no `[targets]`.
+    pub targets: Targets,
+}
+
+impl CaseFile {
+    /// Parse TOML text into the mirror (no validation yet).
+    ///
+    /// # Errors
+    /// Syntax errors, unknown fields and wrong types, with the line they are on.
+    pub fn parse(text: &str) -> Result<Self> {
+        toml::from_str(text).map_err(|e| syntax_error(text, &e))
+    }
+
+    /// Write the mirror back as TOML.
+    ///
+    /// # Errors
+    /// Only if a value cannot be written as TOML (a NaN or infinity, for example).
+    pub fn to_toml(&self) -> Result<String> {
+        toml::to_string(self)
+            .map_err(|e| Error::invalid("case", format!("cannot be written as TOML: {e}")))
+    }
+
+    /// Validate into a `Case`, with no profile defaults.
+    ///
+    /// # Errors
+    /// The first impossible value, naming its field or row.
+    pub fn validate(&self) -> Result<Case> {
+        self.validate_with(&Defaults::default())
+    }
+
+    /// Validate into a `Case`, filling gaps from a profile's defaults.
+    ///
+    /// # Errors
+    /// The first impossible value, naming its field or row.
+    pub fn validate_with(&self, defaults: &Defaults) -> Result<Case> {
+        if let Some(s) = self.schema {
+            if s != 1 {
+                return Err(Error::invalid(
+                    "schema",
+                    format!("this ebb reads schema 1, the file says {s}"),
+                ));
+            }
+        }
+        let patient = validate_patient(&self.patient)?;
+        let drug = validate_drug(&self.drug, defaults)?;
+        let scale = drug.scale;
+
+        // Times: all local or all with an offset.
+        let mut stamps: Vec<(String, Stamp)> = Vec::new();
+        for (i, d) in self.doses.iter().enumerate() {
+            let place = format!("dose {}", i + 1);
+            stamps.push((place.clone(), to_stamp(&d.time, &format!("{place}: time"))?));
+        }
+        for (i, l) in self.levels.iter().enumerate() {
+            let place = format!("level {}", i + 1);
+            stamps.push((place.clone(), to_stamp(&l.time, &format!("{place}: time"))?));
+        }
+        let plan_start = match &self.plan {
+            Some(PlanFile { start: Some(s), .. }) => Some(to_stamp(s, "plan.start")?),
+            _ => None,
+        };
+        let procedure = match &self.threshold {
+            Some(ThresholdFile {
+                procedure: Some(p), ..
+            }) => Some(to_stamp(p, "threshold.procedure")?),
+            _ => None,
+        };
+        let mut all: Vec<(String, Stamp)> = stamps.clone();
+        if let Some(s) = plan_start {
+            all.push(("plan.start".into(), s));
+        }
+        if let Some(p) = procedure {
+            all.push(("threshold.procedure".into(), p));
+        }
+        let clock = build_clock(&all)?;
+
+        // Doses.
+        let mut doses = Vec::with_capacity(self.doses.len());
+        for (i, d) in self.doses.iter().enumerate() {
+            let place = format!("dose {}", i + 1);
+            if let Some(a) = d.amount_mg {
+                positive(a, &format!("{place}: amount_mg"))?;
+            }
+            let route = validate_route(
+                &d.route,
+                d.infusion_h,
+                d.bioavailability,
+                defaults.bioavailability,
+                &place,
+            )?;
+            let time = stamps[i].1;
+            doses.push(Dose {
+                row: i + 1,
+                time,
+                t: clock.hours(&time),
+                amount_mg: d.amount_mg,
+                route,
+            });
+        }
+        doses.sort_by(|a, b| a.t.total_cmp(&b.t));
+        for w in doses.windows(2) {
+            if w[0].t == w[1].t {
+                let (a, b) = (w[0].row.min(w[1].row), w[0].row.max(w[1].row));
+                return Err(Error::invalid(
+                    format!("dose {b}"),
+                    format!(
+                        "given at the same time as dose {a} ({}); record them as one dose",
+                        w[0].time.iso_minute()
+                    ),
+                ));
+            }
+        }
+
+        // Levels.
+        let mut levels = Vec::with_capacity(self.levels.len());
+        for (i, l) in self.levels.iter().enumerate() {
+            let place = format!("level {}", i + 1);
+            if !l.value.is_finite() || l.value <= 0.0 {
+                return Err(Error::invalid(
+                    format!("{place}: value"),
+                    format!("must be above 0, got {}", l.value),
+                ));
+            }
+            let time = stamps[self.doses.len() + i].1;
+            let t = clock.hours(&time);
+            let mg_l = scale.to_mg_l(l.value);
+            if !mg_l.is_finite() || mg_l <= 0.0 {
+                return Err(Error::invalid(
+                    format!("{place}: value"),
+                    format!(
+                        "{} {} cannot be converted to mg/L",
+                        l.value,
+                        scale.unit.as_str()
+                    ),
+                ));
+            }
+            match doses.first() {
+                None => {
+                    return Err(Error::invalid(
+                        place,
+                        "there is no dose on record; enter the doses given before the levels",
+                    ))
+                }
+                Some(first) if t < first.t => {
+                    return Err(Error::invalid(
+                        place,
+                        format!(
+                            "drawn at {}, before the first dose (dose {} at {})",
+                            time.iso_minute(),
+                            first.row,
+                            first.time.iso_minute()
+                        ),
+                    ))
+                }
+                _ => {}
+            }
+            levels.push(Level {
+                row: i + 1,
+                time,
+                t,
+                value: l.value,
+                mg_l,
+                use_in_fit: l.use_in_fit.unwrap_or(true),
+                note: l.note.clone(),
+            });
+        }
+        levels.sort_by(|a, b| a.t.total_cmp(&b.t));
+        for w in levels.windows(2) {
+            if w[0].t == w[1].t {
+                let (a, b) = (w[0].row.min(w[1].row), w[0].row.max(w[1].row));
+                return Err(Error::invalid(
+                    format!("level {b}"),
+                    format!(
+                        "drawn at the same time as level {a} ({}); keep one, or correct the time",
+                        w[0].time.iso_minute()
+                    ),
+                ));
+            }
+        }
+
+        // Plan.
+        let plan = match &self.plan {
+            None => None,
+            Some(p) => {
+                positive(p.dose_mg, "plan.dose_mg")?;
+                positive(p.interval_h, "plan.interval_h")?;
+                let route = validate_route(
+                    &p.route,
+                    p.infusion_h,
+                    p.bioavailability,
+                    defaults.bioavailability,
+                    "plan",
+                )?;
+                if route.infusion_h() > p.interval_h {
+                    return Err(Error::invalid(
+                        "plan.infusion_h",
+                        format!(
+                            "the infusion ({} h) is longer than the interval ({} h)",
+                            route.infusion_h(),
+                            p.interval_h
+                        ),
+                    ));
+                }
+                let (start_t, start_given) = match plan_start {
+                    Some(s) => (clock.hours(&s), true),
+                    None => match doses.last() {
+                        Some(last) => (last.t + p.interval_h, false),
+                        None => {
+                            return Err(Error::invalid(
+                                "plan.start",
+                                "needed when no dose is on record",
+                            ))
+                        }
+                    },
+                };
+                Some(Plan {
+                    dose_mg: p.dose_mg,
+                    interval_h: p.interval_h,
+                    route,
+                    start_t,
+                    start_given,
+                })
+            }
+        };
+
+        let targets = match &self.targets {
+            Some(t) => validate_targets(t)?,
+            None => defaults.targets.clone(),
+        };
+
+        let threshold = match &self.threshold {
+            None => None,
+            Some(th) => {
+                positive(th.below, "threshold.below")?;
+                Some(Threshold {
+                    below: th.below,
+                    procedure_t: procedure.map(|p| clock.hours(&p)),
+                })
+            }
+        };
+
+        Ok(Case {
+            patient,
+            drug,
+            doses,
+            levels,
+            plan,
+            targets,
+            threshold,
+            clock,
+        })
+    }
+}
+
+/// Read and parse a case file (no validation yet).
+///
+/// # Errors
+/// A missing or unreadable file, or a TOML error, with the file name in front.
+pub fn read(path: &Path) -> Result<CaseFile> {
+    let text = std::fs::read_to_string(path).map_err(|e| Error::Read {
+        path: path.to_path_buf(),
+        reason: e.to_string(),
+    })?;
+    CaseFile::parse(&text).map_err(|e| e.in_file(path.display().to_string()))
+}
+
+/// Read, parse and validate a case file without profile defaults.
+///
+/// # Errors
+/// As `read`, then the first invalid field, with the file name in front.
+pub fn load(path: &Path) -> Result<Case> {
+    read(path)?
+        .validate()
+        .map_err(|e| e.in_file(path.display().to_string()))
+}
+
+fn syntax_error(text: &str, e: &toml::de::Error) -> Error {
+    let line = e
+        .span()
+        .map(|s| text[..s.start.min(text.len())].matches('\n').count() + 1)
+        .unwrap_or(1);
+    let message = e.message().trim().replace('\n', "; ");
+    Error::Syntax { line, message }
+}
+
+fn positive(x: f64, place: &str) -> Result<()> {
+    if x.is_finite() && x > 0.0 {
+        Ok(())
+    } else {
+        Err(Error::invalid(place, format!("must be above 0, got {x}")))
+    }
+}
+
+fn validate_patient(p: &PatientFile) -> Result<Patient> {
+    if let Some(w) = p.weight_kg {
+        if !(w.is_finite() && w > 0.0 && w <= 700.0) {
+            return Err(Error::invalid(
+                "patient.weight_kg",
+                format!("must be above 0 and at most 700 kg, got {w}"),
+            ));
+        }
+    }
+    if let Some(a) = p.age_years {
+        if !(a.is_finite() && (0.0..=130.0).contains(&a)) {
+            return Err(Error::invalid(
+                "patient.age_years",
+                format!("must be from 0 to 130, got {a}"),
+            ));
+        }
+    }
+    let sex = match p.sex.as_deref() {
+        None => None,
+        Some("female") => Some(Sex::Female),
+        Some("male") => Some(Sex::Male),
+        Some(other) => {
+            return Err(Error::invalid(
+                "patient.sex",
+                format!("must be \"female\" or \"male\", got \"{other}\""),
+            ))
+        }
+    };
+    let creatinine = match (p.creatinine_mg_dl, p.creatinine_umol_l) {
+        (Some(_), Some(_)) => {
+            return Err(Error::invalid(
+                "patient.creatinine_umol_l",
+                "give creatinine_mg_dl or creatinine_umol_l, not both",
+            ))
+        }
+        (Some(c), None) => {
+            positive(c, "patient.creatinine_mg_dl")?;
+            Some(c)
+        }
+        (None, Some(c)) => {
+            positive(c, "patient.creatinine_umol_l")?;
+            // 1 mg/dL creatinine = 88.4 umol/L (drug-facts.md, Cockcroft-Gault SI row).
+            Some(c / 88.4)
+        }
+        (None, None) => None,
+    };
+    Ok(Patient {
+        label: p.label.clone(),
+        weight_kg: p.weight_kg,
+        age_years: p.age_years,
+        sex,
+        creatinine_mg_dl: creatinine,
+    })
+}
+
+fn validate_drug(d: &DrugFile, defaults: &Defaults) -> Result<Drug> {
+    let unit_text = d.level_unit.as_deref().ok_or_else(|| {
+        Error::invalid(
+            "drug.level_unit",
+            "missing; say which unit the levels are in (mg/L, ug/mL, ng/mL, ug/L, mmol/L, umol/L)",
+        )
+    })?;
+    let unit = LevelUnit::parse(unit_text, "drug.level_unit")?;
+    if let Some(m) = d.molar_mass_g_mol {
+        positive(m, "drug.molar_mass_g_mol")?;
+    }
+    let molar_mass = d.molar_mass_g_mol.or(defaults.molar_mass_g_mol);
+    let per_mg_l = unit.per_mg_l(molar_mass).ok_or_else(|| {
+        Error::invalid(
+            "drug.molar_mass_g_mol",
+            format!(
+                "needed to convert {} levels; give the molar mass in g/mol",
+                unit.as_str()
+            ),
+        )
+    })?;
+    Ok(Drug {
+        name: d.name.clone().unwrap_or_default(),
+        profile: d.profile.clone(),
+        scale: Scale { unit, per_mg_l },
+        molar_mass_g_mol: molar_mass,
+    })
+}
+
+fn validate_route(
+    route: &str,
+    infusion_h: Option<f64>,
+    bioavailability: Option<f64>,
+    default_f: Option<f64>,
+    place: &str,
+) -> Result<Route> {
+    if bioavailability.is_some() && route != "oral" {
+        return Err(Error::invalid(
+            format!("{place}: bioavailability"),
+            format!("only an oral dose has a bioavailability; this one is \"{route}\""),
+        ));
+    }
+    if infusion_h.is_some() && route != "infusion" {
+        return Err(Error::invalid(
+            format!("{place}: infusion_h"),
+            format!("only an infusion has infusion_h; this one is \"{route}\""),
+        ));
+    }
+    match route {
+        "bolus" => Ok(Route::Bolus),
+        "infusion" => {
+            let h = infusion_h.ok_or_else(|| {
+                Error::invalid(
+                    format!("{place}: infusion_h"),
+                    "an infusion needs infusion_h, its duration in hours",
+                )
+            })?;
+            positive(h, &format!("{place}: infusion_h"))?;
+            Ok(Route::Infusion { hours: h })
+        }
+        "oral" => {
+            let f = bioavailability.or(default_f).unwrap_or(1.0);
+            if !(f.is_finite() && f > 0.0 && f <= 1.0) {
+                return Err(Error::invalid(
+                    format!("{place}: bioavailability"),
+                    format!("must be above 0 and at most 1, got {f}"),
+                ));
+            }
+            Ok(Route::Oral { f })
+        }
+        other => Err(Error::invalid(
+            format!("{place}: route"),
+            format!("unknown route \"{other}\"; use \"bolus\", \"infusion\" or \"oral\""),
+        )),
+    }
+}
+
+fn validate_targets(t: &TargetsFile) -> Result<Targets> {
+    fn range(v: &Option<Vec<f64>>, place: &str) -> Result<Option<[f64; 2]>> {
+        match v {
+            None => Ok(None),
+            Some(v) if v.len() == 2 => {
+                positive(v[0], place)?;
+                positive(v[1], place)?;
+                if v[0] > v[1] {
+                    return Err(Error::invalid(
+                        place,
+                        format!("the low end {} is above the high end {}", v[0], v[1]),
+                    ));
+                }
+                Ok(Some([v[0], v[1]]))
+            }
+            Some(v) => Err(Error::invalid(
+                place,
+                format!("must be [low, high], got {} numbers", v.len()),
+            )),
+        }
+    }
+    let peak = range(&t.peak, "targets.peak")?;
+    let auc24 = range(&t.auc24, "targets.auc24")?;
+    if let Some(x) = t.trough_max {
+        positive(x, "targets.trough_max")?;
+    }
+    Ok(Targets {
+        peak,
+        trough_max: t.trough_max,
+        auc24,
+    })
+}
+
+/// A TOML date-time as a stamp; a date alone or a time alone is an error.
+pub fn to_stamp(dt: &Datetime, place: &str) -> Result<Stamp> {
+    let (Some(date), Some(time)) = (dt.date, dt.time) else {
+        return Err(Error::invalid(
+            place,
+            format!("needs a date and a time, like 2027-03-02T08:00:00; got {dt}"),
+        ));
+    };
+    let d = NaiveDate::from_ymd_opt(date.year.into(), date.month.into(), date.day.into())
+        .ok_or_else(|| Error::invalid(place, format!("no such date: {dt}")))?;
+    let t = NaiveTime::from_hms_nano_opt(
+        time.hour.into(),
+        time.minute.into(),
+        time.second.into(),
+        time.nanosecond,
+    )
+    .ok_or_else(|| Error::invalid(place, format!("no such time: {dt}")))?;
+    let naive = NaiveDateTime::new(d, t);
+    match dt.offset {
+        None => Ok(Stamp::Local(naive)),
+        Some(off) => {
+            let minutes: i32 = match off {
+                Offset::Z => 0,
+                Offset::Custom { minutes } => minutes.into(),
+            };
+            let fixed = FixedOffset::east_opt(minutes * 60)
+                .ok_or_else(|| Error::invalid(place, format!("offset out of range: {dt}")))?;
+            naive
+                .and_local_timezone(fixed)
+                .single()
+                .map(Stamp::Offset)
+                .ok_or_else(|| Error::invalid(place, format!("cannot place {dt}")))
+        }
+    }
+}
+
+/// A stamp as a TOML date-time (for saving).
+pub fn from_stamp(s: &Stamp) -> Datetime {
+    // A stamp always prints as a valid RFC 3339 date-time, so the parse cannot fail; keep a
+    // harmless fallback all the same.
+    s.iso_second().parse().unwrap_or_else(|_| Datetime {
+        date: None,
+        time: None,
+        offset: None,
+    })
+}
+
+fn build_clock(stamps: &[(String, Stamp)]) -> Result<Clock> {
+    let first_kind = stamps.first().map(|(_, s)| matches!(s, Stamp::Offset(_)));
+    if let Some(offset_kind) = first_kind {
+        if let Some((place, _)) = stamps
+            .iter()
+            .find(|(_, s)| matches!(s, Stamp::Offset(_)) != offset_kind)
+        {
+            let (this, other) = if offset_kind {
+                ("a local time", "offset times")
+            } else {
+                ("an offset time", "local times")
+            };
+            return Err(Error::invalid(
+                format!("{place}: time"),
+                format!(
+                    "is {this} but {} uses {other}; use local times throughout or offsets throughout",
+                    stamps[0].0
+                ),
+            ));
+        }
+    }
+    let origin = stamps
+        .iter()
+        .map(|(_, s)| s.axis_time())
+        .min()
+        .unwrap_or_default();
+    // Computed times carry the offset of the latest dose or level.
+    let offset = stamps
+        .iter()
+        .filter(|(p, _)| p.starts_with("dose") || p.starts_with("level"))
+        .max_by_key(|(_, s)| s.axis_time())
+        .and_then(|(_, s)| match s {
+            Stamp::Offset(t) => Some(*t.offset()),
+            Stamp::Local(_) => None,
+        });
+    Ok(Clock::new(origin, offset))
+}

@@ -1,0 +1,203 @@
+//! Clock times of a case: turning date-times into hours on one axis and back, and writing them.
+
+use chrono::{DateTime, Datelike, Duration, FixedOffset, NaiveDateTime, Timelike};
+
+/// A date-time as the case gave it: a wall-clock local time, or one with a UTC offset.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Stamp {
+    /// A local date-time (wall clock, no zone).
+    Local(NaiveDateTime),
+    /// A date-time with its UTC offset.
+    Offset(DateTime<FixedOffset>),
+}
+
+impl Stamp {
+    /// The instant on the case's axis: UTC for offset times, the wall clock for local ones.
+    pub fn axis_time(&self) -> NaiveDateTime {
+        match self {
+            Stamp::Local(t) => *t,
+            Stamp::Offset(t) => t.naive_utc(),
+        }
+    }
+
+    /// The wall-clock reading of this stamp.
+    pub fn wall(&self) -> NaiveDateTime {
+        match self {
+            Stamp::Local(t) => *t,
+            Stamp::Offset(t) => t.naive_local(),
+        }
+    }
+
+    /// ISO 8601 to the minute, with the offset when there is one (`2027-03-03T14:10`).
+    pub fn iso_minute(&self) -> String {
+        match self {
+            Stamp::Local(t) => t.format("%Y-%m-%dT%H:%M").to_string(),
+            Stamp::Offset(t) => t.format("%Y-%m-%dT%H:%M%:z").to_string(),
+        }
+    }
+
+    /// ISO 8601 to the second, as a TOML date-time (for saving a case).
+    pub fn iso_second(&self) -> String {
+        match self {
+            Stamp::Local(t) => t.format("%Y-%m-%dT%H:%M:%S").to_string(),
+            Stamp::Offset(t) => t.format("%Y-%m-%dT%H:%M:%S%:z").to_string(),
+        }
+    }
+
+    /// A reading for people: `Thu 4 Mar 03:40` (with the year when asked).
+    pub fn readable(&self, with_year: bool) -> String {
+        let w = self.wall();
+        let base = if with_year {
+            w.format("%a %-d %b %Y %H:%M").to_string()
+        } else {
+            w.format("%a %-d %b %H:%M").to_string()
+        };
+        match self {
+            Stamp::Local(_) => base,
+            Stamp::Offset(t) => format!("{base} {}", t.format("%:z")),
+        }
+    }
+}
+
+/// The case's time axis: hours from an origin, and the offset computed times are shown in.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Clock {
+    origin: NaiveDateTime,
+    offset: Option<FixedOffset>,
+}
+
+/// Whole seconds in an hour.
+const SECONDS_PER_HOUR: f64 = 3600.0;
+/// The largest span of hours a stamp may be placed at (about 100 000 years), beyond which
+/// chrono cannot represent the date.
+const MAX_HOURS: f64 = 8.0e8;
+
+impl Clock {
+    /// A clock whose origin is `origin`; computed times carry `offset` when given.
+    pub fn new(origin: NaiveDateTime, offset: Option<FixedOffset>) -> Self {
+        Clock { origin, offset }
+    }
+
+    /// The offset computed times carry (None for local-time cases).
+    pub fn offset(&self) -> Option<FixedOffset> {
+        self.offset
+    }
+
+    /// Hours from the origin to `stamp`.
+    pub fn hours(&self, stamp: &Stamp) -> f64 {
+        let d = stamp.axis_time() - self.origin;
+        d.num_milliseconds() as f64 / 1000.0 / SECONDS_PER_HOUR
+    }
+
+    /// The stamp `h` hours after the origin, rounded up to the whole minute (later is the
+    /// safe side for "below the threshold at"). `None` when `h` is not finite or so far
+    /// away that no calendar date can hold it.
+    pub fn at_minute_up(&self, h: f64) -> Option<Stamp> {
+        if !h.is_finite() || h.abs() > MAX_HOURS {
+            return None;
+        }
+        // Round the seconds up to the minute, allowing for float noise of a millisecond.
+        let secs = h * SECONDS_PER_HOUR;
+        let minutes = ((secs - 1e-3) / 60.0).ceil();
+        let t = self
+            .origin
+            .checked_add_signed(Duration::minutes(minutes as i64))?;
+        Some(self.stamp_of(t))
+    }
+
+    /// The stamp `h` hours after the origin, to the nearest minute.
+    pub fn at_minute(&self, h: f64) -> Option<Stamp> {
+        if !h.is_finite() || h.abs() > MAX_HOURS {
+            return None;
+        }
+        let minutes = (h * 60.0).round();
+        let t = self
+            .origin
+            .checked_add_signed(Duration::minutes(minutes as i64))?;
+        Some(self.stamp_of(t))
+    }
+
+    fn stamp_of(&self, axis: NaiveDateTime) -> Stamp {
+        match self.offset {
+            None => Stamp::Local(axis),
+            Some(off) => Stamp::Offset(DateTime::from_naive_utc_and_offset(axis, off)),
+        }
+    }
+}
+
+/// A span of hours for people: `14 h 20 min`, `2 d 3 h`, `35 min`.
+pub fn span_words(hours: f64) -> String {
+    if !hours.is_finite() {
+        return "an unbounded time".to_string();
+    }
+    let total_min = (hours.abs() * 60.0).round() as i64;
+    let (d, h, m) = (total_min / 1440, (total_min % 1440) / 60, total_min % 60);
+    if d > 0 {
+        format!("{d} d {h} h")
+    } else if h > 0 {
+        format!("{h} h {m} min")
+    } else {
+        format!("{m} min")
+    }
+}
+
+/// Whether two stamps fall on the same calendar day (for compact readings).
+pub fn same_year(a: &Stamp, b: &Stamp) -> bool {
+    a.wall().year() == b.wall().year()
+}
+
+/// Minutes past midnight of a stamp's wall clock.
+pub fn minute_of_day(s: &Stamp) -> u32 {
+    let w = s.wall();
+    w.hour() * 60 + w.minute()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use chrono::NaiveDate;
+
+    fn t(y: i32, mo: u32, d: u32, h: u32, mi: u32) -> NaiveDateTime {
+        NaiveDate::from_ymd_opt(y, mo, d)
+            .unwrap()
+            .and_hms_opt(h, mi, 0)
+            .unwrap()
+    }
+
+    #[test]
+    fn hours_cross_month_ends_and_leap_days() {
+        let c = Clock::new(t(2028, 2, 28, 22, 0), None);
+        // 2028 is a leap year: 28 Feb 22:00 to 1 Mar 02:00 is 28 h.
+        assert_eq!(c.hours(&Stamp::Local(t(2028, 3, 1, 2, 0))), 28.0);
+    }
+
+    #[test]
+    fn rounding_up_to_the_minute() {
+        let c = Clock::new(t(2027, 3, 2, 8, 0), None);
+        let s = c.at_minute_up(1.0 + 1.0 / 3600.0).unwrap();
+        assert_eq!(s.iso_minute(), "2027-03-02T09:01");
+        assert_eq!(
+            c.at_minute_up(1.0).unwrap().iso_minute(),
+            "2027-03-02T09:00"
+        );
+        assert!(c.at_minute_up(f64::NAN).is_none());
+        assert!(c.at_minute_up(1e300).is_none());
+    }
+
+    #[test]
+    fn offset_times_carry_their_offset() {
+        let off = FixedOffset::east_opt(3600).unwrap();
+        let c = Clock::new(t(2027, 3, 2, 7, 0), Some(off));
+        assert_eq!(
+            c.at_minute(1.5).unwrap().iso_minute(),
+            "2027-03-02T09:30+01:00"
+        );
+    }
+
+    #[test]
+    fn spans_read_naturally() {
+        assert_eq!(span_words(14.0 + 20.0 / 60.0), "14 h 20 min");
+        assert_eq!(span_words(0.5), "30 min");
+        assert_eq!(span_words(51.0), "2 d 3 h");
+    }
+}

@@ -1,0 +1,189 @@
+//! The linear one-compartment model: single-dose responses and their superposition.
+//!
+//! Concentrations here are in mg/L, times in hours, volumes in litres, doses in mg.
+
+/// How a dose enters the body.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Route {
+    /// Intravenous push: all at once.
+    Bolus,
+    /// Constant-rate infusion over `hours`.
+    Infusion {
+        /// Duration of the infusion in hours (> 0).
+        hours: f64,
+    },
+    /// By mouth, treated as a bolus of F x dose (absorption is not modelled).
+    Oral {
+        /// Bioavailability F, in (0, 1].
+        f: f64,
+    },
+}
+
+impl Route {
+    /// Infusion duration in hours (0 for bolus and oral).
+    pub fn infusion_h(&self) -> f64 {
+        match self {
+            Route::Infusion { hours } => *hours,
+            _ => 0.0,
+        }
+    }
+
+    /// Fraction of the dose that reaches the circulation.
+    pub fn bioavailability(&self) -> f64 {
+        match self {
+            Route::Oral { f } => *f,
+            _ => 1.0,
+        }
+    }
+
+    /// The case-file spelling of the route.
+    pub fn name(&self) -> &'static str {
+        match self {
+            Route::Bolus => "bolus",
+            Route::Infusion { .. } => "infusion",
+            Route::Oral { .. } => "oral",
+        }
+    }
+}
+
+/// One dose on the model's time axis.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Given {
+    /// Start time in hours on the case's axis.
+    pub t: f64,
+    /// Amount in mg.
+    pub amount_mg: f64,
+    /// Route.
+    pub route: Route,
+}
+
+impl Given {
+    /// When the dose has fully entered (end of infusion; the dose time otherwise).
+    pub fn end(&self) -> f64 {
+        self.t + self.route.infusion_h()
+    }
+}
+
+/// 1 - e^(-x), accurate for small x.
+pub fn one_minus_exp_neg(x: f64) -> f64 {
+    -(-x).exp_m1()
+}
+
+/// Concentration (mg/L) `s` hours after the start of one dose, for rate constant `k` (1/h)
+/// and volume `v` (L). Zero for `s <= 0`: a level drawn at a dose time is a pre-dose level.
+pub fn single_dose(amount_mg: f64, route: Route, k: f64, v: f64, s: f64) -> f64 {
+    if s <= 0.0 {
+        return 0.0;
+    }
+    match route {
+        Route::Bolus | Route::Oral { .. } => {
+            route.bioavailability() * amount_mg / v * (-k * s).exp()
+        }
+        Route::Infusion { hours } => {
+            let r0 = amount_mg / hours;
+            if s <= hours {
+                r0 * infusion_rise(k, s) / v
+            } else {
+                r0 * infusion_rise(k, hours) / v * (-k * (s - hours)).exp()
+            }
+        }
+    }
+}
+
+/// (1 - e^(-k·s))/k, the rise of a unit-rate infusion, with its limit s as k -> 0.
+fn infusion_rise(k: f64, s: f64) -> f64 {
+    if (k * s).abs() < 1e-12 {
+        s
+    } else {
+        one_minus_exp_neg(k * s) / k
+    }
+}
+
+/// Concentration (mg/L) at time `t` from every dose given before it.
+pub fn superpose<'a>(doses: impl IntoIterator<Item = &'a Given>, k: f64, v: f64, t: f64) -> f64 {
+    doses
+        .into_iter()
+        .map(|d| single_dose(d.amount_mg, d.route, k, v, t - d.t))
+        .sum()
+}
+
+/// Steady-state figures of a regimen repeated every `tau` hours.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SteadyState {
+    /// 1/(1 - e^(-k·tau)).
+    pub accumulation_factor: f64,
+    /// Peak at the end of the infusion (bolus, oral: just after the dose), mg/L.
+    pub peak_mg_l: f64,
+    /// Trough just before the next dose, mg/L.
+    pub trough_mg_l: f64,
+    /// Area under the curve over 24 h at steady state, mg·h/L.
+    pub auc24_mg_h_l: f64,
+}
+
+/// Steady state of `amount_mg` by `route` every `tau` hours, for `k` and `v`.
+pub fn steady_state(amount_mg: f64, route: Route, tau: f64, k: f64, v: f64) -> SteadyState {
+    let acc = 1.0 / one_minus_exp_neg(k * tau);
+    let t_inf = route.infusion_h();
+    let f = route.bioavailability();
+    let peak = match route {
+        Route::Infusion { hours } => amount_mg / hours * infusion_rise(k, hours) / v * acc,
+        _ => f * amount_mg / v * acc,
+    };
+    let trough = peak * (-k * (tau - t_inf)).exp();
+    let auc24 = f * amount_mg / (k * v) * 24.0 / tau;
+    SteadyState {
+        accumulation_factor: acc,
+        peak_mg_l: peak,
+        trough_mg_l: trough,
+        auc24_mg_h_l: auc24,
+    }
+}
+
+/// Hours to reach `fraction` (0..1) of steady state: -ln(1 - f)/k.
+pub fn time_to_fraction_of_ss(fraction: f64, k: f64) -> f64 {
+    -(1.0 - fraction).ln() / k
+}
+
+/// Half-life in hours from k: ln 2 / k.
+pub fn half_life(k: f64) -> f64 {
+    std::f64::consts::LN_2 / k
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn half_life_facts() {
+        // k = 0.1 /h -> t1/2 = 6.9315 h; t1/2 = 24 h -> k = 0.028881 /h
+        // (drug-facts.md "Facts of the trade", [Bourne-Ch6]).
+        assert!((half_life(0.1) - 6.9315).abs() < 5e-5);
+        assert!((half_life(24.0) - 24.0).abs() < 1e-12);
+        assert!((std::f64::consts::LN_2 / 24.0 - 0.028881).abs() < 5e-7);
+    }
+
+    #[test]
+    fn steady_state_fractions_are_the_known_half_life_multiples() {
+        // 90 %, 95 %, 97 % of steady state at 3.32, 4.32, 5.06 half-lives (common practice).
+        let k = 0.2;
+        let th = half_life(k);
+        for (f, n) in [(0.90, 3.32), (0.95, 4.32), (0.97, 5.06)] {
+            let h = time_to_fraction_of_ss(f, k) / th;
+            assert!((h - n).abs() < 0.005, "{f}: {h}");
+        }
+    }
+
+    #[test]
+    fn bolus_at_its_own_time_is_not_yet_given() {
+        assert_eq!(single_dose(100.0, Route::Bolus, 0.1, 10.0, 0.0), 0.0);
+        assert!((single_dose(100.0, Route::Bolus, 0.1, 10.0, 1e-9) - 10.0).abs() < 1e-6);
+    }
+
+    #[test]
+    fn infusion_is_continuous_at_its_end() {
+        let r = Route::Infusion { hours: 0.5 };
+        let a = single_dose(120.0, r, 0.3, 18.0, 0.5);
+        let b = single_dose(120.0, r, 0.3, 18.0, 0.5 + 1e-9);
+        assert!((a - b).abs() < 1e-7);
+    }
+}

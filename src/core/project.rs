@@ -1,0 +1,259 @@
+//! Projections from a fit: the plan at steady state, the threshold and the washout table.
+//!
+//! Times here are hours on the case's axis and concentrations mg/L unless a name says
+//! otherwise; the report converts to the case's unit and to clock times.
+
+use crate::core::case::{Case, Plan};
+use crate::core::fit::Fit;
+use crate::core::model::{self, Given, SteadyState};
+
+/// The fitted patient as a model that can be evaluated at any time.
+#[derive(Debug, Clone)]
+pub struct Patient<'a> {
+    /// The case.
+    pub case: &'a Case,
+    /// The fit.
+    pub fit: &'a Fit,
+    /// The recorded doses, when every amount is known and V was found.
+    pub given: Option<Vec<Given>>,
+}
+
+impl<'a> Patient<'a> {
+    /// Build from a case and its fit.
+    pub fn new(case: &'a Case, fit: &'a Fit) -> Self {
+        let given = match (fit.volume_l, case.given()) {
+            (Some(_), Ok(g)) => Some(g),
+            _ => None,
+        };
+        Patient { case, fit, given }
+    }
+
+    /// Volume, when known.
+    pub fn v(&self) -> Option<f64> {
+        self.given.as_ref().and(self.fit.volume_l)
+    }
+
+    /// The model's concentration (mg/L) at `t` with the recorded doses only (the fitted
+    /// line without V).
+    pub fn level_mg_l(&self, t: f64) -> f64 {
+        self.level_with_k(t, self.fit.k)
+    }
+
+    /// As `level_mg_l`, with another k (for intervals).
+    pub fn level_with_k(&self, t: f64, k: f64) -> f64 {
+        match (&self.given, self.fit.volume_l) {
+            (Some(g), Some(v)) => model::superpose(g, k, v, t),
+            _ => self.fit.line_mg_l(t),
+        }
+    }
+
+    /// The model's concentration (mg/L) at `t` with the recorded doses and the plan doses
+    /// given up to and including the plan dose numbered `last` (0-based). `None` without V.
+    pub fn level_with_plan(&self, t: f64, plan: &Plan, last: Option<usize>) -> Option<f64> {
+        let (g, v) = (self.given.as_ref()?, self.fit.volume_l?);
+        let k = self.fit.k;
+        let mut c = model::superpose(g, k, v, t);
+        if let Some(last) = last {
+            for j in 0..=last {
+                let td = plan.start_t + j as f64 * plan.interval_h;
+                c += model::single_dose(plan.dose_mg, plan.route, k, v, t - td);
+            }
+        }
+        Some(c)
+    }
+
+    /// The end of the last recorded dose.
+    pub fn last_dose_end(&self) -> f64 {
+        self.case
+            .doses
+            .iter()
+            .map(|d| d.end())
+            .fold(f64::NEG_INFINITY, f64::max)
+    }
+}
+
+/// The plan at steady state.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PlanProjection {
+    /// 1/(1 - e^(-k·tau)).
+    pub accumulation_factor: f64,
+    /// Steady-state figures in mg/L (None without V).
+    pub steady: Option<SteadyState>,
+    /// Hours to 90 %, 95 % and 97 % of steady state.
+    pub time_to_ss_h: [f64; 3],
+}
+
+/// Project the plan to steady state.
+pub fn plan(p: &Patient, plan: &Plan) -> PlanProjection {
+    let k = p.fit.k;
+    let steady = p
+        .v()
+        .map(|v| model::steady_state(plan.dose_mg, plan.route, plan.interval_h, k, v));
+    PlanProjection {
+        accumulation_factor: 1.0 / model::one_minus_exp_neg(k * plan.interval_h),
+        steady,
+        time_to_ss_h: [0.90, 0.95, 0.97].map(|f| model::time_to_fraction_of_ss(f, k)),
+    }
+}
+
+/// When the level falls below the threshold, and the latest plan dose before a procedure.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ThresholdProjection {
+    /// The threshold in mg/L.
+    pub below_mg_l: f64,
+    /// The time the projection starts from.
+    pub t0: f64,
+    /// The model's value then, mg/L.
+    pub c0_mg_l: f64,
+    /// When the level is at or below the threshold with no further dose.
+    pub reached_t: f64,
+    /// The same with k_hi and k_lo (earlier, later).
+    pub reached_ci95_t: Option<[f64; 2]>,
+    /// The latest plan dose (0-based number and its time) that still lets the level be
+    /// below the threshold at the procedure.
+    pub latest_plan_dose: Option<(usize, f64)>,
+    /// The level at the procedure (mg/L), with the plan doses up to the latest one.
+    pub level_at_procedure_mg_l: Option<f64>,
+}
+
+/// Hours for a first-order fall from `c0` to `below` at rate `k` (0 when already below).
+pub fn hours_to_fall(c0: f64, below: f64, k: f64) -> f64 {
+    if c0 <= below {
+        0.0
+    } else {
+        (c0 / below).ln() / k
+    }
+}
+
+/// The largest number of plan doses considered before a procedure.
+const MAX_PLAN_DOSES: usize = 100_000;
+
+/// Project the threshold of `below_mg_l`, with a procedure time if given.
+pub fn threshold(p: &Patient, below_mg_l: f64, procedure_t: Option<f64>) -> ThresholdProjection {
+    let case = p.case;
+    let fit = p.fit;
+    let (t0, c0) = if p.v().is_some() {
+        let last_level = case
+            .levels
+            .iter()
+            .map(|l| l.t)
+            .fold(f64::NEG_INFINITY, f64::max);
+        let t0 = p.last_dose_end().max(last_level);
+        (t0, p.level_mg_l(t0))
+    } else {
+        let t0 = fit
+            .used
+            .iter()
+            .map(|&i| case.levels[i].t)
+            .fold(f64::NEG_INFINITY, f64::max);
+        (t0, fit.line_mg_l(t0))
+    };
+    let reached_t = t0 + hours_to_fall(c0, below_mg_l, fit.k);
+    let reached_ci95_t = match fit.k_ci95 {
+        Some([lo, hi]) if lo > 0.0 => Some([
+            t0 + hours_to_fall(c0, below_mg_l, hi),
+            t0 + hours_to_fall(c0, below_mg_l, lo),
+        ]),
+        _ => None,
+    };
+    let (mut latest_plan_dose, mut level_at_procedure) = (None, None);
+    if let Some(tp) = procedure_t {
+        let plan = case.plan.as_ref();
+        match (plan, p.v()) {
+            (Some(plan), Some(_)) => {
+                let count = plan_doses_before(plan, tp);
+                let at =
+                    |last: Option<usize>| p.level_with_plan(tp, plan, last).unwrap_or(f64::NAN);
+                let none = at(None);
+                // The level at the procedure rises with each plan dose given, so the doses
+                // that keep it at or below the threshold are a prefix: search its end.
+                if count == 0 || at(Some(0)) > below_mg_l {
+                    level_at_procedure = Some(none);
+                } else {
+                    let (mut ok, mut bad) = (0usize, count);
+                    while bad - ok > 1 {
+                        let mid = ok + (bad - ok) / 2;
+                        if at(Some(mid)) <= below_mg_l {
+                            ok = mid;
+                        } else {
+                            bad = mid;
+                        }
+                    }
+                    latest_plan_dose = Some((ok, plan.start_t + ok as f64 * plan.interval_h));
+                    level_at_procedure = Some(at(Some(ok)));
+                }
+            }
+            _ => level_at_procedure = Some(p.level_mg_l(tp)),
+        }
+    }
+    ThresholdProjection {
+        below_mg_l,
+        t0,
+        c0_mg_l: c0,
+        reached_t,
+        reached_ci95_t,
+        latest_plan_dose,
+        level_at_procedure_mg_l: level_at_procedure,
+    }
+}
+
+/// How many plan doses fall strictly before `t` (at most `MAX_PLAN_DOSES`).
+pub fn plan_doses_before(plan: &Plan, t: f64) -> usize {
+    if t <= plan.start_t {
+        return 0;
+    }
+    let n = ((t - plan.start_t) / plan.interval_h).ceil();
+    if n.is_finite() {
+        (n as usize).min(MAX_PLAN_DOSES)
+    } else {
+        MAX_PLAN_DOSES
+    }
+}
+
+/// One row of the washout table.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct WashoutRow {
+    /// Whole half-lives since the start.
+    pub half_lives: u32,
+    /// Hours on the axis.
+    pub t: f64,
+    /// The model's level then, mg/L.
+    pub level_mg_l: f64,
+    /// 0.5^n.
+    pub fraction_remaining: f64,
+}
+
+/// The washout table: from the end of the last recorded dose (without V, the last fitted
+/// level), one row per half-life for five, then on until at or below the threshold (at most
+/// ten rows).
+pub fn washout(p: &Patient, below_mg_l: Option<f64>) -> Vec<WashoutRow> {
+    let start = if p.v().is_some() {
+        p.last_dose_end()
+    } else {
+        p.fit
+            .used
+            .iter()
+            .map(|&i| p.case.levels[i].t)
+            .fold(f64::NEG_INFINITY, f64::max)
+    };
+    let th = p.fit.half_life_h;
+    let mut rows: Vec<WashoutRow> = Vec::new();
+    for n in 1..=10u32 {
+        let more = match (n <= 5, below_mg_l, rows.last()) {
+            (true, _, _) => true,
+            (false, Some(b), Some(prev)) => prev.level_mg_l > b,
+            _ => false,
+        };
+        if !more {
+            break;
+        }
+        let t = start + f64::from(n) * th;
+        rows.push(WashoutRow {
+            half_lives: n,
+            t,
+            level_mg_l: p.level_mg_l(t),
+            fraction_remaining: 0.5f64.powi(n as i32),
+        });
+    }
+    rows
+}

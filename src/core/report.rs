@@ -1,0 +1,637 @@
+//! The report as plain data: every figure of contract v1 in the case's unit and clock times,
+//! plus the readable text form. The JSON wire form lives in `json`.
+
+use std::io::{self, Write};
+
+use crate::core::case::{Case, Targets};
+use crate::core::clock::{span_words, Stamp};
+use crate::core::error::{Error, Result};
+use crate::core::fit::{self, Fit};
+use crate::core::project::{self, Patient};
+use crate::core::units::LevelUnit;
+
+/// The caution shown first in every report, note and screen.
+pub const CAUTION: &str = "Decision support only. Figures assume linear one-compartment kinetics. \
+Check them against local protocols, with pharmacist or prescriber review, before acting.";
+
+/// A short form of the caution for narrow screens.
+pub const CAUTION_SHORT: &str =
+    "Decision support only; one-compartment model; check local protocol and review before acting.";
+
+/// The fit, as reported.
+#[derive(Debug, Clone, PartialEq)]
+pub struct FitPart {
+    /// "two-point" or "log-linear".
+    pub method: &'static str,
+    /// Rows of the levels in the fit.
+    pub level_rows: Vec<usize>,
+    /// k in 1/h.
+    pub k_per_h: f64,
+    /// Half-life in h.
+    pub half_life_h: f64,
+    /// r² (log-linear only).
+    pub r_squared: Option<f64>,
+    /// 95 % interval of k.
+    pub k_ci95_per_h: Option<[f64; 2]>,
+    /// 95 % interval of the half-life.
+    pub half_life_ci95_h: Option<[f64; 2]>,
+    /// Volume in L.
+    pub volume_l: Option<f64>,
+    /// "pre-dose level" or "dose record".
+    pub volume_method: Option<&'static str>,
+    /// Row of the pre-dose level used for the volume.
+    pub pre_dose_row: Option<usize>,
+    /// Clearance in L/h.
+    pub clearance_l_per_h: Option<f64>,
+    /// Row of the dose whose interval holds the fitted levels.
+    pub window_dose_row: usize,
+}
+
+/// One target and whether the plan meets it.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TargetCheck {
+    /// "peak", "trough" or "AUC24".
+    pub name: &'static str,
+    /// The target in words, e.g. `5–10` or `<= 1`.
+    pub wanted: String,
+    /// The projected value.
+    pub value: f64,
+    /// Whether it holds.
+    pub met: bool,
+}
+
+/// The plan at steady state, as reported (concentrations in the level unit).
+#[derive(Debug, Clone, PartialEq)]
+pub struct PlanPart {
+    /// 1/(1 - e^(-k·tau)).
+    pub accumulation_factor: f64,
+    /// Steady-state peak.
+    pub peak_ss: Option<f64>,
+    /// Steady-state trough.
+    pub trough_ss: Option<f64>,
+    /// Steady-state AUC over 24 h (level unit x h).
+    pub auc24_ss: Option<f64>,
+    /// Hours to 90 %, 95 %, 97 % of steady state.
+    pub time_to_ss_h: [f64; 3],
+    /// Whether every given target holds (None without targets or without V).
+    pub meets_targets: Option<bool>,
+    /// Each target on its own.
+    pub checks: Vec<TargetCheck>,
+    /// When the first plan dose falls.
+    pub start: Stamp,
+}
+
+/// The threshold, as reported.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ThresholdPart {
+    /// The threshold in the level unit.
+    pub below: f64,
+    /// Where the projection starts.
+    pub t0: Stamp,
+    /// The model's value at t0, level unit.
+    pub c0: f64,
+    /// When the level is at or below the threshold (rounded up to the minute).
+    pub reached_at: Stamp,
+    /// Hours from t0 to `reached_at` (unrounded).
+    pub hours_from_t0: f64,
+    /// The 95 % range of `reached_at`.
+    pub reached_at_ci95: Option<[Stamp; 2]>,
+    /// The procedure time, if given.
+    pub procedure: Option<Stamp>,
+    /// The latest plan dose that still lets the level be below at the procedure.
+    pub latest_plan_dose: Option<Stamp>,
+    /// The level at the procedure (level unit).
+    pub level_at_procedure: Option<f64>,
+}
+
+/// One washout row, as reported.
+#[derive(Debug, Clone, PartialEq)]
+pub struct WashoutPart {
+    /// Whole half-lives since the end of the last dose.
+    pub half_lives: u32,
+    /// When.
+    pub at: Stamp,
+    /// The level then (level unit).
+    pub level: f64,
+    /// 0.5^n.
+    pub fraction_remaining: f64,
+}
+
+/// A whole report.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Report {
+    /// The case's level unit.
+    pub unit: LevelUnit,
+    /// The fit.
+    pub fit: FitPart,
+    /// The plan, when the case has one.
+    pub plan: Option<PlanPart>,
+    /// The threshold, when the case has one.
+    pub threshold: Option<ThresholdPart>,
+    /// The washout table.
+    pub washout: Vec<WashoutPart>,
+    /// When the washout table starts (end of the last dose, or the last fitted level).
+    pub washout_from: Stamp,
+    /// Specific warnings, most important first.
+    pub warnings: Vec<String>,
+}
+
+fn place(case: &Case, t: f64, what: &str) -> Result<Stamp> {
+    case.clock.at_minute(t).ok_or_else(|| {
+        Error::invalid(
+            what,
+            "lies too far from the case's dates to be placed on a calendar; check the levels and times",
+        )
+    })
+}
+
+fn place_up(case: &Case, t: f64, what: &str) -> Result<Stamp> {
+    case.clock.at_minute_up(t).ok_or_else(|| {
+        Error::invalid(
+            what,
+            "lies too far from the case's dates to be placed on a calendar; check the threshold and levels",
+        )
+    })
+}
+
+/// Fit the case and build every part of the report.
+///
+/// # Errors
+/// The fit's errors, or a projected time too far away for any calendar.
+pub fn build(case: &Case) -> Result<Report> {
+    let fit = fit::fit(case)?;
+    build_from_fit(case, &fit)
+}
+
+/// Build the report from a fit already made.
+///
+/// # Errors
+/// A projected time too far away for any calendar, or a figure that is not finite.
+pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
+    let scale = case.drug.scale;
+    let to = |mg_l: f64| scale.to_level(mg_l);
+    let patient = Patient::new(case, fit);
+    let mut warnings = fit.warnings.clone();
+    shape_warnings(case, fit, &mut warnings);
+
+    let fit_part = FitPart {
+        method: fit.method.name(),
+        level_rows: fit.used.iter().map(|&i| case.levels[i].row).collect(),
+        k_per_h: fit.k,
+        half_life_h: fit.half_life_h,
+        r_squared: fit.r_squared,
+        k_ci95_per_h: fit.k_ci95,
+        half_life_ci95_h: fit.half_life_ci95,
+        volume_l: patient.v(),
+        volume_method: patient.v().and(fit.volume_method.map(|m| m.name())),
+        pre_dose_row: fit.pre_dose_level.map(|i| case.levels[i].row),
+        clearance_l_per_h: patient.v().and(fit.clearance_l_per_h),
+        window_dose_row: case.doses[fit.window_dose].row,
+    };
+
+    let plan = match &case.plan {
+        None => None,
+        Some(pl) => {
+            let pp = project::plan(&patient, pl);
+            let (peak, trough, auc) = match pp.steady {
+                Some(s) => (
+                    Some(to(s.peak_mg_l)),
+                    Some(to(s.trough_mg_l)),
+                    Some(to(s.auc24_mg_h_l)),
+                ),
+                None => (None, None, None),
+            };
+            if pp.steady.is_none() {
+                warnings.push(
+                    "no volume: steady-state peak, trough and AUC24 cannot be projected; the times to steady state still hold".into(),
+                );
+            }
+            let checks = target_checks(&case.targets, peak, trough, auc);
+            let meets = if checks.is_empty() {
+                None
+            } else {
+                Some(checks.iter().all(|c| c.met))
+            };
+            if matches!(pl.route, crate::core::model::Route::Infusion { .. })
+                && pl.start_t < patient.last_dose_end()
+            {
+                warnings.push(
+                    "the plan's first dose starts before the last recorded dose has finished"
+                        .into(),
+                );
+            }
+            Some(PlanPart {
+                accumulation_factor: pp.accumulation_factor,
+                peak_ss: peak,
+                trough_ss: trough,
+                auc24_ss: auc,
+                time_to_ss_h: pp.time_to_ss_h,
+                meets_targets: meets,
+                checks,
+                start: place(case, pl.start_t, "plan.start")?,
+            })
+        }
+    };
+
+    let threshold = match &case.threshold {
+        None => None,
+        Some(th) => {
+            let tp = project::threshold(&patient, scale.to_mg_l(th.below), th.procedure_t);
+            let hours = tp.reached_t - tp.t0;
+            if hours > 3.0 * fit.half_life_h {
+                warnings.push(format!(
+                    "the threshold is reached {} after the last data, more than three half-lives: an extrapolation that assumes k stays as fitted",
+                    span_words(hours)
+                ));
+            }
+            if fit.half_life_ci95.is_none() && fit.k_ci95.is_some() {
+                // already warned by the fit
+            }
+            let ci = match tp.reached_ci95_t {
+                Some([a, b]) => Some([
+                    place_up(case, a, "threshold.below")?,
+                    place_up(case, b, "threshold.below")?,
+                ]),
+                None => None,
+            };
+            if let (Some(t), true) = (th.procedure_t, case.plan.is_some()) {
+                if tp.latest_plan_dose.is_none() && patient.v().is_none() {
+                    warnings.push(
+                        "no volume: the latest plan dose before the procedure cannot be found"
+                            .into(),
+                    );
+                }
+                if t < tp.t0 {
+                    warnings.push("the procedure time is before the last dose or level".into());
+                }
+            }
+            let latest = match tp.latest_plan_dose {
+                Some((_, t)) => Some(place(case, t, "plan.start")?),
+                None => None,
+            };
+            Some(ThresholdPart {
+                below: th.below,
+                t0: place_up(case, tp.t0, "threshold")?,
+                c0: to(tp.c0_mg_l),
+                reached_at: place_up(case, tp.reached_t, "threshold.below")?,
+                hours_from_t0: hours,
+                reached_at_ci95: ci,
+                procedure: match th.procedure_t {
+                    Some(t) => Some(place(case, t, "threshold.procedure")?),
+                    None => None,
+                },
+                latest_plan_dose: latest,
+                level_at_procedure: tp.level_at_procedure_mg_l.map(to),
+            })
+        }
+    };
+
+    let below_mg_l = case.threshold.as_ref().map(|t| scale.to_mg_l(t.below));
+    let rows = project::washout(&patient, below_mg_l);
+    let washout_start = rows
+        .first()
+        .map(|r| r.t - fit.half_life_h)
+        .unwrap_or(patient.last_dose_end());
+    let mut washout = Vec::with_capacity(rows.len());
+    for r in rows {
+        washout.push(WashoutPart {
+            half_lives: r.half_lives,
+            at: place(case, r.t, "washout (half-life)")?,
+            level: to(r.level_mg_l),
+            fraction_remaining: r.fraction_remaining,
+        });
+    }
+    let report = Report {
+        unit: scale.unit,
+        fit: fit_part,
+        plan,
+        threshold,
+        washout,
+        washout_from: place(case, washout_start, "washout")?,
+        warnings,
+    };
+    check_finite(&report)?;
+    Ok(report)
+}
+
+/// Warnings read off the shape of the data: timing, route and curvature.
+fn shape_warnings(case: &Case, fit: &Fit, warnings: &mut Vec<String>) {
+    if case
+        .doses
+        .iter()
+        .any(|d| matches!(d.route, crate::core::model::Route::Oral { .. }))
+        || matches!(
+            case.plan.as_ref().map(|p| p.route),
+            Some(crate::core::model::Route::Oral { .. })
+        )
+    {
+        warnings.push(
+            "oral doses are modelled as an instant dose of F x amount (absorption is not modelled): measured peaks will be lower and later than projected".into(),
+        );
+    }
+    let dose = &case.doses[fit.window_dose];
+    for &i in &fit.used {
+        let after = case.levels[i].t - dose.end();
+        if after < 0.5 {
+            warnings.push(format!(
+                "{} was drawn {} after the end of dose {}: it may be in the distribution phase, which would overstate k",
+                case.level_name(i),
+                span_words(after),
+                dose.row
+            ));
+        }
+    }
+    // Curvature: compare the first and the last segment's slopes (3 or more levels).
+    if fit.used.len() >= 3 {
+        let seg = |a: usize, b: usize| {
+            let (la, lb) = (&case.levels[a], &case.levels[b]);
+            (la.mg_l / lb.mg_l).ln() / (lb.t - la.t)
+        };
+        let u = &fit.used;
+        let (first, last) = (seg(u[0], u[1]), seg(u[u.len() - 2], u[u.len() - 1]));
+        if first > 0.0 && last > 0.0 {
+            if last > 1.5 * first {
+                warnings.push(
+                    "the levels fall faster as they get lower: elimination may be saturable (nonlinear kinetics), and first-order projections would mislead".into(),
+                );
+            } else if first > 1.5 * last {
+                warnings.push(format!(
+                    "the early levels fall faster than the later ones: {} may be in the distribution phase",
+                    case.level_name(u[0])
+                ));
+            }
+        }
+    }
+}
+
+fn target_checks(
+    t: &Targets,
+    peak: Option<f64>,
+    trough: Option<f64>,
+    auc: Option<f64>,
+) -> Vec<TargetCheck> {
+    let mut out = Vec::new();
+    if let (Some([lo, hi]), Some(v)) = (t.peak, peak) {
+        out.push(TargetCheck {
+            name: "peak",
+            wanted: format!("{}–{}", num(lo), num(hi)),
+            value: v,
+            met: v >= lo && v <= hi,
+        });
+    }
+    if let (Some(max), Some(v)) = (t.trough_max, trough) {
+        out.push(TargetCheck {
+            name: "trough",
+            wanted: format!("<= {}", num(max)),
+            value: v,
+            met: v <= max,
+        });
+    }
+    if let (Some([lo, hi]), Some(v)) = (t.auc24, auc) {
+        out.push(TargetCheck {
+            name: "AUC24",
+            wanted: format!("{}–{}", num(lo), num(hi)),
+            value: v,
+            met: v >= lo && v <= hi,
+        });
+    }
+    out
+}
+
+fn check_finite(r: &Report) -> Result<()> {
+    let mut xs = vec![r.fit.k_per_h, r.fit.half_life_h];
+    xs.extend(r.fit.r_squared);
+    xs.extend(r.fit.k_ci95_per_h.into_iter().flatten());
+    xs.extend(r.fit.half_life_ci95_h.into_iter().flatten());
+    xs.extend(r.fit.volume_l);
+    xs.extend(r.fit.clearance_l_per_h);
+    if let Some(p) = &r.plan {
+        xs.push(p.accumulation_factor);
+        xs.extend(p.peak_ss);
+        xs.extend(p.trough_ss);
+        xs.extend(p.auc24_ss);
+        xs.extend(p.time_to_ss_h);
+    }
+    if let Some(t) = &r.threshold {
+        xs.push(t.c0);
+        xs.extend(t.level_at_procedure);
+    }
+    xs.extend(r.washout.iter().map(|w| w.level));
+    if xs.iter().all(|x| x.is_finite()) {
+        Ok(())
+    } else {
+        Err(Error::invalid(
+            "case",
+            "the values are too extreme for the model to give finite figures; check amounts, levels and times",
+        ))
+    }
+}
+
+/// A number for people: four significant figures, trailing zeros trimmed.
+pub fn num(x: f64) -> String {
+    if !x.is_finite() {
+        return "—".into();
+    }
+    if x == 0.0 {
+        return "0".into();
+    }
+    let digits = 4i32;
+    let mag = x.abs().log10().floor() as i32;
+    if !(-4..=9).contains(&mag) {
+        return format!("{x:.3e}");
+    }
+    let decimals = (digits - 1 - mag).max(0) as usize;
+    let s = format!("{x:.decimals$}");
+    if s.contains('.') {
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        s
+    }
+}
+
+/// A readable stamp, with the year only when it differs from `reference`'s.
+fn when(s: &Stamp) -> String {
+    s.readable(false)
+}
+
+/// Write the readable report.
+///
+/// # Errors
+/// Only the writer's errors.
+pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> {
+    let u = r.unit.as_str();
+    let title = match (&case.patient.label, case.drug.name.as_str()) {
+        (Some(l), "") => l.clone(),
+        (Some(l), d) => format!("{l} — {d}"),
+        (None, "") => "case".into(),
+        (None, d) => d.to_string(),
+    };
+    writeln!(w, "CAUTION: {CAUTION}")?;
+    writeln!(w)?;
+    writeln!(w, "ebb report: {title} (levels in {u})")?;
+    writeln!(w)?;
+
+    let f = &r.fit;
+    let rows: Vec<String> = f.level_rows.iter().map(|r| r.to_string()).collect();
+    writeln!(
+        w,
+        "Fit: {} over {} levels (level {}) after dose {}",
+        f.method,
+        f.level_rows.len(),
+        rows.join(", "),
+        f.window_dose_row
+    )?;
+    let ci = |c: Option<[f64; 2]>| match c {
+        Some([a, b]) => format!("(95 % interval {} to {})", num(a), num(b)),
+        None => "(no interval)".into(),
+    };
+    writeln!(
+        w,
+        "  k           {} /h  {}",
+        num(f.k_per_h),
+        ci(f.k_ci95_per_h)
+    )?;
+    writeln!(
+        w,
+        "  half-life   {} h  {}",
+        num(f.half_life_h),
+        ci(f.half_life_ci95_h)
+    )?;
+    if let Some(r2) = f.r_squared {
+        writeln!(w, "  r²          {r2:.4}")?;
+    }
+    match (f.volume_l, f.volume_method) {
+        (Some(v), Some(m)) => {
+            let by = match f.pre_dose_row {
+                Some(row) if m == "pre-dose level" => format!("by pre-dose level {row}"),
+                _ => format!("by {m}"),
+            };
+            writeln!(w, "  volume      {} L  ({by})", num(v))?;
+        }
+        _ => writeln!(w, "  volume      not known (no dose amounts)")?,
+    }
+    if let Some(cl) = f.clearance_l_per_h {
+        writeln!(w, "  clearance   {} L/h", num(cl))?;
+    }
+    writeln!(w)?;
+
+    if let (Some(p), Some(pl)) = (&r.plan, &case.plan) {
+        let route = match pl.route {
+            crate::core::model::Route::Infusion { hours } => {
+                format!("infusion over {} h", num(hours))
+            }
+            other => other.name().to_string(),
+        };
+        writeln!(
+            w,
+            "Plan: {} mg {route} every {} h, from {}",
+            num(pl.dose_mg),
+            num(pl.interval_h),
+            when(&p.start)
+        )?;
+        let line = |w: &mut dyn Write, name: &str, v: Option<f64>, unit: &str| -> io::Result<()> {
+            let check = p.checks.iter().find(|c| c.name == name);
+            let tail = match check {
+                Some(c) => format!(
+                    "  target {}: {}",
+                    c.wanted,
+                    if c.met { "met" } else { "NOT MET" }
+                ),
+                None => String::new(),
+            };
+            match v {
+                Some(v) => writeln!(w, "  {name:<8} at steady state  {} {unit}{tail}", num(v)),
+                None => writeln!(w, "  {name:<8} at steady state  not known (no volume)"),
+            }
+        };
+        line(w, "peak", p.peak_ss, u)?;
+        line(w, "trough", p.trough_ss, u)?;
+        line(w, "AUC24", p.auc24_ss, &format!("{u}·h"))?;
+        writeln!(w, "  accumulation factor   {}", num(p.accumulation_factor))?;
+        writeln!(
+            w,
+            "  90 / 95 / 97 % of steady state after {} / {} / {}",
+            span_words(p.time_to_ss_h[0]),
+            span_words(p.time_to_ss_h[1]),
+            span_words(p.time_to_ss_h[2])
+        )?;
+        match p.meets_targets {
+            Some(true) => writeln!(w, "  every target met")?,
+            Some(false) => writeln!(w, "  NOT every target met")?,
+            None => {}
+        }
+        writeln!(w)?;
+    }
+
+    if let Some(t) = &r.threshold {
+        writeln!(w, "Threshold: below {} {u}", num(t.below))?;
+        if t.hours_from_t0 <= 0.0 {
+            writeln!(
+                w,
+                "  already at or below it at {} ({} {u})",
+                when(&t.t0),
+                num(t.c0)
+            )?;
+        } else {
+            writeln!(
+                w,
+                "  below it at {}, in {} from {} ({} {u} then)",
+                when(&t.reached_at),
+                span_words(t.hours_from_t0),
+                when(&t.t0),
+                num(t.c0)
+            )?;
+        }
+        match &t.reached_at_ci95 {
+            Some([a, b]) => writeln!(w, "  95 % range {} to {}", when(a), when(b))?,
+            None => writeln!(w, "  95 % range not known (no interval of k)")?,
+        }
+        if let Some(p) = &t.procedure {
+            write!(w, "  procedure {}: ", when(p))?;
+            match (&t.latest_plan_dose, t.level_at_procedure) {
+                (Some(d), Some(l)) => writeln!(
+                    w,
+                    "the last plan dose that may be given is {} (level at the procedure {} {u})",
+                    when(d),
+                    num(l)
+                )?,
+                (None, Some(l)) if l <= t.below && case.plan.is_some() => writeln!(
+                    w,
+                    "hold every plan dose: even the first would leave it above (level with none {} {u})",
+                    num(l)
+                )?,
+                (None, Some(l)) if case.plan.is_some() => writeln!(
+                    w,
+                    "NOT below even if every plan dose is held (level then {} {u})",
+                    num(l)
+                )?,
+                (None, Some(l)) => writeln!(w, "level then {} {u}", num(l))?,
+                (_, None) => writeln!(w, "level not known")?,
+            }
+        }
+        writeln!(w)?;
+    }
+
+    writeln!(w, "Washout from {}", when(&r.washout_from))?;
+    writeln!(w, "  half-lives  at                 level       remaining")?;
+    for row in &r.washout {
+        writeln!(
+            w,
+            "  {:<10}  {:<17}  {:<10}  {} %",
+            row.half_lives,
+            when(&row.at),
+            format!("{} {u}", num(row.level)),
+            num(row.fraction_remaining * 100.0)
+        )?;
+    }
+    writeln!(w)?;
+    if r.warnings.is_empty() {
+        writeln!(w, "Warnings: none")?;
+    } else {
+        writeln!(w, "Warnings:")?;
+        for x in &r.warnings {
+            writeln!(w, "  - {x}")?;
+        }
+    }
+    Ok(())
+}

@@ -1,0 +1,122 @@
+//! Concentration units of measured levels and their conversion to and from mg/L.
+
+use crate::core::error::{Error, Result};
+
+/// The unit a case reports its levels in.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum LevelUnit {
+    /// milligrams per litre
+    MgPerL,
+    /// micrograms per millilitre (equal to mg/L)
+    UgPerMl,
+    /// nanograms per millilitre
+    NgPerMl,
+    /// micrograms per litre (equal to ng/mL)
+    UgPerL,
+    /// millimoles per litre (needs a molar mass)
+    MmolPerL,
+    /// micromoles per litre (needs a molar mass)
+    UmolPerL,
+}
+
+impl LevelUnit {
+    /// Every unit, in the order shown to users.
+    pub const ALL: [LevelUnit; 6] = [
+        LevelUnit::MgPerL,
+        LevelUnit::UgPerMl,
+        LevelUnit::NgPerMl,
+        LevelUnit::UgPerL,
+        LevelUnit::MmolPerL,
+        LevelUnit::UmolPerL,
+    ];
+
+    /// Parse the spelling used in case files.
+    ///
+    /// # Errors
+    /// An unknown spelling is an error naming the field and the accepted units.
+    pub fn parse(text: &str, place: &str) -> Result<Self> {
+        LevelUnit::ALL
+            .into_iter()
+            .find(|u| u.as_str() == text)
+            .ok_or_else(|| {
+                Error::invalid(
+                    place,
+                    format!(
+                        "unknown unit \"{text}\"; use one of mg/L, ug/mL, ng/mL, ug/L, mmol/L, umol/L"
+                    ),
+                )
+            })
+    }
+
+    /// The spelling used in case files and reports.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            LevelUnit::MgPerL => "mg/L",
+            LevelUnit::UgPerMl => "ug/mL",
+            LevelUnit::NgPerMl => "ng/mL",
+            LevelUnit::UgPerL => "ug/L",
+            LevelUnit::MmolPerL => "mmol/L",
+            LevelUnit::UmolPerL => "umol/L",
+        }
+    }
+
+    /// Whether the unit counts molecules and so needs a molar mass.
+    pub fn is_molar(self) -> bool {
+        matches!(self, LevelUnit::MmolPerL | LevelUnit::UmolPerL)
+    }
+
+    /// How many of this unit make 1 mg/L, given the molar mass (g/mol) for molar units.
+    /// Returns `None` for a molar unit without a molar mass.
+    pub fn per_mg_l(self, molar_mass_g_mol: Option<f64>) -> Option<f64> {
+        match self {
+            LevelUnit::MgPerL | LevelUnit::UgPerMl => Some(1.0),
+            LevelUnit::NgPerMl | LevelUnit::UgPerL => Some(1000.0),
+            LevelUnit::MmolPerL => molar_mass_g_mol.map(|m| 1.0 / m),
+            LevelUnit::UmolPerL => molar_mass_g_mol.map(|m| 1000.0 / m),
+        }
+    }
+}
+
+/// Converts between mg/L (the model's unit) and the case's level unit.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Scale {
+    /// The level unit.
+    pub unit: LevelUnit,
+    /// Level units per mg/L.
+    pub per_mg_l: f64,
+}
+
+impl Scale {
+    /// mg/L to the level unit.
+    pub fn to_level(&self, mg_l: f64) -> f64 {
+        mg_l * self.per_mg_l
+    }
+    /// The level unit to mg/L.
+    pub fn to_mg_l(&self, level: f64) -> f64 {
+        level / self.per_mg_l
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn conversions_follow_the_contract() {
+        // ng/mL = ug/L = mg/L x 1000; mmol/L = mg/L / molar mass (contract v1).
+        assert_eq!(LevelUnit::NgPerMl.per_mg_l(None), Some(1000.0));
+        assert_eq!(LevelUnit::UgPerMl.per_mg_l(None), Some(1.0));
+        assert_eq!(LevelUnit::MmolPerL.per_mg_l(None), None);
+        // Phenytoin 10 mg/L = 39.64 umol/L with MW 252.27 (drug-facts.md, [AccessPharm-Conv]).
+        let f = LevelUnit::UmolPerL.per_mg_l(Some(252.27)).unwrap();
+        assert!((10.0 * f - 39.64).abs() < 0.005);
+    }
+
+    #[test]
+    fn unknown_unit_names_the_field() {
+        let e = LevelUnit::parse("mg/dl", "drug.level_unit").unwrap_err();
+        assert!(e
+            .to_string()
+            .starts_with("drug.level_unit: unknown unit \"mg/dl\""));
+    }
+}
