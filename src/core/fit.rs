@@ -170,7 +170,8 @@ impl Fit {
 /// A level at a dose's own time is a pre-dose level of that dose (it belongs to the window
 /// before); one drawn during an infusion or before the first dose is in no window.
 pub fn window_of(case: &Case, t: f64) -> Option<usize> {
-    let i = case.doses.iter().rposition(|d| d.t < t)?;
+    // Doses are sorted by time: the number of doses strictly before t, less one.
+    let i = case.doses.partition_point(|d| d.t < t).checked_sub(1)?;
     (t >= case.doses[i].end()).then_some(i)
 }
 
