@@ -9,3 +9,4 @@
 pub mod cli;
 pub mod core;
 pub mod demo;
+pub mod profiles;

@@ -1,0 +1,205 @@
+//! Reading one profile's TOML text: parse, validate, and name the line and field of any fault.
+
+use crate::core::error::Error;
+use crate::profiles::schema::{FieldProblem, Profile};
+
+/// Parse and validate a profile's text. `file` names it in errors.
+///
+/// # Errors
+/// A syntax error, an unknown or missing field, a wrong type or a failed check, as
+/// `FILE: line N: field F: what is wrong`.
+pub fn parse_profile(text: &str, file: &str) -> Result<Profile, Error> {
+    let de = toml::Deserializer::parse(text).map_err(|e| {
+        Error::Syntax {
+            line: line_of_span(text, e.span()),
+            message: one_line(e.message()),
+        }
+        .in_file(file)
+    })?;
+    let profile: Profile = serde_path_to_error::deserialize(de).map_err(|e| {
+        let field = field_of(e.path());
+        let inner = e.inner();
+        let line = line_of_span(text, inner.span());
+        let message = if field.is_empty() {
+            one_line(inner.message())
+        } else {
+            format!("field {field}: {}", one_line(inner.message()))
+        };
+        Error::Syntax { line, message }.in_file(file)
+    })?;
+    profile
+        .validate()
+        .map_err(|p| problem_error(text, &p).in_file(file))?;
+    Ok(profile)
+}
+
+fn one_line(s: &str) -> String {
+    s.trim().replace('\n', "; ")
+}
+
+fn line_of_span(text: &str, span: Option<std::ops::Range<usize>>) -> usize {
+    span.map(|s| text[..s.start.min(text.len())].matches('\n').count() + 1)
+        .unwrap_or(1)
+}
+
+/// A serde path as ebb writes fields: dotted keys, array items counted from 1.
+fn field_of(path: &serde_path_to_error::Path) -> String {
+    let mut out = String::new();
+    for seg in path.iter() {
+        match seg {
+            serde_path_to_error::Segment::Seq { index } => {
+                out.push_str(&format!("[{}]", index + 1));
+            }
+            serde_path_to_error::Segment::Map { key } => {
+                if !out.is_empty() {
+                    out.push('.');
+                }
+                out.push_str(key);
+            }
+            serde_path_to_error::Segment::Enum { variant } => {
+                if !out.is_empty() {
+                    out.push('.');
+                }
+                out.push_str(variant);
+            }
+            serde_path_to_error::Segment::Unknown => {}
+        }
+    }
+    if out == "." {
+        String::new()
+    } else {
+        out
+    }
+}
+
+fn problem_error(text: &str, p: &FieldProblem) -> Error {
+    Error::Syntax {
+        line: locate(text, &p.field).unwrap_or(1),
+        message: format!("field {}: {}", p.field, p.message),
+    }
+}
+
+/// One step of a field path.
+#[derive(Debug, PartialEq)]
+enum Step<'a> {
+    Key(&'a str),
+    Item(usize),
+}
+
+fn steps(field: &str) -> Vec<Step<'_>> {
+    let mut out = Vec::new();
+    for part in field.split('.') {
+        match part.find('[') {
+            Some(i) => {
+                out.push(Step::Key(&part[..i]));
+                let n = part[i + 1..].trim_end_matches(']').parse().unwrap_or(1);
+                out.push(Step::Item(n));
+            }
+            None => out.push(Step::Key(part)),
+        }
+    }
+    out
+}
+
+/// The header a line opens (`[a]` gives `(a, false)`, `[[a]]` gives `(a, true)`).
+fn header(line: &str) -> Option<(&str, bool)> {
+    let t = line.trim();
+    if let Some(inner) = t.strip_prefix("[[") {
+        let end = inner.find("]]")?;
+        return Some((inner[..end].trim(), true));
+    }
+    if let Some(inner) = t.strip_prefix('[') {
+        let end = inner.find(']')?;
+        return Some((inner[..end].trim(), false));
+    }
+    None
+}
+
+fn assigns(line: &str, key: &str) -> bool {
+    let t = line.trim_start();
+    t.strip_prefix(key)
+        .map(|rest| rest.trim_start().starts_with('='))
+        .unwrap_or(false)
+}
+
+/// Best effort: the line of a field in a profile laid out as the shipped ones are (top-level
+/// keys, `[table]` headers, `[[strategy]]` items, inline tables). `None` when not found.
+fn locate(text: &str, field: &str) -> Option<usize> {
+    let st = steps(field);
+    let lines: Vec<&str> = text.lines().collect();
+    let first = match st.first() {
+        Some(Step::Key(k)) => *k,
+        _ => return None,
+    };
+    // Where the section of the first key starts, and which key to look for inside it.
+    let (start, key): (usize, Option<&str>) = match st.get(1) {
+        Some(Step::Item(n)) => {
+            let mut seen = 0;
+            let mut found = None;
+            for (i, l) in lines.iter().enumerate() {
+                if header(l) == Some((first, true)) {
+                    seen += 1;
+                    if seen == *n {
+                        found = Some(i);
+                        break;
+                    }
+                }
+            }
+            let key = match st.get(2) {
+                Some(Step::Key(k)) => Some(*k),
+                _ => None,
+            };
+            (found?, key)
+        }
+        other => match lines.iter().position(|l| header(l) == Some((first, false))) {
+            Some(i) => (
+                i,
+                match other {
+                    Some(Step::Key(k)) => Some(*k),
+                    _ => None,
+                },
+            ),
+            None => {
+                // A top-level key: before the first header.
+                for (i, l) in lines.iter().enumerate() {
+                    if header(l).is_some() {
+                        break;
+                    }
+                    if assigns(l, first) {
+                        return Some(i + 1);
+                    }
+                }
+                return None;
+            }
+        },
+    };
+    let Some(key) = key else {
+        return Some(start + 1);
+    };
+    for (i, l) in lines.iter().enumerate().skip(start + 1) {
+        if header(l).is_some() {
+            break;
+        }
+        if assigns(l, key) {
+            return Some(i + 1);
+        }
+    }
+    Some(start + 1)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const TEXT: &str = "schema = 1\nhalf_life_h = { low = 1.0 }\n\n[volume]\nweight = \"actual\"\nl_per_kg = 2\n\n[[strategy]]\nname = \"a\"\n\n[[strategy]]\nname = \"b\"\npeak = 3\n";
+
+    #[test]
+    fn fields_are_found_on_their_lines() {
+        assert_eq!(locate(TEXT, "half_life_h"), Some(2));
+        assert_eq!(locate(TEXT, "volume.l_per_kg"), Some(6));
+        assert_eq!(locate(TEXT, "strategy[2].peak"), Some(13));
+        assert_eq!(locate(TEXT, "strategy[1].peak"), Some(8));
+        assert_eq!(locate(TEXT, "strategy[3].peak"), None);
+        assert_eq!(locate(TEXT, "nothing"), None);
+    }
+}

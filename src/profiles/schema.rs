@@ -1,0 +1,554 @@
+//! The drug profile as written in TOML: serde types (unknown fields refused) and the checks
+//! that turn a parsed file into one the rest of ebb may trust.
+//!
+//! Every number sits in a small table with a mandatory `source` string, so a number without a
+//! source cannot be written at all; `validate` then checks that each source names a key of the
+//! profile's `[sources]` table or says "from memory, unverified".
+
+use std::collections::BTreeMap;
+
+use serde::{Deserialize, Serialize};
+
+use crate::core::units::LevelUnit;
+
+/// The words that mark a value nobody could trace to a source.
+pub const FROM_MEMORY: &str = "from memory, unverified";
+
+/// One drug profile, as written in `drug-profiles/NAME.toml`.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Profile {
+    /// Profile schema version; only 1 exists.
+    pub schema: u32,
+    /// The name shown to people, e.g. "Gentamicin".
+    pub display_name: String,
+    /// The unit the profile's ranges and targets are in (a case-file unit spelling).
+    pub level_unit: String,
+    /// The strategy whose targets a case gets when it has no `[targets]`.
+    pub default_strategy: String,
+    /// Molar mass used to convert molar units, g/mol.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub molar_mass_g_mol: Option<Sourced>,
+    /// Typical half-life in adults with normal organ function, hours.
+    pub half_life_h: SourcedRange,
+    /// Volume of distribution and the weight it is scaled by.
+    pub volume: Volume,
+    /// Oral bioavailability F in (0, 1]; absent for a drug not given by mouth.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub bioavailability: Option<Sourced>,
+    /// Hours after the end of a dose before a level is valid for a one-compartment fit
+    /// (distribution or absorption phase); absent when no source gives one.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub level_valid_after_h: Option<Sourced>,
+    /// Whether first-order (linear) elimination holds.
+    pub kinetics: Kinetics,
+    /// Doses are rounded to a multiple of this, mg.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub dose_rounding_mg: Option<Sourced>,
+    /// Usual dosing intervals, hours.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub usual_intervals_h: Option<SourcedList>,
+    /// Target sets, one per dosing strategy, in file order.
+    #[serde(rename = "strategy")]
+    pub strategies: Vec<Strategy>,
+    /// Cautions in plain words, shown with the profile.
+    pub cautions: Vec<String>,
+    /// Optional population values for later Bayesian work.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub population: Option<Population>,
+    /// Source keys (as cited, without brackets) and the reference written out.
+    pub sources: BTreeMap<String, String>,
+}
+
+/// A single number with its source.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Sourced {
+    /// The number.
+    pub value: f64,
+    /// Where it comes from: `[Key]` citations, or "from memory, unverified".
+    pub source: String,
+    /// Optional plain words on how to read it.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub note: Option<String>,
+}
+
+/// An inclusive range with its source.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SourcedRange {
+    /// Low end.
+    pub low: f64,
+    /// High end (at least `low`).
+    pub high: f64,
+    /// Where it comes from.
+    pub source: String,
+    /// Optional plain words on how to read it.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub note: Option<String>,
+}
+
+impl SourcedRange {
+    /// Whether `x` lies inside the range, bounds included.
+    pub fn contains(&self, x: f64) -> bool {
+        x >= self.low && x <= self.high
+    }
+}
+
+/// A list of numbers with one source.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SourcedList {
+    /// The numbers.
+    pub values: Vec<f64>,
+    /// Where they come from.
+    pub source: String,
+    /// Optional plain words on how to read them.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub note: Option<String>,
+}
+
+/// A population estimate: a typical value and, when known, its between-patient variability.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Estimate {
+    /// Typical value.
+    pub value: f64,
+    /// Between-patient coefficient of variation, per cent.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub cv_percent: Option<f64>,
+    /// Where it comes from.
+    pub source: String,
+    /// Optional plain words (population studied, weight basis).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub note: Option<String>,
+}
+
+/// Which body weight the volume of distribution is scaled by.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum WeightBasis {
+    /// Total (actual) body weight.
+    Actual,
+    /// Ideal body weight.
+    Ideal,
+    /// Adjusted body weight (ideal plus a fraction of the excess).
+    Adjusted,
+    /// Lean body weight.
+    Lean,
+}
+
+impl WeightBasis {
+    /// Plain words.
+    pub fn words(self) -> &'static str {
+        match self {
+            WeightBasis::Actual => "actual body weight",
+            WeightBasis::Ideal => "ideal body weight",
+            WeightBasis::Adjusted => "adjusted body weight",
+            WeightBasis::Lean => "lean body weight",
+        }
+    }
+}
+
+/// `[volume]`: volume of distribution per kg and the weight it applies to.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Volume {
+    /// Litres per kg of `weight`.
+    pub l_per_kg: SourcedRange,
+    /// The weight the volume is scaled by.
+    pub weight: WeightBasis,
+    /// Where the choice of weight comes from (and any obesity rule), in words with citations.
+    pub weight_source: String,
+}
+
+/// Whether first-order linear kinetics holds for the drug.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum FirstOrder {
+    /// Holds (after the distribution phase): projections are shown.
+    Yes,
+    /// Holds with a limit the user must know: projections are shown with a warning.
+    Partly,
+    /// Does not hold: first-order projections are refused.
+    No,
+}
+
+/// `[kinetics]`.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Kinetics {
+    /// Whether first-order elimination holds.
+    pub first_order: FirstOrder,
+    /// Plain words: why, and what it means for projections (shown as the warning or refusal).
+    pub why: String,
+    /// Where it comes from.
+    pub source: String,
+}
+
+/// One target set (`[[strategy]]`).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Strategy {
+    /// Identifier, used in `default_strategy` (lower case, hyphens).
+    pub name: String,
+    /// Plain-words label.
+    pub label: String,
+    /// When to draw levels for this strategy.
+    pub sampling: String,
+    /// Acceptable steady-state peak (becomes the case's `targets.peak`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub peak: Option<SourcedRange>,
+    /// Steady-state trough ceiling (becomes `targets.trough_max`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub trough_max: Option<Sourced>,
+    /// Acceptable steady-state AUC over 24 h, level unit x h (becomes `targets.auc24`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub auc24: Option<SourcedRange>,
+    /// A therapeutic range for a level drawn as `sampling` says; shown, not checked (the
+    /// contract's targets have no slot for it).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub range: Option<SourcedRange>,
+    /// Optional plain words.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub note: Option<String>,
+}
+
+/// `[population]`: optional typical values with variability, for later Bayesian work.
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Population {
+    /// Elimination rate constant, 1/h.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub k_per_h: Option<Estimate>,
+    /// Half-life, h.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub half_life_h: Option<Estimate>,
+    /// Clearance, L/h.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub clearance_l_per_h: Option<Estimate>,
+    /// Volume, L/kg.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub volume_l_per_kg: Option<Estimate>,
+    /// Michaelis-Menten maximum elimination rate, mg/day.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub vmax_mg_per_day: Option<Estimate>,
+    /// Michaelis-Menten constant, mg/L.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub km_mg_l: Option<Estimate>,
+}
+
+/// A problem found after parsing: the dotted field and what is wrong.
+#[derive(Debug, Clone, PartialEq)]
+pub struct FieldProblem {
+    /// Field path, e.g. `strategy[2].peak` (array items count from 1).
+    pub field: String,
+    /// What is wrong, with the value found.
+    pub message: String,
+}
+
+fn problem(field: impl Into<String>, message: impl Into<String>) -> FieldProblem {
+    FieldProblem {
+        field: field.into(),
+        message: message.into(),
+    }
+}
+
+/// The `[Key]` citations in a text, in order (brackets removed).
+pub fn citations(text: &str) -> Vec<&str> {
+    let mut out = Vec::new();
+    let mut rest = text;
+    while let Some(open) = rest.find('[') {
+        let after = &rest[open + 1..];
+        match after.find(']') {
+            Some(close) => {
+                let key = &after[..close];
+                if !key.is_empty()
+                    && key
+                        .chars()
+                        .all(|c| c.is_ascii_alphanumeric() || c == '-' || c == '_' || c == '.')
+                {
+                    out.push(key);
+                }
+                rest = &after[close + 1..];
+            }
+            None => break,
+        }
+    }
+    out
+}
+
+impl Profile {
+    /// The profile's level unit.
+    ///
+    /// # Errors
+    /// An unknown unit spelling, naming `level_unit`.
+    pub fn unit(&self) -> Result<LevelUnit, FieldProblem> {
+        LevelUnit::parse(&self.level_unit, "level_unit").map_err(|_| {
+            problem(
+                "level_unit",
+                format!(
+                    "unknown unit \"{}\"; use one of mg/L, ug/mL, ng/mL, ug/L, mmol/L, umol/L",
+                    self.level_unit
+                ),
+            )
+        })
+    }
+
+    /// The strategy named by `default_strategy`.
+    pub fn default_strategy(&self) -> Option<&Strategy> {
+        self.strategy(&self.default_strategy)
+    }
+
+    /// A strategy by name.
+    pub fn strategy(&self, name: &str) -> Option<&Strategy> {
+        self.strategies.iter().find(|s| s.name == name)
+    }
+
+    /// Every source string in the profile with the field it belongs to.
+    pub fn source_fields(&self) -> Vec<(String, &str)> {
+        let mut out: Vec<(String, &str)> = Vec::new();
+        if let Some(m) = &self.molar_mass_g_mol {
+            out.push(("molar_mass_g_mol".into(), &m.source));
+        }
+        out.push(("half_life_h".into(), &self.half_life_h.source));
+        out.push(("volume.l_per_kg".into(), &self.volume.l_per_kg.source));
+        out.push(("volume.weight_source".into(), &self.volume.weight_source));
+        if let Some(f) = &self.bioavailability {
+            out.push(("bioavailability".into(), &f.source));
+        }
+        if let Some(w) = &self.level_valid_after_h {
+            out.push(("level_valid_after_h".into(), &w.source));
+        }
+        out.push(("kinetics.source".into(), &self.kinetics.source));
+        if let Some(r) = &self.dose_rounding_mg {
+            out.push(("dose_rounding_mg".into(), &r.source));
+        }
+        if let Some(l) = &self.usual_intervals_h {
+            out.push(("usual_intervals_h".into(), &l.source));
+        }
+        for (i, s) in self.strategies.iter().enumerate() {
+            let at = |f: &str| format!("strategy[{}].{f}", i + 1);
+            if let Some(p) = &s.peak {
+                out.push((at("peak"), &p.source));
+            }
+            if let Some(t) = &s.trough_max {
+                out.push((at("trough_max"), &t.source));
+            }
+            if let Some(a) = &s.auc24 {
+                out.push((at("auc24"), &a.source));
+            }
+            if let Some(r) = &s.range {
+                out.push((at("range"), &r.source));
+            }
+        }
+        if let Some(p) = &self.population {
+            for (name, e) in p.estimates() {
+                out.push((format!("population.{name}"), &e.source));
+            }
+        }
+        out
+    }
+
+    /// Check everything serde cannot: units, ranges, names and sources.
+    ///
+    /// # Errors
+    /// The first problem, naming its field.
+    pub fn validate(&self) -> Result<(), FieldProblem> {
+        if self.schema != 1 {
+            return Err(problem(
+                "schema",
+                format!("this ebb reads profile schema 1, the file says {}", self.schema),
+            ));
+        }
+        if self.display_name.trim().is_empty() {
+            return Err(problem("display_name", "must not be empty"));
+        }
+        let unit = self.unit()?;
+        if let Some(m) = &self.molar_mass_g_mol {
+            positive(m.value, "molar_mass_g_mol")?;
+        }
+        if unit.is_molar() && self.molar_mass_g_mol.is_none() {
+            return Err(problem(
+                "molar_mass_g_mol",
+                format!("needed because level_unit is {}", unit.as_str()),
+            ));
+        }
+        range(&self.half_life_h, "half_life_h")?;
+        range(&self.volume.l_per_kg, "volume.l_per_kg")?;
+        if let Some(f) = &self.bioavailability {
+            if !(f.value.is_finite() && f.value > 0.0 && f.value <= 1.0) {
+                return Err(problem(
+                    "bioavailability",
+                    format!("must be above 0 and at most 1, got {}", f.value),
+                ));
+            }
+        }
+        if let Some(w) = &self.level_valid_after_h {
+            if !(w.value.is_finite() && w.value >= 0.0) {
+                return Err(problem(
+                    "level_valid_after_h",
+                    format!("must be 0 or more hours, got {}", w.value),
+                ));
+            }
+        }
+        if let Some(r) = &self.dose_rounding_mg {
+            positive(r.value, "dose_rounding_mg")?;
+        }
+        if let Some(l) = &self.usual_intervals_h {
+            if l.values.is_empty() {
+                return Err(problem("usual_intervals_h", "give at least one interval"));
+            }
+            for v in &l.values {
+                positive(*v, "usual_intervals_h")?;
+            }
+        }
+        if self.strategies.is_empty() {
+            return Err(problem("strategy", "give at least one [[strategy]]"));
+        }
+        for (i, s) in self.strategies.iter().enumerate() {
+            let at = |f: &str| format!("strategy[{}].{f}", i + 1);
+            if s.name.is_empty()
+                || !s
+                    .name
+                    .chars()
+                    .all(|c| c.is_ascii_lowercase() || c.is_ascii_digit() || c == '-')
+            {
+                return Err(problem(
+                    at("name"),
+                    format!(
+                        "use lower-case letters, digits and hyphens, got \"{}\"",
+                        s.name
+                    ),
+                ));
+            }
+            if self.strategies[..i].iter().any(|o| o.name == s.name) {
+                return Err(problem(
+                    at("name"),
+                    format!("\"{}\" is used by an earlier strategy", s.name),
+                ));
+            }
+            if let Some(p) = &s.peak {
+                range(p, &at("peak"))?;
+                positive(p.low, &at("peak"))?;
+            }
+            if let Some(t) = &s.trough_max {
+                positive(t.value, &at("trough_max"))?;
+            }
+            if let Some(a) = &s.auc24 {
+                range(a, &at("auc24"))?;
+                positive(a.low, &at("auc24"))?;
+            }
+            if let Some(r) = &s.range {
+                range(r, &at("range"))?;
+            }
+        }
+        if self.default_strategy().is_none() {
+            let names: Vec<&str> = self.strategies.iter().map(|s| s.name.as_str()).collect();
+            return Err(problem(
+                "default_strategy",
+                format!(
+                    "no strategy named \"{}\"; the file has {}",
+                    self.default_strategy,
+                    names.join(", ")
+                ),
+            ));
+        }
+        if let Some(p) = &self.population {
+            for (name, e) in p.estimates() {
+                positive(e.value, &format!("population.{name}"))?;
+                if let Some(cv) = e.cv_percent {
+                    positive(cv, &format!("population.{name}.cv_percent"))?;
+                }
+            }
+        }
+        for (key, text) in &self.sources {
+            if text.trim().is_empty() {
+                return Err(problem(
+                    format!("sources.{key}"),
+                    "write the reference out",
+                ));
+            }
+        }
+        for (field, text) in self.source_fields() {
+            self.check_source(&field, text)?;
+        }
+        Ok(())
+    }
+
+    fn check_source(&self, field: &str, text: &str) -> Result<(), FieldProblem> {
+        let keys = citations(text);
+        for k in &keys {
+            if !self.sources.contains_key(*k) {
+                return Err(problem(
+                    field,
+                    format!("cites [{k}], which is not in the [sources] table"),
+                ));
+            }
+        }
+        if keys.is_empty() && !text.contains(FROM_MEMORY) {
+            return Err(problem(
+                field,
+                format!(
+                    "the source must cite a [Key] from [sources] or say \"{FROM_MEMORY}\", got \"{text}\""
+                ),
+            ));
+        }
+        Ok(())
+    }
+}
+
+impl Population {
+    /// The estimates that are present, with their field names.
+    pub fn estimates(&self) -> Vec<(&'static str, &Estimate)> {
+        let all = [
+            ("k_per_h", &self.k_per_h),
+            ("half_life_h", &self.half_life_h),
+            ("clearance_l_per_h", &self.clearance_l_per_h),
+            ("volume_l_per_kg", &self.volume_l_per_kg),
+            ("vmax_mg_per_day", &self.vmax_mg_per_day),
+            ("km_mg_l", &self.km_mg_l),
+        ];
+        all.into_iter()
+            .filter_map(|(n, e)| e.as_ref().map(|e| (n, e)))
+            .collect()
+    }
+}
+
+fn positive(x: f64, field: &str) -> Result<(), FieldProblem> {
+    if x.is_finite() && x > 0.0 {
+        Ok(())
+    } else {
+        Err(problem(field, format!("must be above 0, got {x}")))
+    }
+}
+
+fn range(r: &SourcedRange, field: &str) -> Result<(), FieldProblem> {
+    if !(r.low.is_finite() && r.high.is_finite() && r.low >= 0.0) {
+        return Err(problem(
+            field,
+            format!("low and high must be 0 or more, got {} and {}", r.low, r.high),
+        ));
+    }
+    if r.low > r.high {
+        return Err(problem(
+            field,
+            format!("the low end {} is above the high end {}", r.low, r.high),
+        ));
+    }
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn citations_are_read_from_text() {
+        assert_eq!(
+            citations("[Rybak20][Rybak06] and [Bauer3e-AG]; not [a b]"),
+            vec!["Rybak20", "Rybak06", "Bauer3e-AG"]
+        );
+        assert!(citations("from memory, unverified").is_empty());
+    }
+}

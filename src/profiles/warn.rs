@@ -1,0 +1,121 @@
+//! The warnings a drug profile brings to a report: sampling window, half-life plausibility,
+//! level unit, kinetics, route; and the refusal for drugs whose kinetics are not first-order.
+
+use crate::core::case::Case;
+use crate::core::clock::span_words;
+use crate::core::model::Route;
+use crate::core::report::{num, Report};
+use crate::profiles::schema::{FirstOrder, Profile};
+use crate::profiles::unit_factor;
+
+/// Why first-order projections are refused for this profile, or `None` when they are not.
+///
+/// The text explains, in plain words, why a plan, threshold or washout from a fixed k would
+/// mislead; it is the profile's `kinetics.why` with its source.
+pub fn refusal(profile: &Profile) -> Option<String> {
+    match profile.kinetics.first_order {
+        FirstOrder::No => Some(format!(
+            "{} does not follow first-order kinetics: {} {}. The plan, threshold and washout \
+             assume a fixed k and would mislead, so they are not computed",
+            profile.display_name,
+            profile.kinetics.why.trim_end_matches('.'),
+            profile.kinetics.source
+        )),
+        _ => None,
+    }
+}
+
+/// The profile's warnings for a case and its built report, most important first.
+///
+/// - the case's level unit differs from the profile's (targets were converted, or could not be);
+/// - the kinetics are first-order only with a limit (`first_order = "partly"`);
+/// - an oral dose of a drug the profile gives no oral bioavailability;
+/// - a level with `use = true` drawn inside the distribution or absorption window;
+/// - the fitted half-life outside the typical adult range (a plausibility flag).
+pub fn warnings(profile: &Profile, case: &Case, report: &Report) -> Vec<String> {
+    let mut out = Vec::new();
+    let name = &profile.display_name;
+
+    let case_unit = case.drug.scale.unit;
+    if let Ok(pu) = profile.unit() {
+        let same = pu == case_unit
+            || (!pu.is_molar()
+                && !case_unit.is_molar()
+                && pu.per_mg_l(None) == case_unit.per_mg_l(None));
+        if !same {
+            let what = match unit_factor(profile, case_unit, case.drug.molar_mass_g_mol) {
+                Some(_) => "its ranges and targets were converted",
+                None => "its targets could not be converted and were not applied",
+            };
+            out.push(format!(
+                "the levels are entered in {} but the {name} profile works in {}: {what}; check the unit on the laboratory report",
+                case_unit.as_str(),
+                pu.as_str()
+            ));
+        }
+    }
+
+    if profile.kinetics.first_order == FirstOrder::Partly {
+        out.push(format!(
+            "{name}: first-order projections have limits here: {} {}",
+            profile.kinetics.why.trim_end_matches('.'),
+            profile.kinetics.source
+        ));
+    }
+
+    let oral = case
+        .doses
+        .iter()
+        .map(|d| d.route)
+        .chain(case.plan.iter().map(|p| p.route))
+        .any(|r| matches!(r, Route::Oral { .. }));
+    if oral && profile.bioavailability.is_none() {
+        out.push(format!(
+            "an oral dose is recorded, but the {name} profile gives no oral bioavailability (it is not given by mouth): check the route"
+        ));
+    }
+
+    if let Some(w) = &profile.level_valid_after_h {
+        let phase = w.note.as_deref().unwrap_or("distribution or absorption phase");
+        for level in case.levels.iter().filter(|l| l.use_in_fit) {
+            // The latest dose started strictly before the level (a level at a dose time is
+            // that dose's pre-dose level).
+            let Some(dose) = case.doses.iter().rev().find(|d| d.t < level.t) else {
+                continue;
+            };
+            let after = level.t - dose.end();
+            if after >= w.value {
+                continue;
+            }
+            let when = if after < 0.0 {
+                format!("during dose {}", dose.row)
+            } else {
+                format!("{} after the end of dose {}", span_words(after), dose.row)
+            };
+            let in_fit = if report.fit.level_rows.contains(&level.row) {
+                "it is in the fit and would distort k; "
+            } else {
+                ""
+            };
+            out.push(format!(
+                "level {} was drawn {when}, inside {name}'s first {} ({phase}) {}: {in_fit}use a later level, or set use = false",
+                level.row,
+                span_words(w.value),
+                w.source
+            ));
+        }
+    }
+
+    let t_half = report.fit.half_life_h;
+    let typical = &profile.half_life_h;
+    if !typical.contains(t_half) {
+        out.push(format!(
+            "the fitted half-life {} h is outside {name}'s typical adult range with normal organ function ({}–{} h {}): a plausibility flag, not an error; check the sample and dose times, and renal or hepatic function",
+            num(t_half),
+            num(typical.low),
+            num(typical.high),
+            typical.source
+        ));
+    }
+    out
+}
