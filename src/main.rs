@@ -1,7 +1,7 @@
 //! The `ebb` binary: parse the command line, dispatch, map errors to exit codes.
 
 use std::io::Write;
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
@@ -15,6 +15,10 @@ struct Cli {
     command: Option<Command>,
     /// A case file to open.
     case: Option<PathBuf>,
+    /// A directory of drug profiles (NAME.toml) that replace or add to the built-in ones;
+    /// default: the EBB_PROFILES environment variable.
+    #[arg(long, global = true, value_name = "DIR")]
+    profiles: Option<PathBuf>,
 }
 
 #[derive(Subcommand)]
@@ -32,15 +36,35 @@ enum Command {
     },
     /// Show the built-in demo case.
     Demo,
+    /// List the drug profiles and where each came from, or show one.
+    Profiles {
+        #[command(subcommand)]
+        action: Option<ProfilesAction>,
+    },
+}
+
+#[derive(Subcommand)]
+enum ProfilesAction {
+    /// Print one profile: every number with its source, the strategies and the cautions.
+    Show {
+        /// The profile's name (its file stem, as in `drug.profile`).
+        name: String,
+        /// Print the TOML as written (a starting point for a local profile).
+        #[arg(long)]
+        toml: bool,
+    },
 }
 
 fn main() -> ExitCode {
     let cli = Cli::parse();
+    let dir = ebb::profiles::override_dir(cli.profiles.as_deref());
+    let dir = dir.as_deref();
     match cli.command {
-        Some(Command::Report { files, json, demo }) => report(&files, json, demo),
-        Some(Command::Demo) => report(&[], false, true),
+        Some(Command::Report { files, json, demo }) => report(&files, json, demo, dir),
+        Some(Command::Demo) => report(&[], false, true, dir),
+        Some(Command::Profiles { action }) => profiles(action, dir),
         None => match cli.case {
-            Some(path) => report(&[path], false, false),
+            Some(path) => report(&[path], false, false, dir),
             None => {
                 eprintln!("ebb: give a case file, or try `ebb demo`; see `ebb --help`");
                 ExitCode::from(2)
@@ -49,13 +73,42 @@ fn main() -> ExitCode {
     }
 }
 
-fn report(files: &[PathBuf], json: bool, demo: bool) -> ExitCode {
+fn profiles(action: Option<ProfilesAction>, dir: Option<&Path>) -> ExitCode {
+    let catalog = match ebb::profiles::Catalog::load(dir) {
+        Ok(c) => c,
+        Err(e) => {
+            eprintln!("{e}");
+            return ExitCode::from(2);
+        }
+    };
+    let mut buf = Vec::new();
+    let written = match action {
+        None => ebb::profiles::write_list(&mut buf, &catalog),
+        Some(ProfilesAction::Show { name, toml }) => match catalog.lookup(&name, "profile") {
+            Ok(entry) if toml => buf.write_all(entry.text.as_bytes()),
+            Ok(entry) => ebb::profiles::write_show(&mut buf, entry),
+            Err(e) => {
+                eprintln!("ebb profiles show: {e}");
+                return ExitCode::from(2);
+            }
+        },
+    };
+    match written.and_then(|()| std::io::stdout().lock().write_all(&buf)) {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(e) => {
+            eprintln!("ebb profiles: {e}");
+            ExitCode::from(2)
+        }
+    }
+}
+
+fn report(files: &[PathBuf], json: bool, demo: bool, dir: Option<&Path>) -> ExitCode {
     let stdout = std::io::stdout();
     let mut failed = false;
     if demo {
         let mut buf = Vec::new();
-        let r =
-            ebb::cli::load_demo().and_then(|c| ebb::cli::write_report(&mut buf, &c, "demo", json));
+        let r = ebb::cli::load_demo()
+            .and_then(|c| ebb::cli::write_report_with(&mut buf, &c, "demo", json, dir));
         match r {
             Ok(()) => {
                 let _ = stdout.lock().write_all(&buf);
@@ -73,8 +126,8 @@ fn report(files: &[PathBuf], json: bool, demo: bool) -> ExitCode {
     for (i, path) in files.iter().enumerate() {
         let mut buf = Vec::new();
         let name = path.display().to_string();
-        let r = ebb::cli::load_case(path)
-            .and_then(|c| ebb::cli::write_report(&mut buf, &c, &name, json));
+        let r = ebb::cli::load_case_with(path, dir)
+            .and_then(|c| ebb::cli::write_report_with(&mut buf, &c, &name, json, dir));
         match r {
             Ok(()) => {
                 let mut out = stdout.lock();

@@ -8,15 +8,41 @@ use crate::core::casefile::{self, CaseFile};
 use crate::core::error::{Error, Result};
 use crate::core::{json, report};
 use crate::demo::{DEMO_CASE, DEMO_NAME};
+use crate::profiles;
 
 /// Load and validate a case from a file.
 ///
 /// # Errors
 /// Any read, parse or validation error, with the file name in front.
 pub fn load_case(path: &Path) -> Result<Case> {
+    load_case_with(path, profiles::override_dir(None).as_deref())
+}
+
+/// Load and validate a case, resolving its `drug.profile` among the built-in profiles and
+/// those of `profiles_dir`: the profile supplies the molar mass, the oral bioavailability and
+/// the default strategy's targets where the case is silent (the case's `[targets]` win).
+///
+/// # Errors
+/// Any read, parse or validation error, with the file name in front; an unknown profile is
+/// an error at `drug.profile`; a broken profile file names its own file, line and field.
+pub fn load_case_with(path: &Path, profiles_dir: Option<&Path>) -> Result<Case> {
     let name = path.display().to_string();
     let file = casefile::read(path)?;
-    file.validate().map_err(|e| e.in_file(name))
+    let defaults = match &file.drug.profile {
+        None => casefile::Defaults::default(),
+        Some(wanted) => {
+            let catalog = profiles::Catalog::load(profiles_dir)?;
+            let entry = catalog
+                .lookup(wanted, "drug.profile")
+                .map_err(|e| e.in_file(name.as_str()))?;
+            profiles::defaults_for(
+                &entry.profile,
+                file.drug.level_unit.as_deref(),
+                file.drug.molar_mass_g_mol,
+            )
+        }
+    };
+    file.validate_with(&defaults).map_err(|e| e.in_file(name))
 }
 
 /// Load and validate the built-in demo case.
@@ -34,11 +60,70 @@ pub fn load_demo() -> Result<Case> {
 /// # Errors
 /// The fit's or the projection's errors, with `name` in front.
 pub fn write_report(out: &mut dyn Write, case: &Case, name: &str, as_json: bool) -> Result<()> {
-    let r = report::build(case).map_err(|e| e.in_file(name))?;
+    write_report_with(
+        out,
+        case,
+        name,
+        as_json,
+        profiles::override_dir(None).as_deref(),
+    )
+}
+
+/// Write the report of one case, with its drug profile's warnings and cautions (the profile
+/// is looked up among the built-ins and `profiles_dir`).
+///
+/// A profile whose kinetics are not first-order (phenytoin) refuses the projections: the
+/// text report then shows the reason and the measured levels; the JSON report, whose fields
+/// cannot be filled honestly, is an error at `drug.profile` (exit status 2, nothing on stdout).
+///
+/// # Errors
+/// The fit's or the projection's errors, with `name` in front; an unknown profile; the
+/// refusal above in JSON.
+pub fn write_report_with(
+    out: &mut dyn Write,
+    case: &Case,
+    name: &str,
+    as_json: bool,
+    profiles_dir: Option<&Path>,
+) -> Result<()> {
+    let output = |e: std::io::Error| Error::invalid("output", e.to_string());
+    let catalog = match &case.drug.profile {
+        Some(_) => Some(profiles::Catalog::load(profiles_dir)?),
+        None => None,
+    };
+    let entry = match (&case.drug.profile, &catalog) {
+        (Some(wanted), Some(c)) => Some(
+            c.lookup(wanted, "drug.profile")
+                .map_err(|e| e.in_file(name))?,
+        ),
+        _ => None,
+    };
+    if let Some(e) = entry {
+        if let Some(why) = profiles::refusal(&e.profile) {
+            if as_json {
+                return Err(Error::invalid(
+                    "drug.profile",
+                    format!(
+                        "\"{}\": {why}; the report without --json lists the measured levels",
+                        e.name
+                    ),
+                )
+                .in_file(name));
+            }
+            return profiles::write_refusal(out, case, e).map_err(output);
+        }
+    }
+    let mut r = report::build(case).map_err(|e| e.in_file(name))?;
+    if let Some(e) = entry {
+        profiles::apply(&e.profile, case, &mut r);
+    }
     let written = if as_json {
         writeln!(out, "{}", json::to_json(&r))
     } else {
-        report::write_text(out, case, &r)
+        report::write_text(out, case, &r).and_then(|()| match entry {
+            Some(e) => profiles::write_profile_note(out, e),
+            None => Ok(()),
+        })
     };
-    written.map_err(|e| Error::invalid("output", e.to_string()))
+    written.map_err(output)
 }

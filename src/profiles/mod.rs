@@ -26,7 +26,7 @@ use crate::core::units::LevelUnit;
 pub use parse::parse_profile;
 pub use schema::{FirstOrder, Profile, Strategy};
 pub use text::{write_list, write_profile_note, write_refusal, write_show};
-pub use warn::{refusal, warnings};
+pub use warn::{apply, refusal, warnings};
 
 /// The environment variable naming an override directory (used when `--profiles` is not given).
 pub const ENV_VAR: &str = "EBB_PROFILES";
@@ -240,7 +240,10 @@ pub fn unit_factor(
 /// A strategy's targets in the case's unit (multiply by `factor`, from [`unit_factor`]).
 pub fn targets_of(strategy: &Strategy, factor: f64) -> Targets {
     Targets {
-        peak: strategy.peak.as_ref().map(|r| [r.low * factor, r.high * factor]),
+        peak: strategy
+            .peak
+            .as_ref()
+            .map(|r| [r.low * factor, r.high * factor]),
         trough_max: strategy.trough_max.as_ref().map(|t| t.value * factor),
         auc24: strategy
             .auc24

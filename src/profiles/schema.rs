@@ -358,7 +358,10 @@ impl Profile {
         if self.schema != 1 {
             return Err(problem(
                 "schema",
-                format!("this ebb reads profile schema 1, the file says {}", self.schema),
+                format!(
+                    "this ebb reads profile schema 1, the file says {}",
+                    self.schema
+                ),
             ));
         }
         if self.display_name.trim().is_empty() {
@@ -464,10 +467,7 @@ impl Profile {
         }
         for (key, text) in &self.sources {
             if text.trim().is_empty() {
-                return Err(problem(
-                    format!("sources.{key}"),
-                    "write the reference out",
-                ));
+                return Err(problem(format!("sources.{key}"), "write the reference out"));
             }
         }
         for (field, text) in self.source_fields() {
@@ -527,7 +527,10 @@ fn range(r: &SourcedRange, field: &str) -> Result<(), FieldProblem> {
     if !(r.low.is_finite() && r.high.is_finite() && r.low >= 0.0) {
         return Err(problem(
             field,
-            format!("low and high must be 0 or more, got {} and {}", r.low, r.high),
+            format!(
+                "low and high must be 0 or more, got {} and {}",
+                r.low, r.high
+            ),
         ));
     }
     if r.low > r.high {

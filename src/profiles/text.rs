@@ -28,7 +28,11 @@ pub fn write_list(w: &mut dyn Write, cat: &Catalog) -> io::Result<()> {
         .max()
         .unwrap_or(12)
         .max(12);
-    writeln!(w, "{:<width$}  {:<dwidth$}  {:<7}  from", "name", "display name", "unit")?;
+    writeln!(
+        w,
+        "{:<width$}  {:<dwidth$}  {:<7}  from",
+        "name", "display name", "unit"
+    )?;
     for e in cat.entries() {
         writeln!(
             w,
@@ -126,7 +130,11 @@ pub fn write_show(w: &mut dyn Write, e: &Entry) -> io::Result<()> {
     }
     if let Some(l) = &p.usual_intervals_h {
         let vals: Vec<String> = l.values.iter().map(|v| num(*v)).collect();
-        let note = l.note.as_ref().map(|n| format!("; {n}")).unwrap_or_default();
+        let note = l
+            .note
+            .as_ref()
+            .map(|n| format!("; {n}"))
+            .unwrap_or_default();
         writeln!(
             w,
             "usual intervals     {} h {}{note}",
@@ -201,11 +209,7 @@ pub fn write_profile_note(w: &mut dyn Write, e: &Entry) -> io::Result<()> {
     if let Some(s) = p.default_strategy() {
         writeln!(w, "  sampling: {}", s.sampling)?;
         if let Some(r) = &s.range {
-            writeln!(
-                w,
-                "  range: {}",
-                range(r, &format!(" {}", p.level_unit))
-            )?;
+            writeln!(w, "  range: {}", range(r, &format!(" {}", p.level_unit)))?;
         }
     }
     writeln!(w, "Cautions:")?;

@@ -25,6 +25,52 @@ pub fn refusal(profile: &Profile) -> Option<String> {
     }
 }
 
+/// Put the profile's warnings in front of the report's own. Where the profile flags a level
+/// as drawn inside its sampling window, the core's generic distribution-phase warning for the
+/// same level is dropped (the profile's says the same, with the drug's own window).
+pub fn apply(profile: &Profile, case: &Case, report: &mut Report) {
+    let mine = warnings(profile, case, report);
+    let flagged: Vec<String> = window_rows(profile, case)
+        .into_iter()
+        .map(|row| format!("level {row} was drawn "))
+        .collect();
+    report.warnings.retain(|w| {
+        !(w.contains("may be in the distribution phase")
+            && flagged.iter().any(|p| w.starts_with(p.as_str())))
+    });
+    let mut all = mine;
+    all.append(&mut report.warnings);
+    report.warnings = all;
+}
+
+/// Rows of the used levels drawn inside the profile's window, with the dose before each and
+/// the hours from the end of that dose (negative: during it).
+fn window_hits(profile: &Profile, case: &Case) -> Vec<(usize, usize, f64)> {
+    let Some(w) = &profile.level_valid_after_h else {
+        return Vec::new();
+    };
+    let mut out = Vec::new();
+    for level in case.levels.iter().filter(|l| l.use_in_fit) {
+        // The latest dose started strictly before the level (a level at a dose time is that
+        // dose's pre-dose level).
+        let Some(dose) = case.doses.iter().rev().find(|d| d.t < level.t) else {
+            continue;
+        };
+        let after = level.t - dose.end();
+        if after < w.value {
+            out.push((level.row, dose.row, after));
+        }
+    }
+    out
+}
+
+fn window_rows(profile: &Profile, case: &Case) -> Vec<usize> {
+    window_hits(profile, case)
+        .into_iter()
+        .map(|h| h.0)
+        .collect()
+}
+
 /// The profile's warnings for a case and its built report, most important first.
 ///
 /// - the case's level unit differs from the profile's (targets were converted, or could not be);
@@ -76,30 +122,23 @@ pub fn warnings(profile: &Profile, case: &Case, report: &Report) -> Vec<String> 
     }
 
     if let Some(w) = &profile.level_valid_after_h {
-        let phase = w.note.as_deref().unwrap_or("distribution or absorption phase");
-        for level in case.levels.iter().filter(|l| l.use_in_fit) {
-            // The latest dose started strictly before the level (a level at a dose time is
-            // that dose's pre-dose level).
-            let Some(dose) = case.doses.iter().rev().find(|d| d.t < level.t) else {
-                continue;
-            };
-            let after = level.t - dose.end();
-            if after >= w.value {
-                continue;
-            }
+        let phase = w
+            .note
+            .as_deref()
+            .unwrap_or("distribution or absorption phase");
+        for (row, dose_row, after) in window_hits(profile, case) {
             let when = if after < 0.0 {
-                format!("during dose {}", dose.row)
+                format!("during dose {dose_row}")
             } else {
-                format!("{} after the end of dose {}", span_words(after), dose.row)
+                format!("{} after the end of dose {dose_row}", span_words(after))
             };
-            let in_fit = if report.fit.level_rows.contains(&level.row) {
+            let in_fit = if report.fit.level_rows.contains(&row) {
                 "it is in the fit and would distort k; "
             } else {
                 ""
             };
             out.push(format!(
-                "level {} was drawn {when}, inside {name}'s first {} ({phase}) {}: {in_fit}use a later level, or set use = false",
-                level.row,
+                "level {row} was drawn {when}, inside {name}'s first {} ({phase}) {}: {in_fit}use a later level, or set use = false",
                 span_words(w.value),
                 w.source
             ));
