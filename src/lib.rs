@@ -10,3 +10,4 @@ pub mod cli;
 pub mod core;
 pub mod demo;
 pub mod profiles;
+pub mod tui;

@@ -34,8 +34,13 @@ enum Command {
         #[arg(long)]
         demo: bool,
     },
-    /// Show the built-in demo case.
+    /// Open the built-in demo case (invented) in the bedside screen.
     Demo,
+    /// Open a case file in the bedside screen (`ebb CASE.toml` does the same).
+    Open {
+        /// The case file (TOML).
+        file: PathBuf,
+    },
     /// List the drug profiles and where each came from, or show one.
     Profiles {
         #[command(subcommand)]
@@ -61,15 +66,29 @@ fn main() -> ExitCode {
     let dir = dir.as_deref();
     match cli.command {
         Some(Command::Report { files, json, demo }) => report(&files, json, demo, dir),
-        Some(Command::Demo) => report(&[], false, true, dir),
+        Some(Command::Demo) => screen(ebb::tui::App::demo),
+        Some(Command::Open { file }) => screen(|| ebb::tui::App::open(&file)),
         Some(Command::Profiles { action }) => profiles(action, dir),
         None => match cli.case {
-            Some(path) => report(&[path], false, false, dir),
-            None => {
-                eprintln!("ebb: give a case file, or try `ebb demo`; see `ebb --help`");
-                ExitCode::from(2)
-            }
+            Some(path) => screen(|| ebb::tui::App::open(&path)),
+            None => screen(ebb::tui::App::new_case),
         },
+    }
+}
+
+/// Run the bedside screen, or say in one line why not (no terminal).
+fn screen(app: impl FnOnce() -> ebb::tui::App) -> ExitCode {
+    use std::io::IsTerminal;
+    if !std::io::stdout().is_terminal() {
+        eprintln!("ebb: the bedside screen needs a terminal; for printed figures use `ebb report CASE.toml` or `ebb report --demo`");
+        return ExitCode::from(2);
+    }
+    match ebb::tui::run(app()) {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(e) => {
+            eprintln!("ebb: the terminal failed: {e}");
+            ExitCode::from(2)
+        }
     }
 }
 

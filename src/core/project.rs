@@ -210,6 +210,61 @@ pub fn plan_doses_before(plan: &Plan, t: f64) -> usize {
     }
 }
 
+/// The model's course for a chart: `(hours, mg/L)` pairs from `from` to `to`, `n` evenly
+/// spaced samples plus the start and end of every dose in between (so no peak is cut off),
+/// in time order. With `plan = Some((plan, last))` the plan doses numbered 0..=`last` are
+/// added (only when V is known). Without V the fitted line is used. Empty when the span is
+/// not finite or not increasing, or `n < 2`.
+pub fn course_mg_l(
+    p: &Patient,
+    plan: Option<(&Plan, usize)>,
+    from: f64,
+    to: f64,
+    n: usize,
+) -> Vec<(f64, f64)> {
+    if !(from.is_finite() && to.is_finite() && to > from) || n < 2 {
+        return Vec::new();
+    }
+    let step = (to - from) / (n - 1) as f64;
+    let mut times: Vec<f64> = (0..n).map(|i| from + i as f64 * step).collect();
+    let mut edges = |start: f64, end: f64| {
+        // A bolus enters at once: sample just after it to catch the peak.
+        let end = if end > start { end } else { start + 1e-6 };
+        for t in [start, end] {
+            if t > from && t < to {
+                times.push(t);
+            }
+        }
+    };
+    for d in &p.case.doses {
+        edges(d.t, d.end());
+    }
+    let plan = plan.filter(|_| p.v().is_some());
+    if let Some((pl, last)) = plan {
+        for j in 0..=last.min(MAX_PLAN_DOSES) {
+            let td = pl.start_t + j as f64 * pl.interval_h;
+            if td >= to {
+                break;
+            }
+            edges(td, td + pl.route.infusion_h());
+        }
+    }
+    times.sort_by(f64::total_cmp);
+    times.dedup();
+    times
+        .into_iter()
+        .map(|t| {
+            let c = match plan {
+                Some((pl, last)) => p
+                    .level_with_plan(t, pl, Some(last))
+                    .unwrap_or_else(|| p.level_mg_l(t)),
+                None => p.level_mg_l(t),
+            };
+            (t, c)
+        })
+        .collect()
+}
+
 /// One row of the washout table.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct WashoutRow {

@@ -1,0 +1,297 @@
+//! The state of the bedside UI: the case being edited, where the user is, and the figures
+//! the core computed from the case. No terminal types live here.
+
+use std::path::{Path, PathBuf};
+
+use crate::core::casefile::{self, CaseFile, DrugFile};
+use crate::demo::DEMO_CASE;
+use crate::tui::fields::Field;
+use crate::tui::figures::Figures;
+use crate::tui::strings;
+
+/// The five screens, in tab order.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Screen {
+    /// Patient, drug, doses and levels.
+    Case,
+    /// The fit of k, half-life and volume.
+    Fit,
+    /// The regimen at steady state.
+    Plan,
+    /// When the level falls below a threshold.
+    Threshold,
+    /// Each half-life after the last dose.
+    Washout,
+}
+
+impl Screen {
+    /// Every screen in tab order.
+    pub const ALL: [Screen; 5] = [
+        Screen::Case,
+        Screen::Fit,
+        Screen::Plan,
+        Screen::Threshold,
+        Screen::Washout,
+    ];
+
+    /// Position in tab order, from 0.
+    pub fn index(self) -> usize {
+        Screen::ALL.iter().position(|s| *s == self).unwrap_or(0)
+    }
+
+    /// The next screen (wrapping), or the previous one with `back`.
+    pub fn step(self, back: bool) -> Screen {
+        let n = Screen::ALL.len();
+        let i = self.index();
+        Screen::ALL[if back { (i + n - 1) % n } else { (i + 1) % n }]
+    }
+}
+
+/// What the keys currently do.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Mode {
+    /// Moving about and giving commands.
+    Normal,
+    /// Typing into a field.
+    Editing(Editor),
+    /// The key list is shown.
+    Help,
+    /// A question waits for yes or no.
+    Confirm(Confirm),
+    /// The run loop should end.
+    Quitting,
+}
+
+/// What an editor is typing into.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Target {
+    /// A field of the case.
+    Field(Field),
+    /// The file name to save to.
+    SavePath,
+}
+
+/// A one-line text editor over a field.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Editor {
+    /// What is being edited.
+    pub target: Target,
+    /// The text so far.
+    pub buffer: String,
+    /// Cursor position in characters.
+    pub cursor: usize,
+    /// Why the text would not be accepted as it stands (checked on every key).
+    pub error: Option<String>,
+    /// The field to edit next when this one is accepted (for new rows).
+    pub then: Option<Field>,
+    /// The row this editor is filling in for the first time: cancelling removes it.
+    pub new_row: Option<NewRow>,
+}
+
+/// A row being added.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum NewRow {
+    /// A dose row (0-based).
+    Dose(usize),
+    /// A level row (0-based).
+    Level(usize),
+}
+
+impl Editor {
+    /// An editor starting from `text`, cursor at its end.
+    pub fn new(target: Target, text: String) -> Self {
+        Editor {
+            cursor: text.chars().count(),
+            buffer: text,
+            target,
+            error: None,
+            then: None,
+            new_row: None,
+        }
+    }
+}
+
+/// A question that needs a yes or no.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Confirm {
+    /// Quit with unsaved changes.
+    Quit,
+    /// Delete a dose row (0-based).
+    DeleteDose(usize),
+    /// Delete a level row (0-based).
+    DeleteLevel(usize),
+}
+
+/// The line under the screen: what just happened.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Message {
+    /// The words.
+    pub text: String,
+    /// Whether it reports a problem.
+    pub is_error: bool,
+}
+
+/// Where the selection is on each screen.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct Cursors {
+    /// Selected line on the case screen (counting selectable lines only).
+    pub case_line: usize,
+    /// Selected column in a table row on the case screen.
+    pub case_col: usize,
+    /// Selected level on the fit screen.
+    pub fit_level: usize,
+    /// Selected field on the plan screen.
+    pub plan: usize,
+    /// Selected field on the threshold screen.
+    pub threshold: usize,
+}
+
+/// The whole UI state.
+#[derive(Debug, Clone)]
+pub struct App {
+    /// The case as it will be saved.
+    pub file: CaseFile,
+    /// Where it is saved (None: not yet chosen).
+    pub path: Option<PathBuf>,
+    /// What the title bar calls the case.
+    pub title: String,
+    /// The file name offered when saving a case that has no file yet.
+    pub suggested_path: Option<PathBuf>,
+    /// Why the file could not be opened, shown until the case is saved.
+    pub load_error: Option<String>,
+    /// Whether there are changes since the last save or load.
+    pub dirty: bool,
+    /// The screen shown.
+    pub screen: Screen,
+    /// What the keys do.
+    pub mode: Mode,
+    /// The selection on each screen.
+    pub cursors: Cursors,
+    /// The message line.
+    pub message: Option<Message>,
+    /// Everything the core computed from `file`.
+    pub figures: Figures,
+    /// Quit as soon as the pending save succeeds.
+    pub quit_after_save: bool,
+}
+
+impl App {
+    fn with_file(file: CaseFile, title: String) -> Self {
+        let figures = Figures::compute(&file);
+        App {
+            file,
+            path: None,
+            title,
+            suggested_path: None,
+            load_error: None,
+            dirty: false,
+            screen: Screen::Case,
+            mode: Mode::Normal,
+            cursors: Cursors::default(),
+            message: None,
+            figures,
+            quit_after_save: false,
+        }
+    }
+
+    /// A new, empty case (levels in mg/L until the user says otherwise).
+    pub fn new_case() -> Self {
+        let file = CaseFile {
+            schema: Some(1),
+            drug: DrugFile {
+                level_unit: Some("mg/L".into()),
+                ..DrugFile::default()
+            },
+            ..CaseFile::default()
+        };
+        let mut app = App::with_file(file, strings::NEW_CASE.into());
+        app.message = Some(Message {
+            text: strings::NEW_CASE_HINT.into(),
+            is_error: false,
+        });
+        app
+    }
+
+    /// The built-in demo case (not tied to a file: saving asks for a name).
+    pub fn demo() -> Self {
+        match CaseFile::parse(DEMO_CASE) {
+            Ok(file) => App::with_file(file, strings::DEMO_TITLE.into()),
+            Err(e) => {
+                let mut app = App::new_case();
+                app.load_error = Some(e.to_string());
+                app
+            }
+        }
+    }
+
+    /// Open a case file. A file that cannot be read or parsed opens as an empty case that
+    /// shows the error; saving then asks for a file name (offering this one).
+    pub fn open(path: &Path) -> Self {
+        match casefile::read(path) {
+            Ok(file) => {
+                let mut app = App::with_file(file, path.display().to_string());
+                app.path = Some(path.to_path_buf());
+                app
+            }
+            Err(e) => {
+                let mut app = App::new_case();
+                app.title = path.display().to_string();
+                app.suggested_path = Some(path.to_path_buf());
+                app.load_error = Some(e.to_string());
+                app.message = Some(Message {
+                    text: strings::LOAD_FAILED.into(),
+                    is_error: true,
+                });
+                app
+            }
+        }
+    }
+
+    /// Change the case: `change` works on a copy, which replaces the case only when it
+    /// succeeds; then every figure is recomputed.
+    ///
+    /// # Errors
+    /// The change's own error; the case is then unchanged.
+    pub fn change(
+        &mut self,
+        change: impl FnOnce(&mut CaseFile) -> Result<(), String>,
+    ) -> Result<(), String> {
+        let mut next = self.file.clone();
+        change(&mut next)?;
+        if next != self.file {
+            self.file = next;
+            self.dirty = true;
+            self.figures = Figures::compute(&self.file);
+        }
+        Ok(())
+    }
+
+    /// Show a message on the message line.
+    pub fn say(&mut self, text: impl Into<String>) {
+        self.message = Some(Message {
+            text: text.into(),
+            is_error: false,
+        });
+    }
+
+    /// Show a problem on the message line.
+    pub fn complain(&mut self, text: impl Into<String>) {
+        self.message = Some(Message {
+            text: text.into(),
+            is_error: true,
+        });
+    }
+
+    /// Whether the run loop should end.
+    pub fn should_quit(&self) -> bool {
+        self.mode == Mode::Quitting
+    }
+
+    /// The editor, when one is open.
+    pub fn editor(&self) -> Option<&Editor> {
+        match &self.mode {
+            Mode::Editing(e) => Some(e),
+            _ => None,
+        }
+    }
+}

@@ -1,0 +1,305 @@
+//! The figures the screens show, all computed by the core from the case file: validation,
+//! the fit, the report, and the model's course sampled for the charts.
+
+use crate::core::case::Case;
+use crate::core::casefile::CaseFile;
+use crate::core::error::Error;
+use crate::core::fit::{self, Fit};
+use crate::core::project::{self, Patient};
+use crate::core::report::{self, Report};
+use crate::tui::widgets::chart::{ChartData, Curve, CurveRole, Guide, GuideRole, Mark, MarkKind};
+
+/// Samples per chart curve (dose starts and ends are added to these).
+const SAMPLES: usize = 240;
+/// The most plan doses a chart draws.
+const MAX_CHART_PLAN_DOSES: usize = 200;
+
+/// Why there are no figures, and where the problem is.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Problem {
+    /// The field or row the core named (`level 3`, `plan.interval_h`), if any.
+    pub place: Option<String>,
+    /// The whole message.
+    pub text: String,
+    /// Whether the case itself is invalid (rather than valid but unable to give a fit).
+    pub invalid_case: bool,
+}
+
+/// Where the threshold projection starts from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum ThresholdFrom {
+    /// The end of the last recorded dose.
+    LastDoseEnd,
+    /// The last level drawn.
+    LastLevel,
+    /// The last level in the fit (no volume: the fitted line is used).
+    LastFittedLevel,
+}
+
+/// The charts of the four figure screens.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Charts {
+    /// Levels, fitted line, model course and threshold.
+    pub fit: Option<ChartData>,
+    /// The projected course of the plan to steady state.
+    pub plan: Option<ChartData>,
+    /// The fall to the threshold.
+    pub threshold: Option<ChartData>,
+    /// The washout, with each half-life marked.
+    pub washout: Option<ChartData>,
+}
+
+/// Everything computed from one state of the case file.
+#[derive(Debug, Clone, Default)]
+pub struct Figures {
+    /// The validated case.
+    pub case: Option<Case>,
+    /// The fit.
+    pub fit: Option<Fit>,
+    /// The report.
+    pub report: Option<Report>,
+    /// Why something is missing.
+    pub problem: Option<Problem>,
+    /// Where the threshold projection starts from.
+    pub threshold_from: Option<ThresholdFrom>,
+    /// The charts.
+    pub charts: Charts,
+}
+
+fn problem(e: &Error, invalid_case: bool) -> Problem {
+    let mut inner = e;
+    while let Error::InFile { source, .. } = inner {
+        inner = source;
+    }
+    let place = match inner {
+        Error::Invalid { place, .. } => Some(place.clone()),
+        _ => None,
+    };
+    Problem {
+        place,
+        text: e.to_string(),
+        invalid_case,
+    }
+}
+
+impl Figures {
+    /// Validate the case file and compute every figure; never panics, never fails: what
+    /// cannot be computed is left `None` with the reason in `problem`.
+    pub fn compute(file: &CaseFile) -> Figures {
+        let case = match file.validate() {
+            Ok(c) => c,
+            Err(e) => {
+                return Figures {
+                    problem: Some(problem(&e, true)),
+                    ..Figures::default()
+                }
+            }
+        };
+        let fit = match fit::fit(&case) {
+            Ok(f) => f,
+            Err(e) => {
+                return Figures {
+                    problem: Some(problem(&e, false)),
+                    case: Some(case),
+                    ..Figures::default()
+                }
+            }
+        };
+        let report = match report::build_from_fit(&case, &fit) {
+            Ok(r) => r,
+            Err(e) => {
+                return Figures {
+                    problem: Some(problem(&e, false)),
+                    case: Some(case),
+                    fit: Some(fit),
+                    ..Figures::default()
+                }
+            }
+        };
+        let patient = Patient::new(&case, &fit);
+        let charts = Charts {
+            fit: Some(fit_chart(&case, &fit, &patient)),
+            plan: plan_chart(&case, &report, &patient),
+            threshold: threshold_chart(&case, &patient),
+            washout: washout_chart(&case, &report, &patient),
+        };
+        let threshold_from = case.threshold.as_ref().map(|_| {
+            let last_level = case
+                .levels
+                .iter()
+                .map(|l| l.t)
+                .fold(f64::NEG_INFINITY, f64::max);
+            if patient.v().is_none() {
+                ThresholdFrom::LastFittedLevel
+            } else if last_level >= patient.last_dose_end() {
+                ThresholdFrom::LastLevel
+            } else {
+                ThresholdFrom::LastDoseEnd
+            }
+        });
+        Figures {
+            case: Some(case),
+            fit: Some(fit),
+            report: Some(report),
+            problem: None,
+            threshold_from,
+            charts,
+        }
+    }
+}
+
+fn to_level(case: &Case, pts: Vec<(f64, f64)>) -> Vec<(f64, f64)> {
+    let s = case.drug.scale;
+    pts.into_iter().map(|(t, c)| (t, s.to_level(c))).collect()
+}
+
+fn threshold_guide(case: &Case) -> Option<Guide> {
+    case.threshold.as_ref().map(|t| Guide {
+        value: t.below,
+        role: GuideRole::Threshold,
+    })
+}
+
+fn fit_chart(case: &Case, fit: &Fit, p: &Patient) -> ChartData {
+    let first = case.doses.first().map(|d| d.t).unwrap_or(0.0);
+    let last_level = case.levels.iter().map(|l| l.t).fold(first, f64::max);
+    let end = last_level.max(p.last_dose_end());
+    let span = (end - first).max(1.0);
+    let x = [first - 0.02 * span, end + 0.12 * span];
+    let mut curves = Vec::new();
+    if p.v().is_some() {
+        curves.push(Curve {
+            role: CurveRole::Model,
+            points: to_level(case, project::course_mg_l(p, None, x[0], x[1], SAMPLES)),
+        });
+    }
+    let used_t: Vec<f64> = fit.used.iter().map(|&i| case.levels[i].t).collect();
+    let a = case
+        .doses
+        .get(fit.window_dose)
+        .map(|d| d.end())
+        .unwrap_or(first);
+    let b = used_t.iter().copied().fold(a, f64::max);
+    let b = b + 0.1 * (b - a).max(0.5);
+    curves.push(Curve {
+        role: CurveRole::Fitted,
+        points: to_level(case, vec![(a, fit.line_mg_l(a)), (b, fit.line_mg_l(b))]),
+    });
+    let marks = case
+        .levels
+        .iter()
+        .enumerate()
+        .map(|(i, l)| Mark {
+            t: l.t,
+            value: l.value,
+            kind: if fit.used.contains(&i) {
+                MarkKind::InFit
+            } else if l.use_in_fit {
+                MarkKind::NotInFit
+            } else {
+                MarkKind::LeftOut
+            },
+        })
+        .collect();
+    ChartData {
+        clock: case.clock,
+        x,
+        curves,
+        marks,
+        guide: threshold_guide(case),
+        vline: None,
+    }
+}
+
+fn plan_chart(case: &Case, r: &Report, p: &Patient) -> Option<ChartData> {
+    let (plan, part) = (case.plan.as_ref()?, r.plan.as_ref()?);
+    p.v()?;
+    let tau = plan.interval_h;
+    let from = case
+        .doses
+        .last()
+        .map(|d| d.t)
+        .unwrap_or(plan.start_t)
+        .min(plan.start_t);
+    let reach = (part.time_to_ss_h[2] + tau).max(3.0 * tau);
+    let to = plan.start_t + reach.min(MAX_CHART_PLAN_DOSES as f64 * tau);
+    let last = project::plan_doses_before(plan, to).max(1) - 1;
+    let points = project::course_mg_l(p, Some((plan, last)), from, to, SAMPLES * 2);
+    Some(ChartData {
+        clock: case.clock,
+        x: [from, to],
+        curves: vec![Curve {
+            role: CurveRole::Plan,
+            points: to_level(case, points),
+        }],
+        marks: Vec::new(),
+        guide: case.targets.trough_max.map(|v| Guide {
+            value: v,
+            role: GuideRole::TroughTarget,
+        }),
+        vline: None,
+    })
+}
+
+fn threshold_chart(case: &Case, p: &Patient) -> Option<ChartData> {
+    let th = case.threshold.as_ref()?;
+    let below_mg_l = case.drug.scale.to_mg_l(th.below);
+    let tp = project::threshold(p, below_mg_l, th.procedure_t);
+    let from = case.doses.last().map(|d| d.t).unwrap_or(tp.t0).min(tp.t0);
+    let mut end = tp.reached_t;
+    if let Some([_, late]) = tp.reached_ci95_t {
+        end = end.max(late);
+    }
+    if let Some(t) = th.procedure_t {
+        end = end.max(t);
+    }
+    let span = (end - from).max(1.0);
+    let to = end + 0.1 * span;
+    let points = project::course_mg_l(p, None, from, to, SAMPLES);
+    Some(ChartData {
+        clock: case.clock,
+        x: [from, to],
+        curves: vec![Curve {
+            role: CurveRole::Model,
+            points: to_level(case, points),
+        }],
+        marks: vec![Mark {
+            t: tp.reached_t,
+            value: th.below,
+            kind: MarkKind::Reached,
+        }],
+        guide: threshold_guide(case),
+        vline: th.procedure_t,
+    })
+}
+
+fn washout_chart(case: &Case, r: &Report, p: &Patient) -> Option<ChartData> {
+    let first = r.washout.first()?;
+    let last = r.washout.last()?;
+    let t_first = case.clock.hours(&first.at);
+    let t_last = case.clock.hours(&last.at);
+    let th = p.fit.half_life_h;
+    let from = t_first - th;
+    let to = t_last + 0.5 * th;
+    let points = project::course_mg_l(p, None, from, to, SAMPLES);
+    let marks = r
+        .washout
+        .iter()
+        .map(|w| Mark {
+            t: case.clock.hours(&w.at),
+            value: w.level,
+            kind: MarkKind::HalfLife(w.half_lives),
+        })
+        .collect();
+    Some(ChartData {
+        clock: case.clock,
+        x: [from, to],
+        curves: vec![Curve {
+            role: CurveRole::Model,
+            points: to_level(case, points),
+        }],
+        marks,
+        guide: threshold_guide(case),
+        vline: None,
+    })
+}

@@ -1,0 +1,20 @@
+//! The bedside terminal UI: state (`app`), intents (`action`), keys (`keymap`), changes
+//! (`update`), figures from the core (`figures`), drawing (`view`, `screens`, `widgets`),
+//! words (`strings`), saving (`store`) and the run loop (`run`).
+
+pub mod action;
+pub mod app;
+pub mod entry;
+pub mod fields;
+pub mod figures;
+pub mod keymap;
+pub mod run;
+pub mod screens;
+pub mod store;
+pub mod strings;
+pub mod update;
+pub mod view;
+pub mod widgets;
+
+pub use app::App;
+pub use run::run;

@@ -1,0 +1,229 @@
+//! Screen 1, the case: patient and drug fields, the dose record and the levels as tables.
+
+use ratatui::buffer::Buffer;
+use ratatui::layout::{Constraint, Layout, Rect};
+use ratatui::style::Style;
+use ratatui::text::{Line, Span};
+use ratatui::widgets::{Paragraph, Widget};
+
+use crate::core::report::num;
+use crate::tui::app::App;
+use crate::tui::fields::{self, Field};
+use crate::tui::screens::{self, CaseLine, DRUG_FIELDS, PATIENT_FIELDS};
+use crate::tui::strings;
+use crate::tui::widgets::{self, field_line, heading, or_dash, problem_style, quiet};
+
+/// Column widths of the dose table: number, time, amount, route, infusion, F.
+const DOSE_W: [usize; 6] = [3, 17, 9, 9, 9, 5];
+/// Column widths of the level table: number, time, value, use, note.
+const LEVEL_W: [usize; 5] = [3, 17, 10, 4, 20];
+
+/// A line of the screen and, when selectable, its place in `case_lines`.
+type Row = (Line<'static>, Option<usize>);
+
+/// Draw the case screen.
+pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
+    let footer_lines = footer(app, area.width);
+    let [main, foot] = Layout::vertical([
+        Constraint::Min(1),
+        Constraint::Length(footer_lines.len() as u16),
+    ])
+    .areas(area);
+    let selected = screens::selected_case_line(app);
+    let lines = screens::case_lines(&app.file);
+    let sel_index = lines.iter().position(|l| *l == selected);
+    let left = field_rows(app, &lines, selected);
+    let right = table_rows(app, &lines, selected);
+    if area.width >= 120 {
+        let [l, r] = Layout::horizontal([Constraint::Length(50), Constraint::Min(1)]).areas(main);
+        scrolled(left, sel_index, l, buf);
+        scrolled(right, sel_index, r, buf);
+    } else {
+        let mut all = left;
+        all.push((Line::raw(""), None));
+        all.extend(right);
+        scrolled(all, sel_index, main, buf);
+    }
+    Paragraph::new(footer_lines).render(foot, buf);
+}
+
+fn scrolled(rows: Vec<Row>, sel: Option<usize>, area: Rect, buf: &mut Buffer) {
+    let h = usize::from(area.height);
+    let at = sel.and_then(|s| rows.iter().position(|(_, i)| *i == Some(s)));
+    let offset = match at {
+        Some(a) if a + 3 > h => (a + 3 - h).min(rows.len().saturating_sub(h)),
+        _ => 0,
+    };
+    let shown: Vec<Line> = rows
+        .into_iter()
+        .skip(offset)
+        .take(h)
+        .map(|(l, _)| l)
+        .collect();
+    Paragraph::new(shown).render(area, buf);
+}
+
+fn index_of(lines: &[CaseLine], line: CaseLine) -> Option<usize> {
+    lines.iter().position(|l| *l == line)
+}
+
+fn field_rows(app: &App, lines: &[CaseLine], selected: CaseLine) -> Vec<Row> {
+    let mut out: Vec<Row> = vec![(Line::styled(strings::PATIENT, heading()), None)];
+    let unit = app.file.drug.level_unit.clone().unwrap_or_default();
+    let _ = unit;
+    for (i, f) in PATIENT_FIELDS.iter().chain(DRUG_FIELDS.iter()).enumerate() {
+        if i == PATIENT_FIELDS.len() {
+            out.push((Line::styled(strings::DRUG, heading()), None));
+        }
+        let line = CaseLine::Field(*f);
+        let is_sel = selected == line;
+        let shown = or_dash(f.text(&app.file));
+        let (label, unit) = strings::field_label(*f);
+        out.push((
+            field_line(app, *f, label, 14, shown, unit, is_sel),
+            index_of(lines, line),
+        ));
+    }
+    out
+}
+
+fn cell(app: &App, field: Field, text: String, width: usize, is_sel: bool) -> Vec<Span<'static>> {
+    let padded = format!("{text:<width$}");
+    let mut spans = widgets::value_spans(app, field, padded, is_sel);
+    spans.push(Span::raw(" "));
+    spans
+}
+
+fn row_problem(app: &App, cols: &[Field]) -> Option<String> {
+    cols.iter().find_map(|f| widgets::problem_for(app, *f))
+}
+
+fn table_rows(app: &App, lines: &[CaseLine], selected: CaseLine) -> Vec<Row> {
+    let col = app.cursors.case_col;
+    let unit = app.file.drug.level_unit.clone().unwrap_or_default();
+    let mut out: Vec<Row> = vec![(Line::styled(strings::DOSES, heading()), None)];
+    let head = |names: &[&str], widths: &[usize]| {
+        let mut s = String::from("  ");
+        for (n, w) in names.iter().zip(widths) {
+            s.push_str(&format!("{n:<w$} "));
+        }
+        Line::styled(s, quiet())
+    };
+    out.push((head(&strings::DOSE_COLUMNS, &DOSE_W), None));
+    for i in 0..app.file.doses.len() {
+        let line = CaseLine::Dose(i);
+        let is_row = selected == line;
+        let cols = fields::dose_columns(i);
+        let d = &app.file.doses[i];
+        let texts = [
+            Field::DoseTime(i).text(&app.file),
+            d.amount_mg
+                .map(|a| format!("{} mg", num(a)))
+                .unwrap_or("—".into()),
+            d.route.clone(),
+            d.infusion_h
+                .map(|h| format!("{} h", num(h)))
+                .unwrap_or("—".into()),
+            d.bioavailability.map(num).unwrap_or("—".into()),
+        ];
+        let mut spans = vec![
+            Span::raw(if is_row { "▸ " } else { "  " }),
+            Span::styled(format!("{:<w$} ", i + 1, w = DOSE_W[0]), quiet()),
+        ];
+        for (c, (f, t)) in cols.iter().zip(texts).enumerate() {
+            spans.extend(cell(app, *f, t, DOSE_W[c + 1], is_row && col == c));
+        }
+        if let Some(p) = row_problem(app, &cols) {
+            spans.push(Span::styled(format!("✗ {p}"), problem_style()));
+        }
+        out.push((Line::from(spans), index_of(lines, line)));
+    }
+    let add = |line: CaseLine, text: &str| -> Row {
+        let is_sel = selected == line;
+        let style = if is_sel { widgets::selected() } else { quiet() };
+        (
+            Line::from(vec![
+                Span::raw(if is_sel { "▸ " } else { "  " }),
+                Span::styled(text.to_string(), style),
+            ]),
+            index_of(lines, line),
+        )
+    };
+    out.push(add(CaseLine::AddDose, strings::ADD_DOSE));
+    out.push((
+        Line::styled(strings::levels_heading(&unit), heading()),
+        None,
+    ));
+    out.push((head(&strings::LEVEL_COLUMNS, &LEVEL_W), None));
+    for i in 0..app.file.levels.len() {
+        let line = CaseLine::Level(i);
+        let is_row = selected == line;
+        let cols = fields::level_columns(i);
+        let l = &app.file.levels[i];
+        let texts = [
+            Field::LevelTime(i).text(&app.file),
+            num(l.value),
+            Field::LevelUse(i).text(&app.file),
+            l.note.clone().unwrap_or_default(),
+        ];
+        let mut spans = vec![
+            Span::raw(if is_row { "▸ " } else { "  " }),
+            Span::styled(format!("{:<w$} ", i + 1, w = LEVEL_W[0]), quiet()),
+        ];
+        for (c, (f, t)) in cols.iter().zip(texts).enumerate() {
+            let editing = widgets::editor_on(app, *f).is_some();
+            // The note takes the room it needs; the other cells keep their width.
+            let w = if c == 3 && !editing {
+                t.chars().count().max(LEVEL_W[4])
+            } else {
+                LEVEL_W[c + 1]
+            };
+            spans.extend(cell(app, *f, t, w, is_row && col == c));
+        }
+        if let Some(p) = row_problem(app, &cols) {
+            spans.push(Span::styled(format!("✗ {p}"), problem_style()));
+        }
+        out.push((Line::from(spans), index_of(lines, line)));
+    }
+    out.push(add(CaseLine::AddLevel, strings::ADD_LEVEL));
+    out
+}
+
+/// Under the tables: the problem with the case, or the fit in one line.
+fn footer(app: &App, width: u16) -> Vec<Line<'static>> {
+    let w = usize::from(width);
+    let mut out = Vec::new();
+    if let Some(e) = &app.load_error {
+        for l in widgets::wrap(&format!("{} {e}", strings::COULD_NOT_OPEN), w)
+            .into_iter()
+            .take(3)
+        {
+            out.push(Line::styled(l, problem_style()));
+        }
+    } else if let Some(p) = &app.figures.problem {
+        let style = if p.invalid_case {
+            problem_style()
+        } else {
+            Style::new()
+        };
+        let lead = if p.invalid_case {
+            strings::CASE_PROBLEM
+        } else {
+            strings::NO_FIT_YET
+        };
+        for l in widgets::wrap(&format!("{lead} {}", p.text), w)
+            .into_iter()
+            .take(3)
+        {
+            out.push(Line::styled(l, style));
+        }
+    } else if let Some(r) = &app.figures.report {
+        for l in widgets::wrap(&strings::fit_summary(r), w)
+            .into_iter()
+            .take(2)
+        {
+            out.push(Line::styled(l, heading()));
+        }
+    }
+    out
+}

@@ -1,0 +1,145 @@
+//! Screen 2, the fit: the semi-log chart of the levels, fitted line and model course, and
+//! k, half-life, r², residuals, volume and warnings.
+
+use ratatui::buffer::Buffer;
+use ratatui::layout::{Constraint, Layout, Rect};
+use ratatui::style::Style;
+use ratatui::text::{Line, Span};
+use ratatui::widgets::{Paragraph, Widget};
+
+use crate::core::report::num;
+use crate::tui::app::App;
+use crate::tui::strings;
+use crate::tui::view::note;
+use crate::tui::widgets::chart::{mark_symbol, MarkKind, SemiLogChart};
+use crate::tui::widgets::{self, heading, problem_style, quiet};
+
+/// Draw the fit screen.
+pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
+    let (Some(case), Some(fit), Some(r), Some(chart)) = (
+        app.figures.case.as_ref(),
+        app.figures.fit.as_ref(),
+        app.figures.report.as_ref(),
+        app.figures.charts.fit.as_ref(),
+    ) else {
+        return no_figures(app, area, buf);
+    };
+    let pct = if area.width >= 120 { 60 } else { 45 };
+    let [left, right] =
+        Layout::horizontal([Constraint::Percentage(pct), Constraint::Min(1)]).areas(area);
+    let unit = r.unit.as_str();
+    SemiLogChart { data: chart, unit }.render(left, buf);
+
+    let w = usize::from(right.width.saturating_sub(1));
+    let f = &r.fit;
+    let rows: Vec<String> = f.level_rows.iter().map(|x| x.to_string()).collect();
+    let mut lines = vec![
+        Line::styled(
+            strings::fit_heading(f.method, &rows.join(", "), f.window_dose_row),
+            heading(),
+        ),
+        kv(
+            strings::K,
+            format!("{} /h", num(f.k_per_h)),
+            ci(f.k_ci95_per_h),
+        ),
+        kv(
+            strings::HALF_LIFE,
+            format!("{} h", num(f.half_life_h)),
+            ci(f.half_life_ci95_h),
+        ),
+        kv(
+            strings::R_SQUARED,
+            f.r_squared
+                .map(|x| format!("{x:.4}"))
+                .unwrap_or_else(|| strings::NOT_FOR_TWO.into()),
+            String::new(),
+        ),
+        kv(
+            strings::VOLUME,
+            f.volume_l
+                .map(|v| format!("{} L", num(v)))
+                .unwrap_or_else(|| strings::NOT_KNOWN.into()),
+            strings::volume_how(f.volume_method, f.pre_dose_row),
+        ),
+        kv(
+            strings::CLEARANCE,
+            f.clearance_l_per_h
+                .map(|v| format!("{} L/h", num(v)))
+                .unwrap_or_else(|| strings::NOT_KNOWN.into()),
+            String::new(),
+        ),
+        Line::styled(strings::LEVELS_AND_RESIDUALS, heading()),
+    ];
+    for (i, l) in case.levels.iter().enumerate() {
+        // Levels are in time order in the case; the cursor counts file rows.
+        let file_row = l.row - 1;
+        let is_sel = app.cursors.fit_level == file_row;
+        let kind = if let Some(pos) = fit.used.iter().position(|&u| u == i) {
+            (MarkKind::InFit, fit.residuals.get(pos).copied())
+        } else if l.use_in_fit {
+            (MarkKind::NotInFit, None)
+        } else {
+            (MarkKind::LeftOut, None)
+        };
+        let (sym, style) = mark_symbol(kind.0);
+        let status = match kind.0 {
+            MarkKind::InFit => strings::IN_FIT,
+            MarkKind::NotInFit => strings::NOT_IN_FIT,
+            _ => strings::LEFT_OUT,
+        };
+        let when = l.time.wall().format("%a %H:%M").to_string();
+        let text = format!("{:<2} {when}  {:>7} ", l.row, num(l.value),);
+        let resid = kind.1.map(|x| format!("{x:+.3}")).unwrap_or_default();
+        let body = Style::new();
+        lines.push(Line::from(vec![
+            Span::raw(if is_sel { "▸ " } else { "  " }),
+            Span::styled(text, if is_sel { widgets::selected() } else { body }),
+            Span::styled(sym, style),
+            Span::raw(format!(" {status:<10} {resid}")),
+        ]));
+    }
+    lines.push(Line::styled(strings::WARNINGS, heading()));
+    if r.warnings.is_empty() {
+        lines.push(Line::styled(strings::NO_WARNINGS, quiet()));
+    }
+    for warn in &r.warnings {
+        for (j, l) in widgets::wrap(warn, w.saturating_sub(2))
+            .into_iter()
+            .enumerate()
+        {
+            let lead = if j == 0 { "- " } else { "  " };
+            lines.push(Line::styled(format!("{lead}{l}"), problem_style()));
+        }
+    }
+    let inner = Rect {
+        x: right.x + 1,
+        width: right.width.saturating_sub(1),
+        ..right
+    };
+    Paragraph::new(lines).render(inner, buf);
+}
+
+fn ci(c: Option<[f64; 2]>) -> String {
+    match c {
+        Some([a, b]) => strings::ci95(&num(a), &num(b)),
+        None => strings::NO_INTERVAL.into(),
+    }
+}
+
+fn kv(label: &str, value: String, tail: String) -> Line<'static> {
+    Line::from(vec![
+        Span::styled(format!("{label:<10}"), quiet()),
+        Span::raw(value),
+        Span::styled(format!(" {tail}"), quiet()),
+    ])
+}
+
+/// The screen when the core could not give figures: the reason, plainly.
+pub fn no_figures(app: &App, area: Rect, buf: &mut Buffer) {
+    let text = match &app.figures.problem {
+        Some(p) => strings::no_figures(&p.text),
+        None => strings::NO_FIGURES_PLAIN.to_string(),
+    };
+    note(&text, problem_style()).render(area, buf);
+}

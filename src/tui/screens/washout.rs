@@ -1,0 +1,73 @@
+//! Screen 5, the washout: each half-life after the last dose as a clock time, predicted
+//! level and fraction remaining, in a table and a chart, and when the threshold is reached.
+
+use ratatui::buffer::Buffer;
+use ratatui::layout::{Constraint, Layout, Rect};
+use ratatui::style::{Modifier, Style};
+use ratatui::text::Line;
+use ratatui::widgets::{Paragraph, Widget};
+
+use crate::core::clock::span_words;
+use crate::core::report::num;
+use crate::tui::app::App;
+use crate::tui::screens::fit::no_figures;
+use crate::tui::strings;
+use crate::tui::widgets::chart::SemiLogChart;
+use crate::tui::widgets::{self, heading, quiet};
+
+/// Draw the washout screen.
+pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
+    let (Some(r), Some(chart)) = (
+        app.figures.report.as_ref(),
+        app.figures.charts.washout.as_ref(),
+    ) else {
+        return no_figures(app, area, buf);
+    };
+    let left_w = if area.width >= 120 { 60 } else { 41 };
+    let [left, right] =
+        Layout::horizontal([Constraint::Length(left_w), Constraint::Min(1)]).areas(area);
+    let unit = r.unit.as_str();
+    let w = usize::from(left_w).saturating_sub(2);
+    let mut lines = vec![
+        Line::styled(
+            strings::washout_heading(
+                &r.washout_from.readable(false),
+                &span_words(r.fit.half_life_h),
+            ),
+            heading(),
+        ),
+        Line::styled(strings::WASHOUT_COLUMNS, quiet()),
+    ];
+    for row in &r.washout {
+        lines.push(Line::raw(format!(
+            "{:>2}  {:<15} {:<11} {:>6} %",
+            row.half_lives,
+            row.at.readable(false),
+            format!("{} {unit}", num(row.level)),
+            num(row.fraction_remaining * 100.0)
+        )));
+    }
+    lines.push(Line::raw(""));
+    let text = match &r.threshold {
+        Some(t) if t.hours_from_t0 <= 0.0 => {
+            strings::washout_already_below(&num(t.below), unit, &t.t0.readable(false))
+        }
+        Some(t) => strings::washout_threshold(&num(t.below), unit, &t.reached_at.readable(false)),
+        None => strings::WASHOUT_NO_THRESHOLD.into(),
+    };
+    let style = if r.threshold.is_some() {
+        Style::new().add_modifier(Modifier::BOLD)
+    } else {
+        quiet()
+    };
+    for l in widgets::wrap(&text, w) {
+        lines.push(Line::styled(l, style));
+    }
+    Paragraph::new(lines).render(left, buf);
+    let chart_area = Rect {
+        x: right.x + 1,
+        width: right.width.saturating_sub(1),
+        ..right
+    };
+    SemiLogChart { data: chart, unit }.render(chart_area, buf);
+}

@@ -1,0 +1,601 @@
+//! Every word the bedside UI shows, in one place.
+
+use crate::core::fit::VolumeMethod;
+use crate::core::report::{num, Report};
+use crate::tui::app::{App, Screen};
+use crate::tui::fields::Field;
+use crate::tui::figures::ThresholdFrom;
+
+// ---- frame -------------------------------------------------------------------------------
+
+/// The word in front of the caution banner.
+pub const CAUTION_WORD: &str = "CAUTION:";
+/// Shown after the title when there are unsaved changes.
+pub const UNSAVED_MARK: &str = " (unsaved)";
+/// The title of a case not yet saved.
+pub const NEW_CASE: &str = "new case";
+/// The title of the demo case.
+pub const DEMO_TITLE: &str = "demo case (invented)";
+/// The first message of a new case.
+pub const NEW_CASE_HINT: &str =
+    "New case: go down to the doses (a adds one), then the levels. ? lists the keys.";
+/// Shown when a file could not be opened.
+pub const LOAD_FAILED: &str =
+    "The file could not be opened; Ctrl-S saves this case under a name you choose.";
+
+/// The name of a screen on the tab line.
+pub fn screen_name(s: Screen) -> &'static str {
+    match s {
+        Screen::Case => "Case",
+        Screen::Fit => "Fit",
+        Screen::Plan => "Plan",
+        Screen::Threshold => "Threshold",
+        Screen::Washout => "Washout",
+    }
+}
+
+/// The request for a larger window.
+pub fn enlarge(min_w: u16, min_h: u16, w: u16, h: u16) -> String {
+    format!("Please enlarge the window to at least {min_w} x {min_h} (it is {w} x {h}).")
+}
+
+/// The key hint line of a screen.
+pub fn hint(s: Screen) -> &'static str {
+    match s {
+        Screen::Case => {
+            "↑↓←→ move  Enter edit  a add row  x delete  u use  ? keys  Ctrl-S save  q quit"
+        }
+        Screen::Fit => "↑↓ level  Space/u use in fit  1-5/Tab screens  ? keys  Ctrl-S save  q quit",
+        Screen::Plan => {
+            "+/- dose  [ ] interval  { } infusion  r route  ↑↓ Enter edit  ? keys  q quit"
+        }
+        Screen::Threshold => {
+            "↑↓ field  Enter edit  Delete clear  1-5/Tab screens  ? keys  Ctrl-S save  q quit"
+        }
+        Screen::Washout => "1-5/Tab screens  ? keys  Ctrl-S save  q quit",
+    }
+}
+/// The key hint line while editing.
+pub const HINT_EDITING: &str = "Enter accept  Esc cancel  ←→ Home End move  Backspace Delete erase";
+/// The key hint line while the help is shown.
+pub const HINT_HELP: &str = "? or Esc closes the key list";
+/// The key hint line while a question waits.
+pub const HINT_CONFIRM: &str = "y yes  n or Esc no";
+
+/// The title of the help overlay.
+pub fn help_title(s: Screen) -> String {
+    format!("Keys: {} screen", screen_name(s))
+}
+
+/// Keys of the case screen.
+pub const KEYS_CASE: &[(&str, &str)] = &[
+    ("↑ ↓", "move between fields and rows"),
+    ("← →", "move between the columns of a row"),
+    ("Enter", "edit the field (a choice steps to its next value)"),
+    ("Space", "step a choice; on a level row, toggle use in fit"),
+    ("a", "add a dose or a level (in the table the cursor is in)"),
+    ("x", "delete the dose or level row (asks first)"),
+    ("u", "toggle use in fit of the level row"),
+    ("Delete", "clear an optional field"),
+];
+/// Keys of the fit screen.
+pub const KEYS_FIT: &[(&str, &str)] = &[
+    ("↑ ↓", "select a level"),
+    ("Space, u", "toggle use in fit of the selected level"),
+];
+/// Keys of the plan screen.
+pub const KEYS_PLAN: &[(&str, &str)] = &[
+    ("+ -", "raise or lower the dose by about 5 %"),
+    ("] [", "next longer or shorter usual interval"),
+    ("} {", "infusion time 0.25 h longer or shorter"),
+    ("r", "next route (bolus, infusion, oral)"),
+    ("↑ ↓", "select a field"),
+    ("Enter", "type a value (targets as low-high, e.g. 5-10)"),
+    ("Delete", "clear an optional field"),
+];
+/// Keys of the threshold screen.
+pub const KEYS_THRESHOLD: &[(&str, &str)] = &[
+    ("↑ ↓", "select the threshold or the procedure time"),
+    ("Enter", "type a value (time as 2027-03-02 08:00)"),
+    ("Delete", "clear it (clearing the threshold removes both)"),
+];
+/// Keys of the washout screen.
+pub const KEYS_WASHOUT: &[(&str, &str)] = &[];
+/// Keys while a field is edited.
+pub const KEYS_EDITING: &[(&str, &str)] =
+    &[("Enter / Esc", "in a field: accept / cancel the typing")];
+/// Keys that work on every screen.
+pub const KEYS_GLOBAL: &[(&str, &str)] = &[
+    ("1 … 5", "go to Case, Fit, Plan, Threshold, Washout"),
+    ("Tab, Shift-Tab", "next, previous screen"),
+    (
+        "Ctrl-S",
+        "save the case (asks for a file name the first time)",
+    ),
+    ("?", "show or hide this list"),
+    (
+        "q, Ctrl-C",
+        "quit (asks first when there are unsaved changes)",
+    ),
+];
+
+// ---- popups ------------------------------------------------------------------------------
+
+/// Title of the quit question.
+pub const CONFIRM_QUIT_TITLE: &str = "Unsaved changes";
+/// The quit question.
+pub const CONFIRM_QUIT: &str =
+    "The case has changes that are not saved.\ny: quit without saving   s: save, then quit\nn or Esc: stay";
+/// Title of the delete question.
+pub const CONFIRM_DELETE_TITLE: &str = "Delete a row";
+/// The delete question for a dose.
+pub fn confirm_delete_dose(row: usize) -> String {
+    format!("Delete dose {row} from the record?\ny: delete   n or Esc: keep it")
+}
+/// The delete question for a level.
+pub fn confirm_delete_level(row: usize) -> String {
+    format!(
+        "Delete level {row}? (u leaves it out of the fit instead)\ny: delete   n or Esc: keep it"
+    )
+}
+/// Title of the save-as prompt.
+pub const SAVE_AS_TITLE: &str = "Save the case";
+/// The save-as prompt.
+pub const SAVE_AS_PROMPT: &str = "File name (TOML), then Enter; Esc cancels:";
+/// Said when saving over a file that failed to load.
+pub const SAVE_OVER_BROKEN: &str =
+    "The file named here failed to load; saving to it replaces what it holds.";
+
+// ---- messages ----------------------------------------------------------------------------
+
+/// A number is needed.
+pub const ENTER_A_NUMBER: &str = "enter a number";
+/// Text that is not a number.
+pub fn not_a_number(t: &str) -> String {
+    format!("\"{t}\" is not a number")
+}
+/// Text that is not a range.
+pub const NOT_A_RANGE: &str = "write a range as low-high, for example 5-10";
+/// Text that is not a date-time.
+pub fn not_a_datetime(t: &str) -> String {
+    if t.is_empty() {
+        "write the time as 2027-03-02 08:00".into()
+    } else {
+        format!("\"{t}\": write the time as 2027-03-02 08:00")
+    }
+}
+/// A date-time that does not exist.
+pub fn no_such_datetime(t: &str) -> String {
+    format!("\"{t}\" is not a real date and time")
+}
+/// Procedure time without a threshold.
+pub const THRESHOLD_FIRST: &str = "set the threshold level first";
+/// Typing into a choice.
+pub const CHOICE_NOT_TYPED: &str = "this field is chosen with Enter or Space, not typed";
+/// Stepping a typed field.
+pub const TYPED_NOT_CHOICE: &str = "this field is typed: press Enter";
+/// A row that is gone.
+pub const NO_SUCH_ROW: &str = "that row no longer exists";
+/// Cancelled edit.
+pub const EDIT_CANCELLED: &str = "Edit cancelled; nothing changed.";
+/// Cancelled question.
+pub const NOTHING_DONE: &str = "Nothing changed.";
+/// A new row was abandoned.
+pub const ROW_NOT_ADDED: &str = "Row not added.";
+/// No file name typed.
+pub const TYPE_A_FILE_NAME: &str = "type a file name";
+/// `a` away from the tables.
+pub const ADD_WHERE: &str = "Move down to the doses or the levels to add a row there.";
+/// `x` away from the tables.
+pub const DELETE_WHERE: &str = "Select a dose or level row to delete it.";
+/// `u` away from a level.
+pub const TOGGLE_WHERE: &str = "Select a level to include it in or leave it out of the fit.";
+/// A new row could not get a time.
+pub const NO_TIME_FOR_ROW: &str =
+    "No time could be proposed for the new row; check the last row's time.";
+/// After `a` on the doses.
+pub const NEW_DOSE_HINT: &str =
+    "New dose: type its time, Enter, then its amount. Esc drops the row.";
+/// After `a` on the levels.
+pub const NEW_LEVEL_HINT: &str =
+    "New level: type its time, Enter, then its value. Esc drops the row.";
+/// Nothing to clear.
+pub const NOTHING_TO_CLEAR: &str = "Nothing to clear.";
+/// A plan was made from the record.
+pub const PLAN_STARTED: &str =
+    "A plan was started from the last recorded dose; adjust it with + - [ ] { } r.";
+/// Dose cannot go lower.
+pub const DOSE_AT_LEAST: &str = "the dose cannot go lower";
+/// Interval ladder ended.
+pub const NO_FURTHER_INTERVAL: &str =
+    "no usual interval further that way; press Enter on Interval to type one";
+/// Infusion keys on a non-infusion plan.
+pub const NOT_AN_INFUSION: &str = "the plan is not an infusion; press r to change the route";
+/// Infusion cannot go lower.
+pub const INFUSION_AT_LEAST: &str = "the infusion time cannot go below 0.25 h";
+
+/// A field's new value.
+pub fn now_is(name: &str, value: &str) -> String {
+    if value.is_empty() {
+        format!("{name}: cleared.")
+    } else {
+        format!("{name}: {value}.")
+    }
+}
+/// A field cleared.
+pub fn cleared(name: &str) -> String {
+    format!("{name}: cleared.")
+}
+/// A field that must keep a value.
+pub fn cannot_clear(name: &str) -> String {
+    format!("{name} cannot be empty; press Enter to change it.")
+}
+/// Typed text refused.
+pub fn not_accepted(name: &str, why: &str) -> String {
+    format!("{name} not changed: {why}")
+}
+/// After deleting a dose.
+pub fn dose_deleted(row: usize) -> String {
+    format!("Dose {row} deleted.")
+}
+/// After deleting a level.
+pub fn level_deleted(row: usize) -> String {
+    format!("Level {row} deleted.")
+}
+/// After toggling a level's use.
+pub fn level_use_now(row: usize, used: bool) -> String {
+    if used {
+        format!("Level {row} is used in the fit.")
+    } else {
+        format!("Level {row} is left out of the fit (kept on record).")
+    }
+}
+/// After saving.
+pub fn saved_to(path: &str) -> String {
+    format!("Saved to {path}.")
+}
+/// A failed save.
+pub fn save_failed(path: &str, why: &str) -> String {
+    format!("Not saved to {path}: {why}")
+}
+
+fn plan_text(app: &App, f: impl Fn(&crate::core::casefile::PlanFile) -> String) -> String {
+    app.file.plan.as_ref().map(f).unwrap_or_default()
+}
+/// After changing the plan dose.
+pub fn plan_dose_now(app: &App) -> String {
+    plan_text(app, |p| format!("Plan dose {} mg.", num(p.dose_mg)))
+}
+/// After changing the interval.
+pub fn plan_interval_now(app: &App) -> String {
+    plan_text(app, |p| format!("Plan interval {} h.", num(p.interval_h)))
+}
+/// After changing the infusion time.
+pub fn plan_infusion_now(app: &App) -> String {
+    plan_text(app, |p| {
+        format!(
+            "Plan infusion over {} h.",
+            p.infusion_h.map(num).unwrap_or_default()
+        )
+    })
+}
+/// After changing the route.
+pub fn plan_route_now(app: &App) -> String {
+    plan_text(app, |p| format!("Plan route {}.", p.route))
+}
+
+// ---- fields ------------------------------------------------------------------------------
+
+/// "yes" (a level in use).
+pub const YES: &str = "yes";
+/// "no" (a level left out).
+pub const NO: &str = "no";
+
+/// A field's label and unit on screen.
+pub fn field_label(f: Field) -> (&'static str, &'static str) {
+    match f {
+        Field::Label => ("Label", ""),
+        Field::Weight => ("Weight", "kg"),
+        Field::Age => ("Age", "years"),
+        Field::Sex => ("Sex", ""),
+        Field::CreatinineMgDl => ("Creatinine", "mg/dL"),
+        Field::CreatinineUmolL => ("Creatinine", "umol/L (or mg/dL, not both)"),
+        Field::DrugName => ("Name", ""),
+        Field::Unit => ("Level unit", "(Enter steps)"),
+        Field::MolarMass => ("Molar mass", "g/mol (mmol/L, umol/L)"),
+        Field::DoseTime(_) => ("Time", ""),
+        Field::DoseAmount(_) => ("Amount", "mg"),
+        Field::DoseRoute(_) => ("Route", ""),
+        Field::DoseInfusion(_) => ("Infusion", "h"),
+        Field::DoseF(_) => ("F", ""),
+        Field::LevelTime(_) => ("Time", ""),
+        Field::LevelValue(_) => ("Value", ""),
+        Field::LevelUse(_) => ("Use", ""),
+        Field::LevelNote(_) => ("Note", ""),
+        Field::PlanDose => ("Dose", "mg"),
+        Field::PlanInterval => ("Interval", "h"),
+        Field::PlanRoute => ("Route", ""),
+        Field::PlanInfusion => ("Infusion", "h"),
+        Field::PlanF => ("Oral F", ""),
+        Field::PlanStart => ("First dose", ""),
+        Field::TargetPeak => ("Peak target", ""),
+        Field::TargetTrough => ("Trough max", ""),
+        Field::TargetAuc => ("AUC24 target", ""),
+        Field::ThresholdBelow => ("Below", ""),
+        Field::ThresholdProcedure => ("Procedure", ""),
+    }
+}
+
+/// A field's name in messages.
+pub fn field_name(f: Field) -> String {
+    let (label, _) = field_label(f);
+    match f {
+        Field::DoseTime(i)
+        | Field::DoseAmount(i)
+        | Field::DoseRoute(i)
+        | Field::DoseInfusion(i)
+        | Field::DoseF(i) => format!("Dose {} {}", i + 1, label.to_lowercase()),
+        Field::LevelTime(i) | Field::LevelValue(i) | Field::LevelUse(i) | Field::LevelNote(i) => {
+            format!("Level {} {}", i + 1, label.to_lowercase())
+        }
+        Field::PlanDose | Field::PlanInterval | Field::PlanRoute | Field::PlanInfusion => {
+            format!("Plan {}", label.to_lowercase())
+        }
+        Field::ThresholdBelow => "Threshold".into(),
+        Field::ThresholdProcedure => "Procedure time".into(),
+        _ => label.to_string(),
+    }
+}
+
+// ---- case screen -------------------------------------------------------------------------
+
+/// Heading.
+pub const PATIENT: &str = "Patient";
+/// Heading.
+pub const DRUG: &str = "Drug";
+/// Heading.
+pub const DOSES: &str = "Doses given";
+/// Heading of the levels table.
+pub fn levels_heading(unit: &str) -> String {
+    format!("Levels measured ({unit})")
+}
+/// Dose table columns.
+pub const DOSE_COLUMNS: [&str; 6] = ["#", "time", "amount", "route", "infusion", "F"];
+/// Level table columns.
+pub const LEVEL_COLUMNS: [&str; 5] = ["#", "time", "value", "use", "note"];
+/// The add-a-dose line.
+pub const ADD_DOSE: &str = "+ add a dose (a)";
+/// The add-a-level line.
+pub const ADD_LEVEL: &str = "+ add a level (a)";
+/// Before an invalid case's problem.
+pub const CASE_PROBLEM: &str = "✗ Check the case:";
+/// Before the error of a file that could not be opened.
+pub const COULD_NOT_OPEN: &str = "✗ Could not open:";
+/// Before a fit that cannot be made yet.
+pub const NO_FIT_YET: &str = "No fit yet:";
+
+/// The fit in one line under the case tables.
+pub fn fit_summary(r: &Report) -> String {
+    let f = &r.fit;
+    format!(
+        "Fit: k {} /h, half-life {} h, from levels {} ({}) — screen 2 has the details",
+        num(f.k_per_h),
+        num(f.half_life_h),
+        f.level_rows
+            .iter()
+            .map(|x| x.to_string())
+            .collect::<Vec<_>>()
+            .join(", "),
+        f.method
+    )
+}
+
+// ---- fit screen --------------------------------------------------------------------------
+
+/// The fit heading.
+pub fn fit_heading(method: &str, rows: &str, dose: usize) -> String {
+    format!("{method} fit, levels {rows} (dose {dose})")
+}
+/// Label.
+pub const K: &str = "k";
+/// Label.
+pub const HALF_LIFE: &str = "half-life";
+/// Label.
+pub const R_SQUARED: &str = "r²";
+/// Label.
+pub const VOLUME: &str = "volume";
+/// Label.
+pub const CLEARANCE: &str = "clearance";
+/// r² of a two-point fit.
+pub const NOT_FOR_TWO: &str = "— (two levels)";
+/// A figure that cannot be known.
+pub const NOT_KNOWN: &str = "not known";
+/// No interval.
+pub const NO_INTERVAL: &str = "no 95 % interval";
+/// A 95 % interval.
+pub fn ci95(lo: &str, hi: &str) -> String {
+    format!("(95 % {lo}–{hi})")
+}
+/// How the volume was found.
+pub fn volume_how(m: Option<&str>, pre_dose_row: Option<usize>) -> String {
+    match (m, pre_dose_row) {
+        (Some(m), Some(r)) if m == VolumeMethod::PreDoseLevel.name() => {
+            format!("by pre-dose level {r}")
+        }
+        (Some(m), _) => format!("by {m}"),
+        (None, _) => "no dose amounts".into(),
+    }
+}
+/// Heading.
+pub const LEVELS_AND_RESIDUALS: &str = "Levels                   status     resid. ln";
+/// Level status.
+pub const IN_FIT: &str = "in fit";
+/// Level status.
+pub const NOT_IN_FIT: &str = "other dose";
+/// Level status.
+pub const LEFT_OUT: &str = "left out";
+/// Heading.
+pub const WARNINGS: &str = "Warnings";
+/// No warnings.
+pub const NO_WARNINGS: &str = "none";
+/// The reason a screen has no figures.
+pub fn no_figures(why: &str) -> String {
+    format!("No figures yet. {why}")
+}
+/// No figures, no reason known.
+pub const NO_FIGURES_PLAIN: &str = "No figures yet.";
+
+// ---- charts ------------------------------------------------------------------------------
+
+/// The unit note at the start of a legend.
+pub fn chart_unit(unit: &str) -> String {
+    format!("{unit}, log scale")
+}
+/// Chart too small.
+pub const CHART_NO_ROOM: &str = "(no room or nothing to chart)";
+/// Legend.
+pub const LEGEND_MODEL: &str = "model";
+/// Legend.
+pub const LEGEND_FITTED: &str = "fitted";
+/// Legend.
+pub const LEGEND_PLAN: &str = "plan";
+/// Legend.
+pub const LEGEND_IN_FIT: &str = "in fit";
+/// Legend.
+pub const LEGEND_NOT_IN_FIT: &str = "other dose";
+/// Legend.
+pub const LEGEND_LEFT_OUT: &str = "left out";
+/// Legend.
+pub const LEGEND_HALF_LIVES: &str = "half-lives";
+/// Legend.
+pub const LEGEND_REACHED: &str = "below";
+/// Legend.
+pub const LEGEND_THRESHOLD: &str = "threshold";
+/// Legend.
+pub const LEGEND_TROUGH_TARGET: &str = "trough max";
+/// Legend.
+pub const LEGEND_PROCEDURE: &str = "procedure";
+/// Marker of a level in the fit.
+pub const MARK_IN_FIT: &str = "●";
+/// Marker of a level used but outside the fitted interval.
+pub const MARK_NOT_IN_FIT: &str = "○";
+/// Marker of a level left out.
+pub const MARK_LEFT_OUT: &str = "×";
+/// Marker of the threshold crossing.
+pub const MARK_REACHED: &str = "▼";
+
+// ---- plan screen -------------------------------------------------------------------------
+
+/// Heading.
+pub const REGIMEN: &str = "Regimen and targets";
+/// Heading.
+pub const AT_STEADY_STATE: &str = "At steady state";
+/// No plan.
+pub const NO_PLAN: &str = "No plan yet: press + or ] to start one from the last dose.";
+/// No plan chart.
+pub const NO_PLAN_CHART: &str = "The course to steady state needs a plan and a volume.";
+/// Label.
+pub const PEAK: &str = "Peak";
+/// Label.
+pub const TROUGH: &str = "Trough";
+/// Label.
+pub const AUC24: &str = "AUC24";
+/// Label.
+pub const ACCUMULATION: &str = "Accumulation";
+/// Target met.
+pub const MET: &str = "✓ met";
+/// Target not met.
+pub const NOT_MET: &str = "✗ NOT met";
+/// No target given.
+pub const NO_TARGET: &str = "(no target)";
+/// Time-to-steady-state label.
+pub fn ss_after(pct: &str) -> String {
+    format!("{pct} % of steady state after ")
+}
+/// The first plan dose when the case does not give it.
+pub fn start_by_default(when: &str) -> String {
+    format!("{when} (last dose + interval)")
+}
+
+// ---- threshold screen --------------------------------------------------------------------
+
+/// Heading.
+pub const THRESHOLD_HEADING: &str = "Threshold";
+/// Heading.
+pub const WHEN_BELOW: &str = "When the level is below it";
+/// No threshold set.
+pub const NO_THRESHOLD: &str =
+    "No threshold set: press Enter on Below and type the level it must fall under.";
+/// No procedure time.
+pub const NO_PROCEDURE: &str = "Set a procedure time to see the last plan dose that may be given.";
+/// No interval for the range.
+pub const NO_RANGE: &str =
+    "95 % range not known (k has no interval: three or more levels give one).";
+/// The clock time it is below.
+pub fn below_at(when: &str, span: &str) -> String {
+    format!("{when}, in {span}")
+}
+/// Already below.
+pub fn already_below(when: &str, c0: &str, unit: &str) -> String {
+    format!("Already at or below it at {when} ({c0} {unit}).")
+}
+/// Words for where the count starts.
+pub fn threshold_from(from: Option<ThresholdFrom>) -> &'static str {
+    match from {
+        Some(ThresholdFrom::LastDoseEnd) => "the end of the last dose",
+        Some(ThresholdFrom::LastLevel) => "the last level",
+        Some(ThresholdFrom::LastFittedLevel) | None => "the last fitted level",
+    }
+}
+/// Where the count starts.
+pub fn counted_from(from: &str, when: &str, c0: &str, unit: &str) -> String {
+    format!("counted from {from}, {when} ({c0} {unit} then), with no further dose")
+}
+/// The 95 % range.
+pub fn range95(a: &str, b: &str) -> String {
+    format!("95 % range: {a} to {b}")
+}
+/// Procedure heading.
+pub fn procedure_heading(when: &str) -> String {
+    format!("Procedure {when}")
+}
+/// The last plan dose that may be given.
+pub fn last_plan_dose(when: &str, level: &str, unit: &str) -> String {
+    format!("Last plan dose that may still be given: {when} (level at the procedure {level} {unit}, below ✓).")
+}
+/// No plan dose may be given.
+pub fn hold_every_dose(level: &str, unit: &str) -> String {
+    format!("Hold every plan dose: even the first leaves it above the threshold (with none: {level} {unit}).")
+}
+/// Not below even holding.
+pub fn not_below_even_holding(level: &str, unit: &str) -> String {
+    format!("✗ NOT below at the procedure even with every plan dose held ({level} {unit} then).")
+}
+/// Level at the procedure, no plan.
+pub fn level_at_procedure(level: &str, unit: &str, below: bool) -> String {
+    if below {
+        format!("Level at the procedure {level} {unit}: below ✓.")
+    } else {
+        format!("Level at the procedure {level} {unit}: ✗ NOT below.")
+    }
+}
+
+// ---- washout screen ----------------------------------------------------------------------
+
+/// Heading.
+pub fn washout_heading(from: &str, half_life: &str) -> String {
+    format!("From {from}, each half-life ({half_life})")
+}
+/// Table heading.
+pub const WASHOUT_COLUMNS: &str = " n  when            level        left";
+/// No threshold.
+pub const WASHOUT_NO_THRESHOLD: &str =
+    "Set a threshold on screen 4 to see when a following agent may start.";
+/// The threshold crossing.
+pub fn washout_threshold(below: &str, unit: &str, when: &str) -> String {
+    format!("Below the threshold of {below} {unit} at {when}: a following agent may start from then (per local protocol).")
+}
+/// Already below.
+pub fn washout_already_below(below: &str, unit: &str, when: &str) -> String {
+    format!("Already below the threshold of {below} {unit} at {when}.")
+}

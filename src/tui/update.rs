@@ -1,0 +1,630 @@
+//! Intents applied to the state: the only place the app changes. Every change of the case
+//! goes through `App::change`, which recomputes the figures through the core.
+
+use std::path::PathBuf;
+
+use crate::core::casefile::{DoseFile, LevelFile};
+use crate::tui::action::Action;
+use crate::tui::app::{App, Confirm, Editor, Mode, NewRow, Screen, Target};
+use crate::tui::entry;
+use crate::tui::fields::{self, Field, Kind};
+use crate::tui::screens::{self, CaseLine, PLAN_FIELDS, THRESHOLD_FIELDS};
+use crate::tui::store;
+use crate::tui::strings;
+
+/// The usual dosing intervals `[` and `]` step through, in hours.
+pub const INTERVALS_H: [f64; 15] = [
+    1.0, 2.0, 3.0, 4.0, 6.0, 8.0, 12.0, 18.0, 24.0, 36.0, 48.0, 72.0, 96.0, 120.0, 168.0,
+];
+/// How much `{` and `}` change the infusion time, in hours.
+pub const INFUSION_STEP_H: f64 = 0.25;
+/// The gap a new level gets after the previous one, in hours.
+const NEW_LEVEL_GAP_H: f64 = 1.0;
+
+/// Apply one intent.
+pub fn update(app: &mut App, action: Action) {
+    match app.mode.clone() {
+        Mode::Quitting => {}
+        Mode::Help => {
+            if matches!(action, Action::Help | Action::Cancel) {
+                app.mode = Mode::Normal;
+            } else if action == Action::Quit {
+                app.mode = Mode::Normal;
+                quit(app);
+            }
+        }
+        Mode::Confirm(c) => confirm(app, c, action),
+        Mode::Editing(ed) => edit(app, ed, action),
+        Mode::Normal => normal(app, action),
+    }
+}
+
+fn quit(app: &mut App) {
+    if app.dirty {
+        app.mode = Mode::Confirm(Confirm::Quit);
+    } else {
+        app.mode = Mode::Quitting;
+    }
+}
+
+fn confirm(app: &mut App, c: Confirm, action: Action) {
+    match (c, action) {
+        (Confirm::Quit, Action::Yes) => app.mode = Mode::Quitting,
+        (Confirm::Quit, Action::SaveThenQuit) => {
+            app.mode = Mode::Normal;
+            app.quit_after_save = true;
+            save(app);
+        }
+        (Confirm::DeleteDose(i), Action::Yes) => {
+            app.mode = Mode::Normal;
+            let r = app.change(|f| {
+                if i < f.doses.len() {
+                    f.doses.remove(i);
+                }
+                Ok(())
+            });
+            report(app, r, strings::dose_deleted(i + 1));
+            clamp_cursor(app);
+        }
+        (Confirm::DeleteLevel(i), Action::Yes) => {
+            app.mode = Mode::Normal;
+            let r = app.change(|f| {
+                if i < f.levels.len() {
+                    f.levels.remove(i);
+                }
+                Ok(())
+            });
+            report(app, r, strings::level_deleted(i + 1));
+            clamp_cursor(app);
+        }
+        (_, Action::No | Action::Cancel) => {
+            app.mode = Mode::Normal;
+            app.say(strings::NOTHING_DONE);
+        }
+        (_, Action::Quit) => app.mode = Mode::Normal,
+        _ => {}
+    }
+}
+
+fn report(app: &mut App, r: Result<(), String>, ok: String) {
+    match r {
+        Ok(()) => app.say(ok),
+        Err(e) => app.complain(e),
+    }
+}
+
+fn normal(app: &mut App, action: Action) {
+    match action {
+        Action::Quit => quit(app),
+        Action::Save => save(app),
+        Action::Help => app.mode = Mode::Help,
+        Action::Show(s) => app.screen = s,
+        Action::NextScreen(back) => app.screen = app.screen.step(back),
+        Action::Cancel => app.message = None,
+        Action::Up => move_selection(app, -1),
+        Action::Down => move_selection(app, 1),
+        Action::Left => app.cursors.case_col = app.cursors.case_col.saturating_sub(1),
+        Action::Right => {
+            let max = match screens::selected_case_line(app) {
+                CaseLine::Dose(_) => 4,
+                CaseLine::Level(_) => 3,
+                _ => 0,
+            };
+            app.cursors.case_col = (app.cursors.case_col + 1).min(max);
+        }
+        Action::Activate => activate(app, false),
+        Action::Step => activate(app, true),
+        Action::AddRow => add_row(app),
+        Action::DeleteRow => delete_row(app),
+        Action::ToggleUse => toggle_use(app),
+        Action::Clear => clear(app),
+        Action::PlanDose(up) => plan_dose(app, up),
+        Action::PlanInterval(up) => plan_interval(app, up),
+        Action::PlanInfusion(up) => plan_infusion(app, up),
+        Action::PlanRoute => {
+            let had = app.file.plan.is_some();
+            let r = app.change(|f| Field::PlanRoute.cycle(f, false));
+            plan_said(app, r, had, strings::plan_route_now);
+        }
+        _ => {}
+    }
+}
+
+fn move_selection(app: &mut App, by: isize) {
+    let step = |i: usize, n: usize| -> usize {
+        if n == 0 {
+            return 0;
+        }
+        (i as isize + by).clamp(0, n as isize - 1) as usize
+    };
+    match app.screen {
+        Screen::Case => {
+            let n = screens::case_lines(&app.file).len();
+            app.cursors.case_line = step(app.cursors.case_line, n);
+        }
+        Screen::Fit => {
+            let n = app.file.levels.len();
+            app.cursors.fit_level = step(app.cursors.fit_level, n);
+        }
+        Screen::Plan => app.cursors.plan = step(app.cursors.plan, PLAN_FIELDS.len()),
+        Screen::Threshold => {
+            app.cursors.threshold = step(app.cursors.threshold, THRESHOLD_FIELDS.len())
+        }
+        Screen::Washout => {}
+    }
+}
+
+fn clamp_cursor(app: &mut App) {
+    let n = screens::case_lines(&app.file).len();
+    app.cursors.case_line = app.cursors.case_line.min(n.saturating_sub(1));
+    app.cursors.fit_level = app
+        .cursors
+        .fit_level
+        .min(app.file.levels.len().saturating_sub(1));
+}
+
+/// Open an editor on `field`, checking the starting text at once.
+pub fn open_editor(app: &mut App, field: Field) {
+    let mut ed = Editor::new(Target::Field(field), field.text(&app.file));
+    check(app, &mut ed);
+    app.mode = Mode::Editing(ed);
+}
+
+fn activate(app: &mut App, space: bool) {
+    if app.screen == Screen::Case {
+        match screens::selected_case_line(app) {
+            CaseLine::AddDose | CaseLine::AddLevel if !space => return add_row(app),
+            CaseLine::AddDose | CaseLine::AddLevel => return,
+            CaseLine::Level(i) if space && app.cursors.case_col != 2 => {
+                let _ = i;
+                return toggle_use(app);
+            }
+            _ => {}
+        }
+    }
+    let Some(field) = screens::selected_field(app) else {
+        return;
+    };
+    match field.kind() {
+        Kind::Choice => {
+            let had_plan = app.file.plan.is_some();
+            let r = app.change(|f| field.cycle(f, false));
+            match r {
+                Ok(()) if field == Field::PlanRoute => {
+                    plan_said(app, Ok(()), had_plan, strings::plan_route_now)
+                }
+                Ok(()) => app.say(strings::now_is(&field.name(), &field.text(&app.file))),
+                Err(e) => app.complain(e),
+            }
+        }
+        Kind::Text if space => {}
+        Kind::Text => open_editor(app, field),
+    }
+}
+
+/// Check the editor's text: does it parse, and does the case still validate with it?
+fn check(app: &App, ed: &mut Editor) {
+    ed.error = match ed.target {
+        Target::SavePath => {
+            (ed.buffer.trim().is_empty()).then(|| strings::TYPE_A_FILE_NAME.to_string())
+        }
+        Target::Field(field) => {
+            let mut trial = app.file.clone();
+            match field.set_text(&mut trial, &ed.buffer) {
+                Err(e) => Some(e),
+                Ok(()) => match trial.validate() {
+                    Err(crate::core::error::Error::Invalid { place, message })
+                        if field.owns_place(&place) =>
+                    {
+                        Some(message)
+                    }
+                    _ => None,
+                },
+            }
+        }
+    };
+}
+
+fn edit(app: &mut App, mut ed: Editor, action: Action) {
+    let len = ed.buffer.chars().count();
+    let byte = |s: &str, i: usize| s.char_indices().nth(i).map(|(b, _)| b).unwrap_or(s.len());
+    match action {
+        Action::Quit => {
+            app.mode = Mode::Normal;
+            return quit(app);
+        }
+        Action::Type(c) => {
+            let at = byte(&ed.buffer, ed.cursor);
+            ed.buffer.insert(at, c);
+            ed.cursor += 1;
+        }
+        Action::Backspace if ed.cursor > 0 => {
+            let at = byte(&ed.buffer, ed.cursor - 1);
+            ed.buffer.remove(at);
+            ed.cursor -= 1;
+        }
+        Action::DeleteForward if ed.cursor < len => {
+            let at = byte(&ed.buffer, ed.cursor);
+            ed.buffer.remove(at);
+        }
+        Action::CursorLeft => ed.cursor = ed.cursor.saturating_sub(1),
+        Action::CursorRight => ed.cursor = (ed.cursor + 1).min(len),
+        Action::CursorHome => ed.cursor = 0,
+        Action::CursorEnd => ed.cursor = len,
+        Action::Cancel => {
+            app.mode = Mode::Normal;
+            app.quit_after_save = false;
+            if let Some(row) = ed.new_row {
+                let r = app.change(|f| {
+                    match row {
+                        NewRow::Dose(i) if i < f.doses.len() => {
+                            f.doses.remove(i);
+                        }
+                        NewRow::Level(i) if i < f.levels.len() => {
+                            f.levels.remove(i);
+                        }
+                        _ => {}
+                    }
+                    Ok(())
+                });
+                clamp_cursor(app);
+                report(app, r, strings::ROW_NOT_ADDED.into());
+            } else {
+                app.say(strings::EDIT_CANCELLED);
+            }
+            return;
+        }
+        Action::Accept => return accept(app, ed),
+        _ => {}
+    }
+    check(app, &mut ed);
+    app.mode = Mode::Editing(ed);
+}
+
+fn accept(app: &mut App, mut ed: Editor) {
+    match ed.target {
+        Target::SavePath => {
+            let name = ed.buffer.trim();
+            if name.is_empty() {
+                ed.error = Some(strings::TYPE_A_FILE_NAME.into());
+                app.mode = Mode::Editing(ed);
+                return;
+            }
+            let path = PathBuf::from(name);
+            app.mode = Mode::Normal;
+            save_to(app, path);
+        }
+        Target::Field(field) => {
+            let text = ed.buffer.clone();
+            match app.change(|f| field.set_text(f, &text)) {
+                Err(e) => {
+                    ed.error = Some(e.clone());
+                    app.complain(strings::not_accepted(&field.name(), &e));
+                    app.mode = Mode::Editing(ed);
+                }
+                Ok(()) => {
+                    app.mode = Mode::Normal;
+                    match figures_problem_for(app, field) {
+                        Some(p) => app.complain(p),
+                        None => app.say(strings::now_is(&field.name(), &field.text(&app.file))),
+                    }
+                    if let Some(next) = ed.then {
+                        let mut ned = Editor::new(Target::Field(next), next.text(&app.file));
+                        ned.new_row = ed.new_row;
+                        check(app, &mut ned);
+                        app.mode = Mode::Editing(ned);
+                    }
+                }
+            }
+        }
+    }
+}
+
+fn figures_problem_for(app: &App, field: Field) -> Option<String> {
+    let p = app.figures.problem.as_ref()?;
+    match &p.place {
+        Some(place) if field.owns_place(place) => Some(p.text.clone()),
+        _ => None,
+    }
+}
+
+fn add_row(app: &mut App) {
+    if app.screen != Screen::Case {
+        return;
+    }
+    match screens::selected_case_line(app) {
+        CaseLine::Dose(_) | CaseLine::AddDose => add_dose(app),
+        CaseLine::Level(_) | CaseLine::AddLevel => add_level(app),
+        CaseLine::Field(_) => app.complain(strings::ADD_WHERE),
+    }
+}
+
+fn add_dose(app: &mut App) {
+    let last = app.file.doses.last().cloned();
+    let gap = match &app.file.plan {
+        Some(p) => p.interval_h,
+        None => fields::plan_from_record(&app.file).interval_h,
+    };
+    let time = match &last {
+        Some(d) => entry::add_hours(&d.time, gap),
+        None => now_on_the_hour(),
+    };
+    let Some(time) = time else {
+        return app.complain(strings::NO_TIME_FOR_ROW);
+    };
+    let dose = match last {
+        Some(d) => DoseFile { time, ..d },
+        None => DoseFile {
+            time,
+            amount_mg: None,
+            route: "infusion".into(),
+            infusion_h: Some(fields::DEFAULT_INFUSION_H),
+            bioavailability: None,
+        },
+    };
+    let i = app.file.doses.len();
+    if let Err(e) = app.change(|f| {
+        f.doses.push(dose);
+        Ok(())
+    }) {
+        return app.complain(e);
+    }
+    app.cursors.case_line = line_of(app, CaseLine::Dose(i));
+    app.cursors.case_col = 0;
+    let mut ed = Editor::new(
+        Target::Field(Field::DoseTime(i)),
+        Field::DoseTime(i).text(&app.file),
+    );
+    ed.then = Some(Field::DoseAmount(i));
+    ed.new_row = Some(NewRow::Dose(i));
+    check(app, &mut ed);
+    app.mode = Mode::Editing(ed);
+    app.say(strings::NEW_DOSE_HINT);
+}
+
+fn add_level(app: &mut App) {
+    let last_level = app.file.levels.last().map(|l| l.time);
+    let time = match (last_level, app.file.doses.last()) {
+        (Some(t), _) => entry::add_hours(&t, NEW_LEVEL_GAP_H),
+        (None, Some(d)) => entry::add_hours(&d.time, d.infusion_h.unwrap_or(0.0) + NEW_LEVEL_GAP_H),
+        (None, None) => now_on_the_hour(),
+    };
+    let Some(time) = time else {
+        return app.complain(strings::NO_TIME_FOR_ROW);
+    };
+    let value = app.file.levels.last().map(|l| l.value).unwrap_or(1.0);
+    let i = app.file.levels.len();
+    if let Err(e) = app.change(|f| {
+        f.levels.push(LevelFile {
+            time,
+            value,
+            use_in_fit: None,
+            note: None,
+        });
+        Ok(())
+    }) {
+        return app.complain(e);
+    }
+    app.cursors.case_line = line_of(app, CaseLine::Level(i));
+    app.cursors.case_col = 0;
+    let mut ed = Editor::new(
+        Target::Field(Field::LevelTime(i)),
+        Field::LevelTime(i).text(&app.file),
+    );
+    ed.then = Some(Field::LevelValue(i));
+    ed.new_row = Some(NewRow::Level(i));
+    check(app, &mut ed);
+    app.mode = Mode::Editing(ed);
+    app.say(strings::NEW_LEVEL_HINT);
+}
+
+fn line_of(app: &App, line: CaseLine) -> usize {
+    screens::case_lines(&app.file)
+        .iter()
+        .position(|l| *l == line)
+        .unwrap_or(0)
+}
+
+fn now_on_the_hour() -> Option<toml::value::Datetime> {
+    let now = chrono::Local::now().naive_local();
+    entry::datetime(&now.format("%Y-%m-%d %H:00").to_string()).ok()
+}
+
+fn delete_row(app: &mut App) {
+    match screens::selected_case_line(app) {
+        CaseLine::Dose(i) => app.mode = Mode::Confirm(Confirm::DeleteDose(i)),
+        CaseLine::Level(i) => app.mode = Mode::Confirm(Confirm::DeleteLevel(i)),
+        _ => app.complain(strings::DELETE_WHERE),
+    }
+}
+
+fn toggle_use(app: &mut App) {
+    let row = match app.screen {
+        Screen::Case => match screens::selected_case_line(app) {
+            CaseLine::Level(i) => Some(i),
+            _ => None,
+        },
+        Screen::Fit => {
+            (app.cursors.fit_level < app.file.levels.len()).then_some(app.cursors.fit_level)
+        }
+        _ => None,
+    };
+    let Some(i) = row else {
+        return app.complain(strings::TOGGLE_WHERE);
+    };
+    let r = app.change(|f| Field::LevelUse(i).cycle(f, false));
+    let used = app.file.levels.get(i).map(|l| l.use_in_fit != Some(false));
+    match (r, used) {
+        (Ok(()), Some(u)) => app.say(strings::level_use_now(i + 1, u)),
+        (Err(e), _) => app.complain(e),
+        _ => {}
+    }
+}
+
+fn clear(app: &mut App) {
+    let Some(field) = screens::selected_field(app) else {
+        return;
+    };
+    let required = matches!(
+        field,
+        Field::DoseTime(_)
+            | Field::LevelTime(_)
+            | Field::LevelValue(_)
+            | Field::PlanDose
+            | Field::PlanInterval
+            | Field::Unit
+    ) || field.kind() == Kind::Choice;
+    if required {
+        return app.complain(strings::cannot_clear(&field.name()));
+    }
+    let plan_field = matches!(field, Field::PlanInfusion | Field::PlanF | Field::PlanStart);
+    if plan_field && app.file.plan.is_none() {
+        return app.say(strings::NOTHING_TO_CLEAR);
+    }
+    let r = app.change(|f| field.set_text(f, ""));
+    report(app, r, strings::cleared(&field.name()));
+}
+
+fn plan_said(app: &mut App, r: Result<(), String>, had_plan: bool, ok: fn(&App) -> String) {
+    match r {
+        Err(e) => app.complain(e),
+        Ok(()) if !had_plan => app.say(strings::PLAN_STARTED),
+        Ok(()) => {
+            let text = ok(app);
+            match app.figures.problem.as_ref() {
+                Some(p) if p.invalid_case => app.complain(p.text.clone()),
+                _ => app.say(text),
+            }
+        }
+    }
+}
+
+/// A step of about 5 % of `x`, rounded to 1, 2 or 5 times a power of ten.
+pub fn dose_step(x: f64) -> f64 {
+    let raw = (x.abs() * 0.05).max(0.01);
+    let base = 10f64.powf(raw.log10().floor());
+    let m = raw / base;
+    let f = if m < 1.5 {
+        1.0
+    } else if m < 3.5 {
+        2.0
+    } else if m < 7.5 {
+        5.0
+    } else {
+        10.0
+    };
+    f * base
+}
+
+fn tidy(x: f64) -> f64 {
+    (x * 1.0e6).round() / 1.0e6
+}
+
+fn plan_dose(app: &mut App, up: bool) {
+    let had = app.file.plan.is_some();
+    let r = app.change(|f| {
+        if !had {
+            fields::plan_mut(f);
+            return Ok(());
+        }
+        let p = fields::plan_mut(f);
+        let step = dose_step(if up { p.dose_mg } else { p.dose_mg * 0.95 });
+        let next = if up {
+            p.dose_mg + step
+        } else {
+            p.dose_mg - step
+        };
+        if next <= 0.0 {
+            return Err(strings::DOSE_AT_LEAST.into());
+        }
+        p.dose_mg = tidy((next / step).round() * step);
+        Ok(())
+    });
+    plan_said(app, r, had, strings::plan_dose_now);
+}
+
+fn plan_interval(app: &mut App, up: bool) {
+    let had = app.file.plan.is_some();
+    let r = app.change(|f| {
+        if !had {
+            fields::plan_mut(f);
+            return Ok(());
+        }
+        let p = fields::plan_mut(f);
+        let now = p.interval_h;
+        let next = if up {
+            INTERVALS_H.iter().copied().find(|v| *v > now + 1e-9)
+        } else {
+            INTERVALS_H.iter().rev().copied().find(|v| *v < now - 1e-9)
+        };
+        match next {
+            Some(v) => {
+                p.interval_h = v;
+                Ok(())
+            }
+            None => Err(strings::NO_FURTHER_INTERVAL.into()),
+        }
+    });
+    plan_said(app, r, had, strings::plan_interval_now);
+}
+
+fn plan_infusion(app: &mut App, up: bool) {
+    let had = app.file.plan.is_some();
+    let r = app.change(|f| {
+        if !had {
+            fields::plan_mut(f);
+            return Ok(());
+        }
+        let p = fields::plan_mut(f);
+        if p.route != "infusion" {
+            return Err(strings::NOT_AN_INFUSION.into());
+        }
+        let now = p.infusion_h.unwrap_or(fields::DEFAULT_INFUSION_H);
+        let next = if up {
+            now + INFUSION_STEP_H
+        } else {
+            now - INFUSION_STEP_H
+        };
+        if next < INFUSION_STEP_H - 1e-9 {
+            return Err(strings::INFUSION_AT_LEAST.into());
+        }
+        p.infusion_h = Some(tidy(next));
+        Ok(())
+    });
+    plan_said(app, r, had, strings::plan_infusion_now);
+}
+
+fn save(app: &mut App) {
+    match app.path.clone() {
+        Some(p) => save_to(app, p),
+        None => {
+            let start = app
+                .suggested_path
+                .as_ref()
+                .map(|p| p.display().to_string())
+                .unwrap_or_default();
+            let mut ed = Editor::new(Target::SavePath, start);
+            check(app, &mut ed);
+            app.mode = Mode::Editing(ed);
+        }
+    }
+}
+
+fn save_to(app: &mut App, path: PathBuf) {
+    match store::save(&app.file, &path) {
+        Ok(()) => {
+            app.dirty = false;
+            app.load_error = None;
+            app.title = path.display().to_string();
+            app.say(strings::saved_to(&app.title));
+            app.path = Some(path);
+            if app.quit_after_save {
+                app.mode = Mode::Quitting;
+            }
+        }
+        Err(e) => {
+            app.quit_after_save = false;
+            app.complain(strings::save_failed(&path.display().to_string(), &e));
+        }
+    }
+}
