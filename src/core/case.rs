@@ -5,6 +5,8 @@
 
 use crate::core::clock::{Clock, Stamp};
 use crate::core::model::{Given, Route};
+use crate::core::regimen::RegimenOptions;
+use crate::core::switch::Switch;
 use crate::core::units::Scale;
 
 /// Who the patient is, as far as dosing needs (every field optional).
@@ -125,6 +127,11 @@ pub struct Threshold {
     pub below: f64,
     /// The procedure time in hours on the axis, if given.
     pub procedure_t: Option<f64>,
+    /// Addition: the regimen may resume after the procedure once at or below this (level
+    /// unit).
+    pub resume_below: Option<f64>,
+    /// Addition: the regimen may resume this many hours after the procedure.
+    pub resume_after_h: Option<f64>,
 }
 
 /// A whole validated case.
@@ -146,6 +153,10 @@ pub struct Case {
     pub threshold: Option<Threshold>,
     /// The time axis.
     pub clock: Clock,
+    /// Switching to another agent (`[switch]`), if planned.
+    pub switch: Option<Switch>,
+    /// The practical choices regimens are searched over (a drug profile's, else defaults).
+    pub regimen: RegimenOptions,
 }
 
 impl Case {

@@ -10,6 +10,8 @@ use crate::core::case::{Case, Dose, Drug, Level, Patient, Plan, Sex, Targets, Th
 use crate::core::clock::{Clock, Stamp};
 use crate::core::error::{Error, Result};
 use crate::core::model::Route;
+use crate::core::regimen::RegimenOptions;
+use crate::core::switch::{Switch, SwitchRule};
 use crate::core::units::{LevelUnit, Scale};
 
 /// The case file as written: every field as the user typed it, before validation.
@@ -19,6 +21,10 @@ pub struct CaseFile {
     /// Contract version; missing means 1.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub schema: Option<i64>,
+    /// IANA time zone the local times are in (addition): hours across a daylight-saving
+    /// change are then counted as they really passed.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub time_zone: Option<String>,
     /// The patient.
     #[serde(default)]
     pub patient: PatientFile,
@@ -40,6 +46,9 @@ pub struct CaseFile {
     /// Threshold.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub threshold: Option<ThresholdFile>,
+    /// Switching agents (addition: `[switch]`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub switch: Option<SwitchFile>,
 }
 
 /// `[patient]` as written.
@@ -134,13 +143,35 @@ pub struct TargetsFile {
 }
 
 /// `[threshold]` as written.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
 #[allow(missing_docs)]
 pub struct ThresholdFile {
     pub below: f64,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub procedure: Option<Datetime>,
+    /// Addition: the regimen may resume after the procedure once the level is at or below
+    /// this (level unit).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub resume_below: Option<f64>,
+    /// Addition: the regimen may resume this many hours after the procedure.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub resume_after_h: Option<f64>,
+}
+
+/// `[switch]` as written (addition): the next agent and exactly one rule for its start.
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SwitchFile {
+    /// The next agent, free text (required).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub to: Option<String>,
+    /// Start once the level is at or below this, in the level unit.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub start_below: Option<f64>,
+    /// Start after this many half-lives from the end of the last recorded dose.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub after_half_lives: Option<f64>,
 }
 
 /// Defaults a drug profile may supply where the case is silent.
@@ -217,6 +248,31 @@ impl CaseFile {
             }) => Some(to_stamp(p, "threshold.procedure")?),
             _ => None,
         };
+        let zone = match &self.time_zone {
+            None => None,
+            Some(name) => Some(name.parse::<chrono_tz::Tz>().map_err(|_| {
+                Error::invalid(
+                    "time_zone",
+                    format!("unknown time zone \"{name}\"; use an IANA name such as Europe/Paris"),
+                )
+            })?),
+        };
+        // With a zone, local times are placed through it (a time that does not exist or
+        // happens twice there is an error naming its row).
+        let in_zone = |place: &str, s: Stamp| -> Result<Stamp> {
+            match (zone, s) {
+                (Some(z), Stamp::Local(wall)) => crate::core::clock::place_in_zone(wall, z)
+                    .map_err(|m| Error::invalid(format!("{place}: time"), m)),
+                _ => Ok(s),
+            }
+        };
+        for (place, s) in stamps.iter_mut() {
+            *s = in_zone(place, *s)?;
+        }
+        let plan_start = plan_start.map(|s| in_zone("plan.start", s)).transpose()?;
+        let procedure = procedure
+            .map(|s| in_zone("threshold.procedure", s))
+            .transpose()?;
         let mut all: Vec<(String, Stamp)> = stamps.clone();
         if let Some(s) = plan_start {
             all.push(("plan.start".into(), s));
@@ -225,6 +281,16 @@ impl CaseFile {
             all.push(("threshold.procedure".into(), p));
         }
         let clock = build_clock(&all)?;
+        let clock = match zone {
+            Some(z) => Clock::in_zone(
+                all.iter()
+                    .map(|(_, s)| s.axis_time())
+                    .min()
+                    .unwrap_or_default(),
+                z,
+            ),
+            None => clock,
+        };
 
         // Doses.
         let mut doses = Vec::with_capacity(self.doses.len());
@@ -384,14 +450,21 @@ impl CaseFile {
             None => None,
             Some(th) => {
                 positive(th.below, "threshold.below")?;
+                validate_resume(th)?;
                 Some(Threshold {
                     below: th.below,
                     procedure_t: procedure.map(|p| clock.hours(&p)),
+                    resume_below: th.resume_below,
+                    resume_after_h: th.resume_after_h,
                 })
             }
         };
 
+        let switch = self.switch.as_ref().map(validate_switch).transpose()?;
+
         Ok(Case {
+            switch,
+            regimen: RegimenOptions::default(),
             patient,
             drug,
             doses,
@@ -402,6 +475,76 @@ impl CaseFile {
             clock,
         })
     }
+}
+
+/// The resume fields of `[threshold]`: each optional, above 0 (a delay may be 0), and only
+/// with a procedure time.
+fn validate_resume(th: &ThresholdFile) -> Result<()> {
+    if let Some(x) = th.resume_below {
+        positive(x, "threshold.resume_below")?;
+    }
+    if let Some(h) = th.resume_after_h {
+        if !(h.is_finite() && (0.0..=8760.0).contains(&h)) {
+            return Err(Error::invalid(
+                "threshold.resume_after_h",
+                format!("must be from 0 to 8760 hours, got {h}"),
+            ));
+        }
+    }
+    for (set, name) in [
+        (th.resume_below.is_some(), "threshold.resume_below"),
+        (th.resume_after_h.is_some(), "threshold.resume_after_h"),
+    ] {
+        if set && th.procedure.is_none() {
+            return Err(Error::invalid(
+                name,
+                "resuming is counted from the procedure; give threshold.procedure too",
+            ));
+        }
+    }
+    Ok(())
+}
+
+/// `[switch]`: a name for the next agent and exactly one of `start_below`, `after_half_lives`.
+fn validate_switch(s: &SwitchFile) -> Result<Switch> {
+    let to = s.to.as_deref().map(str::trim).unwrap_or_default();
+    if to.is_empty() {
+        return Err(Error::invalid(
+            "switch.to",
+            "missing; name the agent to switch to (free text)",
+        ));
+    }
+    let rule = match (s.start_below, s.after_half_lives) {
+        (Some(_), Some(_)) => {
+            return Err(Error::invalid(
+                "switch.after_half_lives",
+                "give start_below or after_half_lives, not both",
+            ))
+        }
+        (None, None) => {
+            return Err(Error::invalid(
+                "switch.start_below",
+                "missing; give start_below (a level in the level unit) or after_half_lives",
+            ))
+        }
+        (Some(x), None) => {
+            positive(x, "switch.start_below")?;
+            SwitchRule::StartBelow(x)
+        }
+        (None, Some(n)) => {
+            if !(n.is_finite() && n > 0.0 && n <= 20.0) {
+                return Err(Error::invalid(
+                    "switch.after_half_lives",
+                    format!("must be above 0 and at most 20, got {n}"),
+                ));
+            }
+            SwitchRule::AfterHalfLives(n)
+        }
+    };
+    Ok(Switch {
+        to: to.to_string(),
+        rule,
+    })
 }
 
 /// Read and parse a case file (no validation yet).

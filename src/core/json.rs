@@ -13,6 +13,56 @@ pub struct JsonReport {
     threshold: Option<JsonThreshold>,
     washout: Vec<JsonWashout>,
     warnings: Vec<String>,
+    /// Addition: regimens that meet every target, best first, at most 5.
+    suggestions: Vec<JsonSuggestion>,
+    /// Addition: the loading dose in mg (null without V).
+    loading_dose_mg: Option<f64>,
+    /// Addition: the switch to another agent (null without `[switch]`).
+    switch: Option<JsonSwitch>,
+    /// Addition: the proportional adjustment used without V (null otherwise).
+    proportional: Option<JsonProportional>,
+    /// Addition: AUC24 over the fitted interval by the trapezoid and by k and V.
+    auc24_methods: Option<JsonAuc>,
+}
+
+#[derive(Debug, Serialize)]
+struct JsonSuggestion {
+    dose_mg: f64,
+    interval_h: f64,
+    infusion_h: f64,
+    route: &'static str,
+    peak_ss: f64,
+    trough_ss: f64,
+    auc24_ss: f64,
+}
+
+#[derive(Debug, Serialize)]
+struct JsonSwitch {
+    to: String,
+    start_at: String,
+    start_at_ci95: Option<[String; 2]>,
+    level_at_start: f64,
+    basis: &'static str,
+}
+
+#[derive(Debug, Serialize)]
+struct JsonProportional {
+    basis: &'static str,
+    interval_h: f64,
+    measured: f64,
+    target: f64,
+    factor: f64,
+    dose_given_mg: Option<f64>,
+    new_dose_mg: Option<f64>,
+    trough_after: f64,
+}
+
+#[derive(Debug, Serialize)]
+struct JsonAuc {
+    method: &'static str,
+    interval_h: f64,
+    by_levels: f64,
+    by_k_and_v: Option<f64>,
 }
 
 #[derive(Debug, Serialize)]
@@ -48,6 +98,8 @@ struct JsonThreshold {
     reached_at_ci95: Option<[String; 2]>,
     latest_plan_dose: Option<String>,
     level_at_procedure: Option<f64>,
+    resume_at: Option<String>,
+    level_at_resume: Option<f64>,
 }
 
 #[derive(Debug, Serialize)]
@@ -92,6 +144,8 @@ impl From<&Report> for JsonReport {
                     .map(|[a, b]| [a.iso_minute(), b.iso_minute()]),
                 latest_plan_dose: t.latest_plan_dose.as_ref().map(|s| s.iso_minute()),
                 level_at_procedure: t.level_at_procedure,
+                resume_at: t.resume_at.as_ref().map(|s| s.iso_minute()),
+                level_at_resume: t.level_at_resume,
             }),
             washout: r
                 .washout
@@ -104,6 +158,47 @@ impl From<&Report> for JsonReport {
                 })
                 .collect(),
             warnings: r.warnings.clone(),
+            suggestions: r
+                .advice
+                .suggestions
+                .iter()
+                .map(|s| JsonSuggestion {
+                    dose_mg: s.dose_mg,
+                    interval_h: s.interval_h,
+                    infusion_h: s.infusion_h,
+                    route: s.route,
+                    peak_ss: s.peak_ss,
+                    trough_ss: s.trough_ss,
+                    auc24_ss: s.auc24_ss,
+                })
+                .collect(),
+            loading_dose_mg: r.advice.loading.as_ref().map(|l| l.dose_mg),
+            switch: r.advice.switch.as_ref().map(|s| JsonSwitch {
+                to: s.to.clone(),
+                start_at: s.start_at.iso_minute(),
+                start_at_ci95: s
+                    .start_at_ci95
+                    .as_ref()
+                    .map(|[a, b]| [a.iso_minute(), b.iso_minute()]),
+                level_at_start: s.level_at_start,
+                basis: s.basis,
+            }),
+            proportional: r.advice.proportional.as_ref().map(|q| JsonProportional {
+                basis: q.basis,
+                interval_h: q.interval_h,
+                measured: q.measured,
+                target: q.target,
+                factor: q.factor,
+                dose_given_mg: q.dose_given_mg,
+                new_dose_mg: q.new_dose_mg,
+                trough_after: q.trough_after,
+            }),
+            auc24_methods: r.advice.auc24.as_ref().map(|a| JsonAuc {
+                method: a.method,
+                interval_h: a.interval_h,
+                by_levels: a.by_levels,
+                by_k_and_v: a.by_k_and_v,
+            }),
         }
     }
 }

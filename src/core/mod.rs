@@ -1,6 +1,8 @@
 //! The terminal-free core: case model, maths, case files and the report. Nothing below here
 //! touches a terminal.
 
+pub mod advice;
+pub mod auc;
 pub mod case;
 pub mod casefile;
 pub mod clock;
@@ -8,8 +10,11 @@ pub mod error;
 pub mod fit;
 pub mod json;
 pub mod model;
+pub mod procedure;
 pub mod project;
+pub mod regimen;
 pub mod report;
+pub mod switch;
 pub mod units;
 
 pub use error::{Error, Result};

@@ -102,6 +102,10 @@ pub struct ThresholdPart {
     pub latest_plan_dose: Option<Stamp>,
     /// The level at the procedure (level unit).
     pub level_at_procedure: Option<f64>,
+    /// Addition: when the regimen may resume after the procedure (rounded up to the minute).
+    pub resume_at: Option<Stamp>,
+    /// Addition: the level then (level unit).
+    pub level_at_resume: Option<f64>,
 }
 
 /// One washout row, as reported.
@@ -134,6 +138,8 @@ pub struct Report {
     pub washout_from: Stamp,
     /// Specific warnings, most important first.
     pub warnings: Vec<String>,
+    /// Suggested regimens, loading dose, AUC24 by two methods and the switch.
+    pub advice: crate::core::advice::AdvicePart,
 }
 
 fn place(case: &Case, t: f64, what: &str) -> Result<Stamp> {
@@ -269,6 +275,19 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
                 Some((_, t)) => Some(place(case, t, "plan.start")?),
                 None => None,
             };
+            let resume = th.procedure_t.and_then(|t| {
+                crate::core::procedure::resume(
+                    &patient,
+                    &tp,
+                    t,
+                    th.resume_below.map(|x| scale.to_mg_l(x)),
+                    th.resume_after_h,
+                )
+            });
+            let resume_at = match &resume {
+                Some(r) => Some(place_up(case, r.resume_t, "threshold.resume_below")?),
+                None => None,
+            };
             Some(ThresholdPart {
                 below: th.below,
                 t0: place_up(case, tp.t0, "threshold")?,
@@ -282,10 +301,17 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
                 },
                 latest_plan_dose: latest,
                 level_at_procedure: tp.level_at_procedure_mg_l.map(to),
+                resume_at,
+                level_at_resume: resume.map(|r| to(r.level_mg_l)),
             })
         }
     };
 
+    let plan_peak_mg_l = plan
+        .as_ref()
+        .and_then(|p| p.peak_ss)
+        .map(|x| scale.to_mg_l(x));
+    let advice = crate::core::advice::build(case, fit, plan_peak_mg_l, &mut warnings)?;
     let below_mg_l = case.threshold.as_ref().map(|t| scale.to_mg_l(t.below));
     let rows = project::washout(&patient, below_mg_l);
     let washout_start = rows
@@ -309,6 +335,7 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
         washout,
         washout_from: place(case, washout_start, "washout")?,
         warnings,
+        advice,
     };
     check_finite(&report)?;
     Ok(report)
@@ -415,6 +442,7 @@ fn check_finite(r: &Report) -> Result<()> {
     if let Some(t) = &r.threshold {
         xs.push(t.c0);
         xs.extend(t.level_at_procedure);
+        xs.extend(t.level_at_resume);
     }
     xs.extend(r.washout.iter().map(|w| w.level));
     if xs.iter().all(|x| x.is_finite()) {
@@ -450,7 +478,7 @@ pub fn num(x: f64) -> String {
 }
 
 /// A readable stamp, with the year only when it differs from `reference`'s.
-fn when(s: &Stamp) -> String {
+pub fn when(s: &Stamp) -> String {
     s.readable(false)
 }
 
@@ -563,6 +591,8 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
         writeln!(w)?;
     }
 
+    crate::core::advice::write_regimen_text(w, &r.advice, u)?;
+
     if let Some(t) = &r.threshold {
         writeln!(w, "Threshold: below {} {u}", num(t.below))?;
         if t.hours_from_t0 <= 0.0 {
@@ -609,8 +639,16 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
                 (_, None) => writeln!(w, "level not known")?,
             }
         }
+        if let Some(at) = &t.resume_at {
+            write!(w, "  the regimen may resume from {}", when(at))?;
+            match t.level_at_resume {
+                Some(l) => writeln!(w, " (level then {} {u})", num(l))?,
+                None => writeln!(w)?,
+            }
+        }
         writeln!(w)?;
     }
+    crate::core::advice::write_switch_text(w, &r.advice, u)?;
 
     writeln!(w, "Washout from {}", when(&r.washout_from))?;
     writeln!(w, "  half-lives  at                 level       remaining")?;

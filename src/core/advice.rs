@@ -1,0 +1,432 @@
+//! The report's advice parts as plain data in the case's unit and clock times: suggested
+//! regimens, the loading dose, the proportional adjustment, AUC24 by two methods side by side,
+//! and the switch to another agent. `report` builds them through `build`.
+
+use std::io::{self, Write};
+
+use crate::core::auc;
+use crate::core::case::Case;
+use crate::core::clock::Stamp;
+use crate::core::error::{Error, Result};
+use crate::core::fit::{self, Fit};
+use crate::core::model::Route;
+use crate::core::project::Patient;
+use crate::core::regimen::{self, Advice};
+use crate::core::report::{num, when};
+use crate::core::switch::{self, SwitchRule};
+
+/// The published name of the two-level AUC method.
+pub const TRAPEZOID_METHOD: &str = "linear-up/log-down trapezoid (Chiou 1978)";
+
+/// One suggested regimen, as reported (level unit; AUC in level unit·h).
+#[derive(Debug, Clone, PartialEq)]
+pub struct SuggestionPart {
+    /// Dose in mg.
+    pub dose_mg: f64,
+    /// Interval in hours.
+    pub interval_h: f64,
+    /// Infusion time in hours (0 for bolus and oral).
+    pub infusion_h: f64,
+    /// "bolus", "infusion" or "oral".
+    pub route: &'static str,
+    /// Steady-state peak.
+    pub peak_ss: f64,
+    /// Steady-state trough.
+    pub trough_ss: f64,
+    /// Steady-state AUC over 24 h.
+    pub auc24_ss: f64,
+}
+
+/// The loading dose, as reported.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LoadingPart {
+    /// Dose in mg.
+    pub dose_mg: f64,
+    /// Infusion time in hours (0 for bolus and oral).
+    pub infusion_h: f64,
+    /// "bolus", "infusion" or "oral".
+    pub route: &'static str,
+    /// The peak aimed at (level unit).
+    pub target_peak: f64,
+    /// The peak the rounded dose gives (level unit).
+    pub peak: f64,
+    /// What the aim was, in words.
+    pub basis: &'static str,
+}
+
+/// The proportional adjustment, as reported (level unit).
+#[derive(Debug, Clone, PartialEq)]
+pub struct ProportionalPart {
+    /// The interval the levels were measured over, hours.
+    pub interval_h: f64,
+    /// "peak" or "AUC24".
+    pub basis: &'static str,
+    /// The measured figure.
+    pub measured: f64,
+    /// The figure aimed at.
+    pub target: f64,
+    /// target / measured.
+    pub factor: f64,
+    /// The dose that gave the levels, when known.
+    pub dose_given_mg: Option<f64>,
+    /// The adjusted dose, when the dose given is known.
+    pub new_dose_mg: Option<f64>,
+    /// The trough after the adjustment.
+    pub trough_after: f64,
+    /// Whether that trough meets the trough target.
+    pub trough_ok: Option<bool>,
+}
+
+/// AUC24 over the fitted interval by two methods, side by side (level unit·h).
+#[derive(Debug, Clone, PartialEq)]
+pub struct AucPart {
+    /// Rows of the two levels used by the trapezoid.
+    pub level_rows: [usize; 2],
+    /// Row of the dose whose interval they are in.
+    pub dose_row: usize,
+    /// That dose, mg (when known).
+    pub dose_mg: Option<f64>,
+    /// The interval, hours.
+    pub interval_h: f64,
+    /// By the linear-up/log-down trapezoid from the two levels, at steady state.
+    pub by_levels: f64,
+    /// By F·D/(k·V)·24/tau with the fitted k and V (None without V).
+    pub by_k_and_v: Option<f64>,
+    /// The trapezoid's published name.
+    pub method: &'static str,
+}
+
+/// The switch to another agent, as reported.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SwitchPart {
+    /// The next agent.
+    pub to: String,
+    /// "start_below" or "after_half_lives".
+    pub basis: &'static str,
+    /// The rule's number: the level (level unit) or the half-lives.
+    pub value: f64,
+    /// Where the count starts.
+    pub from: Stamp,
+    /// The earliest start (rounded up to the minute).
+    pub start_at: Stamp,
+    /// Its 95 % range.
+    pub start_at_ci95: Option<[Stamp; 2]>,
+    /// The level predicted at the start (level unit).
+    pub level_at_start: f64,
+}
+
+/// Every advice part of a report.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct AdvicePart {
+    /// Suggested regimens, best first, at most five.
+    pub suggestions: Vec<SuggestionPart>,
+    /// The loading dose (None without a volume).
+    pub loading: Option<LoadingPart>,
+    /// The proportional adjustment (only without a volume).
+    pub proportional: Option<ProportionalPart>,
+    /// AUC24 by two methods.
+    pub auc24: Option<AucPart>,
+    /// The switch, when the case plans one.
+    pub switch: Option<SwitchPart>,
+}
+
+fn up(case: &Case, t: f64, what: &str) -> Result<Stamp> {
+    case.clock.at_minute_up(t).ok_or_else(|| {
+        Error::invalid(
+            what,
+            "lies too far from the case's dates to be placed on a calendar; check the levels and times",
+        )
+    })
+}
+
+fn finite(xs: &[f64], what: &str) -> Result<()> {
+    if xs.iter().all(|x| x.is_finite()) {
+        Ok(())
+    } else {
+        Err(Error::invalid(
+            what,
+            "the values are too extreme for the model to give finite figures; check amounts, levels and times",
+        ))
+    }
+}
+
+/// AUC24 over the fitted interval from its first and last fitted levels, by the trapezoid
+/// and by k and V. `None` when the interval is unknown or the levels do not allow it.
+pub fn auc_compare(p: &Patient) -> Option<AucPart> {
+    let (case, fit) = (p.case, p.fit);
+    let w = fit.window_dose;
+    let dose = case.doses.get(w)?;
+    let in_window: Vec<usize> = fit
+        .used
+        .iter()
+        .copied()
+        .filter(|&i| fit::window_of(case, case.levels[i].t) == Some(w))
+        .collect();
+    let (&a, &b) = (in_window.first()?, in_window.last()?);
+    let tau = regimen::observed_interval(case, fit)?;
+    let (la, lb) = (&case.levels[a], &case.levels[b]);
+    let t_inf = dose.route.infusion_h();
+    let two =
+        auc::auc24_from_two_levels(la.t - dose.t, la.mg_l, lb.t - dose.t, lb.mg_l, t_inf, tau)?;
+    let by_kv = match (p.v(), dose.amount_mg) {
+        (Some(v), Some(d)) => Some(dose.route.bioavailability() * d / (fit.k * v) * 24.0 / tau),
+        _ => None,
+    };
+    let scale = case.drug.scale;
+    Some(AucPart {
+        level_rows: [la.row, lb.row],
+        dose_row: dose.row,
+        dose_mg: dose.amount_mg,
+        interval_h: tau,
+        by_levels: scale.to_level(two.auc24),
+        by_k_and_v: by_kv.map(|x| scale.to_level(x)),
+        method: TRAPEZOID_METHOD,
+    })
+}
+
+/// Build the advice parts; `plan_peak_mg_l` is the plan's steady-state peak, when projected.
+/// Notes for the warnings list are appended to `warnings`.
+///
+/// # Errors
+/// A start time too far away for any calendar, or a figure that is not finite.
+pub fn build(
+    case: &Case,
+    fit: &Fit,
+    plan_peak_mg_l: Option<f64>,
+    warnings: &mut Vec<String>,
+) -> Result<AdvicePart> {
+    let p = Patient::new(case, fit);
+    let scale = case.drug.scale;
+    let to = |x: f64| scale.to_level(x);
+    let Advice {
+        suggestions,
+        loading,
+        proportional,
+        notes,
+    } = regimen::advise(&p, plan_peak_mg_l, &case.regimen);
+    warnings.extend(notes);
+    let suggestions: Vec<SuggestionPart> = suggestions
+        .iter()
+        .map(|s| SuggestionPart {
+            dose_mg: s.dose_mg,
+            interval_h: s.interval_h,
+            infusion_h: s.route.infusion_h(),
+            route: s.route.name(),
+            peak_ss: to(s.steady.peak_mg_l),
+            trough_ss: to(s.steady.trough_mg_l),
+            auc24_ss: to(s.steady.auc24_mg_h_l),
+        })
+        .filter(|s| {
+            [s.peak_ss, s.trough_ss, s.auc24_ss]
+                .iter()
+                .all(|x| x.is_finite())
+        })
+        .collect();
+    let loading = loading.map(|l| LoadingPart {
+        dose_mg: l.dose_mg,
+        infusion_h: l.route.infusion_h(),
+        route: l.route.name(),
+        target_peak: to(l.target_peak_mg_l),
+        peak: to(l.peak_mg_l),
+        basis: l.basis.words(),
+    });
+    if let Some(l) = &loading {
+        finite(&[l.dose_mg, l.target_peak, l.peak], "loading dose")?;
+    }
+    let proportional = proportional.map(|q| ProportionalPart {
+        interval_h: q.interval_h,
+        basis: q.basis,
+        measured: to(q.measured),
+        target: to(q.target),
+        factor: q.factor,
+        dose_given_mg: q.dose_given_mg,
+        new_dose_mg: q.new_dose_mg,
+        trough_after: to(q.trough_after_mg_l),
+        trough_ok: q.trough_ok,
+    });
+    if let Some(q) = &proportional {
+        finite(
+            &[q.measured, q.target, q.factor, q.trough_after],
+            "proportional adjustment",
+        )?;
+    }
+    let auc24 = auc_compare(&p)
+        .filter(|a| a.by_levels.is_finite() && a.by_k_and_v.is_none_or(|x| x.is_finite()));
+    if auc24.is_some() {
+        warnings.push(
+            "AUC24 from two levels assumes steady state (the level at the start of the interval equals the one at its end); before steady state it differs from the k-and-V figure".into(),
+        );
+    }
+    let switch = match &case.switch {
+        None => None,
+        Some(sw) => {
+            let sp = switch::project(&p, sw);
+            finite(&[sp.level_at_start_mg_l], "switch")?;
+            let place = match sw.rule {
+                SwitchRule::StartBelow(_) => "switch.start_below",
+                SwitchRule::AfterHalfLives(_) => "switch.after_half_lives",
+            };
+            let ci = match sp.start_ci95_t {
+                Some([a, b]) => Some([up(case, a, place)?, up(case, b, place)?]),
+                None => None,
+            };
+            Some(SwitchPart {
+                to: sw.to.clone(),
+                basis: sw.rule.basis(),
+                value: match sw.rule {
+                    SwitchRule::StartBelow(x) | SwitchRule::AfterHalfLives(x) => x,
+                },
+                from: up(case, sp.from_t, place)?,
+                start_at: up(case, sp.start_t, place)?,
+                start_at_ci95: ci,
+                level_at_start: to(sp.level_at_start_mg_l),
+            })
+        }
+    };
+    Ok(AdvicePart {
+        suggestions,
+        loading,
+        proportional,
+        auc24,
+        switch,
+    })
+}
+
+fn route_words(route: &str, infusion_h: f64) -> String {
+    if route == "infusion" {
+        format!("infusion over {} h", num(infusion_h))
+    } else {
+        route.to_string()
+    }
+}
+
+/// The route of a suggestion in words, for every output that shows one.
+pub fn suggestion_route(s: &SuggestionPart) -> String {
+    route_words(s.route, s.infusion_h)
+}
+
+/// The route of the loading dose in words.
+pub fn loading_route(l: &LoadingPart) -> String {
+    route_words(l.route, l.infusion_h)
+}
+
+/// A route as the model holds it, in the same words.
+pub fn route_of(r: Route) -> String {
+    route_words(r.name(), r.infusion_h())
+}
+
+/// Write the regimen sections of the readable report: suggestions, loading dose,
+/// proportional adjustment and the two AUC24 figures (`u` is the level unit).
+///
+/// # Errors
+/// Only the writer's errors.
+pub fn write_regimen_text(w: &mut dyn Write, a: &AdvicePart, u: &str) -> io::Result<()> {
+    if !a.suggestions.is_empty() {
+        writeln!(w, "Regimens that meet every target (best first):")?;
+        for (i, s) in a.suggestions.iter().enumerate() {
+            writeln!(
+                w,
+                "  {}. {} mg {} every {} h: peak {} {u}, trough {} {u}, AUC24 {} {u}·h",
+                i + 1,
+                num(s.dose_mg),
+                suggestion_route(s),
+                num(s.interval_h),
+                num(s.peak_ss),
+                num(s.trough_ss),
+                num(s.auc24_ss)
+            )?;
+        }
+    }
+    if let Some(l) = &a.loading {
+        writeln!(
+            w,
+            "Loading dose: {} mg {} reaches a peak of {} {u} at once (aim {} {u}, {}), with no drug on board",
+            num(l.dose_mg),
+            loading_route(l),
+            num(l.peak),
+            num(l.target_peak),
+            l.basis
+        )?;
+    }
+    if let Some(q) = &a.proportional {
+        let unit = if q.basis == "peak" {
+            u.to_string()
+        } else {
+            format!("{u}·h")
+        };
+        write!(
+            w,
+            "Proportional adjustment (no volume): {} measured {} {unit}, aim {} {unit}, factor {}",
+            q.basis,
+            num(q.measured),
+            num(q.target),
+            num(q.factor)
+        )?;
+        match (q.dose_given_mg, q.new_dose_mg) {
+            (Some(d), Some(n)) => write!(
+                w,
+                ": {} mg becomes {} mg every {} h",
+                num(d),
+                num(n),
+                num(q.interval_h)
+            )?,
+            _ => write!(
+                w,
+                ": scale the dose given by the factor, every {} h",
+                num(q.interval_h)
+            )?,
+        }
+        writeln!(w, "; trough then {} {u}", num(q.trough_after))?;
+    }
+    if !a.suggestions.is_empty() || a.loading.is_some() || a.proportional.is_some() {
+        writeln!(w)?;
+    }
+    if let Some(x) = &a.auc24 {
+        writeln!(
+            w,
+            "AUC24 over the interval of dose {} ({} h), at steady state:",
+            x.dose_row,
+            num(x.interval_h)
+        )?;
+        writeln!(
+            w,
+            "  from levels {} and {} by the {}: {} {u}·h",
+            x.level_rows[0],
+            x.level_rows[1],
+            x.method,
+            num(x.by_levels)
+        )?;
+        match x.by_k_and_v {
+            Some(v) => writeln!(w, "  from k and V (dose / clearance): {} {u}·h", num(v))?,
+            None => writeln!(w, "  from k and V: not known (no volume)")?,
+        }
+        writeln!(w)?;
+    }
+    Ok(())
+}
+
+/// Write the switch section of the readable report (`u` is the level unit).
+///
+/// # Errors
+/// Only the writer's errors.
+pub fn write_switch_text(w: &mut dyn Write, a: &AdvicePart, u: &str) -> io::Result<()> {
+    if let Some(s) = &a.switch {
+        let rule = match s.basis {
+            "start_below" => format!("once below {} {u}", num(s.value)),
+            _ => format!("{} half-lives after {}", num(s.value), when(&s.from)),
+        };
+        writeln!(w, "Switch to {}: {rule}", s.to)?;
+        writeln!(
+            w,
+            "  earliest start {} (level then {} {u})",
+            when(&s.start_at),
+            num(s.level_at_start)
+        )?;
+        match &s.start_at_ci95 {
+            Some([a, b]) => writeln!(w, "  95 % range {} to {}", when(a), when(b))?,
+            None => writeln!(w, "  95 % range not known (no interval of k)")?,
+        }
+        writeln!(w)?;
+    }
+    Ok(())
+}

@@ -1,0 +1,84 @@
+//! Switching agents: the earliest time the next drug may start once this one is stopped after
+//! its last recorded dose, by a level to fall below or by a number of half-lives.
+
+use crate::core::project::{self, Patient};
+
+/// The `[switch]` section of a case: which agent comes next and when it may start.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Switch {
+    /// The next agent, free text.
+    pub to: String,
+    /// When it may start.
+    pub rule: SwitchRule,
+}
+
+/// The local protocol's rule for starting the next agent.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum SwitchRule {
+    /// Once the level is at or below this value, in the case's level unit.
+    StartBelow(f64),
+    /// After this many half-lives from the end of the last recorded dose.
+    AfterHalfLives(f64),
+}
+
+impl SwitchRule {
+    /// The name of the rule as the case file spells it (the JSON `basis`).
+    pub fn basis(&self) -> &'static str {
+        match self {
+            SwitchRule::StartBelow(_) => "start_below",
+            SwitchRule::AfterHalfLives(_) => "after_half_lives",
+        }
+    }
+}
+
+/// When the next agent may start, on the case's axis.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SwitchProjection {
+    /// Where the count starts: the threshold's t0 for a level, the end of the last recorded
+    /// dose (without a volume, the last fitted level) for half-lives.
+    pub from_t: f64,
+    /// The earliest start, hours.
+    pub start_t: f64,
+    /// The 95 % range of the start (k_hi, k_lo), when k has an interval above zero.
+    pub start_ci95_t: Option<[f64; 2]>,
+    /// The model's level at the start, mg/L.
+    pub level_at_start_mg_l: f64,
+}
+
+/// Project the switch; `start_below` values are in the case's level unit and converted here.
+pub fn project(p: &Patient, sw: &Switch) -> SwitchProjection {
+    let fit = p.fit;
+    match sw.rule {
+        SwitchRule::StartBelow(level) => {
+            let below = p.case.drug.scale.to_mg_l(level);
+            let th = project::threshold(p, below, None);
+            SwitchProjection {
+                from_t: th.t0,
+                start_t: th.reached_t,
+                start_ci95_t: th.reached_ci95_t,
+                level_at_start_mg_l: p.level_mg_l(th.reached_t),
+            }
+        }
+        SwitchRule::AfterHalfLives(n) => {
+            let from = if p.v().is_some() {
+                p.last_dose_end()
+            } else {
+                fit.used
+                    .iter()
+                    .map(|&i| p.case.levels[i].t)
+                    .fold(f64::NEG_INFINITY, f64::max)
+            };
+            let after = |k: f64| from + n * std::f64::consts::LN_2 / k;
+            let start = after(fit.k);
+            SwitchProjection {
+                from_t: from,
+                start_t: start,
+                start_ci95_t: match fit.k_ci95 {
+                    Some([lo, hi]) if lo > 0.0 => Some([after(hi), after(lo)]),
+                    _ => None,
+                },
+                level_at_start_mg_l: p.level_mg_l(start),
+            }
+        }
+    }
+}
