@@ -1,6 +1,9 @@
 //! Clock times of a case: turning date-times into hours on one axis and back, and writing them.
 
-use chrono::{DateTime, Datelike, Duration, FixedOffset, NaiveDateTime, Timelike};
+use chrono::{
+    DateTime, Datelike, Duration, FixedOffset, NaiveDateTime, Offset, TimeZone, Timelike,
+};
+use chrono_tz::Tz;
 
 /// A date-time as the case gave it: a wall-clock local time, or one with a UTC offset.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -64,6 +67,7 @@ impl Stamp {
 pub struct Clock {
     origin: NaiveDateTime,
     offset: Option<FixedOffset>,
+    zone: Option<Tz>,
 }
 
 /// Whole seconds in an hour.
@@ -75,7 +79,26 @@ const MAX_HOURS: f64 = 8.0e8;
 impl Clock {
     /// A clock whose origin is `origin`; computed times carry `offset` when given.
     pub fn new(origin: NaiveDateTime, offset: Option<FixedOffset>) -> Self {
-        Clock { origin, offset }
+        Clock {
+            origin,
+            offset,
+            zone: None,
+        }
+    }
+
+    /// A clock whose axis is UTC and whose computed times are shown in `zone`, each with
+    /// the zone's offset at that instant (so a daylight-saving change is honoured).
+    pub fn in_zone(origin_utc: NaiveDateTime, zone: Tz) -> Self {
+        Clock {
+            origin: origin_utc,
+            offset: None,
+            zone: Some(zone),
+        }
+    }
+
+    /// The IANA time zone of the case, when it names one.
+    pub fn zone(&self) -> Option<Tz> {
+        self.zone
     }
 
     /// The offset computed times carry (None for local-time cases).
@@ -118,6 +141,10 @@ impl Clock {
     }
 
     fn stamp_of(&self, axis: NaiveDateTime) -> Stamp {
+        if let Some(zone) = self.zone {
+            let off = zone.offset_from_utc_datetime(&axis).fix();
+            return Stamp::Offset(DateTime::from_naive_utc_and_offset(axis, off));
+        }
         match self.offset {
             None => Stamp::Local(axis),
             Some(off) => Stamp::Offset(DateTime::from_naive_utc_and_offset(axis, off)),
@@ -152,10 +179,61 @@ pub fn minute_of_day(s: &Stamp) -> u32 {
     w.hour() * 60 + w.minute()
 }
 
+/// Place a wall-clock time in an IANA zone. `Err` says why it cannot be placed: the time
+/// does not exist (the clocks went forward over it) or happens twice (they went back).
+pub fn place_in_zone(wall: NaiveDateTime, zone: Tz) -> std::result::Result<Stamp, String> {
+    match zone.from_local_datetime(&wall) {
+        chrono::LocalResult::Single(t) => Ok(Stamp::Offset(t.fixed_offset())),
+        chrono::LocalResult::None => Err(format!(
+            "{} does not exist in {} (the clocks go forward over it); check the time",
+            wall.format("%Y-%m-%dT%H:%M"),
+            zone.name()
+        )),
+        chrono::LocalResult::Ambiguous(a, b) => Err(format!(
+            "{} happens twice in {} (the clocks go back): write it with its offset, {} or {}",
+            wall.format("%Y-%m-%dT%H:%M"),
+            zone.name(),
+            a.fixed_offset().format("%Y-%m-%dT%H:%M:%S%:z"),
+            b.fixed_offset().format("%Y-%m-%dT%H:%M:%S%:z")
+        )),
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
     use chrono::NaiveDate;
+
+    #[test]
+    fn hours_across_a_daylight_saving_change_are_real_hours() {
+        // Europe/Paris moves from +01:00 to +02:00 at 01:00 UTC on the last Sunday of March,
+        // 28 March 2027 (Directive 2000/84/EC of the European Parliament, art. 2; IANA tz
+        // database).
+        let zone: Tz = "Europe/Paris".parse().unwrap();
+        let a = place_in_zone(t(2027, 3, 27, 22, 0), zone).unwrap();
+        let b = place_in_zone(t(2027, 3, 28, 8, 0), zone).unwrap();
+        let c = Clock::in_zone(a.axis_time(), zone);
+        assert_eq!(c.hours(&b), 9.0);
+        assert_eq!(
+            c.at_minute(9.0).unwrap().iso_minute(),
+            "2027-03-28T08:00+02:00"
+        );
+        assert_eq!(
+            c.at_minute(0.0).unwrap().iso_minute(),
+            "2027-03-27T22:00+01:00"
+        );
+    }
+
+    #[test]
+    fn missing_and_doubled_wall_times_are_refused() {
+        let zone: Tz = "Europe/Paris".parse().unwrap();
+        let gap = place_in_zone(t(2027, 3, 28, 2, 30), zone).unwrap_err();
+        assert!(gap.contains("does not exist in Europe/Paris"), "{gap}");
+        // Back from +02:00 to +01:00 at 01:00 UTC on the last Sunday of October, 31 October
+        // 2027 (Directive 2000/84/EC, art. 3).
+        let twice = place_in_zone(t(2027, 10, 31, 2, 30), zone).unwrap_err();
+        assert!(twice.contains("happens twice"), "{twice}");
+    }
 
     fn t(y: i32, mo: u32, d: u32, h: u32, mi: u32) -> NaiveDateTime {
         NaiveDate::from_ymd_opt(y, mo, d)
