@@ -9,7 +9,7 @@ use clap::{Parser, Subcommand};
 /// Level-guided dosing: fit a patient's elimination from measured levels and project
 /// regimens, thresholds and washout. Decision support only.
 #[derive(Parser)]
-#[command(name = "ebb", version, args_conflicts_with_subcommands = true)]
+#[command(name = "ebb", version)]
 struct Cli {
     #[command(subcommand)]
     command: Option<Command>,

@@ -12,6 +12,7 @@
 
 mod builtin;
 mod parse;
+mod prior;
 pub mod schema;
 mod text;
 mod warn;
@@ -24,6 +25,7 @@ use crate::core::error::{Error, Result};
 use crate::core::units::LevelUnit;
 
 pub use parse::parse_profile;
+pub use prior::prior_of;
 pub use schema::{FirstOrder, Profile, Strategy};
 pub use text::{write_list, write_profile_note, write_refusal, write_show};
 pub use warn::{apply, refusal, warnings};
@@ -140,9 +142,11 @@ impl Catalog {
         let Some(dir) = dir else {
             return Ok(cat);
         };
-        let read_err = |reason: String| Error::Read {
-            path: dir.to_path_buf(),
-            reason: format!("cannot read the profile directory: {reason}"),
+        let read_err = |reason: String| {
+            Error::invalid(
+                dir.display().to_string(),
+                format!("cannot read the profile directory: {reason}"),
+            )
         };
         let mut files: Vec<PathBuf> = Vec::new();
         for item in std::fs::read_dir(dir).map_err(|e| read_err(e.to_string()))? {
@@ -256,6 +260,9 @@ pub fn targets_of(strategy: &Strategy, factor: f64) -> Targets {
 /// strategy's targets converted to the case's unit. `case_unit` is the case's
 /// `drug.level_unit` as written (targets are left out when it is missing, unknown, or cannot
 /// be converted; validation and the unit warning then say why).
+// The struct update keeps this compiling when `Defaults` gains fields the profile does not
+// fill (the Bayesian work adds some); today it may have none left over.
+#[allow(clippy::needless_update)]
 pub fn defaults_for(
     profile: &Profile,
     case_unit: Option<&str>,
@@ -270,6 +277,7 @@ pub fn defaults_for(
         molar_mass_g_mol: profile.molar_mass_g_mol.as_ref().map(|m| m.value),
         bioavailability: profile.bioavailability.as_ref().map(|f| f.value),
         targets,
+        prior: prior_of(profile),
         ..Defaults::default()
     }
 }

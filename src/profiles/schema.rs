@@ -236,6 +236,10 @@ pub struct Population {
     /// Michaelis-Menten constant, mg/L.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub km_mg_l: Option<Estimate>,
+    /// Residual error of a measured level, per cent (proportional): with a typical elimination
+    /// and a volume per kg, each with its CV, it makes the Bayesian priors.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub residual_error_percent: Option<Estimate>,
 }
 
 /// A problem found after parsing: the dotted field and what is wrong.
@@ -263,7 +267,7 @@ pub fn citations(text: &str) -> Vec<&str> {
         match after.find(']') {
             Some(close) => {
                 let key = &after[..close];
-                if !key.is_empty()
+                if key.starts_with(|c: char| c.is_ascii_alphabetic())
                     && key
                         .chars()
                         .all(|c| c.is_ascii_alphanumeric() || c == '-' || c == '_' || c == '.')
@@ -508,6 +512,7 @@ impl Population {
             ("volume_l_per_kg", &self.volume_l_per_kg),
             ("vmax_mg_per_day", &self.vmax_mg_per_day),
             ("km_mg_l", &self.km_mg_l),
+            ("residual_error_percent", &self.residual_error_percent),
         ];
         all.into_iter()
             .filter_map(|(n, e)| e.as_ref().map(|e| (n, e)))
@@ -549,7 +554,7 @@ mod tests {
     #[test]
     fn citations_are_read_from_text() {
         assert_eq!(
-            citations("[Rybak20][Rybak06] and [Bauer3e-AG]; not [a b]"),
+            citations("[Rybak20][Rybak06] and [Bauer3e-AG]; not [a b] nor [24.0]"),
             vec!["Rybak20", "Rybak06", "Bauer3e-AG"]
         );
         assert!(citations("from memory, unverified").is_empty());
