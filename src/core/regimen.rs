@@ -246,7 +246,8 @@ pub fn suggest(
                 num += a * mid / (half * half);
                 den += a * a / (half * half);
             }
-            let d_star = (num / den).clamp(lo, hi);
+            // hi may sit a rounding error below lo (allowed above); clamp panics if lo > hi.
+            let d_star = (num / den).clamp(lo, hi.max(lo));
             let n = (d_star / step).floor();
             for d in [n * step, (n + 1.0) * step] {
                 if d <= 0.0 || !d.is_finite() {
