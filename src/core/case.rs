@@ -3,6 +3,7 @@
 //! Values here have passed validation (see `casefile`): levels are above zero, times are in
 //! order where they must be, and every unit has what it needs to convert.
 
+use crate::core::bayes::Prior;
 use crate::core::clock::{Clock, Stamp};
 use crate::core::model::{Given, Route};
 use crate::core::regimen::RegimenOptions;
@@ -134,6 +135,39 @@ pub struct Threshold {
     pub resume_after_h: Option<f64>,
 }
 
+/// A fit method a case can ask for in `[fit] method`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum FitChoice {
+    /// Two-point or log-linear within one dosing interval (contract v1).
+    LogLinear,
+    /// k and V from every used level against the whole dose record.
+    DoseHistory,
+    /// Maximum a posteriori k and V from population priors and the levels.
+    Bayesian,
+}
+
+impl FitChoice {
+    /// The case-file spelling.
+    pub fn name(self) -> &'static str {
+        match self {
+            FitChoice::LogLinear => "log-linear",
+            FitChoice::DoseHistory => "dose-history",
+            FitChoice::Bayesian => "bayesian",
+        }
+    }
+
+    /// Parse the case-file spelling.
+    pub fn parse(text: &str) -> Option<Self> {
+        [
+            FitChoice::LogLinear,
+            FitChoice::DoseHistory,
+            FitChoice::Bayesian,
+        ]
+        .into_iter()
+        .find(|c| c.name() == text)
+    }
+}
+
 /// A whole validated case.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Case {
@@ -157,6 +191,10 @@ pub struct Case {
     pub switch: Option<Switch>,
     /// The practical choices regimens are searched over (a drug profile's, else defaults).
     pub regimen: RegimenOptions,
+    /// The fit method the case asks for (`[fit] method`); None lets the fit choose.
+    pub fit_method: Option<FitChoice>,
+    /// Population priors for a Bayesian estimate (from the drug profile), when known.
+    pub prior: Option<Prior>,
 }
 
 impl Case {

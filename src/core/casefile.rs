@@ -6,7 +6,10 @@ use chrono::{FixedOffset, NaiveDate, NaiveDateTime, NaiveTime};
 use serde::{Deserialize, Serialize};
 use toml::value::{Datetime, Offset};
 
-use crate::core::case::{Case, Dose, Drug, Level, Patient, Plan, Sex, Targets, Threshold};
+use crate::core::bayes::Prior;
+use crate::core::case::{
+    Case, Dose, Drug, FitChoice, Level, Patient, Plan, Sex, Targets, Threshold,
+};
 use crate::core::clock::{Clock, Stamp};
 use crate::core::error::{Error, Result};
 use crate::core::model::Route;
@@ -49,6 +52,18 @@ pub struct CaseFile {
     /// Switching agents (addition: `[switch]`).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub switch: Option<SwitchFile>,
+    /// How to fit (addition: `[fit] method`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub fit: Option<FitFile>,
+}
+
+/// `[fit]` as written.
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct FitFile {
+    /// "log-linear", "dose-history" or "bayesian"; unset lets the fit choose.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub method: Option<String>,
 }
 
 /// `[patient]` as written.
@@ -183,6 +198,8 @@ pub struct Defaults {
     pub bioavailability: Option<f64>,
     /// Targets, used when the case has no `[targets]`.
     pub targets: Targets,
+    /// Population priors for a Bayesian estimate.
+    pub prior: Option<Prior>,
 }
 
 impl CaseFile {
@@ -460,6 +477,18 @@ impl CaseFile {
             }
         };
 
+        let fit_method = match self.fit.as_ref().and_then(|f| f.method.as_deref()) {
+            None => None,
+            Some(m) => Some(FitChoice::parse(m).ok_or_else(|| {
+                Error::invalid(
+                    "fit.method",
+                    format!(
+                        "unknown method \"{m}\"; use \"log-linear\", \"dose-history\" or \"bayesian\""
+                    ),
+                )
+            })?),
+        };
+
         let switch = self.switch.as_ref().map(validate_switch).transpose()?;
 
         Ok(Case {
@@ -473,6 +502,8 @@ impl CaseFile {
             targets,
             threshold,
             clock,
+            fit_method,
+            prior: defaults.prior.clone(),
         })
     }
 }

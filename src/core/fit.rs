@@ -2,8 +2,10 @@
 
 use statrs::distribution::{ContinuousCDF, StudentsT};
 
-use crate::core::case::Case;
+use crate::core::bayes::{self, Summary};
+use crate::core::case::{Case, FitChoice};
 use crate::core::error::{Error, Result};
+use crate::core::history::{self, Spread};
 use crate::core::model::{self, one_minus_exp_neg};
 
 /// A straight line y = intercept + slope·x fitted by ordinary least squares.
@@ -91,6 +93,10 @@ pub enum Method {
     TwoPoint,
     /// Three or more levels: least squares of ln(level) on time.
     LogLinear,
+    /// k and V together from every used level against the whole dose record (`history`).
+    DoseHistory,
+    /// Maximum a posteriori k and V from population priors and the levels (`bayes`).
+    Bayesian,
 }
 
 impl Method {
@@ -99,9 +105,18 @@ impl Method {
         match self {
             Method::TwoPoint => "two-point",
             Method::LogLinear => "log-linear",
+            Method::DoseHistory => "dose-history",
+            Method::Bayesian => "bayesian",
         }
     }
 }
+
+/// The methods a case can ask for in `[fit] method`, in the order offered to users.
+pub const CHOICES: [FitChoice; 3] = [
+    FitChoice::LogLinear,
+    FitChoice::DoseHistory,
+    FitChoice::Bayesian,
+];
 
 /// How the volume was found.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -110,6 +125,10 @@ pub enum VolumeMethod {
     PreDoseLevel,
     /// Superposition of the whole dose record at the first fitted level.
     DoseRecord,
+    /// Fitted together with k by the dose-history fit.
+    DoseHistory,
+    /// Estimated together with k by the Bayesian fit.
+    Bayesian,
 }
 
 impl VolumeMethod {
@@ -118,6 +137,8 @@ impl VolumeMethod {
         match self {
             VolumeMethod::PreDoseLevel => "pre-dose level",
             VolumeMethod::DoseRecord => "dose record",
+            VolumeMethod::DoseHistory => "dose-history",
+            VolumeMethod::Bayesian => "bayesian",
         }
     }
 }
@@ -157,6 +178,14 @@ pub struct Fit {
     pub clearance_l_per_h: Option<f64>,
     /// Warnings the fit raised.
     pub warnings: Vec<String>,
+    /// Joint uncertainty of (ln k, ln V) (dose-history and Bayesian fits with an interval).
+    pub spread: Option<Spread>,
+    /// 95 % interval of V (dose-history and Bayesian fits).
+    pub volume_ci95: Option<[f64; 2]>,
+    /// 95 % interval of the clearance (dose-history and Bayesian fits).
+    pub clearance_ci95: Option<[f64; 2]>,
+    /// The population values and how far the estimate moved from them (Bayesian fits).
+    pub population: Option<Summary>,
 }
 
 impl Fit {
@@ -175,11 +204,46 @@ pub fn window_of(case: &Case, t: f64) -> Option<usize> {
     (t >= case.doses[i].end()).then_some(i)
 }
 
-/// Fit k (and V when the dose amounts are known) from the case's used levels.
+/// Fit the case by the method it asks for (`[fit] method`), or, when it names none: log-linear
+/// when one dosing interval holds two used levels, else dose-history when two or more used
+/// levels exist, else Bayesian when population priors are known, else the log-linear error.
+///
+/// # Errors
+/// The chosen method's errors (each names the levels, rows or fields at fault).
+pub fn fit(case: &Case) -> Result<Fit> {
+    match case.fit_method {
+        Some(FitChoice::LogLinear) => fit_log_linear(case),
+        Some(FitChoice::DoseHistory) => history::fit(case),
+        Some(FitChoice::Bayesian) => bayes::fit(case),
+        None => {
+            // Levels are in time order, so a window's levels are neighbours.
+            let windows: Vec<usize> = case
+                .levels
+                .iter()
+                .filter(|l| l.use_in_fit)
+                .filter_map(|l| window_of(case, l.t))
+                .collect();
+            let usable = history::usable_levels(case).0.len();
+            let doses_known = !case.doses.is_empty() && case.given().is_ok();
+            if windows.windows(2).any(|w| w[0] == w[1]) {
+                fit_log_linear(case)
+            } else if usable >= 2 && doses_known {
+                history::fit(case)
+            } else if usable < 2 && doses_known && case.prior.is_some() {
+                bayes::fit(case)
+            } else {
+                fit_log_linear(case)
+            }
+        }
+    }
+}
+
+/// Fit k (and V when the dose amounts are known) from the case's used levels, by the
+/// two-point or log-linear fit of contract v1 within one dosing interval.
 ///
 /// # Errors
 /// Fewer than two used levels in any one window, or levels that do not fall.
-pub fn fit(case: &Case) -> Result<Fit> {
+pub fn fit_log_linear(case: &Case) -> Result<Fit> {
     let mut warnings = Vec::new();
     let used: Vec<usize> = (0..case.levels.len())
         .filter(|&i| case.levels[i].use_in_fit)
@@ -308,6 +372,10 @@ pub fn fit(case: &Case) -> Result<Fit> {
         pre_dose_level: None,
         clearance_l_per_h: None,
         warnings,
+        spread: None,
+        volume_ci95: None,
+        clearance_ci95: None,
+        population: None,
     };
     volume(case, &mut fit);
     for (w, v) in &windows {

@@ -77,6 +77,25 @@ struct JsonFit {
     volume_l: Option<f64>,
     volume_method: Option<&'static str>,
     clearance_l_per_h: Option<f64>,
+    /// Addition: 95 % interval of V (dose-history and Bayesian fits, else null).
+    v_ci95_l: Option<[f64; 2]>,
+    /// Addition: 95 % interval of the clearance (dose-history and Bayesian fits, else null).
+    clearance_ci95_l_per_h: Option<[f64; 2]>,
+    /// Addition: the population values and the move from them (Bayesian fits, else null).
+    population: Option<JsonPopulation>,
+}
+
+#[derive(Debug, Serialize)]
+struct JsonPopulation {
+    k_per_h: f64,
+    volume_l: f64,
+    clearance_l_per_h: f64,
+    prior_on: &'static str,
+    creatinine_clearance_ml_min: Option<f64>,
+    weight_kg: f64,
+    elimination_shift_sd: f64,
+    volume_shift_sd: f64,
+    sources: Vec<String>,
 }
 
 #[derive(Debug, Serialize)]
@@ -89,6 +108,10 @@ struct JsonPlan {
     time_to_95pct_ss_h: f64,
     time_to_97pct_ss_h: f64,
     meets_targets: Option<bool>,
+    /// Addition: 95 % ranges of the steady-state figures (dose-history and Bayesian fits).
+    peak_ss_ci95: Option<[f64; 2]>,
+    trough_ss_ci95: Option<[f64; 2]>,
+    auc24_ss_ci95: Option<[f64; 2]>,
 }
 
 #[derive(Debug, Serialize)]
@@ -124,6 +147,26 @@ impl From<&Report> for JsonReport {
                 volume_l: r.fit.volume_l,
                 volume_method: r.fit.volume_method,
                 clearance_l_per_h: r.fit.clearance_l_per_h,
+                v_ci95_l: r.fit.volume_ci95_l,
+                clearance_ci95_l_per_h: r.fit.clearance_ci95_l_per_h,
+                population: r.fit.population.as_ref().map(|s| JsonPopulation {
+                    k_per_h: s.population.k_per_h,
+                    volume_l: s.population.volume_l,
+                    clearance_l_per_h: s.population.clearance_l_per_h,
+                    prior_on: if s.population.on_clearance {
+                        "clearance"
+                    } else {
+                        "k"
+                    },
+                    creatinine_clearance_ml_min: s
+                        .population
+                        .creatinine_clearance
+                        .map(|c| c.ml_min),
+                    weight_kg: s.population.weight_kg,
+                    elimination_shift_sd: s.elimination_shift_sd,
+                    volume_shift_sd: s.volume_shift_sd,
+                    sources: s.sources.clone(),
+                }),
             },
             plan: r.plan.as_ref().map(|p| JsonPlan {
                 accumulation_factor: p.accumulation_factor,
@@ -134,6 +177,9 @@ impl From<&Report> for JsonReport {
                 time_to_95pct_ss_h: p.time_to_ss_h[1],
                 time_to_97pct_ss_h: p.time_to_ss_h[2],
                 meets_targets: p.meets_targets,
+                peak_ss_ci95: p.peak_ss_ci95,
+                trough_ss_ci95: p.trough_ss_ci95,
+                auc24_ss_ci95: p.auc24_ss_ci95,
             }),
             threshold: r.threshold.as_ref().map(|t| JsonThreshold {
                 below: t.below,

@@ -3,11 +3,13 @@
 
 use std::io::{self, Write};
 
+use crate::core::bayes::Summary;
 use crate::core::case::{Case, Targets};
 use crate::core::clock::{span_words, Stamp};
 use crate::core::error::{Error, Result};
 use crate::core::fit::{self, Fit};
 use crate::core::project::{self, Patient};
+use crate::core::uncertainty;
 use crate::core::units::LevelUnit;
 
 /// The caution shown first in every report, note and screen.
@@ -45,6 +47,12 @@ pub struct FitPart {
     pub clearance_l_per_h: Option<f64>,
     /// Row of the dose whose interval holds the fitted levels.
     pub window_dose_row: usize,
+    /// 95 % interval of V in L (dose-history and Bayesian fits).
+    pub volume_ci95_l: Option<[f64; 2]>,
+    /// 95 % interval of the clearance in L/h (dose-history and Bayesian fits).
+    pub clearance_ci95_l_per_h: Option<[f64; 2]>,
+    /// The population values and the move from them (Bayesian fits).
+    pub population: Option<Summary>,
 }
 
 /// One target and whether the plan meets it.
@@ -79,6 +87,12 @@ pub struct PlanPart {
     pub checks: Vec<TargetCheck>,
     /// When the first plan dose falls.
     pub start: Stamp,
+    /// 95 % range of the steady-state peak (dose-history and Bayesian fits).
+    pub peak_ss_ci95: Option<[f64; 2]>,
+    /// 95 % range of the steady-state trough (dose-history and Bayesian fits).
+    pub trough_ss_ci95: Option<[f64; 2]>,
+    /// 95 % range of the steady-state AUC24 (dose-history and Bayesian fits).
+    pub auc24_ss_ci95: Option<[f64; 2]>,
 }
 
 /// The threshold, as reported.
@@ -193,12 +207,18 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
         pre_dose_row: fit.pre_dose_level.map(|i| case.levels[i].row),
         clearance_l_per_h: patient.v().and(fit.clearance_l_per_h),
         window_dose_row: case.doses[fit.window_dose].row,
+        volume_ci95_l: patient.v().and(fit.volume_ci95),
+        clearance_ci95_l_per_h: patient.v().and(fit.clearance_ci95),
+        population: fit.population.clone(),
     };
 
     let plan = match &case.plan {
         None => None,
         Some(pl) => {
             let pp = project::plan(&patient, pl);
+            let ranges = patient
+                .v()
+                .and_then(|_| uncertainty::steady_ranges(fit, pl));
             let (peak, trough, auc) = match pp.steady {
                 Some(s) => (
                     Some(to(s.peak_mg_l)),
@@ -235,6 +255,9 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
                 meets_targets: meets,
                 checks,
                 start: place(case, pl.start_t, "plan.start")?,
+                peak_ss_ci95: ranges.map(|r| r.peak.map(to)),
+                trough_ss_ci95: ranges.map(|r| r.trough.map(to)),
+                auc24_ss_ci95: ranges.map(|r| r.auc24.map(to)),
             })
         }
     };
@@ -253,7 +276,20 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
             if fit.half_life_ci95.is_none() && fit.k_ci95.is_some() {
                 // already warned by the fit
             }
-            let ci = match tp.reached_ci95_t {
+            // Dose-history and Bayesian fits: where the model's 95 % band crosses the
+            // threshold (delta method on k and V together); otherwise k_hi and k_lo as before.
+            let reached_ci95_t = if fit.spread.is_some() {
+                let r = uncertainty::threshold_range(case, fit, tp.t0, tp.below_mg_l);
+                if r.is_none() {
+                    warnings.push(
+                        "the spread of k is too wide to bound when the level falls below the threshold: the 95 % range is not given".into(),
+                    );
+                }
+                r
+            } else {
+                tp.reached_ci95_t
+            };
+            let ci = match reached_ci95_t {
                 Some([a, b]) => Some([
                     place_up(case, a, "threshold.below")?,
                     place_up(case, b, "threshold.below")?,
@@ -356,6 +392,10 @@ fn shape_warnings(case: &Case, fit: &Fit, warnings: &mut Vec<String>) {
             "oral doses are modelled as an instant dose of F x amount (absorption is not modelled): measured peaks will be lower and later than projected".into(),
         );
     }
+    if matches!(fit.method, fit::Method::DoseHistory | fit::Method::Bayesian) {
+        // These fits span doses: their own warnings cover the timing of each level.
+        return;
+    }
     let dose = &case.doses[fit.window_dose];
     for &i in &fit.used {
         let after = case.levels[i].t - dose.end();
@@ -432,8 +472,18 @@ fn check_finite(r: &Report) -> Result<()> {
     xs.extend(r.fit.half_life_ci95_h.into_iter().flatten());
     xs.extend(r.fit.volume_l);
     xs.extend(r.fit.clearance_l_per_h);
+    xs.extend(r.fit.volume_ci95_l.into_iter().flatten());
+    xs.extend(r.fit.clearance_ci95_l_per_h.into_iter().flatten());
+    if let Some(s) = &r.fit.population {
+        let p = &s.population;
+        xs.extend([p.k_per_h, p.volume_l, p.clearance_l_per_h]);
+        xs.extend([s.elimination_shift_sd, s.volume_shift_sd]);
+    }
     if let Some(p) = &r.plan {
         xs.push(p.accumulation_factor);
+        for range in [p.peak_ss_ci95, p.trough_ss_ci95, p.auc24_ss_ci95] {
+            xs.extend(range.into_iter().flatten());
+        }
         xs.extend(p.peak_ss);
         xs.extend(p.trough_ss);
         xs.extend(p.auc24_ss);
@@ -501,14 +551,32 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
 
     let f = &r.fit;
     let rows: Vec<String> = f.level_rows.iter().map(|r| r.to_string()).collect();
-    writeln!(
-        w,
-        "Fit: {} over {} levels (level {}) after dose {}",
-        f.method,
-        f.level_rows.len(),
-        rows.join(", "),
-        f.window_dose_row
-    )?;
+    let spans_doses = matches!(f.method, "dose-history" | "bayesian");
+    if !spans_doses {
+        writeln!(
+            w,
+            "Fit: {} over {} levels (level {}) after dose {}",
+            f.method,
+            f.level_rows.len(),
+            rows.join(", "),
+            f.window_dose_row
+        )?;
+    } else if rows.is_empty() {
+        writeln!(
+            w,
+            "Fit: {} from population priors alone (no level)",
+            f.method
+        )?;
+    } else {
+        writeln!(
+            w,
+            "Fit: {} over {} level{} (level {}) against the whole dose record",
+            f.method,
+            rows.len(),
+            if rows.len() == 1 { "" } else { "s" },
+            rows.join(", ")
+        )?;
+    }
     let ci = |c: Option<[f64; 2]>| match c {
         Some([a, b]) => format!("(95 % interval {} to {})", num(a), num(b)),
         None => "(no interval)".into(),
@@ -532,6 +600,12 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
         (Some(v), Some(m)) => {
             let by = match f.pre_dose_row {
                 Some(row) if m == "pre-dose level" => format!("by pre-dose level {row}"),
+                _ if spans_doses => match f.volume_ci95_l {
+                    Some([a, b]) => {
+                        format!("fitted with k; 95 % interval {} to {}", num(a), num(b))
+                    }
+                    None => "fitted with k; no interval".into(),
+                },
                 _ => format!("by {m}"),
             };
             writeln!(w, "  volume      {} L  ({by})", num(v))?;
@@ -539,7 +613,46 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
         _ => writeln!(w, "  volume      not known (no dose amounts)")?,
     }
     if let Some(cl) = f.clearance_l_per_h {
-        writeln!(w, "  clearance   {} L/h", num(cl))?;
+        if spans_doses {
+            writeln!(
+                w,
+                "  clearance   {} L/h  {}",
+                num(cl),
+                ci(f.clearance_ci95_l_per_h)
+            )?;
+        } else {
+            writeln!(w, "  clearance   {} L/h", num(cl))?;
+        }
+    }
+    if let Some(s) = &f.population {
+        let p = &s.population;
+        let (what, typical, unit) = if p.on_clearance {
+            ("clearance", p.clearance_l_per_h, "L/h")
+        } else {
+            ("k", p.k_per_h, "/h")
+        };
+        writeln!(
+            w,
+            "  population  {what} {} {unit}, volume {} L ({} kg recorded body weight{})",
+            num(typical),
+            num(p.volume_l),
+            num(p.weight_kg),
+            match &p.creatinine_clearance {
+                Some(c) => format!(
+                    ", creatinine clearance {} mL/min by Cockcroft-Gault",
+                    num(c.ml_min)
+                ),
+                None => String::new(),
+            }
+        )?;
+        writeln!(
+            w,
+            "  moved       {what} {:+.2} and volume {:+.2} between-patient SDs from the population toward the levels",
+            s.elimination_shift_sd, s.volume_shift_sd
+        )?;
+        if !s.sources.is_empty() {
+            writeln!(w, "  priors from {}", s.sources.join("; "))?;
+        }
     }
     writeln!(w)?;
 
@@ -557,7 +670,16 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
             num(pl.interval_h),
             when(&p.start)
         )?;
-        let line = |w: &mut dyn Write, name: &str, v: Option<f64>, unit: &str| -> io::Result<()> {
+        let line = |w: &mut dyn Write,
+                    name: &str,
+                    v: Option<f64>,
+                    range: Option<[f64; 2]>,
+                    unit: &str|
+         -> io::Result<()> {
+            let unit = match range {
+                Some([a, b]) => format!("{unit} (95 % range {} to {})", num(a), num(b)),
+                None => unit.to_string(),
+            };
             let check = p.checks.iter().find(|c| c.name == name);
             let tail = match check {
                 Some(c) => format!(
@@ -572,9 +694,9 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
                 None => writeln!(w, "  {name:<8} at steady state  not known (no volume)"),
             }
         };
-        line(w, "peak", p.peak_ss, u)?;
-        line(w, "trough", p.trough_ss, u)?;
-        line(w, "AUC24", p.auc24_ss, &format!("{u}·h"))?;
+        line(w, "peak", p.peak_ss, p.peak_ss_ci95, u)?;
+        line(w, "trough", p.trough_ss, p.trough_ss_ci95, u)?;
+        line(w, "AUC24", p.auc24_ss, p.auc24_ss_ci95, &format!("{u}·h"))?;
         writeln!(w, "  accumulation factor   {}", num(p.accumulation_factor))?;
         writeln!(
             w,
@@ -614,6 +736,10 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
         }
         match &t.reached_at_ci95 {
             Some([a, b]) => writeln!(w, "  95 % range {} to {}", when(a), when(b))?,
+            None if matches!(r.fit.method, "dose-history" | "bayesian") => writeln!(
+                w,
+                "  95 % range not known (the spread of k and V is too wide to bound it)"
+            )?,
             None => writeln!(w, "  95 % range not known (no interval of k)")?,
         }
         if let Some(p) = &t.procedure {

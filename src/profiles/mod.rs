@@ -12,6 +12,7 @@
 
 mod builtin;
 mod parse;
+mod prior;
 pub mod schema;
 mod text;
 mod warn;
@@ -24,6 +25,7 @@ use crate::core::error::{Error, Result};
 use crate::core::units::LevelUnit;
 
 pub use parse::parse_profile;
+pub use prior::prior_of;
 pub use schema::{FirstOrder, Profile, Strategy};
 pub use text::{write_list, write_profile_note, write_refusal, write_show};
 pub use warn::{apply, refusal, warnings};
@@ -275,6 +277,7 @@ pub fn defaults_for(
         molar_mass_g_mol: profile.molar_mass_g_mol.as_ref().map(|m| m.value),
         bioavailability: profile.bioavailability.as_ref().map(|f| f.value),
         targets,
+        prior: prior_of(profile),
         ..Defaults::default()
     }
 }

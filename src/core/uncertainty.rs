@@ -1,0 +1,196 @@
+//! Carry a fit's joint uncertainty of k and V into projections by the delta method: ranges of
+//! the steady-state figures, the threshold time range, and the model band over time.
+//!
+//! Only dose-history and Bayesian fits have a joint covariance of θ = (ln k, ln V) (`Spread`);
+//! for them a positive quantity q(k, V) gets the 95 % range q·e^(∓c·SE(ln q)), with
+//! SE(ln q)² = ∇ln qᵀ·Cov(θ)·∇ln q (the gradient by central differences in θ, or exact where
+//! the model gives it) and c the fit's quantile. The model band at a time is the same range of
+//! the model's level. The threshold range is where that band crosses the threshold: the lower
+//! edge first (earliest), the upper edge last (latest). No sampling, so every run gives the
+//! same figures.
+
+use crate::core::case::{Case, Plan};
+use crate::core::fit::Fit;
+use crate::core::history::{self, Spread};
+use crate::core::model::{self, Given};
+
+/// Step in ln k and ln V for numerical gradients.
+const STEP: f64 = 1e-6;
+
+/// The gradient of ln q(k, V) in (ln k, ln V) by central differences; None if q is not
+/// positive and finite near (k, v).
+pub fn ln_gradient(q: impl Fn(f64, f64) -> f64, k: f64, v: f64) -> Option<[f64; 2]> {
+    let (up, dn) = (STEP.exp(), (-STEP).exp());
+    let ln = |x: f64| (x.is_finite() && x > 0.0).then(|| x.ln());
+    let gk = (ln(q(k * up, v))? - ln(q(k * dn, v))?) / (2.0 * STEP);
+    let gv = (ln(q(k, v * up))? - ln(q(k, v * dn))?) / (2.0 * STEP);
+    (gk.is_finite() && gv.is_finite()).then_some([gk, gv])
+}
+
+/// The 95 % range of a positive quantity q(k, V) at the fit's k and V.
+pub fn range(spread: &Spread, k: f64, v: f64, q: impl Fn(f64, f64) -> f64) -> Option<[f64; 2]> {
+    let value = q(k, v);
+    let g = ln_gradient(&q, k, v)?;
+    let r = spread.interval(value, g);
+    (r[0].is_finite() && r[1].is_finite()).then_some(r)
+}
+
+/// 95 % ranges of the steady-state figures, mg/L (AUC mg·h/L).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SteadyRanges {
+    /// Peak range.
+    pub peak: [f64; 2],
+    /// Trough range.
+    pub trough: [f64; 2],
+    /// AUC24 range.
+    pub auc24: [f64; 2],
+}
+
+/// The steady-state ranges of `plan` for a fit with a joint spread and a volume.
+pub fn steady_ranges(fit: &Fit, plan: &Plan) -> Option<SteadyRanges> {
+    let spread = fit.spread.as_ref()?;
+    let v = fit.volume_l?;
+    let ss = |k: f64, v: f64| model::steady_state(plan.dose_mg, plan.route, plan.interval_h, k, v);
+    Some(SteadyRanges {
+        peak: range(spread, fit.k, v, |k, v| ss(k, v).peak_mg_l)?,
+        trough: range(spread, fit.k, v, |k, v| ss(k, v).trough_mg_l)?,
+        auc24: range(spread, fit.k, v, |k, v| ss(k, v).auc24_mg_h_l)?,
+    })
+}
+
+/// The model at one time, with its 95 % band when the fit has one.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct BandPoint {
+    /// Hours on the case's axis.
+    pub t: f64,
+    /// The model's level, mg/L (0 before the first dose).
+    pub mg_l: f64,
+    /// Lower and upper edge of the 95 % band, mg/L.
+    pub band: Option<[f64; 2]>,
+}
+
+/// The model's level (ln mg/L) at `t` and its gradient in (ln k, ln V); None before any dose.
+fn ln_level(given: &[Given], k: f64, v: f64, t: f64) -> Option<(f64, [f64; 2])> {
+    let (ls, dls) = history::ln_unit_level(given, k, t)?;
+    Some((ls - v.ln(), [dls, -1.0]))
+}
+
+/// The model curve with the recorded doses at each time in `ts`, with its 95 % band (the
+/// delta-method range of the level) for dose-history and Bayesian fits. Without V (no dose
+/// amounts) the fitted line is given, without a band. For a chart of the fit screen.
+pub fn band(case: &Case, fit: &Fit, ts: &[f64]) -> Vec<BandPoint> {
+    let given = case.given().ok();
+    ts.iter()
+        .map(|&t| match (&given, fit.volume_l) {
+            (Some(g), Some(v)) => match ln_level(g, fit.k, v, t) {
+                Some((lc, grad)) => {
+                    let c = lc.exp();
+                    BandPoint {
+                        t,
+                        mg_l: c,
+                        band: fit.spread.map(|s| s.interval(c, grad)),
+                    }
+                }
+                None => BandPoint {
+                    t,
+                    mg_l: 0.0,
+                    band: None,
+                },
+            },
+            _ => BandPoint {
+                t,
+                mg_l: fit.line_mg_l(t),
+                band: None,
+            },
+        })
+        .collect()
+}
+
+/// The 95 % range of the time (hours on the axis) the level falls to `below_mg_l`, from `t0`
+/// (at or after the end of the last recorded dose, no dose after): the earliest is where the
+/// band's lower edge reaches the threshold, the latest where its upper edge does. None
+/// without a spread or V, or when the band's upper edge need not fall (the spread of k is as
+/// wide as k itself: c·SE(ln k) >= 1).
+pub fn threshold_range(case: &Case, fit: &Fit, t0: f64, below_mg_l: f64) -> Option<[f64; 2]> {
+    let spread = fit.spread.as_ref()?;
+    let v = fit.volume_l?;
+    let given = case.given().ok()?;
+    if !(below_mg_l > 0.0 && below_mg_l.is_finite()) {
+        return None;
+    }
+    // Past the last dose both edges fall monotonically only while c·SE(ln k) < 1.
+    if spread.quantile * spread.se_ln_k() >= 1.0 {
+        return None;
+    }
+    let ln_x = below_mg_l.ln();
+    let edge = |t: f64, sign: f64| -> Option<f64> {
+        let (lc, g) = ln_level(&given, fit.k, v, t)?;
+        Some(lc + sign * spread.quantile * spread.se_ln(g))
+    };
+    let cross = |sign: f64| -> Option<f64> {
+        if edge(t0, sign)? <= ln_x {
+            return Some(t0);
+        }
+        let mut step = fit.half_life_h.clamp(0.1, 1e4);
+        let mut lo = t0;
+        let mut hi = t0 + step;
+        while edge(hi, sign)? > ln_x {
+            lo = hi;
+            step *= 2.0;
+            hi = t0 + step;
+            if step > 1e7 {
+                return None;
+            }
+        }
+        for _ in 0..200 {
+            let mid = 0.5 * (lo + hi);
+            if mid <= lo || mid >= hi {
+                break;
+            }
+            if edge(mid, sign)? > ln_x {
+                lo = mid;
+            } else {
+                hi = mid;
+            }
+        }
+        Some(hi)
+    };
+    Some([cross(-1.0)?, cross(1.0)?])
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::core::model::Route;
+
+    #[test]
+    fn gradient_of_auc_is_minus_one_in_both() {
+        // AUC = F·D/(k·V): ln AUC has gradient (-1, -1) in (ln k, ln V).
+        let g = ln_gradient(|k, v| 1000.0 / (k * v), 0.1, 30.0).unwrap();
+        assert!(
+            (g[0] + 1.0).abs() < 1e-8 && (g[1] + 1.0).abs() < 1e-8,
+            "{g:?}"
+        );
+    }
+
+    #[test]
+    fn band_gradient_matches_numerical() {
+        let given = [
+            Given {
+                t: 0.0,
+                amount_mg: 500.0,
+                route: Route::Infusion { hours: 1.0 },
+            },
+            Given {
+                t: 12.0,
+                amount_mg: 500.0,
+                route: Route::Infusion { hours: 1.0 },
+            },
+        ];
+        for t in [0.5, 3.0, 12.5, 20.0] {
+            let (_, g) = ln_level(&given, 0.1, 40.0, t).unwrap();
+            let n = ln_gradient(|k, v| model::superpose(&given, k, v, t), 0.1, 40.0).unwrap();
+            assert!((g[0] - n[0]).abs() < 1e-7 && (g[1] - n[1]).abs() < 1e-7);
+        }
+    }
+}
