@@ -544,6 +544,24 @@ pub(crate) fn to_fit(
     population: Option<crate::core::bayes::Summary>,
 ) -> Fit {
     let (k, v) = (sol.k, sol.v);
+    let mut warnings = warnings;
+    // An interval that overflows (the levels barely bound k or V) is dropped, not reported.
+    let finite = |s: &Spread| {
+        [[1.0, 0.0], [0.0, 1.0], [1.0, 1.0]].iter().all(|g| {
+            s.interval(1.0, *g)
+                .iter()
+                .all(|x| x.is_finite() && *x > 0.0)
+        })
+    };
+    let spread = match sol.spread {
+        Some(s) if !finite(&s) => {
+            warnings.push(
+                "the levels barely bound k and V: their 95 % intervals are too wide to give".into(),
+            );
+            None
+        }
+        other => other,
+    };
     let t_ref = used
         .last()
         .map(|&i| case.levels[i].t)
@@ -559,7 +577,7 @@ pub(crate) fn to_fit(
         .map(|g| model::superpose(&g, k, v, t_ref))
         .filter(|c| *c > 0.0)
         .unwrap_or(1.0);
-    let k_ci95 = sol.spread.map(|s| s.interval(k, [1.0, 0.0]));
+    let k_ci95 = spread.map(|s| s.interval(k, [1.0, 0.0]));
     let volume_method = match method {
         Method::Bayesian => VolumeMethod::Bayesian,
         _ => VolumeMethod::DoseHistory,
@@ -571,7 +589,7 @@ pub(crate) fn to_fit(
         k,
         half_life_h: model::half_life(k),
         r_squared: None,
-        se_k: sol.spread.map(|s| k * s.se_ln_k()),
+        se_k: spread.map(|s| k * s.se_ln_k()),
         k_ci95,
         half_life_ci95: k_ci95.map(|[lo, hi]| [model::half_life(hi), model::half_life(lo)]),
         ln_intercept: c_ref.ln() + k * t_ref,
@@ -581,9 +599,9 @@ pub(crate) fn to_fit(
         pre_dose_level: None,
         clearance_l_per_h: Some(k * v),
         warnings,
-        spread: sol.spread,
-        volume_ci95: sol.spread.map(|s| s.interval(v, [0.0, 1.0])),
-        clearance_ci95: sol.spread.map(|s| s.interval(k * v, [1.0, 1.0])),
+        spread,
+        volume_ci95: spread.map(|s| s.interval(v, [0.0, 1.0])),
+        clearance_ci95: spread.map(|s| s.interval(k * v, [1.0, 1.0])),
         population,
     }
 }
