@@ -54,16 +54,19 @@ pub fn prior_of(profile: &Profile) -> Option<Prior> {
     };
     let (vol, omega_v) = with_cv(&pop.volume_l_per_kg)?;
     let residual = pop.residual_error_percent.as_ref()?;
+    let mut sources: Vec<String> = Vec::new();
+    for e in [elim, vol, residual] {
+        if !sources.contains(&e.source) {
+            sources.push(e.source.clone());
+        }
+    }
     let prior = Prior {
         typical,
         v_l_per_kg: vol.value,
         omega_k,
         omega_v,
         residual_sd: log_sd(residual.value),
-        sources: [elim, vol, residual]
-            .iter()
-            .map(|e| e.source.clone())
-            .collect(),
+        sources,
     };
     prior.check().ok().map(|_| prior)
 }
@@ -71,6 +74,41 @@ pub fn prior_of(profile: &Profile) -> Option<Prior> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn gentamicin_needs_a_residual_error_to_give_priors() {
+        let cat = crate::profiles::Catalog::built_in().unwrap();
+        let g = cat.get("gentamicin").unwrap().profile.clone();
+        let mut without = g.clone();
+        without.population.as_mut().unwrap().residual_error_percent = None;
+        assert_eq!(prior_of(&without), None);
+        let mut with = g.clone();
+        let pop = with.population.as_mut().unwrap();
+        pop.residual_error_percent = Some(Estimate {
+            value: 15.0,
+            cv_percent: None,
+            source: "invented for the test".into(),
+            note: None,
+        });
+        let p = prior_of(&with).unwrap();
+        let pop = g.population.as_ref().unwrap();
+        let (hl, v) = (
+            pop.half_life_h.as_ref().unwrap(),
+            pop.volume_l_per_kg.as_ref().unwrap(),
+        );
+        assert_eq!(
+            p.typical,
+            Typical::RateConstant {
+                per_h: std::f64::consts::LN_2 / hl.value,
+                per_ml_min: None
+            }
+        );
+        assert_eq!(p.v_l_per_kg, v.value);
+        assert_eq!(p.omega_k, log_sd(hl.cv_percent.unwrap()));
+        assert_eq!(p.omega_v, log_sd(v.cv_percent.unwrap()));
+        assert_eq!(p.residual_sd, log_sd(15.0));
+        assert!(p.sources.contains(&"invented for the test".to_string()));
+    }
 
     #[test]
     fn log_sd_of_a_cv() {
