@@ -561,3 +561,49 @@ proptest! {
         check_no_panic_no_nan(&text)?;
     }
 }
+
+/// The case text without its `[targets]` table (four lines as `near_valid_case` writes it).
+fn without_targets(text: &str) -> String {
+    match text.find("[targets]\n") {
+        None => text.to_string(),
+        Some(at) => {
+            let rest = &text[at..];
+            let end = rest
+                .match_indices('\n')
+                .nth(3)
+                .map_or(rest.len(), |(i, _)| i + 1);
+            format!("{}{}", &text[..at], &rest[end..])
+        }
+    }
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 500, ..config() })]
+
+    // Targets placed exactly on the projected figures are met (bounds are inclusive) and
+    // nothing downstream of them (suggestions, advice) panics on the degenerate ranges.
+    #[test]
+    fn targets_on_the_projected_figures_are_met(text in near_valid_case()) {
+        let text = without_targets(&text);
+        let Ok(case) = CaseFile::parse(&text).and_then(|f| f.validate()) else {
+            return Ok(());
+        };
+        let Ok(r) = report::build(&case) else { return Ok(()) };
+        let Some((peak, trough, auc)) = r.plan.as_ref().and_then(|p| {
+            Some((p.peak_ss?, p.trough_ss?, p.auc24_ss?))
+        }) else {
+            return Ok(());
+        };
+        if !(peak > 0.0 && trough > 0.0 && auc > 0.0) {
+            return Ok(()); // underflowed figures cannot be targets (they must be above 0)
+        }
+        let targets = format!(
+            "[targets]\npeak = [{}, {}]\ntrough_max = {}\nauc24 = [{}, {}]\n",
+            toml_f(peak), toml_f(peak), toml_f(trough), toml_f(auc), toml_f(auc)
+        );
+        let again = CaseFile::parse(&(text.clone() + &targets)).and_then(|f| f.validate());
+        let case = again.map_err(|e| TestCaseError::fail(format!("{e}\n{text}")))?;
+        let r = report::build(&case).map_err(|e| TestCaseError::fail(format!("{e}\n{text}")))?;
+        prop_assert_eq!(r.plan.as_ref().unwrap().meets_targets, Some(true), "{}", text);
+    }
+}
