@@ -152,7 +152,7 @@ fn invalid_fixtures() -> Vec<(PathBuf, String)> {
 
 #[track_caller]
 fn assert_one_line_error(o: &Output, file: &str, phrase: &str) {
-    assert_eq!(o.status.code(), Some(2), "{file}: {}", err(&o));
+    assert_eq!(o.status.code(), Some(2), "{file}: {}", err(o));
     assert!(out(o).is_empty(), "{file}: stdout {:?}", out(o));
     let e = err(o);
     assert_eq!(e.lines().count(), 1, "{file}: stderr {e:?}");
