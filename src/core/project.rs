@@ -202,7 +202,8 @@ pub fn plan_doses_before(plan: &Plan, t: f64) -> usize {
     if t <= plan.start_t {
         return 0;
     }
-    let n = ((t - plan.start_t) / plan.interval_h).ceil();
+    // Strictly before t: a dose falling on t itself (allowing for float noise) is not counted.
+    let n = ((t - plan.start_t) / plan.interval_h - 1e-9).ceil();
     if n.is_finite() {
         (n as usize).min(MAX_PLAN_DOSES)
     } else {
