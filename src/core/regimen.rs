@@ -147,8 +147,11 @@ pub fn meets(s: &SteadyState, t: &Targets) -> bool {
 }
 
 /// The target ranges as (middle, half-width, which figure) triples.
-fn ranges(t: &Targets) -> Vec<(f64, f64, fn(&SteadyState) -> f64)> {
-    let mut out: Vec<(f64, f64, fn(&SteadyState) -> f64)> = Vec::new();
+/// A target range as (middle, half-width, the figure it bounds).
+type Range = (f64, f64, fn(&SteadyState) -> f64);
+
+fn ranges(t: &Targets) -> Vec<Range> {
+    let mut out: Vec<Range> = Vec::new();
     if let Some([lo, hi]) = t.peak {
         out.push(((lo + hi) / 2.0, (hi - lo) / 2.0, |s| s.peak_mg_l));
     }
@@ -313,7 +316,7 @@ pub fn loading_dose(
         return None;
     }
     let dose = (exact / step).round() * step;
-    (dose > 0.0 && dose.is_finite()).then(|| LoadingDose {
+    (dose > 0.0 && dose.is_finite()).then_some(LoadingDose {
         dose_mg: dose,
         route,
         target_peak_mg_l,
@@ -474,7 +477,14 @@ mod tests {
             trough_max: Some(1.0),
             ..Targets::default()
         };
-        let s = suggest(0.2, 20.0, Route::Bolus, &t, &RegimenOptions::default(), None);
+        let s = suggest(
+            0.2,
+            20.0,
+            Route::Bolus,
+            &t,
+            &RegimenOptions::default(),
+            None,
+        );
         assert!(s.is_empty());
     }
 
