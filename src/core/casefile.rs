@@ -820,13 +820,32 @@ pub fn to_stamp(dt: &Datetime, place: &str) -> Result<Stamp> {
 
 /// A stamp as a TOML date-time (for saving).
 pub fn from_stamp(s: &Stamp) -> Datetime {
-    // A stamp always prints as a valid RFC 3339 date-time, so the parse cannot fail; keep a
-    // harmless fallback all the same.
-    s.iso_second().parse().unwrap_or_else(|_| Datetime {
-        date: None,
-        time: None,
-        offset: None,
-    })
+    use chrono::{Datelike, Timelike};
+    let w = s.wall();
+    // chrono's fields are in range by construction; the casts cannot truncate (years are
+    // kept to four digits by TOML; a year outside u16 is clamped rather than wrapped).
+    let date = toml::value::Date {
+        year: u16::try_from(w.year()).unwrap_or(0),
+        month: w.month() as u8,
+        day: w.day() as u8,
+    };
+    let time = toml::value::Time {
+        hour: w.hour() as u8,
+        minute: w.minute() as u8,
+        second: w.second() as u8,
+        nanosecond: 0,
+    };
+    let offset = match s {
+        Stamp::Local(_) => None,
+        Stamp::Offset(t) => Some(Offset::Custom {
+            minutes: (t.offset().local_minus_utc() / 60) as i16,
+        }),
+    };
+    Datetime {
+        date: Some(date),
+        time: Some(time),
+        offset,
+    }
 }
 
 fn build_clock(stamps: &[(String, Stamp)]) -> Result<Clock> {
@@ -865,4 +884,22 @@ fn build_clock(stamps: &[(String, Stamp)]) -> Result<Clock> {
             Stamp::Local(_) => None,
         });
     Ok(Clock::new(origin, offset))
+}
+
+#[cfg(test)]
+mod stamp_tests {
+    use super::*;
+
+    #[test]
+    fn stamps_write_back_as_the_toml_they_came_from() {
+        for text in [
+            "2027-03-02T08:05:00",
+            "2027-03-02T08:05:00+01:00",
+            "2027-12-31T23:59:00-05:30",
+        ] {
+            let dt: Datetime = text.parse().unwrap();
+            let stamp = to_stamp(&dt, "x").unwrap();
+            assert_eq!(from_stamp(&stamp).to_string(), text);
+        }
+    }
 }

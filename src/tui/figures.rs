@@ -10,7 +10,7 @@ use crate::core::report::{self, Report};
 use crate::tui::widgets::chart::{ChartData, Curve, CurveRole, Guide, GuideRole, Mark, MarkKind};
 
 /// Samples per chart curve (dose starts and ends are added to these).
-const SAMPLES: usize = 160;
+const SAMPLES: usize = 240;
 /// The most plan doses a chart draws.
 const MAX_CHART_PLAN_DOSES: usize = 200;
 
@@ -224,7 +224,7 @@ fn plan_chart(case: &Case, r: &Report, p: &Patient) -> Option<ChartData> {
     let reach = (part.time_to_ss_h[2] + tau).max(3.0 * tau);
     let to = plan.start_t + reach.min(MAX_CHART_PLAN_DOSES as f64 * tau);
     let last = project::plan_doses_before(plan, to).max(1) - 1;
-    let points = project::course_mg_l(p, Some((plan, last)), from, to, SAMPLES + SAMPLES / 4);
+    let points = project::course_mg_l(p, Some((plan, last)), from, to, SAMPLES * 2);
     Some(ChartData {
         clock: case.clock,
         x: [from, to],

@@ -120,10 +120,6 @@ fn tab_line(app: &App, area: Rect, buf: &mut ratatui::buffer::Buffer) {
 }
 
 fn message_line(app: &App, area: Rect, buf: &mut ratatui::buffer::Buffer) {
-    if let Some(err) = app.editor().and_then(|e| e.error.as_ref()) {
-        let line = Line::from(Span::styled(format!("✗ {err}"), problem_style()));
-        return Paragraph::new(line).render(area, buf);
-    }
     let line = match &app.message {
         Some(m) if m.is_error => Line::from(Span::styled(format!("✗ {}", m.text), problem_style())),
         Some(m) => Line::from(Span::raw(format!("· {}", m.text))),
