@@ -41,6 +41,26 @@ enum Command {
         /// The case file (TOML).
         file: PathBuf,
     },
+    /// Write the record note of a case: plain text, or Markdown with --markdown or a FILE
+    /// ending in .md.
+    Note {
+        /// The case file (TOML).
+        file: PathBuf,
+        /// Write the note to this file instead of standard output.
+        #[arg(short = 'o', long = "output", value_name = "FILE")]
+        output: Option<PathBuf>,
+        /// Write Markdown.
+        #[arg(long)]
+        markdown: bool,
+    },
+    /// Draw the semi-log course of a case (levels, fit, model, plan, threshold) as SVG.
+    Plot {
+        /// The case file (TOML).
+        file: PathBuf,
+        /// The SVG file to write.
+        #[arg(short = 'o', long = "output", value_name = "FILE.svg")]
+        output: PathBuf,
+    },
     /// List the drug profiles and where each came from, or show one.
     Profiles {
         #[command(subcommand)]
@@ -69,6 +89,12 @@ fn main() -> ExitCode {
         Some(Command::Demo) => screen(ebb::tui::App::demo),
         Some(Command::Open { file }) => screen(|| ebb::tui::App::open(&file)),
         Some(Command::Profiles { action }) => profiles(action, dir),
+        Some(Command::Note {
+            file,
+            output,
+            markdown,
+        }) => note(&file, output.as_deref(), markdown, dir),
+        Some(Command::Plot { file, output }) => plot(&file, &output, dir),
         None => match cli.case {
             Some(path) => screen(|| ebb::tui::App::open(&path)),
             None => screen(ebb::tui::App::new_case),
@@ -165,5 +191,49 @@ fn report(files: &[PathBuf], json: bool, demo: bool, dir: Option<&Path>) -> Exit
         ExitCode::from(2)
     } else {
         ExitCode::SUCCESS
+    }
+}
+
+/// `ebb note`: the record note to a file or to standard output.
+fn note(file: &Path, output: Option<&Path>, markdown: bool, dir: Option<&Path>) -> ExitCode {
+    use ebb::core::note::NoteFormat;
+    let name = file.display().to_string();
+    let format = match (markdown, output) {
+        (true, _) => NoteFormat::Markdown,
+        (false, Some(o)) => NoteFormat::for_path(o),
+        (false, None) => NoteFormat::Text,
+    };
+    let meta = ebb::cli::note::meta_now(&name);
+    let mut buf = Vec::new();
+    let r = ebb::cli::load_case_with(file, dir)
+        .and_then(|c| ebb::cli::note::write_note(&mut buf, &c, &name, format, &meta))
+        .and_then(|()| match output {
+            Some(o) => ebb::cli::note::write_file(o, &String::from_utf8_lossy(&buf)),
+            None => std::io::stdout()
+                .lock()
+                .write_all(&buf)
+                .map_err(|e| ebb::core::Error::invalid("output", e.to_string())),
+        });
+    match r {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(e) => {
+            eprintln!("{e}");
+            ExitCode::from(2)
+        }
+    }
+}
+
+/// `ebb plot`: the SVG drawing of a case.
+fn plot(file: &Path, output: &Path, dir: Option<&Path>) -> ExitCode {
+    let name = file.display().to_string();
+    let r = ebb::cli::load_case_with(file, dir)
+        .and_then(|c| ebb::cli::plot::plot_svg(&c).map_err(|e| e.in_file(&name)))
+        .and_then(|svg| ebb::cli::note::write_file(output, &svg));
+    match r {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(e) => {
+            eprintln!("{e}");
+            ExitCode::from(2)
+        }
     }
 }

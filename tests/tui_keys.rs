@@ -6,6 +6,7 @@ use crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
 use ebb::core::casefile::CaseFile;
 use ebb::core::report::{self, Report};
 use ebb::tui::app::{App, Confirm, Mode, Screen};
+use ebb::tui::screens::{self, CaseLine};
 
 fn key(app: &mut App, code: KeyCode) {
     app.handle_key(KeyEvent::new(code, KeyModifiers::NONE));
@@ -47,9 +48,13 @@ fn temp_dir(name: &str) -> std::path::PathBuf {
 /// Go to the "add a level" line of the case screen.
 fn to_add_level(app: &mut App) {
     key(app, KeyCode::Char('1'));
-    for _ in 0..60 {
+    for _ in 0..100 {
+        if screens::selected_case_line(app) == CaseLine::AddLevel {
+            return;
+        }
         key(app, KeyCode::Down);
     }
+    panic!("no add-a-level line");
 }
 
 #[test]
@@ -287,10 +292,8 @@ fn save_then_reopen_gives_the_same_case() {
 fn a_new_case_can_be_built_from_keys() {
     let mut app = App::new_case();
     assert!(app.figures.report.is_none());
-    // Down to "add a dose": 9 fields.
-    for _ in 0..9 {
-        key(&mut app, KeyCode::Down);
-    }
+    // The cursor starts on "add a dose".
+    assert_eq!(screens::selected_case_line(&app), CaseLine::AddDose);
     key(&mut app, KeyCode::Char('a'));
     clear_field(&mut app);
     typed(&mut app, "2027-03-02T08:00");
@@ -301,9 +304,7 @@ fn a_new_case_can_be_built_from_keys() {
     assert_eq!(app.file.doses.len(), 1);
     assert_eq!(app.file.doses[0].amount_mg, Some(400.0));
     for (t, v) in [("2027-03-02 10:00", "20"), ("2027-03-02 16:00", "10")] {
-        key(&mut app, KeyCode::Down);
-        key(&mut app, KeyCode::Down);
-        key(&mut app, KeyCode::Down);
+        to_add_level(&mut app);
         key(&mut app, KeyCode::Char('a'));
         clear_field(&mut app);
         typed(&mut app, t);
@@ -321,4 +322,49 @@ fn a_new_case_can_be_built_from_keys() {
         r.fit.half_life_h
     );
     assert_eq!(r.fit.k_per_h, core_report(&app.file).fit.k_per_h);
+}
+
+/// Go to a field line of the case screen.
+fn to_field(app: &mut App, field: ebb::tui::fields::Field) {
+    key(app, KeyCode::Char('1'));
+    for _ in 0..100 {
+        if screens::selected_case_line(app) == CaseLine::Field(field) {
+            return;
+        }
+        key(app, KeyCode::Down);
+    }
+    panic!("no {field:?} line");
+}
+
+#[test]
+fn a_drug_profile_typed_is_used_as_the_report_uses_it() {
+    use ebb::tui::fields::Field;
+    let mut app = App::demo();
+    to_field(&mut app, Field::DrugProfile);
+    key(&mut app, KeyCode::Enter);
+    typed(&mut app, "no-such-drug");
+    key(&mut app, KeyCode::Enter);
+    let p = app.figures.problem.as_ref().unwrap();
+    assert_eq!(p.place.as_deref(), Some("drug.profile"));
+    assert!(p.text.contains("no drug profile named"), "{}", p.text);
+    // A profile whose kinetics are not first-order: no projections are shown.
+    key(&mut app, KeyCode::Enter);
+    clear_field(&mut app);
+    typed(&mut app, "phenytoin");
+    key(&mut app, KeyCode::Enter);
+    assert!(app.figures.report.is_none());
+    assert!(app
+        .figures
+        .problem
+        .as_ref()
+        .unwrap()
+        .text
+        .contains("refuses"));
+    // The matching profile: the report carries the profile's warnings like `ebb report`.
+    key(&mut app, KeyCode::Enter);
+    clear_field(&mut app);
+    typed(&mut app, "gentamicin");
+    key(&mut app, KeyCode::Enter);
+    assert_eq!(app.file.drug.profile.as_deref(), Some("gentamicin"));
+    assert!(app.figures.report.is_some(), "{:?}", app.figures.problem);
 }

@@ -89,8 +89,8 @@ fn a_broken_file_opens_showing_its_error() {
 #[test]
 fn editing_a_level_time_shows_the_problem_beside_it() {
     let mut app = App::demo();
-    // Down to the first level row (6 patient + 3 drug fields, 4 doses, the add-dose line).
-    for _ in 0..14 {
+    // Down to the first level row (4 doses, the add-dose line).
+    for _ in 0..5 {
         key(&mut app, KeyCode::Down);
     }
     key(&mut app, KeyCode::Enter);
@@ -103,4 +103,27 @@ fn editing_a_level_time_shows_the_problem_beside_it() {
     let text = screen_text(&app, 80, 24);
     assert!(text.contains("not a real date"), "{text}");
     insta::assert_snapshot!("editing_level_time_80x24", draw(&app, 80, 24).backend());
+}
+
+#[test]
+fn every_valid_fixture_draws_on_every_screen() {
+    let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/cases/valid");
+    let mut seen = 0;
+    for entry in std::fs::read_dir(dir).unwrap() {
+        let path = entry.unwrap().path();
+        if path.extension().and_then(|e| e.to_str()) != Some("toml") {
+            continue;
+        }
+        let mut app = App::open(&path);
+        assert!(app.load_error.is_none(), "{}", path.display());
+        for s in Screen::ALL {
+            app.screen = s;
+            for (w, h) in [(80, 24), (160, 48)] {
+                let text = screen_text(&app, w, h);
+                assert!(text.contains("CAUTION:"), "{} {s:?}", path.display());
+            }
+        }
+        seen += 1;
+    }
+    assert!(seen > 0);
 }

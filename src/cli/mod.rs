@@ -10,6 +10,9 @@ use crate::core::{json, report};
 use crate::demo::{DEMO_CASE, DEMO_NAME};
 use crate::profiles;
 
+pub mod note;
+pub mod plot;
+
 /// Load and validate a case from a file.
 ///
 /// # Errors

@@ -12,6 +12,7 @@ pub mod fit;
 pub mod history;
 pub mod json;
 pub mod model;
+pub mod note;
 pub mod procedure;
 pub mod project;
 pub mod regimen;

@@ -17,6 +17,7 @@ pub enum Field {
     CreatinineMgDl,
     CreatinineUmolL,
     DrugName,
+    DrugProfile,
     Unit,
     MolarMass,
     DoseTime(usize),
@@ -124,6 +125,7 @@ impl Field {
             Field::CreatinineMgDl => num(f.patient.creatinine_mg_dl),
             Field::CreatinineUmolL => num(f.patient.creatinine_umol_l),
             Field::DrugName => f.drug.name.clone().unwrap_or_default(),
+            Field::DrugProfile => f.drug.profile.clone().unwrap_or_default(),
             Field::Unit => f.drug.level_unit.clone().unwrap_or_default(),
             Field::MolarMass => num(f.drug.molar_mass_g_mol),
             Field::DoseTime(i) => dose(i)
@@ -182,6 +184,7 @@ impl Field {
             Field::CreatinineMgDl => f.patient.creatinine_mg_dl = entry::optional_number(text)?,
             Field::CreatinineUmolL => f.patient.creatinine_umol_l = entry::optional_number(text)?,
             Field::DrugName => f.drug.name = text_opt(),
+            Field::DrugProfile => f.drug.profile = text_opt(),
             Field::MolarMass => f.drug.molar_mass_g_mol = entry::optional_number(text)?,
             Field::DoseTime(i) => {
                 let v = entry::datetime(text)?;
@@ -341,6 +344,7 @@ impl Field {
             Field::CreatinineMgDl => place == "patient.creatinine_mg_dl",
             Field::CreatinineUmolL => place == "patient.creatinine_umol_l",
             Field::DrugName => place == "drug.name",
+            Field::DrugProfile => place == "drug.profile",
             Field::Unit => place == "drug.level_unit",
             Field::MolarMass => place == "drug.molar_mass_g_mol",
             Field::DoseTime(i) => col("dose", i, "time") || place == format!("dose {}", i + 1),

@@ -1,16 +1,20 @@
 //! The figures the screens show, all computed by the core from the case file: validation,
 //! the fit, the report, and the model's course sampled for the charts.
 
+use std::sync::OnceLock;
+
 use crate::core::case::Case;
 use crate::core::casefile::CaseFile;
 use crate::core::error::Error;
 use crate::core::fit::{self, Fit};
 use crate::core::project::{self, Patient};
 use crate::core::report::{self, Report};
+use crate::profiles::{self, Catalog, Entry};
+use crate::tui::strings;
 use crate::tui::widgets::chart::{ChartData, Curve, CurveRole, Guide, GuideRole, Mark, MarkKind};
 
 /// Samples per chart curve (dose starts and ends are added to these).
-const SAMPLES: usize = 240;
+const SAMPLES: usize = 160;
 /// The most plan doses a chart draws.
 const MAX_CHART_PLAN_DOSES: usize = 200;
 
@@ -82,11 +86,57 @@ fn problem(e: &Error, invalid_case: bool) -> Problem {
     }
 }
 
+/// The drug profiles (built-in, and the `EBB_PROFILES` folder when set), read once a run.
+fn catalog() -> Result<&'static Catalog, String> {
+    static CATALOG: OnceLock<Result<Catalog, String>> = OnceLock::new();
+    CATALOG
+        .get_or_init(|| {
+            Catalog::load(profiles::override_dir(None).as_deref()).map_err(|e| e.to_string())
+        })
+        .as_ref()
+        .map_err(Clone::clone)
+}
+
+/// The profile the case names, if any.
+fn profile_of(file: &CaseFile) -> Result<Option<&'static Entry>, Problem> {
+    let Some(name) = file.drug.profile.as_deref() else {
+        return Ok(None);
+    };
+    let found = catalog().and_then(|c| c.lookup(name, "drug.profile").map_err(|e| e.to_string()));
+    match found {
+        Ok(e) => Ok(Some(e)),
+        Err(text) => Err(Problem {
+            place: Some("drug.profile".into()),
+            text,
+            invalid_case: true,
+        }),
+    }
+}
+
 impl Figures {
-    /// Validate the case file and compute every figure; never panics, never fails: what
-    /// cannot be computed is left `None` with the reason in `problem`.
+    /// Validate the case file (with its drug profile's defaults, as `ebb report` does) and
+    /// compute every figure; never panics, never fails: what cannot be computed is left
+    /// `None` with the reason in `problem`.
     pub fn compute(file: &CaseFile) -> Figures {
-        let case = match file.validate() {
+        let entry = match profile_of(file) {
+            Ok(e) => e,
+            Err(p) => {
+                return Figures {
+                    problem: Some(p),
+                    ..Figures::default()
+                }
+            }
+        };
+        let defaults = entry
+            .map(|e| {
+                profiles::defaults_for(
+                    &e.profile,
+                    file.drug.level_unit.as_deref(),
+                    file.drug.molar_mass_g_mol,
+                )
+            })
+            .unwrap_or_default();
+        let case = match file.validate_with(&defaults) {
             Ok(c) => c,
             Err(e) => {
                 return Figures {
@@ -105,7 +155,19 @@ impl Figures {
                 }
             }
         };
-        let report = match report::build_from_fit(&case, &fit) {
+        if let Some(why) = entry.and_then(|e| profiles::refusal(&e.profile)) {
+            return Figures {
+                problem: Some(Problem {
+                    place: Some("drug.profile".into()),
+                    text: strings::refused(&why),
+                    invalid_case: false,
+                }),
+                case: Some(case),
+                fit: Some(fit),
+                ..Figures::default()
+            };
+        }
+        let mut report = match report::build_from_fit(&case, &fit) {
             Ok(r) => r,
             Err(e) => {
                 return Figures {
@@ -116,6 +178,9 @@ impl Figures {
                 }
             }
         };
+        if let Some(e) = entry {
+            profiles::apply(&e.profile, &case, &mut report);
+        }
         let patient = Patient::new(&case, &fit);
         let charts = Charts {
             fit: Some(fit_chart(&case, &fit, &patient)),
@@ -224,7 +289,7 @@ fn plan_chart(case: &Case, r: &Report, p: &Patient) -> Option<ChartData> {
     let reach = (part.time_to_ss_h[2] + tau).max(3.0 * tau);
     let to = plan.start_t + reach.min(MAX_CHART_PLAN_DOSES as f64 * tau);
     let last = project::plan_doses_before(plan, to).max(1) - 1;
-    let points = project::course_mg_l(p, Some((plan, last)), from, to, SAMPLES * 2);
+    let points = project::course_mg_l(p, Some((plan, last)), from, to, SAMPLES + SAMPLES / 4);
     Some(ChartData {
         clock: case.clock,
         x: [from, to],

@@ -303,6 +303,7 @@ pub fn field_label(f: Field) -> (&'static str, &'static str) {
         Field::DrugName => ("Name", ""),
         Field::Unit => ("Level unit", "(Enter steps)"),
         Field::MolarMass => ("Molar mass", "g/mol (mmol/L, umol/L)"),
+        Field::DrugProfile => ("Profile", "(see ebb profiles)"),
         Field::DoseTime(_) => ("Time", ""),
         Field::DoseAmount(_) => ("Amount", "mg"),
         Field::DoseRoute(_) => ("Route", ""),
@@ -442,6 +443,10 @@ pub const NO_WARNINGS: &str = "none";
 pub fn no_figures(why: &str) -> String {
     format!("No figures yet. {why}")
 }
+/// The drug profile refuses first-order projections.
+pub fn refused(why: &str) -> String {
+    format!("drug.profile: the drug's profile refuses these projections: {why}")
+}
 /// No figures, no reason known.
 pub const NO_FIGURES_PLAIN: &str = "No figures yet.";
 
@@ -514,7 +519,7 @@ pub fn ss_after(pct: &str) -> String {
 }
 /// The first plan dose when the case does not give it.
 pub fn start_by_default(when: &str) -> String {
-    format!("{when} (last dose + interval)")
+    format!("{when} (default)")
 }
 
 // ---- threshold screen --------------------------------------------------------------------

@@ -107,7 +107,9 @@ fn tab_line(app: &App, area: Rect, buf: &mut ratatui::buffer::Buffer) {
     let room = usize::from(area.width).saturating_sub(used + 1);
     let count = title.chars().count();
     if count > room {
-        title = title.chars().skip(count - room).collect();
+        // Keep the end of a long path: the file name matters most.
+        let tail: String = title.chars().skip(count + 1 - room.max(1)).collect();
+        title = format!("…{tail}");
     }
     spans.push(Span::raw(
         " ".repeat(room.saturating_sub(title.chars().count())),
@@ -120,6 +122,10 @@ fn tab_line(app: &App, area: Rect, buf: &mut ratatui::buffer::Buffer) {
 }
 
 fn message_line(app: &App, area: Rect, buf: &mut ratatui::buffer::Buffer) {
+    if let Some(err) = app.editor().and_then(|e| e.error.as_ref()) {
+        let line = Line::from(Span::styled(format!("✗ {err}"), problem_style()));
+        return Paragraph::new(line).render(area, buf);
+    }
     let line = match &app.message {
         Some(m) if m.is_error => Line::from(Span::styled(format!("✗ {}", m.text), problem_style())),
         Some(m) => Line::from(Span::raw(format!("· {}", m.text))),

@@ -35,13 +35,18 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
     let left = field_rows(app, &lines, selected);
     let right = table_rows(app, &lines, selected);
     if area.width >= 120 {
-        let [l, r] = Layout::horizontal([Constraint::Length(50), Constraint::Min(1)]).areas(main);
-        scrolled(left, sel_index, l, buf);
-        scrolled(right, sel_index, r, buf);
+        let [l, r] = Layout::horizontal([Constraint::Min(1), Constraint::Length(52)]).areas(main);
+        scrolled(right, sel_index, l, buf);
+        let r = Rect {
+            x: r.x + 2,
+            width: r.width.saturating_sub(2),
+            ..r
+        };
+        scrolled(left, sel_index, r, buf);
     } else {
-        let mut all = left;
+        let mut all = right;
         all.push((Line::raw(""), None));
-        all.extend(right);
+        all.extend(left);
         scrolled(all, sel_index, main, buf);
     }
     Paragraph::new(footer_lines).render(foot, buf);

@@ -36,7 +36,12 @@ pub const PATIENT_FIELDS: [Field; 6] = [
 ];
 
 /// The drug's fields, in screen order.
-pub const DRUG_FIELDS: [Field; 3] = [Field::DrugName, Field::Unit, Field::MolarMass];
+pub const DRUG_FIELDS: [Field; 4] = [
+    Field::DrugName,
+    Field::DrugProfile,
+    Field::Unit,
+    Field::MolarMass,
+];
 
 /// The plan screen's fields, in screen order.
 pub const PLAN_FIELDS: [Field; 9] = [
@@ -54,17 +59,19 @@ pub const PLAN_FIELDS: [Field; 9] = [
 /// The threshold screen's fields, in screen order.
 pub const THRESHOLD_FIELDS: [Field; 2] = [Field::ThresholdBelow, Field::ThresholdProcedure];
 
-/// Every selectable line of the case screen, top to bottom.
+/// Every selectable line of the case screen, in cursor order: the dose and level tables
+/// first (the bedside work), then the patient and drug fields.
 pub fn case_lines(file: &CaseFile) -> Vec<CaseLine> {
-    let mut out: Vec<CaseLine> = PATIENT_FIELDS
-        .iter()
-        .chain(DRUG_FIELDS.iter())
-        .map(|f| CaseLine::Field(*f))
-        .collect();
-    out.extend((0..file.doses.len()).map(CaseLine::Dose));
+    let mut out: Vec<CaseLine> = (0..file.doses.len()).map(CaseLine::Dose).collect();
     out.push(CaseLine::AddDose);
     out.extend((0..file.levels.len()).map(CaseLine::Level));
     out.push(CaseLine::AddLevel);
+    out.extend(
+        PATIENT_FIELDS
+            .iter()
+            .chain(DRUG_FIELDS.iter())
+            .map(|f| CaseLine::Field(*f)),
+    );
     out
 }
 

@@ -1,0 +1,269 @@
+//! The plot: the semi-log course of one case as SVG — levels, the fitted line, the model
+//! through the dose record, the projected plan, the threshold and the procedure time — told
+//! apart by dash pattern and marker shape so it reads in black and white.
+
+use plotters::prelude::*;
+
+use crate::core::case::Case;
+use crate::core::error::{Error, Result};
+use crate::core::fit::{self, Fit};
+use crate::core::project::Patient;
+use crate::core::report::{self, Report};
+
+/// Width and height of the drawing, in SVG pixels.
+pub const SIZE: (u32, u32) = (960, 600);
+
+/// The longest span drawn after the first dose, hours (five weeks).
+const MAX_SPAN_H: f64 = 840.0;
+
+/// Samples along the time axis for each curve.
+const SAMPLES: usize = 800;
+
+/// The ids (SVG `<title>`-free legend labels) of the series, in the order drawn.
+pub const LEGEND: [&str; 6] = [
+    "model, doses given",
+    "plan projected",
+    "fitted line",
+    "level in the fit",
+    "level not in the fit",
+    "threshold",
+];
+
+fn draw_err(e: impl std::fmt::Display) -> Error {
+    Error::invalid("plot", format!("cannot draw: {e}"))
+}
+
+/// Fit the case and draw its plot as an SVG document.
+///
+/// # Errors
+/// The fit's or the report's errors, or a drawing error.
+pub fn plot_svg(case: &Case) -> Result<String> {
+    let fit = fit::fit(case)?;
+    let r = report::build_from_fit(case, &fit)?;
+    plot_svg_from(case, &fit, &r)
+}
+
+/// Sample times over [a, b], with the moments just before and after each dose and at each
+/// infusion end so the saw-tooth of the course is drawn sharp.
+fn times(a: f64, b: f64, kinks: &[f64]) -> Vec<f64> {
+    let mut ts: Vec<f64> = (0..=SAMPLES)
+        .map(|i| a + (b - a) * i as f64 / SAMPLES as f64)
+        .collect();
+    for &k in kinks {
+        if k > a && k < b {
+            ts.extend([k - 1e-6, k + 1e-6]);
+        }
+    }
+    ts.sort_by(f64::total_cmp);
+    ts
+}
+
+/// Draw from a fit and report already made.
+///
+/// # Errors
+/// A drawing error (none expected for finite figures).
+pub fn plot_svg_from(case: &Case, fit: &Fit, r: &Report) -> Result<String> {
+    let p = Patient::new(case, fit);
+    let to = |x: f64| case.drug.scale.to_level(x);
+    let u = case.drug.scale.unit.as_str();
+
+    // The span: from the first dose to past every time of interest.
+    let first = case.doses.first().map_or(0.0, |d| d.t);
+    let mut last = case.levels.iter().map(|l| l.t).fold(first, f64::max);
+    last = last.max(p.last_dose_end());
+    if let Some(th) = &case.threshold {
+        last = last.max(th.procedure_t.unwrap_or(last));
+    }
+    if let Some(t) = &r.threshold {
+        last = last.max(case.clock.hours(&t.t0) + t.hours_from_t0);
+    }
+    if let Some(pl) = &case.plan {
+        last = last.max(pl.start_t + 3.0 * pl.interval_h);
+    }
+    if let Some(s) = &r.advice.switch {
+        last = last.max(case.clock.hours(&s.start_at));
+    }
+    let span = (last - first).clamp(1.0, MAX_SPAN_H);
+    let (x0, x1) = (first - 0.03 * span, first + 1.05 * span);
+
+    let mut kinks: Vec<f64> = case.doses.iter().flat_map(|d| [d.t, d.end()]).collect();
+    // Curves, in the level unit.
+    let recorded: Vec<(f64, f64)> = times(first, x1, &kinks)
+        .into_iter()
+        .map(|t| (t, to(p.level_mg_l(t))))
+        .collect();
+    let planned: Vec<(f64, f64)> = match (&case.plan, p.v()) {
+        (Some(pl), Some(_)) => {
+            let n = crate::core::project::plan_doses_before(pl, x1);
+            for j in 0..n {
+                let td = pl.start_t + j as f64 * pl.interval_h;
+                kinks.extend([td, td + pl.route.infusion_h()]);
+            }
+            times(pl.start_t, x1, &kinks)
+                .into_iter()
+                .filter_map(|t| {
+                    let last = crate::core::project::plan_doses_before(pl, t + 1e-9);
+                    let last = last.checked_sub(1);
+                    p.level_with_plan(t, pl, last).map(|c| (t, to(c)))
+                })
+                .collect()
+        }
+        _ => Vec::new(),
+    };
+    let window = &case.doses[fit.window_dose];
+    let fitted_end = fit
+        .used
+        .iter()
+        .map(|&i| case.levels[i].t)
+        .fold(window.end(), f64::max);
+    let line: Vec<(f64, f64)> = times(window.end(), fitted_end, &[])
+        .into_iter()
+        .map(|t| (t, to(fit.line_mg_l(t))))
+        .collect();
+    let used: Vec<(f64, f64)> = fit
+        .used
+        .iter()
+        .map(|&i| (case.levels[i].t, case.levels[i].value))
+        .collect();
+    let unused: Vec<(f64, f64)> = case
+        .levels
+        .iter()
+        .enumerate()
+        .filter(|(i, _)| !fit.used.contains(i))
+        .map(|(_, l)| (l.t, l.value))
+        .collect();
+    let threshold = case.threshold.as_ref().map(|t| t.below);
+    let procedure = case.threshold.as_ref().and_then(|t| t.procedure_t);
+
+    // The level axis: a decade or so either side of the data, never below 1/10 000 of the top.
+    let mut ys: Vec<f64> = case.levels.iter().map(|l| l.value).collect();
+    ys.extend(recorded.iter().chain(&planned).map(|&(_, c)| c));
+    ys.extend(threshold);
+    let top = ys
+        .iter()
+        .copied()
+        .filter(|y| y.is_finite())
+        .fold(0.0, f64::max);
+    if top <= 0.0 {
+        return Err(Error::invalid("plot", "no level above zero to draw"));
+    }
+    let data_low = case
+        .levels
+        .iter()
+        .map(|l| l.value)
+        .chain(threshold)
+        .fold(top, f64::min);
+    // Headroom above the top for the legend box.
+    let (y0, y1) = ((data_low / 3.0).max(top / 1e4), top * 4.0);
+    let keep = |v: &[(f64, f64)]| -> Vec<(f64, f64)> {
+        v.iter()
+            .copied()
+            .filter(|&(t, c)| c.is_finite() && c >= y0 && t >= x0 && t <= x1)
+            .collect()
+    };
+
+    let clock = case.clock;
+    let label_x = move |h: &f64| -> String {
+        clock.at_minute(*h).map_or(String::new(), |s| {
+            s.wall().format("%d %b %H:%M").to_string()
+        })
+    };
+
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, SIZE).into_drawing_area();
+        root.fill(&WHITE).map_err(draw_err)?;
+        let title = match (&case.patient.label, case.drug.name.as_str()) {
+            (Some(l), "") => l.clone(),
+            (Some(l), d) => format!("{l}: {d}"),
+            (None, d) => d.to_string(),
+        };
+        let mut chart = ChartBuilder::on(&root)
+            .caption(title, ("sans-serif", 20))
+            .margin(12)
+            .x_label_area_size(50)
+            .y_label_area_size(70)
+            .build_cartesian_2d(x0..x1, (y0..y1).log_scale())
+            .map_err(draw_err)?;
+        chart
+            .configure_mesh()
+            .x_labels(8)
+            .y_labels(10)
+            .x_label_formatter(&label_x)
+            .y_label_formatter(&|y: &f64| report::num(*y))
+            .x_desc("clock time")
+            .y_desc(format!("level ({u}, log scale)"))
+            .light_line_style(WHITE)
+            .draw()
+            .map_err(draw_err)?;
+
+        let black = BLACK.stroke_width(2);
+        let grey = RGBColor(90, 90, 90).stroke_width(2);
+        chart
+            .draw_series(LineSeries::new(keep(&recorded), black))
+            .map_err(draw_err)?
+            .label(LEGEND[0])
+            .legend(move |(x, y)| PathElement::new([(x, y), (x + 30, y)], black));
+        if !planned.is_empty() {
+            let style = RGBColor(0, 70, 160).stroke_width(2);
+            chart
+                .draw_series(DashedLineSeries::new(keep(&planned), 12, 6, style))
+                .map_err(draw_err)?
+                .label(LEGEND[1])
+                .legend(move |(x, y)| {
+                    Rectangle::new([(x, y - 1), (x + 12, y + 1)], style.filled())
+                });
+        }
+        let fit_style = RGBColor(160, 40, 0).stroke_width(2);
+        chart
+            .draw_series(DashedLineSeries::new(keep(&line), 4, 4, fit_style))
+            .map_err(draw_err)?
+            .label(LEGEND[2])
+            .legend(move |(x, y)| Rectangle::new([(x, y - 1), (x + 4, y + 1)], fit_style.filled()));
+        chart
+            .draw_series(
+                keep(&used)
+                    .into_iter()
+                    .map(|pt| Circle::new(pt, 5, BLACK.filled())),
+            )
+            .map_err(draw_err)?
+            .label(LEGEND[3])
+            .legend(|(x, y)| Circle::new((x + 10, y), 5, BLACK.filled()));
+        if !unused.is_empty() {
+            chart
+                .draw_series(
+                    keep(&unused)
+                        .into_iter()
+                        .map(|pt| Cross::new(pt, 6, BLACK.stroke_width(2))),
+                )
+                .map_err(draw_err)?
+                .label(LEGEND[4])
+                .legend(|(x, y)| Cross::new((x + 10, y), 6, BLACK.stroke_width(2)));
+        }
+        if let Some(b) = threshold.filter(|b| *b >= y0) {
+            chart
+                .draw_series(DashedLineSeries::new([(x0, b), (x1, b)], 16, 4, grey))
+                .map_err(draw_err)?
+                .label(format!("{} ({} {u})", LEGEND[5], report::num(b)))
+                .legend(move |(x, y)| Rectangle::new([(x, y - 1), (x + 16, y + 1)], grey.filled()));
+        }
+        if let Some(tp) = procedure.filter(|t| *t >= x0 && *t <= x1) {
+            chart
+                .draw_series(DashedLineSeries::new([(tp, y0), (tp, y1)], 2, 5, grey))
+                .map_err(draw_err)?
+                .label("procedure")
+                .legend(move |(x, y)| {
+                    Rectangle::new([(x + 8, y - 6), (x + 10, y + 6)], grey.filled())
+                });
+        }
+        chart
+            .configure_series_labels()
+            .position(SeriesLabelPosition::UpperRight)
+            .background_style(WHITE.mix(0.9))
+            .border_style(BLACK)
+            .draw()
+            .map_err(draw_err)?;
+        root.present().map_err(draw_err)?;
+    }
+    Ok(svg)
+}

@@ -1,0 +1,276 @@
+//! The record note: a plain-text or Markdown note of one case to paste into a patient record,
+//! written with the report's own number and time formatters so its figures match the report.
+
+use std::io::{self, Write};
+
+use crate::core::case::{Case, Sex};
+use crate::core::report::{self, num, when, Report, CAUTION};
+
+/// How the note is laid out.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum NoteFormat {
+    /// Plain text, for any record system.
+    Text,
+    /// Markdown (headings, tables, a fenced results block).
+    Markdown,
+}
+
+impl NoteFormat {
+    /// Markdown for a path ending in `.md` or `.markdown`, else plain text.
+    pub fn for_path(path: &std::path::Path) -> Self {
+        match path.extension().and_then(|e| e.to_str()) {
+            Some(e) if e.eq_ignore_ascii_case("md") || e.eq_ignore_ascii_case("markdown") => {
+                NoteFormat::Markdown
+            }
+            _ => NoteFormat::Text,
+        }
+    }
+}
+
+/// Who made the note and when (passed in, so a note can be reproduced in tests).
+#[derive(Debug, Clone, PartialEq)]
+pub struct NoteMeta {
+    /// When the note was made, as the user's clock shows it.
+    pub made_at: String,
+    /// The tool's version.
+    pub version: String,
+    /// The case file's name, as given.
+    pub source: String,
+}
+
+/// The published name of the fit, for the note.
+fn method_words(method: &str) -> String {
+    match method {
+        "two-point" => "two-point log-linear elimination rate, k = ln(C1/C2)/(t2 - t1) (Sawchuk-Zaske one-compartment method)".into(),
+        "log-linear" => "log-linear regression: ordinary least squares of ln(level) on time, with the 95 % interval of k from Student's t".into(),
+        other => format!("{other} fit"),
+    }
+}
+
+fn volume_words(method: Option<&str>, pre_row: Option<usize>) -> String {
+    match (method, pre_row) {
+        (Some("pre-dose level"), Some(r)) => format!(
+            "volume by the Sawchuk-Zaske one-compartment infusion equation with pre-dose level {r}"
+        ),
+        (Some("dose record"), _) => {
+            "volume by superposition of the whole dose record at the first fitted level".into()
+        }
+        (Some(m), _) => format!("volume by {m}"),
+        (None, _) => "no volume (dose amounts not known)".into(),
+    }
+}
+
+/// Why a level is or is not in the fit, in a few words.
+fn level_use(case: &Case, r: &Report, i: usize) -> String {
+    let l = &case.levels[i];
+    if r.fit.level_rows.contains(&l.row) {
+        "in the fit".into()
+    } else if r.fit.pre_dose_row == Some(l.row) {
+        "pre-dose level, used for the volume".into()
+    } else if !l.use_in_fit {
+        "left out by the user (use = false)".into()
+    } else {
+        "not in the fitted dosing interval".into()
+    }
+}
+
+/// The note as a string.
+pub fn note_text(case: &Case, r: &Report, meta: &NoteMeta, format: NoteFormat) -> String {
+    let mut buf = Vec::new();
+    // Writing to a Vec cannot fail.
+    let _ = write_note(&mut buf, case, r, meta, format);
+    String::from_utf8_lossy(&buf).into_owned()
+}
+
+/// Write the note to `w`.
+///
+/// # Errors
+/// Only the writer's errors.
+pub fn write_note(
+    w: &mut dyn Write,
+    case: &Case,
+    r: &Report,
+    meta: &NoteMeta,
+    format: NoteFormat,
+) -> io::Result<()> {
+    let md = format == NoteFormat::Markdown;
+    let u = r.unit.as_str();
+    let heading = |w: &mut dyn Write, text: &str| -> io::Result<()> {
+        if md {
+            writeln!(w, "## {text}\n")
+        } else {
+            writeln!(
+                w,
+                "{}\n{}",
+                text.to_uppercase(),
+                "-".repeat(text.chars().count())
+            )
+        }
+    };
+    let drug = if case.drug.name.is_empty() {
+        "drug not named"
+    } else {
+        case.drug.name.as_str()
+    };
+    if md {
+        writeln!(w, "# Drug level note: {drug}\n")?;
+        writeln!(w, "> **CAUTION:** {CAUTION}\n")?;
+    } else {
+        writeln!(w, "DRUG LEVEL NOTE: {drug}\n")?;
+        writeln!(w, "CAUTION: {CAUTION}\n")?;
+    }
+    let item = if md { "- " } else { "  " };
+    writeln!(
+        w,
+        "{item}Made {} with ebb {} from {}",
+        meta.made_at, meta.version, meta.source
+    )?;
+    let p = &case.patient;
+    if let Some(l) = &p.label {
+        writeln!(w, "{item}Patient: {l}")?;
+    }
+    let mut facts = Vec::new();
+    if let Some(x) = p.weight_kg {
+        facts.push(format!("weight {} kg", num(x)));
+    }
+    if let Some(x) = p.age_years {
+        facts.push(format!("age {} years", num(x)));
+    }
+    if let Some(s) = p.sex {
+        facts.push(match s {
+            Sex::Female => "female".to_string(),
+            Sex::Male => "male".to_string(),
+        });
+    }
+    if let Some(x) = p.creatinine_mg_dl {
+        facts.push(format!("creatinine {} mg/dL", num(x)));
+    }
+    if !facts.is_empty() {
+        writeln!(w, "{item}{}", facts.join(", "))?;
+    }
+    if let Some(pr) = &case.drug.profile {
+        writeln!(w, "{item}Drug profile: {pr}")?;
+    }
+    writeln!(w, "{item}Levels in {u}")?;
+    writeln!(w)?;
+
+    heading(w, "Doses given")?;
+    if md {
+        writeln!(w, "| dose | time | amount | route |\n|---|---|---|---|")?;
+    }
+    for d in &case.doses {
+        let amount = d
+            .amount_mg
+            .map_or("not known".into(), |a| format!("{} mg", num(a)));
+        let route = crate::core::advice::route_of(d.route);
+        if md {
+            writeln!(w, "| {} | {} | {amount} | {route} |", d.row, when(&d.time))?;
+        } else {
+            writeln!(w, "  dose {}  {}  {amount}  {route}", d.row, when(&d.time))?;
+        }
+    }
+    writeln!(w)?;
+    heading(w, "Levels measured")?;
+    if md {
+        writeln!(
+            w,
+            "| level | time | value | use | note |\n|---|---|---|---|---|"
+        )?;
+    }
+    for (i, l) in case.levels.iter().enumerate() {
+        let why = level_use(case, r, i);
+        let note = l.note.as_deref().unwrap_or("");
+        if md {
+            writeln!(
+                w,
+                "| {} | {} | {} {u} | {why} | {note} |",
+                l.row,
+                when(&l.time),
+                num(l.value)
+            )?;
+        } else {
+            let tail = if note.is_empty() {
+                String::new()
+            } else {
+                format!("  ({note})")
+            };
+            writeln!(
+                w,
+                "  level {}  {}  {} {u}  {why}{tail}",
+                l.row,
+                when(&l.time),
+                num(l.value)
+            )?;
+        }
+    }
+    writeln!(w)?;
+
+    heading(w, "Method")?;
+    writeln!(
+        w,
+        "{item}Linear one-compartment model, first-order elimination"
+    )?;
+    writeln!(w, "{item}k: {}", method_words(r.fit.method))?;
+    writeln!(
+        w,
+        "{item}{}",
+        volume_words(r.fit.volume_method, r.fit.pre_dose_row)
+    )?;
+    writeln!(
+        w,
+        "{item}Projections by superposition of single-dose responses"
+    )?;
+    if r.advice.auc24.is_some() {
+        writeln!(
+            w,
+            "{item}AUC24 from two levels by the {}",
+            crate::core::advice::TRAPEZOID_METHOD
+        )?;
+    }
+    let t = &case.targets;
+    if !t.is_empty() {
+        let mut parts = Vec::new();
+        if let Some([a, b]) = t.peak {
+            parts.push(format!("peak {}–{} {u}", num(a), num(b)));
+        }
+        if let Some(m) = t.trough_max {
+            parts.push(format!("trough <= {} {u}", num(m)));
+        }
+        if let Some([a, b]) = t.auc24 {
+            parts.push(format!("AUC24 {}–{} {u}·h", num(a), num(b)));
+        }
+        writeln!(w, "{item}Targets: {}", parts.join(", "))?;
+    }
+    if let Some(sw) = &case.switch {
+        writeln!(w, "{item}Switch planned to {}", sw.to)?;
+    }
+    writeln!(w)?;
+
+    heading(w, "Results")?;
+    // The report itself, so every figure is the report's, formatted once.
+    let mut body = Vec::new();
+    report::write_text(&mut body, case, r)?;
+    let body = String::from_utf8_lossy(&body);
+    // The caution is already at the top of the note.
+    let body = body
+        .split_once("\n\n")
+        .map_or(body.as_ref(), |(_, rest)| rest)
+        .trim_end();
+    if md {
+        writeln!(w, "```text\n{body}\n```")?;
+    } else {
+        for line in body.lines() {
+            if line.is_empty() {
+                writeln!(w)?;
+            } else {
+                writeln!(w, "  {line}")?;
+            }
+        }
+    }
+    writeln!(w)?;
+    writeln!(
+        w,
+        "{item}Checked by: ______________________   Date/time: ______________"
+    )?;
+    Ok(())
+}

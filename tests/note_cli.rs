@@ -1,0 +1,94 @@
+//! `ebb note` and `ebb plot` on the command line: files written, exit codes, errors.
+
+use std::process::Command;
+
+fn ebb() -> Command {
+    let mut c = Command::new(env!("CARGO_BIN_EXE_ebb"));
+    c.env_remove("EBB_PROFILES");
+    c
+}
+
+fn demo_file(dir: &std::path::Path) -> std::path::PathBuf {
+    let p = dir.join("bed7.toml");
+    std::fs::write(&p, ebb::demo::DEMO_CASE).unwrap();
+    p
+}
+
+fn tmp(name: &str) -> std::path::PathBuf {
+    let d = std::env::temp_dir().join(format!("ebb-note-cli-{name}-{}", std::process::id()));
+    std::fs::create_dir_all(&d).unwrap();
+    d
+}
+
+#[test]
+fn note_to_stdout_and_to_a_markdown_file() {
+    let d = tmp("note");
+    let case = demo_file(&d);
+    let out = ebb().arg("note").arg(&case).output().unwrap();
+    assert_eq!(out.status.code(), Some(0));
+    let text = String::from_utf8(out.stdout).unwrap();
+    assert!(text.starts_with("DRUG LEVEL NOTE: gentamicin"));
+    assert!(text.contains(&format!("with ebb {}", env!("CARGO_PKG_VERSION"))));
+    let md = d.join("note.md");
+    let out = ebb()
+        .arg("note")
+        .arg(&case)
+        .arg("-o")
+        .arg(&md)
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(0));
+    assert!(out.stdout.is_empty());
+    let written = std::fs::read_to_string(&md).unwrap();
+    assert!(written.starts_with("# Drug level note: gentamicin"));
+    std::fs::remove_dir_all(&d).ok();
+}
+
+#[test]
+fn plot_writes_an_svg_file() {
+    let d = tmp("plot");
+    let case = demo_file(&d);
+    let svg = d.join("course.svg");
+    let out = ebb()
+        .arg("plot")
+        .arg(&case)
+        .arg("-o")
+        .arg(&svg)
+        .output()
+        .unwrap();
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let text = std::fs::read_to_string(&svg).unwrap();
+    assert!(roxmltree::Document::parse(&text).is_ok());
+    std::fs::remove_dir_all(&d).ok();
+}
+
+#[test]
+fn a_bad_switch_exits_2_with_one_line_naming_the_field() {
+    let d = tmp("bad");
+    let p = d.join("bad.toml");
+    let text = format!("{}\n[switch]\nto = \"x\"\n", ebb::demo::DEMO_CASE);
+    std::fs::write(&p, text).unwrap();
+    for args in [vec!["note"], vec!["plot"]] {
+        let mut c = ebb();
+        c.args(&args).arg(&p);
+        if args[0] == "plot" {
+            c.arg("-o").arg(d.join("x.svg"));
+        }
+        let out = c.output().unwrap();
+        assert_eq!(out.status.code(), Some(2));
+        assert!(out.stdout.is_empty());
+        let err = String::from_utf8(out.stderr).unwrap();
+        assert_eq!(err.lines().count(), 1, "{err}");
+        assert!(
+            err.contains("bad.toml: switch.start_below: missing"),
+            "{err}"
+        );
+    }
+    assert!(!d.join("x.svg").exists());
+    std::fs::remove_dir_all(&d).ok();
+}
