@@ -368,3 +368,19 @@ fn a_drug_profile_typed_is_used_as_the_report_uses_it() {
     assert_eq!(app.file.drug.profile.as_deref(), Some("gentamicin"));
     assert!(app.figures.report.is_some(), "{:?}", app.figures.problem);
 }
+
+#[test]
+fn undoing_a_change_by_hand_leaves_nothing_unsaved() {
+    let mut app = App::demo();
+    key(&mut app, KeyCode::Char('3'));
+    key(&mut app, KeyCode::Char('+'));
+    assert!(app.dirty);
+    key(&mut app, KeyCode::Char('-'));
+    assert!(!app.dirty);
+    to_add_level(&mut app);
+    key(&mut app, KeyCode::Char('a'));
+    key(&mut app, KeyCode::Esc);
+    assert!(!app.dirty);
+    key(&mut app, KeyCode::Char('q'));
+    assert!(app.should_quit());
+}

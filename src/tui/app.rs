@@ -159,8 +159,10 @@ pub struct App {
     pub suggested_path: Option<PathBuf>,
     /// Why the file could not be opened, shown until the case is saved.
     pub load_error: Option<String>,
-    /// Whether there are changes since the last save or load.
+    /// Whether the case differs from the one last loaded or saved.
     pub dirty: bool,
+    /// The case as last loaded or saved (to tell whether there are changes).
+    pub saved: CaseFile,
     /// The screen shown.
     pub screen: Screen,
     /// What the keys do.
@@ -179,6 +181,7 @@ impl App {
     fn with_file(file: CaseFile, title: String) -> Self {
         let figures = Figures::compute(&file);
         App {
+            saved: file.clone(),
             file,
             path: None,
             title,
@@ -260,7 +263,7 @@ impl App {
         change(&mut next)?;
         if next != self.file {
             self.file = next;
-            self.dirty = true;
+            self.dirty = self.file != self.saved;
             self.figures = Figures::compute(&self.file);
         }
         Ok(())

@@ -48,6 +48,8 @@ pub fn action_for(app: &App, key: KeyEvent) -> Option<Action> {
             _ => None,
         },
         Mode::Editing(_) => match key.code {
+            // Alt-letters are not text (a quick Esc then a key arrives as one).
+            KeyCode::Char(_) if key.modifiers.contains(KeyModifiers::ALT) => None,
             KeyCode::Char(c) => Some(Action::Type(c)),
             KeyCode::Backspace => Some(Action::Backspace),
             KeyCode::Delete => Some(Action::DeleteForward),

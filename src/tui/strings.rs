@@ -18,7 +18,7 @@ pub const NEW_CASE: &str = "new case";
 pub const DEMO_TITLE: &str = "demo case (invented)";
 /// The first message of a new case.
 pub const NEW_CASE_HINT: &str =
-    "New case: go down to the doses (a adds one), then the levels. ? lists the keys.";
+    "New case: a adds a dose (time, then amount), then the levels below. ? lists keys.";
 /// Shown when a file could not be opened.
 pub const LOAD_FAILED: &str =
     "The file could not be opened; Ctrl-S saves this case under a name you choose.";

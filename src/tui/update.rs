@@ -614,6 +614,7 @@ fn save_to(app: &mut App, path: PathBuf) {
     match store::save(&app.file, &path) {
         Ok(()) => {
             app.dirty = false;
+            app.saved = app.file.clone();
             app.load_error = None;
             app.title = path.display().to_string();
             app.say(strings::saved_to(&app.title));
