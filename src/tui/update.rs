@@ -175,10 +175,7 @@ fn activate(app: &mut App, space: bool) {
         match screens::selected_case_line(app) {
             CaseLine::AddDose | CaseLine::AddLevel if !space => return add_row(app),
             CaseLine::AddDose | CaseLine::AddLevel => return,
-            CaseLine::Level(i) if space && app.cursors.case_col != 2 => {
-                let _ = i;
-                return toggle_use(app);
-            }
+            CaseLine::Level(_) if space && app.cursors.case_col != 2 => return toggle_use(app),
             _ => {}
         }
     }

@@ -74,8 +74,6 @@ fn index_of(lines: &[CaseLine], line: CaseLine) -> Option<usize> {
 
 fn field_rows(app: &App, lines: &[CaseLine], selected: CaseLine) -> Vec<Row> {
     let mut out: Vec<Row> = vec![(Line::styled(strings::PATIENT, heading()), None)];
-    let unit = app.file.drug.level_unit.clone().unwrap_or_default();
-    let _ = unit;
     for (i, f) in PATIENT_FIELDS.iter().chain(DRUG_FIELDS.iter()).enumerate() {
         if i == PATIENT_FIELDS.len() {
             out.push((Line::styled(strings::DRUG, heading()), None));

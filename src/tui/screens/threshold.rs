@@ -5,7 +5,7 @@
 use ratatui::buffer::Buffer;
 use ratatui::layout::{Constraint, Layout, Rect};
 use ratatui::style::{Modifier, Style};
-use ratatui::text::{Line, Span};
+use ratatui::text::Line;
 use ratatui::widgets::{Paragraph, Widget};
 
 use crate::core::clock::span_words;
@@ -122,5 +122,4 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
         .render(chart_area, buf),
         None => note("", quiet()).render(chart_area, buf),
     }
-    let _ = Span::raw("");
 }
