@@ -495,12 +495,16 @@ mod tests {
             18.0,
             Route::Infusion { hours: 0.5 },
             &gent_targets(),
-            &RegimenOptions::default(),
+            &RegimenOptions {
+                dose_step_mg: 1.0,
+                ..RegimenOptions::default()
+            },
             Some(8.0),
         );
         assert!(!s.is_empty() && s.len() <= MAX_SUGGESTIONS);
-        // A peak range and a trough ceiling: every interval can hit the middle of the peak,
-        // so the tie goes to the current interval, then its nearest neighbours.
+        // A peak range and a trough ceiling, 1 mg steps: every interval gets within 0.05 of the
+        // middle of the peak (scores tie at two decimals), so the tie goes to the current
+        // interval, then its nearest neighbours.
         assert_eq!(s[0].interval_h, 8.0);
         assert_eq!(s[1].interval_h, 6.0);
         for w in s.windows(2) {
