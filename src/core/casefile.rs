@@ -200,6 +200,9 @@ pub struct Defaults {
     pub targets: Targets,
     /// Population priors for a Bayesian estimate.
     pub prior: Option<Prior>,
+    /// The practical choices regimen suggestions are searched over (usual intervals, dose
+    /// rounding); `None` keeps `RegimenOptions::default()`.
+    pub regimen: Option<RegimenOptions>,
 }
 
 impl CaseFile {
@@ -493,7 +496,7 @@ impl CaseFile {
 
         Ok(Case {
             switch,
-            regimen: RegimenOptions::default(),
+            regimen: defaults.regimen.clone().unwrap_or_default(),
             patient,
             drug,
             doses,

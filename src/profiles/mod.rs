@@ -22,6 +22,7 @@ use std::path::{Path, PathBuf};
 use crate::core::case::Targets;
 use crate::core::casefile::Defaults;
 use crate::core::error::{Error, Result};
+use crate::core::regimen::RegimenOptions;
 use crate::core::units::LevelUnit;
 
 pub use parse::parse_profile;
@@ -278,8 +279,24 @@ pub fn defaults_for(
         bioavailability: profile.bioavailability.as_ref().map(|f| f.value),
         targets,
         prior: prior_of(profile),
-        ..Defaults::default()
+        regimen: regimen_of(profile),
     }
+}
+
+/// The profile's usual intervals and dose rounding, over the common defaults where it is
+/// silent.
+fn regimen_of(profile: &Profile) -> Option<RegimenOptions> {
+    if profile.dose_rounding_mg.is_none() && profile.usual_intervals_h.is_none() {
+        return None;
+    }
+    let mut opts = RegimenOptions::default();
+    if let Some(r) = &profile.dose_rounding_mg {
+        opts.dose_step_mg = r.value;
+    }
+    if let Some(l) = &profile.usual_intervals_h {
+        opts.intervals_h = l.values.clone();
+    }
+    Some(opts)
 }
 
 #[cfg(test)]
@@ -297,6 +314,24 @@ mod tests {
         let g = &cat.get("gentamicin").unwrap().profile;
         assert_eq!(unit_factor(g, LevelUnit::UgPerMl, None), Some(1.0));
         assert_eq!(unit_factor(g, LevelUnit::NgPerMl, None), Some(1000.0));
+    }
+
+    #[test]
+    fn regimen_choices_come_from_the_profile() {
+        let cat = Catalog::built_in().unwrap();
+        let g = &cat.get("gentamicin").unwrap().profile;
+        let d = defaults_for(g, Some("mg/L"), None);
+        let r = d.regimen.clone().unwrap();
+        let want: Vec<f64> = g.usual_intervals_h.as_ref().unwrap().values.clone();
+        assert_eq!(r.intervals_h, want);
+        assert_eq!(r.dose_step_mg, g.dose_rounding_mg.as_ref().unwrap().value);
+        // The validated case carries them to the regimen search.
+        let text = "[drug]\nlevel_unit = \"mg/L\"\nprofile = \"gentamicin\"\n";
+        let case = crate::core::casefile::CaseFile::parse(text)
+            .unwrap()
+            .validate_with(&d)
+            .unwrap();
+        assert_eq!(case.regimen.intervals_h, want);
     }
 
     #[test]
