@@ -82,6 +82,13 @@ enum ProfilesAction {
 
 fn main() -> ExitCode {
     let cli = Cli::parse();
+    if let (Some(case), Some(_)) = (&cli.case, &cli.command) {
+        eprintln!(
+            "ebb: give a case file or a command, not both (got {} before the command)",
+            case.display()
+        );
+        return ExitCode::from(2);
+    }
     let dir = ebb::profiles::override_dir(cli.profiles.as_deref());
     let dir = dir.as_deref();
     match cli.command {
