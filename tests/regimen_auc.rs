@@ -122,3 +122,25 @@ infusion_h = 1.0
     let j: serde_json::Value = serde_json::from_str(&ebb::core::json::to_json(&r)).unwrap();
     assert!((j["auc24_methods"]["by_levels"].as_f64().unwrap() - 492.42).abs() < 0.01);
 }
+
+#[test]
+fn the_steady_state_caveat_appears_only_before_steady_state() {
+    // Model data (k 0.1 /h, V 20 L, 500 mg every 12 h), written with the test's own model.
+    let (k, v, d, tau) = (0.1, 20.0, 500.0, 12.0);
+    let caveat = |n: usize| {
+        let levels = [
+            (1.0, model(d, tau, n, k, v, 1.0)),
+            (11.0, model(d, tau, n, k, v, 11.0)),
+        ];
+        let case = CaseFile::parse(&bolus_case(d, tau, n, &levels))
+            .unwrap()
+            .validate()
+            .unwrap();
+        let r = report::build(&case).unwrap();
+        r.warnings.iter().any(|w| w.contains("not at steady state"))
+    };
+    // After the first dose the level before it (0) is far from the one 12 h later.
+    assert!(caveat(1));
+    // After 20 doses (24 half-lives) the interval starts and ends at the same level.
+    assert!(!caveat(20));
+}
