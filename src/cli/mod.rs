@@ -31,13 +31,20 @@ pub fn load_case(path: &Path) -> Result<Case> {
 pub fn load_case_with(path: &Path, profiles_dir: Option<&Path>) -> Result<Case> {
     let name = path.display().to_string();
     let file = casefile::read(path)?;
+    validate_with_profile(&file, profiles_dir).map_err(|e| e.in_file(name))
+}
+
+/// Validate a parsed case, resolving its `drug.profile` among the built-in profiles and
+/// those of `profiles_dir` for the defaults it supplies.
+///
+/// # Errors
+/// The first invalid field; an unknown profile at `drug.profile`; a broken profile file.
+pub fn validate_with_profile(file: &CaseFile, profiles_dir: Option<&Path>) -> Result<Case> {
     let defaults = match &file.drug.profile {
         None => casefile::Defaults::default(),
         Some(wanted) => {
             let catalog = profiles::Catalog::load(profiles_dir)?;
-            let entry = catalog
-                .lookup(wanted, "drug.profile")
-                .map_err(|e| e.in_file(name.as_str()))?;
+            let entry = catalog.lookup(wanted, "drug.profile")?;
             profiles::defaults_for(
                 &entry.profile,
                 file.drug.level_unit.as_deref(),
@@ -45,16 +52,16 @@ pub fn load_case_with(path: &Path, profiles_dir: Option<&Path>) -> Result<Case> 
             )
         }
     };
-    file.validate_with(&defaults).map_err(|e| e.in_file(name))
+    file.validate_with(&defaults)
 }
 
-/// Load and validate the built-in demo case.
+/// Load and validate the built-in demo case (with its drug profile).
 ///
 /// # Errors
 /// None in practice: the demo is tested.
 pub fn load_demo() -> Result<Case> {
     CaseFile::parse(DEMO_CASE)
-        .and_then(|f| f.validate())
+        .and_then(|f| validate_with_profile(&f, profiles::override_dir(None).as_deref()))
         .map_err(|e| e.in_file(DEMO_NAME))
 }
 
