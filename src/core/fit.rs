@@ -251,6 +251,7 @@ pub fn fit_log_linear(case: &Case) -> Result<Fit> {
     if used.len() < 2 {
         let which = match used.first() {
             Some(&i) => format!("only {} is marked for use", case.level_name(i)),
+            None if case.levels.is_empty() => "the case has no levels yet".to_string(),
             None => "no level is marked for use".to_string(),
         };
         return Err(Error::invalid(
