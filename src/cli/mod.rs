@@ -12,6 +12,7 @@ use crate::profiles;
 
 pub mod note;
 pub mod plot;
+pub mod store;
 
 /// Load and validate a case from a file.
 ///
