@@ -61,6 +61,16 @@ enum Command {
         #[arg(short = 'o', long = "output", value_name = "FILE.svg")]
         output: PathBuf,
     },
+    /// Rewrite a case file in the canonical form the bedside screen saves (same content,
+    /// tables and fields in a fixed order), through the same safe save. Refuses a file with
+    /// comments, which would be lost, unless --drop-comments.
+    Tidy {
+        /// The case file (TOML).
+        file: PathBuf,
+        /// Rewrite even though the comments in the file will be lost.
+        #[arg(long)]
+        drop_comments: bool,
+    },
     /// List the drug profiles and where each came from, or show one.
     Profiles {
         #[command(subcommand)]
@@ -102,6 +112,10 @@ fn main() -> ExitCode {
             markdown,
         }) => note(&file, output.as_deref(), markdown, dir),
         Some(Command::Plot { file, output }) => plot(&file, &output, dir),
+        Some(Command::Tidy {
+            file,
+            drop_comments,
+        }) => tidy(&file, drop_comments),
         None => match cli.case {
             Some(path) => screen(|| ebb::tui::App::open(&path)),
             None => screen(ebb::tui::App::new_case),
@@ -238,6 +252,40 @@ fn plot(file: &Path, output: &Path, dir: Option<&Path>) -> ExitCode {
         .and_then(|svg| ebb::cli::note::write_file(output, &svg));
     match r {
         Ok(()) => ExitCode::SUCCESS,
+        Err(e) => {
+            eprintln!("{e}");
+            ExitCode::from(2)
+        }
+    }
+}
+
+/// `ebb tidy`: parse the case and write it back in canonical form, safely, and only if the
+/// file did not change in between.
+fn tidy(file: &Path, drop_comments: bool) -> ExitCode {
+    use ebb::cli::store;
+    let name = file.display().to_string();
+    let (text, print) = match store::read_with_fingerprint(file) {
+        Ok(x) => x,
+        Err(e) => {
+            eprintln!("{name}: cannot read the file: {e}");
+            return ExitCode::from(2);
+        }
+    };
+    let case = match ebb::core::casefile::CaseFile::parse(&text) {
+        Ok(c) => c,
+        Err(e) => {
+            eprintln!("{}", e.in_file(name.as_str()));
+            return ExitCode::from(2);
+        }
+    };
+    if let (false, Some(line)) = (drop_comments, store::first_comment_line(&text)) {
+        eprintln!(
+            "{name}: line {line}: has a comment, which tidying would drop; remove the comments or pass --drop-comments"
+        );
+        return ExitCode::from(2);
+    }
+    match store::save_case(&case, file, &store::Expect::Unchanged(Some(print))) {
+        Ok(_) => ExitCode::SUCCESS,
         Err(e) => {
             eprintln!("{e}");
             ExitCode::from(2)
