@@ -103,8 +103,8 @@ fn main() -> ExitCode {
     let dir = dir.as_deref();
     match cli.command {
         Some(Command::Report { files, json, demo }) => report(&files, json, demo, dir),
-        Some(Command::Demo) => screen(ebb::tui::App::demo),
-        Some(Command::Open { file }) => screen(|| ebb::tui::App::open(&file)),
+        Some(Command::Demo) => screen(|| ebb::tui::App::demo_in(ui(dir))),
+        Some(Command::Open { file }) => screen(|| ebb::tui::App::open_in(&file, ui(dir))),
         Some(Command::Profiles { action }) => profiles(action, dir),
         Some(Command::Note {
             file,
@@ -117,10 +117,16 @@ fn main() -> ExitCode {
             drop_comments,
         }) => tidy(&file, drop_comments),
         None => match cli.case {
-            Some(path) => screen(|| ebb::tui::App::open(&path)),
-            None => screen(ebb::tui::App::new_case),
+            Some(path) => screen(|| ebb::tui::App::open_in(&path, ui(dir))),
+            None => screen(|| ebb::tui::App::new_case_in(ui(dir))),
         },
     }
+}
+
+/// The drug profiles the bedside screen offers: the built-ins and the `--profiles` (or
+/// `EBB_PROFILES`) directory.
+fn ui(dir: Option<&Path>) -> ebb::tui::catalog::Profiles {
+    ebb::tui::catalog::Profiles::load(dir)
 }
 
 /// Run the bedside screen, or say in one line why not (no terminal).

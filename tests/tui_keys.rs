@@ -324,34 +324,45 @@ fn a_new_case_can_be_built_from_keys() {
     assert_eq!(r.fit.k_per_h, core_report(&app.file).fit.k_per_h);
 }
 
-/// Go to a field line of the case screen.
-fn to_field(app: &mut App, field: ebb::tui::fields::Field) {
+/// Choose the profile `name` (None: no profile) from the list on the case screen.
+fn choose_profile(app: &mut App, name: Option<&str>) {
     key(app, KeyCode::Char('1'));
+    key(app, KeyCode::Char('p'));
     for _ in 0..100 {
-        if screens::selected_case_line(app) == CaseLine::Field(field) {
+        key(app, KeyCode::Up);
+    }
+    for _ in 0..100 {
+        let Mode::ChooseProfile(at) = app.mode else {
+            panic!("the profile list is not open: {:?}", app.mode);
+        };
+        let here = match at {
+            0 => None,
+            i => Some(app.profiles.entries().unwrap()[i - 1].name.clone()),
+        };
+        if here.as_deref() == name {
+            key(app, KeyCode::Enter);
             return;
         }
         key(app, KeyCode::Down);
     }
-    panic!("no {field:?} line");
+    panic!("no profile {name:?} in the list");
 }
 
 #[test]
-fn a_drug_profile_typed_is_used_as_the_report_uses_it() {
-    use ebb::tui::fields::Field;
+fn a_drug_profile_is_used_as_the_report_uses_it() {
     let mut app = App::demo();
-    to_field(&mut app, Field::DrugProfile);
-    key(&mut app, KeyCode::Enter);
-    typed(&mut app, "no-such-drug");
-    key(&mut app, KeyCode::Enter);
+    // A case file may name a profile this computer does not have.
+    app.change(|f| {
+        f.drug.profile = Some("no-such-drug".into());
+        Ok(())
+    })
+    .unwrap();
     let p = app.figures.problem.as_ref().unwrap();
     assert_eq!(p.place.as_deref(), Some("drug.profile"));
     assert!(p.text.contains("no drug profile named"), "{}", p.text);
     // A profile whose kinetics are not first-order: no projections are shown.
-    key(&mut app, KeyCode::Enter);
-    clear_field(&mut app);
-    typed(&mut app, "phenytoin");
-    key(&mut app, KeyCode::Enter);
+    choose_profile(&mut app, Some("phenytoin"));
+    assert_eq!(app.file.drug.profile.as_deref(), Some("phenytoin"));
     assert!(app.figures.report.is_none());
     assert!(app
         .figures
@@ -360,13 +371,16 @@ fn a_drug_profile_typed_is_used_as_the_report_uses_it() {
         .unwrap()
         .text
         .contains("refuses"));
+    key(&mut app, KeyCode::Esc);
     // The matching profile: the report carries the profile's warnings like `ebb report`.
-    key(&mut app, KeyCode::Enter);
-    clear_field(&mut app);
-    typed(&mut app, "gentamicin");
-    key(&mut app, KeyCode::Enter);
+    choose_profile(&mut app, Some("gentamicin"));
     assert_eq!(app.file.drug.profile.as_deref(), Some("gentamicin"));
     assert!(app.figures.report.is_some(), "{:?}", app.figures.problem);
+    key(&mut app, KeyCode::Esc);
+    // And none again.
+    choose_profile(&mut app, None);
+    assert_eq!(app.file.drug.profile, None);
+    assert_eq!(app.mode, Mode::Normal);
 }
 
 #[test]

@@ -39,7 +39,9 @@ const KEYS: &[KeyCode] = &[
     KeyCode::End,
 ];
 
-const CHARS: &str = "12345?qyna xu+-=[]{}r0123456789.:-T 2027-03-0408:00e,/abc";
+// Every command key is here, so the walk reaches every mode: profile list (p), profile
+// details (i), fit method (m), taking a suggestion (t), the record note (n).
+const CHARS: &str = "12345?qyna xu+-=[]{}r0123456789.:-T 2027-03-0408:00e,/abcpmitpmit";
 
 fn random_key(rng: &mut Rng) -> KeyEvent {
     match rng.below(10) {

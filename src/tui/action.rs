@@ -43,6 +43,16 @@ pub enum Action {
     PlanInfusion(bool),
     /// Step the plan's route.
     PlanRoute,
+    /// Copy the selected suggested regimen (or the first) into the plan.
+    TakeSuggestion,
+    /// Open the list of drug profiles to choose from.
+    ChooseProfile,
+    /// Show the chosen profile's targets, sampling advice and cautions.
+    ProfileInfo,
+    /// Step the fit method: automatic, log-linear, dose-history, Bayesian.
+    FitMethod,
+    /// Write the record note beside the case file (asks for a name when there is none).
+    WriteNote,
     /// Editor: insert a character.
     Type(char),
     /// Editor: delete before the cursor.

@@ -5,6 +5,7 @@ use std::path::{Path, PathBuf};
 
 use crate::core::casefile::{self, CaseFile, DrugFile};
 use crate::demo::DEMO_CASE;
+use crate::tui::catalog::Profiles;
 use crate::tui::fields::Field;
 use crate::tui::figures::Figures;
 use crate::tui::strings;
@@ -58,6 +59,11 @@ pub enum Mode {
     Help,
     /// A question waits for yes or no.
     Confirm(Confirm),
+    /// The drug-profile list is open; the number is the highlighted line (0: no profile).
+    ChooseProfile(usize),
+    /// The chosen profile's targets, sampling advice and cautions are shown, scrolled down
+    /// by this many lines.
+    ProfileInfo(u16),
     /// The run loop should end.
     Quitting,
 }
@@ -69,6 +75,8 @@ pub enum Target {
     Field(Field),
     /// The file name to save to.
     SavePath,
+    /// The file name to write the record note to.
+    NotePath,
 }
 
 /// A one-line text editor over a field.
@@ -140,7 +148,7 @@ pub struct Cursors {
     pub case_col: usize,
     /// Selected level on the fit screen.
     pub fit_level: usize,
-    /// Selected field on the plan screen.
+    /// Selected line on the plan screen: a field, then (past the fields) a suggested regimen.
     pub plan: usize,
     /// Selected field on the threshold screen.
     pub threshold: usize,
@@ -175,11 +183,13 @@ pub struct App {
     pub figures: Figures,
     /// Quit as soon as the pending save succeeds.
     pub quit_after_save: bool,
+    /// The drug profiles on offer (built-in and the override directory).
+    pub profiles: Profiles,
 }
 
 impl App {
-    fn with_file(file: CaseFile, title: String) -> Self {
-        let figures = Figures::compute(&file);
+    fn with_file(file: CaseFile, title: String, profiles: Profiles) -> Self {
+        let figures = Figures::compute(&file, &profiles);
         App {
             saved: file.clone(),
             file,
@@ -194,11 +204,18 @@ impl App {
             message: None,
             figures,
             quit_after_save: false,
+            profiles,
         }
     }
 
-    /// A new, empty case (levels in mg/L until the user says otherwise).
+    /// A new, empty case (levels in mg/L until the user says otherwise), with the profiles
+    /// of `EBB_PROFILES` when set.
     pub fn new_case() -> Self {
+        App::new_case_in(Profiles::from_env())
+    }
+
+    /// A new, empty case offering `profiles`.
+    pub fn new_case_in(profiles: Profiles) -> Self {
         let file = CaseFile {
             schema: Some(1),
             drug: DrugFile {
@@ -207,7 +224,7 @@ impl App {
             },
             ..CaseFile::default()
         };
-        let mut app = App::with_file(file, strings::NEW_CASE.into());
+        let mut app = App::with_file(file, strings::NEW_CASE.into(), profiles);
         app.message = Some(Message {
             text: strings::NEW_CASE_HINT.into(),
             is_error: false,
@@ -217,27 +234,38 @@ impl App {
 
     /// The built-in demo case (not tied to a file: saving asks for a name).
     pub fn demo() -> Self {
+        App::demo_in(Profiles::from_env())
+    }
+
+    /// The built-in demo case, offering `profiles`.
+    pub fn demo_in(profiles: Profiles) -> Self {
         match CaseFile::parse(DEMO_CASE) {
-            Ok(file) => App::with_file(file, strings::DEMO_TITLE.into()),
+            Ok(file) => App::with_file(file, strings::DEMO_TITLE.into(), profiles),
             Err(e) => {
-                let mut app = App::new_case();
+                let mut app = App::new_case_in(profiles);
                 app.load_error = Some(e.to_string());
                 app
             }
         }
     }
 
-    /// Open a case file. A file that cannot be read or parsed opens as an empty case that
-    /// shows the error; saving then asks for a file name (offering this one).
+    /// Open a case file (profiles of `EBB_PROFILES` when set). A file that cannot be read
+    /// or parsed opens as an empty case that shows the error; saving then asks for a file
+    /// name (offering this one).
     pub fn open(path: &Path) -> Self {
+        App::open_in(path, Profiles::from_env())
+    }
+
+    /// Open a case file, offering `profiles`.
+    pub fn open_in(path: &Path, profiles: Profiles) -> Self {
         match casefile::read(path) {
             Ok(file) => {
-                let mut app = App::with_file(file, path.display().to_string());
+                let mut app = App::with_file(file, path.display().to_string(), profiles);
                 app.path = Some(path.to_path_buf());
                 app
             }
             Err(e) => {
-                let mut app = App::new_case();
+                let mut app = App::new_case_in(profiles);
                 app.title = path.display().to_string();
                 app.suggested_path = Some(path.to_path_buf());
                 app.load_error = Some(e.to_string());
@@ -264,7 +292,7 @@ impl App {
         if next != self.file {
             self.file = next;
             self.dirty = self.file != self.saved;
-            self.figures = Figures::compute(&self.file);
+            self.figures = Figures::compute(&self.file, &self.profiles);
         }
         Ok(())
     }

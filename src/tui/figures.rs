@@ -1,15 +1,15 @@
 //! The figures the screens show, all computed by the core from the case file: validation,
 //! the fit, the report, and the model's course sampled for the charts.
 
-use std::sync::OnceLock;
-
 use crate::core::case::Case;
 use crate::core::casefile::CaseFile;
 use crate::core::error::Error;
-use crate::core::fit::{self, Fit};
+use crate::core::fit::{self, Fit, Method};
 use crate::core::project::{self, Patient};
 use crate::core::report::{self, Report};
-use crate::profiles::{self, Catalog, Entry};
+use crate::core::uncertainty;
+use crate::profiles::{self, Entry};
+use crate::tui::catalog::Profiles;
 use crate::tui::strings;
 use crate::tui::widgets::chart::{ChartData, Curve, CurveRole, Guide, GuideRole, Mark, MarkKind};
 
@@ -86,24 +86,12 @@ fn problem(e: &Error, invalid_case: bool) -> Problem {
     }
 }
 
-/// The drug profiles (built-in, and the `EBB_PROFILES` folder when set), read once a run.
-fn catalog() -> Result<&'static Catalog, String> {
-    static CATALOG: OnceLock<Result<Catalog, String>> = OnceLock::new();
-    CATALOG
-        .get_or_init(|| {
-            Catalog::load(profiles::override_dir(None).as_deref()).map_err(|e| e.to_string())
-        })
-        .as_ref()
-        .map_err(Clone::clone)
-}
-
 /// The profile the case names, if any.
-fn profile_of(file: &CaseFile) -> Result<Option<&'static Entry>, Problem> {
+fn profile_of<'a>(file: &CaseFile, profiles: &'a Profiles) -> Result<Option<&'a Entry>, Problem> {
     let Some(name) = file.drug.profile.as_deref() else {
         return Ok(None);
     };
-    let found = catalog().and_then(|c| c.lookup(name, "drug.profile").map_err(|e| e.to_string()));
-    match found {
+    match profiles.lookup(name) {
         Ok(e) => Ok(Some(e)),
         Err(text) => Err(Problem {
             place: Some("drug.profile".into()),
@@ -117,8 +105,8 @@ impl Figures {
     /// Validate the case file (with its drug profile's defaults, as `ebb report` does) and
     /// compute every figure; never panics, never fails: what cannot be computed is left
     /// `None` with the reason in `problem`.
-    pub fn compute(file: &CaseFile) -> Figures {
-        let entry = match profile_of(file) {
+    pub fn compute(file: &CaseFile, profiles: &Profiles) -> Figures {
+        let entry = match profile_of(file, profiles) {
             Ok(e) => e,
             Err(p) => {
                 return Figures {
@@ -233,23 +221,45 @@ fn fit_chart(case: &Case, fit: &Fit, p: &Patient) -> ChartData {
     let x = [first - 0.02 * span, end + 0.12 * span];
     let mut curves = Vec::new();
     if p.v().is_some() {
+        let model = project::course_mg_l(p, None, x[0], x[1], SAMPLES);
+        let times: Vec<f64> = model.iter().map(|(t, _)| *t).collect();
+        let band = uncertainty::band(case, fit, &times);
+        if band.iter().any(|b| b.band.is_some()) {
+            let edge = |i: usize| -> Vec<(f64, f64)> {
+                band.iter()
+                    .filter_map(|b| b.band.map(|e| (b.t, e[i])))
+                    .collect()
+            };
+            curves.push(Curve {
+                role: CurveRole::Band,
+                points: to_level(case, edge(0)),
+            });
+            curves.push(Curve {
+                role: CurveRole::Band,
+                points: to_level(case, edge(1)),
+            });
+        }
         curves.push(Curve {
             role: CurveRole::Model,
-            points: to_level(case, project::course_mg_l(p, None, x[0], x[1], SAMPLES)),
+            points: to_level(case, model),
         });
     }
-    let used_t: Vec<f64> = fit.used.iter().map(|&i| case.levels[i].t).collect();
-    let a = case
-        .doses
-        .get(fit.window_dose)
-        .map(|d| d.end())
-        .unwrap_or(first);
-    let b = used_t.iter().copied().fold(a, f64::max);
-    let b = b + 0.1 * (b - a).max(0.5);
-    curves.push(Curve {
-        role: CurveRole::Fitted,
-        points: to_level(case, vec![(a, fit.line_mg_l(a)), (b, fit.line_mg_l(b))]),
-    });
+    // The straight fitted line belongs to the fits within one dosing interval; the other
+    // fits are the model curve itself.
+    if matches!(fit.method, Method::TwoPoint | Method::LogLinear) {
+        let used_t: Vec<f64> = fit.used.iter().map(|&i| case.levels[i].t).collect();
+        let a = case
+            .doses
+            .get(fit.window_dose)
+            .map(|d| d.end())
+            .unwrap_or(first);
+        let b = used_t.iter().copied().fold(a, f64::max);
+        let b = b + 0.1 * (b - a).max(0.5);
+        curves.push(Curve {
+            role: CurveRole::Fitted,
+            points: to_level(case, vec![(a, fit.line_mg_l(a)), (b, fit.line_mg_l(b))]),
+        });
+    }
     let marks = case
         .levels
         .iter()
@@ -345,9 +355,21 @@ fn washout_chart(case: &Case, r: &Report, p: &Patient) -> Option<ChartData> {
     let t_last = case.clock.hours(&last.at);
     let th = p.fit.half_life_h;
     let from = t_first - th;
-    let to = t_last + 0.5 * th;
+    let switch = r
+        .advice
+        .switch
+        .as_ref()
+        .map(|s| (case.clock.hours(&s.start_at), s.level_at_start))
+        .filter(|(t, v)| t.is_finite() && v.is_finite() && *v > 0.0);
+    let mut to = t_last + 0.5 * th;
+    if let Some((t, _)) = switch {
+        // The start of the next agent stays in view, within reason.
+        if t > to && t < t_last + 20.0 * th {
+            to = t + 0.1 * (t - from);
+        }
+    }
     let points = project::course_mg_l(p, None, from, to, SAMPLES);
-    let marks = r
+    let mut marks: Vec<Mark> = r
         .washout
         .iter()
         .map(|w| Mark {
@@ -356,6 +378,13 @@ fn washout_chart(case: &Case, r: &Report, p: &Patient) -> Option<ChartData> {
             kind: MarkKind::HalfLife(w.half_lives),
         })
         .collect();
+    if let Some((t, value)) = switch {
+        marks.push(Mark {
+            t,
+            value,
+            kind: MarkKind::SwitchStart,
+        });
+    }
     Some(ChartData {
         clock: case.clock,
         x: [from, to],

@@ -39,6 +39,21 @@ pub fn action_for(app: &App, key: KeyEvent) -> Option<Action> {
             }
             _ => None,
         },
+        Mode::ChooseProfile(_) => match key.code {
+            KeyCode::Up | KeyCode::Char('k') => Some(Action::Up),
+            KeyCode::Down | KeyCode::Char('j') => Some(Action::Down),
+            KeyCode::Enter | KeyCode::Char(' ') => Some(Action::Accept),
+            KeyCode::Esc | KeyCode::Char('q') => Some(Action::Cancel),
+            _ => None,
+        },
+        Mode::ProfileInfo(_) => match key.code {
+            KeyCode::Up | KeyCode::Char('k') => Some(Action::Up),
+            KeyCode::Down | KeyCode::Char('j') => Some(Action::Down),
+            KeyCode::Esc | KeyCode::Enter | KeyCode::Char('q') | KeyCode::Char('i') => {
+                Some(Action::Cancel)
+            }
+            _ => None,
+        },
         Mode::Confirm(c) => match key.code {
             KeyCode::Char('y') | KeyCode::Char('Y') => Some(Action::Yes),
             KeyCode::Char('n') | KeyCode::Char('N') | KeyCode::Esc => Some(Action::No),
@@ -76,6 +91,7 @@ fn normal(screen: Screen, code: KeyCode) -> Option<Action> {
         KeyCode::BackTab => Some(Action::NextScreen(true)),
         KeyCode::Char('?') => Some(Action::Help),
         KeyCode::Char('q') => Some(Action::Quit),
+        KeyCode::Char('n') => Some(Action::WriteNote),
         KeyCode::Esc => Some(Action::Cancel),
         KeyCode::Up => Some(Action::Up),
         KeyCode::Down => Some(Action::Down),
@@ -101,6 +117,10 @@ fn normal(screen: Screen, code: KeyCode) -> Option<Action> {
         (Screen::Plan, KeyCode::Char('}')) => Some(Action::PlanInfusion(true)),
         (Screen::Plan, KeyCode::Char('{')) => Some(Action::PlanInfusion(false)),
         (Screen::Plan, KeyCode::Char('r')) => Some(Action::PlanRoute),
+        (Screen::Plan, KeyCode::Char('t')) => Some(Action::TakeSuggestion),
+        (Screen::Case, KeyCode::Char('p')) => Some(Action::ChooseProfile),
+        (Screen::Case | Screen::Plan, KeyCode::Char('i')) => Some(Action::ProfileInfo),
+        (Screen::Fit, KeyCode::Char('m')) => Some(Action::FitMethod),
         _ => None,
     }
 }

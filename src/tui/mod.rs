@@ -1,9 +1,11 @@
 //! The bedside terminal UI: state (`app`), intents (`action`), keys (`keymap`), changes
-//! (`update`), figures from the core (`figures`), drawing (`view`, `screens`, `widgets`),
-//! words (`strings`), saving (`store`) and the run loop (`run`).
+//! (`update`), the drug profiles on offer (`catalog`), figures from the core (`figures`),
+//! drawing (`view`, `screens`, `widgets`), words (`strings`), saving (`store`) and the run
+//! loop (`run`).
 
 pub mod action;
 pub mod app;
+pub mod catalog;
 pub mod entry;
 pub mod fields;
 pub mod figures;

@@ -43,16 +43,18 @@ pub fn enlarge(min_w: u16, min_h: u16, w: u16, h: u16) -> String {
 pub fn hint(s: Screen) -> &'static str {
     match s {
         Screen::Case => {
-            "↑↓←→ move  Enter edit  a add row  x delete  u use  ? keys  Ctrl-S save  q quit"
+            "↑↓←→ move  Enter edit  a add  x delete  u use  p profile  n note  ? keys  q quit"
         }
-        Screen::Fit => "↑↓ level  Space/u use in fit  1-5/Tab screens  ? keys  Ctrl-S save  q quit",
+        Screen::Fit => {
+            "↑↓ level  Space/u use in fit  m method  n note  ? keys  Ctrl-S save  q quit"
+        }
         Screen::Plan => {
-            "+/- dose  [ ] interval  { } infusion  r route  ↑↓ Enter edit  ? keys  q quit"
+            "+/- dose  [ ] interval  { } infusion  r route  t take suggestion  ? keys  q quit"
         }
         Screen::Threshold => {
-            "↑↓ field  Enter edit  Delete clear  1-5/Tab screens  ? keys  Ctrl-S save  q quit"
+            "↑↓ field  Enter edit  Delete clear  n note  ? keys  Ctrl-S save  q quit"
         }
-        Screen::Washout => "1-5/Tab screens  ? keys  Ctrl-S save  q quit",
+        Screen::Washout => "1-5/Tab screens  n note  ? keys  Ctrl-S save  q quit",
     }
 }
 /// The key hint line while editing.
@@ -61,6 +63,10 @@ pub const HINT_EDITING: &str = "Enter accept  Esc cancel  ←→ Home End move  
 pub const HINT_HELP: &str = "? or Esc closes the key list";
 /// The key hint line while a question waits.
 pub const HINT_CONFIRM: &str = "y yes  n or Esc no";
+/// The key hint line while the profile list is open.
+pub const HINT_CHOOSER: &str = "↑↓ move  Enter choose  Esc keep the case as it is";
+/// The key hint line while the profile's details are shown.
+pub const HINT_INFO: &str = "↑↓ scroll  Esc, Enter or i closes";
 
 /// The title of the help overlay.
 pub fn help_title(s: Screen) -> String {
@@ -77,11 +83,14 @@ pub const KEYS_CASE: &[(&str, &str)] = &[
     ("x", "delete the dose or level row (asks first)"),
     ("u", "toggle use in fit of the level row"),
     ("Delete", "clear an optional field"),
+    ("p", "choose the drug profile from a list"),
+    ("i", "the profile's targets, sampling advice, cautions"),
 ];
 /// Keys of the fit screen.
 pub const KEYS_FIT: &[(&str, &str)] = &[
     ("↑ ↓", "select a level"),
     ("Space, u", "toggle use in fit of the selected level"),
+    ("m", "fit method: auto, log-linear, dose-history, Bayesian"),
 ];
 /// Keys of the plan screen.
 pub const KEYS_PLAN: &[(&str, &str)] = &[
@@ -89,9 +98,14 @@ pub const KEYS_PLAN: &[(&str, &str)] = &[
     ("] [", "next longer or shorter usual interval"),
     ("} {", "infusion time 0.25 h longer or shorter"),
     ("r", "next route (bolus, infusion, oral)"),
-    ("↑ ↓", "select a field"),
+    ("↑ ↓", "select a field, or below them a suggestion"),
     ("Enter", "type a value (targets as low-high, e.g. 5-10)"),
     ("Delete", "clear an optional field"),
+    (
+        "t, Enter",
+        "copy the selected (or first) suggestion to the plan",
+    ),
+    ("i", "the profile's targets, sampling advice, cautions"),
 ];
 /// Keys of the threshold screen.
 pub const KEYS_THRESHOLD: &[(&str, &str)] = &[
@@ -106,8 +120,11 @@ pub const KEYS_EDITING: &[(&str, &str)] =
     &[("Enter / Esc", "in a field: accept / cancel the typing")];
 /// Keys that work on every screen.
 pub const KEYS_GLOBAL: &[(&str, &str)] = &[
-    ("1 … 5", "go to Case, Fit, Plan, Threshold, Washout"),
-    ("Tab, Shift-Tab", "next, previous screen"),
+    (
+        "1 … 5, Tab",
+        "Case, Fit, Plan, Threshold, Washout; Shift-Tab back",
+    ),
+    ("n", "write the record note beside the case (CASE.note.txt)"),
     (
         "Ctrl-S",
         "save the case (asks for a file name the first time)",
@@ -303,7 +320,7 @@ pub fn field_label(f: Field) -> (&'static str, &'static str) {
         Field::DrugName => ("Name", ""),
         Field::Unit => ("Level unit", "(Enter steps)"),
         Field::MolarMass => ("Molar mass", "g/mol (mmol/L, umol/L)"),
-        Field::DrugProfile => ("Profile", "(see ebb profiles)"),
+        Field::DrugProfile => ("Profile", "(p chooses, i shows)"),
         Field::DoseTime(_) => ("Time", ""),
         Field::DoseAmount(_) => ("Amount", "mg"),
         Field::DoseRoute(_) => ("Route", ""),
@@ -480,6 +497,12 @@ pub const LEGEND_THRESHOLD: &str = "threshold";
 pub const LEGEND_TROUGH_TARGET: &str = "trough max";
 /// Legend.
 pub const LEGEND_PROCEDURE: &str = "procedure";
+/// Legend.
+pub const LEGEND_BAND: &str = "95 % band";
+/// Legend.
+pub const LEGEND_SWITCH: &str = "next agent may start";
+/// Marker of the start of the next agent.
+pub const MARK_SWITCH: &str = "◆";
 /// Marker of a level in the fit.
 pub const MARK_IN_FIT: &str = "●";
 /// Marker of a level used but outside the fitted interval.
@@ -603,4 +626,238 @@ pub fn washout_threshold(below: &str, unit: &str, when: &str) -> String {
 /// Already below.
 pub fn washout_already_below(below: &str, unit: &str, when: &str) -> String {
     format!("Already below the threshold of {below} {unit} at {when}.")
+}
+
+// ---- drug profiles -----------------------------------------------------------------------
+
+/// Title of the profile list.
+pub const CHOOSER_TITLE: &str = "Drug profile: choose one (Enter), Esc keeps the case as it is";
+/// The list line for no profile.
+pub const NO_PROFILE: &str = "none";
+/// What no profile means.
+pub const NO_PROFILE_MEANS: &str = "No drug profile: the case gives its own targets, and no drug-specific warnings, sampling advice or population values are used.";
+/// Title of the profile overlay.
+pub const INFO_TITLE: &str = "Drug profile (↑↓ scroll, Esc closes)";
+/// The last line of a cut overlay.
+pub const MORE_BELOW: &str = " ↓ more below ";
+/// Heading of the cautions.
+pub const PROFILE_CAUTIONS: &str = "Cautions";
+/// The profile's name and origin.
+pub fn profile_title(display: &str, name: &str, origin: &str) -> String {
+    format!("{display} (profile \"{name}\", {origin})")
+}
+/// The profile's unit and typical half-life.
+pub fn profile_levels(unit: &str, lo: &str, hi: &str) -> String {
+    format!("Levels in {unit}; typical adult half-life {lo}–{hi} h with normal organ function.")
+}
+/// The distribution or absorption window.
+pub fn profile_valid_after(h: &str) -> String {
+    format!("A level is valid from {h} h after the end of a dose (distribution or absorption).")
+}
+/// A kinetics limit.
+pub fn profile_kinetics(why: &str) -> String {
+    format!("- Kinetics: {why}")
+}
+/// The default strategy.
+pub fn profile_strategy(label: &str) -> String {
+    format!("Default targets: {label}")
+}
+/// The targets of the strategy.
+pub fn profile_targets(list: &str) -> String {
+    format!("{list} (used unless the case sets its own)")
+}
+/// A peak target.
+pub fn target_peak(lo: &str, hi: &str, unit: &str) -> String {
+    format!("peak {lo}–{hi} {unit}")
+}
+/// A trough target.
+pub fn target_trough(v: &str, unit: &str) -> String {
+    format!("trough <= {v} {unit}")
+}
+/// An AUC24 target.
+pub fn target_auc(lo: &str, hi: &str, unit: &str) -> String {
+    format!("AUC24 {lo}–{hi} {unit}·h")
+}
+/// A therapeutic range (shown, not checked).
+pub fn target_range(lo: &str, hi: &str, unit: &str) -> String {
+    format!("range {lo}–{hi} {unit} (shown, not checked)")
+}
+/// The sampling advice.
+pub fn profile_sampling(text: &str) -> String {
+    format!("Sampling: {text}")
+}
+/// After choosing no profile.
+pub const NO_PROFILE_CHOSEN: &str = "No drug profile: the case's own targets only.";
+/// After choosing a profile.
+pub fn profile_chosen(display: &str, unit_now: Option<&str>) -> String {
+    match unit_now {
+        Some(u) => format!("Profile {display} chosen; levels now in {u} (i shows its details)."),
+        None => format!("Profile {display} chosen (i shows its targets, sampling and cautions)."),
+    }
+}
+/// `i` without a profile.
+pub const NO_PROFILE_YET: &str =
+    "The case has no drug profile; choose one with p on the case screen.";
+/// Clearing a target that comes from the profile.
+pub const TARGET_FROM_PROFILE: &str =
+    "This target comes from the drug profile; type a value (Enter) to set the case's own.";
+/// The unit of a target that comes from the profile.
+pub fn from_profile(unit: &str) -> String {
+    format!("{unit} (profile)")
+}
+
+// ---- fit method --------------------------------------------------------------------------
+
+/// The automatic choice of method.
+pub const AUTO: &str = "auto";
+/// The method line of the fit screen.
+pub fn method_line(chosen: Option<&str>, used: Option<&str>) -> String {
+    match (chosen, used) {
+        (None, Some(u)) => format!("auto: {u}"),
+        (None, None) => "auto".into(),
+        (Some(c), _) => format!("{c} (chosen)"),
+    }
+}
+/// The key for the method, after the method line.
+pub const METHOD_KEY: &str = "[m]";
+/// Label.
+pub const METHOD: &str = "method";
+/// After switching the method.
+pub fn fit_method_now(chosen: Option<&str>, used: &str) -> String {
+    match chosen {
+        None if used.is_empty() => "Fit method: automatic choice.".into(),
+        None => format!("Fit method: automatic choice ({used})."),
+        Some(c) => format!("Fit method: {c} (m steps on)."),
+    }
+}
+/// A method that cannot be used on this case.
+pub fn fit_method_failed(chosen: Option<&str>, why: &str) -> String {
+    format!("Fit method {}: {why} (m switches)", chosen.unwrap_or(AUTO))
+}
+/// The fit spans the dose record.
+pub fn fit_heading_record(method: &str, rows: &str) -> String {
+    format!("{method}: levels {rows}, all doses")
+}
+/// r² of a fit that is not a straight line.
+pub const NOT_FOR_METHOD: &str = "— (straight-line fits only)";
+/// Label of the population values.
+pub const POPULATION: &str = "typical";
+/// Label.
+pub const MOVED: &str = "moved";
+/// The population values for this patient.
+pub fn population_values(what: &str, typical: &str, unit: &str, v: &str) -> String {
+    format!("{what} {typical} {unit}, V {v} L")
+}
+/// The covariates behind them.
+pub fn population_basis(weight: &str, crcl: Option<&str>) -> String {
+    match crcl {
+        Some(c) => format!("({weight} kg body weight, CrCl {c} mL/min)"),
+        None => format!("({weight} kg body weight)"),
+    }
+}
+/// How far the estimate moved, in between-patient SDs.
+pub fn population_moved(what: &str, elim: f64, vol: f64) -> String {
+    format!("{what} {elim:+.2} SD, V {vol:+.2} SD from it")
+}
+
+// ---- regimen suggestions -----------------------------------------------------------------
+
+/// Heading.
+pub fn suggestions(unit: &str) -> String {
+    format!("Regimens that meet every target ({unit}; ↓ Enter or t takes)")
+}
+/// Heading, narrow.
+pub fn suggestions_short(unit: &str) -> String {
+    format!("Meeting every target ({unit}; t takes)")
+}
+/// Column names of the suggestions: dose, interval, route, peak, trough, AUC24.
+pub const SUGGESTION_COLUMNS: [&str; 6] = ["dose", "every", "route", "peak", "trough", "AUC24"];
+/// No targets, no suggestions.
+pub const NO_TARGETS_NO_SUGGESTIONS: &str =
+    "Set targets (or choose a drug profile) for suggestions.";
+/// Targets but nothing meets them.
+pub const NO_SUGGESTION_MEETS: &str = "No usual regimen meets every target.";
+/// `t` with nothing to take.
+pub const NO_SUGGESTION: &str = "There is no suggested regimen to take.";
+/// The loading dose.
+pub fn loading_dose(dose: &str, route: &str, peak: &str, unit: &str) -> String {
+    format!("Loading dose {dose} mg {route}: peak {peak} {unit} at once")
+}
+/// The loading dose, narrow.
+pub fn loading_dose_short(dose: &str, peak: &str, unit: &str) -> String {
+    format!("Loading {dose} mg: peak {peak} {unit}")
+}
+/// The proportional adjustment.
+pub fn proportional(new_dose: &str, factor: &str) -> String {
+    format!("Proportional: {new_dose} mg (x {factor}, same interval)")
+}
+/// A route for a suggestion line.
+pub fn route_words(route: &str, infusion_h: f64) -> String {
+    if route == "infusion" {
+        format!("over {} h", num(infusion_h))
+    } else {
+        route.to_string()
+    }
+}
+/// After taking a suggestion.
+pub fn suggestion_taken(n: usize, s: &crate::core::advice::SuggestionPart) -> String {
+    format!(
+        "Plan set to suggestion {n}: {} mg every {} h, {}.",
+        num(s.dose_mg),
+        num(s.interval_h),
+        route_words(s.route, s.infusion_h)
+    )
+}
+
+// ---- record note -------------------------------------------------------------------------
+
+/// The stem of a note's name when the case has none.
+pub const NOTE_DEFAULT_STEM: &str = "case";
+/// What follows the case's stem in its note's name.
+pub const NOTE_SUFFIX: &str = ".note.txt";
+/// A note name that would overwrite a case file.
+pub const NOTE_NOT_A_CASE: &str = "a note is text: give it a .txt or .md name, not the case's";
+/// The source named in a note of a case with no file.
+pub const NOTE_SOURCE_UNSAVED: &str = "a case not saved to a file";
+/// The source named in a note of a case with unsaved changes.
+pub fn note_source_with_changes(path: &str) -> String {
+    format!("{path}, with changes not yet saved")
+}
+/// No note without figures.
+pub fn no_note(why: Option<&str>) -> String {
+    match why {
+        Some(w) => format!("No note: the case gives no figures yet ({w})"),
+        None => "No note: the case gives no figures yet.".into(),
+    }
+}
+/// After writing the note.
+pub fn note_written(path: &str) -> String {
+    format!("Record note written to {path} (readable by you only).")
+}
+/// A failed note (the reason names the file).
+pub fn note_failed(why: &str) -> String {
+    format!("Note not written: {why}")
+}
+/// Title of the note prompt.
+pub const NOTE_AS_TITLE: &str = "Write the record note";
+/// The note prompt.
+pub const NOTE_AS_PROMPT: &str = "Note file (.txt, or .md for Markdown), then Enter; Esc cancels:";
+
+// ---- washout: switch ---------------------------------------------------------------------
+
+/// The switch heading.
+pub fn switch_heading(to: &str) -> String {
+    format!("Switch to {to}")
+}
+/// The switch rule.
+pub fn switch_rule(basis: &str, value: &str, unit: &str, from: &str) -> String {
+    if basis == "start_below" {
+        format!("once the level is below {value} {unit}, counted from {from}")
+    } else {
+        format!("{value} half-lives after {from}")
+    }
+}
+/// The earliest start.
+pub fn switch_start(when: &str, level: &str, unit: &str) -> String {
+    format!("Earliest start {when} (level then {level} {unit})")
 }

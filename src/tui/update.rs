@@ -1,11 +1,15 @@
 //! Intents applied to the state: the only place the app changes. Every change of the case
 //! goes through `App::change`, which recomputes the figures through the core.
 
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 
-use crate::core::casefile::{DoseFile, LevelFile};
+use crate::cli::store as safe;
+use crate::core::casefile::{CaseFile, DoseFile, FitFile, LevelFile, TargetsFile};
+use crate::core::fit::CHOICES;
+use crate::core::note::{note_text, NoteFormat};
 use crate::tui::action::Action;
 use crate::tui::app::{App, Confirm, Editor, Mode, NewRow, Screen, Target};
+use crate::tui::catalog;
 use crate::tui::entry;
 use crate::tui::fields::{self, Field, Kind};
 use crate::tui::screens::{self, CaseLine, PLAN_FIELDS, THRESHOLD_FIELDS};
@@ -34,6 +38,8 @@ pub fn update(app: &mut App, action: Action) {
             }
         }
         Mode::Confirm(c) => confirm(app, c, action),
+        Mode::ChooseProfile(i) => choose_profile(app, i, action),
+        Mode::ProfileInfo(top) => profile_info(app, top, action),
         Mode::Editing(ed) => edit(app, ed, action),
         Mode::Normal => normal(app, action),
     }
@@ -126,6 +132,14 @@ fn normal(app: &mut App, action: Action) {
             let r = app.change(|f| Field::PlanRoute.cycle(f, false));
             plan_said(app, r, had, strings::plan_route_now);
         }
+        Action::TakeSuggestion => {
+            let i = app.cursors.plan.saturating_sub(PLAN_FIELDS.len());
+            take_suggestion(app, i);
+        }
+        Action::ChooseProfile => open_chooser(app),
+        Action::ProfileInfo => show_profile_info(app),
+        Action::FitMethod => fit_method(app),
+        Action::WriteNote => write_note(app),
         _ => {}
     }
 }
@@ -146,7 +160,10 @@ fn move_selection(app: &mut App, by: isize) {
             let n = app.file.levels.len();
             app.cursors.fit_level = step(app.cursors.fit_level, n);
         }
-        Screen::Plan => app.cursors.plan = step(app.cursors.plan, PLAN_FIELDS.len()),
+        Screen::Plan => {
+            let n = PLAN_FIELDS.len() + screens::suggestions(app).len();
+            app.cursors.plan = step(app.cursors.plan, n);
+        }
         Screen::Threshold => {
             app.cursors.threshold = step(app.cursors.threshold, THRESHOLD_FIELDS.len())
         }
@@ -165,7 +182,9 @@ fn clamp_cursor(app: &mut App) {
 
 /// Open an editor on `field`, checking the starting text at once.
 pub fn open_editor(app: &mut App, field: Field) {
-    let mut ed = Editor::new(Target::Field(field), field.text(&app.file));
+    let mut start = app.file.clone();
+    seed_targets(app, field, &mut start);
+    let mut ed = Editor::new(Target::Field(field), field.text(&start));
     check(app, &mut ed);
     app.mode = Mode::Editing(ed);
 }
@@ -176,8 +195,15 @@ fn activate(app: &mut App, space: bool) {
             CaseLine::AddDose | CaseLine::AddLevel if !space => return add_row(app),
             CaseLine::AddDose | CaseLine::AddLevel => return,
             CaseLine::Level(_) if space && app.cursors.case_col != 2 => return toggle_use(app),
+            CaseLine::Field(Field::DrugProfile) => return open_chooser(app),
             _ => {}
         }
+    }
+    if app.screen == Screen::Plan && app.cursors.plan >= PLAN_FIELDS.len() {
+        if !space {
+            take_suggestion(app, app.cursors.plan - PLAN_FIELDS.len());
+        }
+        return;
     }
     let Some(field) = screens::selected_field(app) else {
         return;
@@ -205,8 +231,10 @@ fn check(app: &App, ed: &mut Editor) {
         Target::SavePath => {
             (ed.buffer.trim().is_empty()).then(|| strings::TYPE_A_FILE_NAME.to_string())
         }
+        Target::NotePath => note_path_problem(app, ed.buffer.trim()),
         Target::Field(field) => {
             let mut trial = app.file.clone();
+            seed_targets(app, field, &mut trial);
             match field.set_text(&mut trial, &ed.buffer) {
                 Err(e) => Some(e),
                 Ok(()) => match trial.validate() {
@@ -291,9 +319,24 @@ fn accept(app: &mut App, mut ed: Editor) {
             app.mode = Mode::Normal;
             save_to(app, path);
         }
+        Target::NotePath => {
+            let name = ed.buffer.trim().to_string();
+            if let Some(e) = note_path_problem(app, &name) {
+                ed.error = Some(e);
+                app.mode = Mode::Editing(ed);
+                return;
+            }
+            app.mode = Mode::Normal;
+            note_to(app, PathBuf::from(name));
+        }
         Target::Field(field) => {
             let text = ed.buffer.clone();
-            match app.change(|f| field.set_text(f, &text)) {
+            let mut seeded = app.file.clone();
+            seed_targets(app, field, &mut seeded);
+            match app.change(|f| {
+                *f = seeded;
+                field.set_text(f, &text)
+            }) {
                 Err(e) => {
                     ed.error = Some(e.clone());
                     app.complain(strings::not_accepted(&field.name(), &e));
@@ -478,6 +521,12 @@ fn clear(app: &mut App) {
     if plan_field && app.file.plan.is_none() {
         return app.say(strings::NOTHING_TO_CLEAR);
     }
+    if is_target(field) && app.file.targets.is_none() {
+        return match profile_targets(app) {
+            Some(_) => app.say(strings::TARGET_FROM_PROFILE),
+            None => app.say(strings::NOTHING_TO_CLEAR),
+        };
+    }
     let r = app.change(|f| field.set_text(f, ""));
     report(app, r, strings::cleared(&field.name()));
 }
@@ -625,4 +674,300 @@ fn save_to(app: &mut App, path: PathBuf) {
             app.complain(strings::save_failed(&path.display().to_string(), &e));
         }
     }
+}
+
+// ---- drug profiles -------------------------------------------------------------------------
+
+fn is_target(field: Field) -> bool {
+    matches!(
+        field,
+        Field::TargetPeak | Field::TargetTrough | Field::TargetAuc
+    )
+}
+
+/// The targets the case's drug profile gives, in the case's unit, when it gives any.
+pub fn profile_targets(app: &App) -> Option<crate::core::case::Targets> {
+    let name = app.file.drug.profile.as_deref()?;
+    let entry = app.profiles.get(name)?;
+    let t = catalog::profile_targets(
+        entry,
+        app.file.drug.level_unit.as_deref(),
+        app.file.drug.molar_mass_g_mol,
+    );
+    (!t.is_empty()).then_some(t)
+}
+
+/// Before the first edit of a target in a case that takes its targets from the profile,
+/// copy the profile's targets into the case, so the ones not edited stay as they were.
+fn seed_targets(app: &App, field: Field, f: &mut CaseFile) {
+    if !is_target(field) || f.targets.is_some() {
+        return;
+    }
+    if let Some(t) = profile_targets(app) {
+        f.targets = Some(TargetsFile {
+            peak: t.peak.map(Vec::from),
+            trough_max: t.trough_max,
+            auc24: t.auc24.map(Vec::from),
+        });
+    }
+}
+
+/// The list line of the case's profile (0 is "no profile").
+fn profile_line(app: &App) -> usize {
+    let Some(name) = app.file.drug.profile.as_deref() else {
+        return 0;
+    };
+    app.profiles
+        .entries()
+        .ok()
+        .and_then(|es| es.iter().position(|e| e.name == name))
+        .map(|i| i + 1)
+        .unwrap_or(0)
+}
+
+fn open_chooser(app: &mut App) {
+    if app.screen != Screen::Case {
+        return;
+    }
+    app.mode = Mode::ChooseProfile(profile_line(app));
+}
+
+fn choose_profile(app: &mut App, at: usize, action: Action) {
+    let n = app.profiles.entries().map(|e| e.len()).unwrap_or(0) + 1;
+    match action {
+        Action::Up => app.mode = Mode::ChooseProfile(at.saturating_sub(1)),
+        Action::Down => app.mode = Mode::ChooseProfile((at + 1).min(n - 1)),
+        Action::Cancel => {
+            app.mode = Mode::Normal;
+            app.say(strings::NOTHING_DONE);
+        }
+        Action::Quit => {
+            app.mode = Mode::Normal;
+            quit(app);
+        }
+        Action::Accept => {
+            app.mode = Mode::Normal;
+            pick_profile(app, at);
+        }
+        _ => {}
+    }
+}
+
+/// Whether nothing in the case is yet written in its level unit, so the unit may follow a
+/// newly chosen profile.
+fn unit_is_free(f: &CaseFile) -> bool {
+    f.drug.level_unit.is_none()
+        || (f.levels.is_empty()
+            && f.targets.is_none()
+            && f.threshold.is_none()
+            && f.switch.as_ref().is_none_or(|s| s.start_below.is_none()))
+}
+
+fn pick_profile(app: &mut App, at: usize) {
+    let entry = match at {
+        0 => None,
+        i => app
+            .profiles
+            .entries()
+            .ok()
+            .and_then(|es| es.get(i - 1))
+            .map(|e| {
+                (
+                    e.name.clone(),
+                    e.display_name().to_string(),
+                    e.profile.level_unit.clone(),
+                )
+            }),
+    };
+    let name = entry.as_ref().map(|e| e.0.clone());
+    let unit = entry.as_ref().map(|e| e.2.clone());
+    let unit_before = app.file.drug.level_unit.clone();
+    let r = app.change(|f| {
+        f.drug.profile = name.clone();
+        if let Some(u) = &unit {
+            if unit_is_free(f) {
+                f.drug.level_unit = Some(u.clone());
+            }
+        }
+        Ok(())
+    });
+    if let Err(e) = r {
+        return app.complain(e);
+    }
+    match entry {
+        None => app.say(strings::NO_PROFILE_CHOSEN),
+        Some((_, display, _)) => {
+            let unit_now = app.file.drug.level_unit.clone().unwrap_or_default();
+            let changed = app.file.drug.level_unit != unit_before;
+            app.say(strings::profile_chosen(
+                &display,
+                changed.then_some(unit_now.as_str()),
+            ));
+            // The cautions are shown at once: they matter before any figure does.
+            app.mode = Mode::ProfileInfo(0);
+        }
+    }
+}
+
+fn show_profile_info(app: &mut App) {
+    match app.file.drug.profile.as_deref() {
+        None => app.complain(strings::NO_PROFILE_YET),
+        Some(name) => match app.profiles.lookup(name) {
+            Ok(_) => app.mode = Mode::ProfileInfo(0),
+            Err(e) => app.complain(e),
+        },
+    }
+}
+
+fn profile_info(app: &mut App, top: u16, action: Action) {
+    let most = screens::profile_info_lines(app).len().saturating_sub(1) as u16;
+    match action {
+        Action::Up => app.mode = Mode::ProfileInfo(top.saturating_sub(1)),
+        Action::Down => app.mode = Mode::ProfileInfo((top + 1).min(most)),
+        Action::Quit => {
+            app.mode = Mode::Normal;
+            quit(app);
+        }
+        Action::Cancel | Action::Help => app.mode = Mode::Normal,
+        _ => {}
+    }
+}
+
+// ---- fit method ----------------------------------------------------------------------------
+
+fn fit_method(app: &mut App) {
+    let now = app.file.fit.as_ref().and_then(|f| f.method.clone());
+    let order: Vec<Option<&'static str>> = std::iter::once(None)
+        .chain(CHOICES.iter().map(|c| Some(c.name())))
+        .collect();
+    let next = match order.iter().position(|m| m.map(str::to_string) == now) {
+        Some(i) => order[(i + 1) % order.len()],
+        // A spelling the UI does not know: back to the automatic choice.
+        None => None,
+    };
+    let r = app.change(|f| {
+        let mut fit = f.fit.clone().unwrap_or_default();
+        fit.method = next.map(str::to_string);
+        f.fit = (fit != FitFile::default()).then_some(fit);
+        Ok(())
+    });
+    if let Err(e) = r {
+        return app.complain(e);
+    }
+    let used = app.figures.report.as_ref().map(|r| r.fit.method);
+    match (&app.figures.problem, used) {
+        (_, Some(m)) => app.say(strings::fit_method_now(next, m)),
+        (Some(p), None) => app.complain(strings::fit_method_failed(next, &p.text)),
+        (None, None) => app.say(strings::fit_method_now(next, "")),
+    }
+}
+
+// ---- regimen suggestions -------------------------------------------------------------------
+
+fn take_suggestion(app: &mut App, i: usize) {
+    let Some(s) = screens::suggestions(app).get(i).cloned() else {
+        return app.complain(strings::NO_SUGGESTION);
+    };
+    let r = app.change(|f| {
+        let p = fields::plan_mut(f);
+        p.dose_mg = s.dose_mg;
+        p.interval_h = s.interval_h;
+        p.route = s.route.to_string();
+        p.infusion_h = (s.route == "infusion").then_some(s.infusion_h);
+        if s.route != "oral" {
+            p.bioavailability = None;
+        }
+        Ok(())
+    });
+    match r {
+        Ok(()) => app.say(strings::suggestion_taken(i + 1, &s)),
+        Err(e) => app.complain(e),
+    }
+}
+
+// ---- record note ---------------------------------------------------------------------------
+
+/// `CASE.note.txt` beside `CASE.toml`.
+pub fn note_path_for(case: &Path) -> PathBuf {
+    let stem = case
+        .file_stem()
+        .map(|s| s.to_string_lossy().into_owned())
+        .unwrap_or_else(|| strings::NOTE_DEFAULT_STEM.into());
+    case.with_file_name(format!("{stem}{}", strings::NOTE_SUFFIX))
+}
+
+/// Why a note may not be written to `name`, if it may not.
+fn note_path_problem(app: &App, name: &str) -> Option<String> {
+    if name.is_empty() {
+        return Some(strings::TYPE_A_FILE_NAME.into());
+    }
+    let path = Path::new(name);
+    let is_toml = path
+        .extension()
+        .is_some_and(|e| e.eq_ignore_ascii_case("toml"));
+    if is_toml || app.path.as_deref() == Some(path) {
+        return Some(strings::NOTE_NOT_A_CASE.into());
+    }
+    None
+}
+
+fn write_note(app: &mut App) {
+    if app.figures.report.is_none() {
+        let why = app.figures.problem.as_ref().map(|p| p.text.clone());
+        return app.complain(strings::no_note(why.as_deref()));
+    }
+    match app.path.clone() {
+        Some(p) => note_to(app, note_path_for(&p)),
+        None => {
+            let start = match &app.suggested_path {
+                Some(p) => note_path_for(p),
+                None => PathBuf::from(format!(
+                    "{}{}",
+                    strings::NOTE_DEFAULT_STEM,
+                    strings::NOTE_SUFFIX
+                )),
+            };
+            let mut ed = Editor::new(Target::NotePath, start.display().to_string());
+            check(app, &mut ed);
+            app.mode = Mode::Editing(ed);
+        }
+    }
+}
+
+fn note_to(app: &mut App, path: PathBuf) {
+    let (Some(case), Some(report)) = (&app.figures.case, &app.figures.report) else {
+        let why = app.figures.problem.as_ref().map(|p| p.text.clone());
+        return app.complain(strings::no_note(why.as_deref()));
+    };
+    if let Some(e) = note_path_problem(app, &path.display().to_string()) {
+        return app.complain(e);
+    }
+    let source = match &app.path {
+        Some(p) => p.display().to_string(),
+        None => strings::NOTE_SOURCE_UNSAVED.to_string(),
+    };
+    let source = if app.dirty && app.path.is_some() {
+        strings::note_source_with_changes(&source)
+    } else {
+        source
+    };
+    let meta = crate::cli::note::meta_now(&source);
+    let text = note_text(case, report, &meta, NoteFormat::for_path(&path));
+    // The same safe write as a case (temporary file, flush, rename, owner-only); a note is
+    // made from the case, so an older one is replaced.
+    match safe::save_bytes(&path, text.as_bytes(), &safe::Expect::Overwrite) {
+        Ok(_) => app.say(strings::note_written(&path.display().to_string())),
+        Err(e) => app.complain(strings::note_failed(&e.to_string())),
+    }
+}
+
+/// The case file with the profile's targets written in, when the case has no `[targets]`
+/// and its profile gives some (what the plan screen shows, marked as the profile's).
+pub fn file_with_profile_targets(app: &App) -> Option<CaseFile> {
+    if app.file.targets.is_some() {
+        return None;
+    }
+    let mut f = app.file.clone();
+    seed_targets(app, Field::TargetPeak, &mut f);
+    f.targets.is_some().then_some(f)
 }

@@ -142,6 +142,8 @@ fn hint_line(app: &App, area: Rect, buf: &mut ratatui::buffer::Buffer) {
         Mode::Editing(_) => strings::HINT_EDITING,
         Mode::Help => strings::HINT_HELP,
         Mode::Confirm(_) => strings::HINT_CONFIRM,
+        Mode::ChooseProfile(_) => strings::HINT_CHOOSER,
+        Mode::ProfileInfo(_) => strings::HINT_INFO,
         _ => strings::hint(app.screen),
     };
     Paragraph::new(Line::styled(text, quiet())).render(area, buf);
@@ -191,6 +193,19 @@ fn overlay(app: &App, body: Rect, buf: &mut ratatui::buffer::Buffer) {
             let lines: Vec<Line> = text.lines().map(|l| Line::raw(l.to_string())).collect();
             let area = widgets::centered(body, 60, lines.len() as u16 + 2);
             popup(area, buf, title, lines);
+        }
+        Mode::ChooseProfile(at) => screens::profile::draw_chooser(app, *at, body, buf),
+        Mode::ProfileInfo(top) => screens::profile::draw_info(app, *top, body, buf),
+        Mode::Editing(e) if e.target == Target::NotePath => {
+            let mut lines = vec![
+                Line::raw(strings::NOTE_AS_PROMPT),
+                Line::from(editor_spans(e)),
+            ];
+            if let Some(err) = &e.error {
+                lines.push(Line::styled(format!("✗ {err}"), problem_style()));
+            }
+            let area = widgets::centered(body, 70, lines.len() as u16 + 2);
+            popup(area, buf, strings::NOTE_AS_TITLE, lines);
         }
         Mode::Editing(e) if e.target == Target::SavePath => {
             let mut lines = vec![

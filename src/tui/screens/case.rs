@@ -9,7 +9,7 @@ use ratatui::widgets::{Paragraph, Widget};
 use crate::core::report::num;
 use crate::tui::app::App;
 use crate::tui::fields::{self, Field};
-use crate::tui::screens::{self, CaseLine, DRUG_FIELDS, PATIENT_FIELDS};
+use crate::tui::screens::{self, profile, CaseLine, DRUG_FIELDS, PATIENT_FIELDS};
 use crate::tui::strings;
 use crate::tui::widgets::{self, field_line, heading, or_dash, problem_style, quiet};
 
@@ -17,6 +17,9 @@ use crate::tui::widgets::{self, field_line, heading, or_dash, problem_style, qui
 const DOSE_W: [usize; 6] = [3, 17, 9, 9, 9, 5];
 /// Column widths of the level table: number, time, value, use, note.
 const LEVEL_W: [usize; 5] = [3, 17, 10, 4, 20];
+
+/// Width of the right column of the wide layout (patient, drug and profile).
+const PANEL_W: u16 = 52;
 
 /// A line of the screen and, when selectable, its place in `case_lines`.
 type Row = (Line<'static>, Option<usize>);
@@ -32,10 +35,17 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
     let selected = screens::selected_case_line(app);
     let lines = screens::case_lines(&app.file);
     let sel_index = lines.iter().position(|l| *l == selected);
-    let left = field_rows(app, &lines, selected);
+    let mut left = field_rows(app, &lines, selected);
     let right = table_rows(app, &lines, selected);
     if area.width >= 120 {
-        let [l, r] = Layout::horizontal([Constraint::Min(1), Constraint::Length(52)]).areas(main);
+        // The profile's targets, sampling advice and cautions under the drug fields.
+        let panel = profile::panel(app, usize::from(PANEL_W).saturating_sub(3));
+        if !panel.is_empty() {
+            left.push((Line::raw(""), None));
+            left.extend(panel.into_iter().map(|l| (l, None)));
+        }
+        let [l, r] =
+            Layout::horizontal([Constraint::Min(1), Constraint::Length(PANEL_W)]).areas(main);
         scrolled(right, sel_index, l, buf);
         let r = Rect {
             x: r.x + 2,

@@ -22,7 +22,7 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
         app.figures.report.as_ref(),
         app.figures.charts.fit.as_ref(),
     ) else {
-        return no_figures(app, area, buf);
+        return no_fit(app, area, buf);
     };
     let pct = if area.width >= 120 { 60 } else { 45 };
     let [left, right] =
@@ -33,11 +33,15 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
     let w = usize::from(right.width.saturating_sub(1));
     let f = &r.fit;
     let rows: Vec<String> = f.level_rows.iter().map(|x| x.to_string()).collect();
+    let record_fit = matches!(f.method, "dose-history" | "bayesian");
+    let title = if record_fit {
+        strings::fit_heading_record(f.method, &rows.join(", "))
+    } else {
+        strings::fit_heading(f.method, &rows.join(", "), f.window_dose_row)
+    };
     let mut lines = vec![
-        Line::styled(
-            strings::fit_heading(f.method, &rows.join(", "), f.window_dose_row),
-            heading(),
-        ),
+        Line::styled(title, heading()),
+        method_line(app, Some(f.method)),
         kv(
             strings::K,
             format!("{} /h", num(f.k_per_h)),
@@ -50,9 +54,13 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
         ),
         kv(
             strings::R_SQUARED,
-            f.r_squared
-                .map(|x| format!("{x:.4}"))
-                .unwrap_or_else(|| strings::NOT_FOR_TWO.into()),
+            f.r_squared.map(|x| format!("{x:.4}")).unwrap_or_else(|| {
+                if record_fit {
+                    strings::NOT_FOR_METHOD.into()
+                } else {
+                    strings::NOT_FOR_TWO.into()
+                }
+            }),
             String::new(),
         ),
         kv(
@@ -60,17 +68,54 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
             f.volume_l
                 .map(|v| format!("{} L", num(v)))
                 .unwrap_or_else(|| strings::NOT_KNOWN.into()),
-            strings::volume_how(f.volume_method, f.pre_dose_row),
+            if record_fit {
+                ci(f.volume_ci95_l)
+            } else {
+                strings::volume_how(f.volume_method, f.pre_dose_row)
+            },
         ),
         kv(
             strings::CLEARANCE,
             f.clearance_l_per_h
                 .map(|v| format!("{} L/h", num(v)))
                 .unwrap_or_else(|| strings::NOT_KNOWN.into()),
-            String::new(),
+            if record_fit {
+                ci(f.clearance_ci95_l_per_h)
+            } else {
+                String::new()
+            },
         ),
-        Line::styled(strings::LEVELS_AND_RESIDUALS, heading()),
     ];
+    if let Some(s) = &f.population {
+        let p = &s.population;
+        let (what, typical, u) = if p.on_clearance {
+            ("CL", p.clearance_l_per_h, "L/h")
+        } else {
+            ("k", p.k_per_h, "/h")
+        };
+        lines.push(kv(
+            strings::POPULATION,
+            strings::population_values(what, &num(typical), u, &num(p.volume_l)),
+            String::new(),
+        ));
+        lines.push(kv(
+            "",
+            strings::population_basis(
+                &num(p.weight_kg),
+                p.creatinine_clearance
+                    .as_ref()
+                    .map(|c| num(c.ml_min))
+                    .as_deref(),
+            ),
+            String::new(),
+        ));
+        lines.push(kv(
+            strings::MOVED,
+            strings::population_moved(what, s.elimination_shift_sd, s.volume_shift_sd),
+            String::new(),
+        ));
+    }
+    lines.push(Line::styled(strings::LEVELS_AND_RESIDUALS, heading()));
     for (i, l) in case.levels.iter().enumerate() {
         // Levels are in time order in the case; the cursor counts file rows.
         let file_row = l.row - 1;
@@ -133,6 +178,24 @@ fn kv(label: &str, value: String, tail: String) -> Line<'static> {
         Span::raw(value),
         Span::styled(format!(" {tail}"), quiet()),
     ])
+}
+
+/// The method line: what the case asks for, what was used, and the key that switches it.
+fn method_line(app: &App, used: Option<&str>) -> Line<'static> {
+    let chosen = app.file.fit.as_ref().and_then(|f| f.method.as_deref());
+    kv(
+        strings::METHOD,
+        strings::method_line(chosen, used),
+        strings::METHOD_KEY.to_string(),
+    )
+}
+
+/// The fit screen without figures: the method line (so it can be switched back), then the
+/// reason.
+fn no_fit(app: &App, area: Rect, buf: &mut Buffer) {
+    let [top, rest] = Layout::vertical([Constraint::Length(1), Constraint::Min(1)]).areas(area);
+    Paragraph::new(method_line(app, None)).render(top, buf);
+    no_figures(app, rest, buf);
 }
 
 /// The screen when the core could not give figures: the reason, plainly.

@@ -3,12 +3,17 @@
 pub mod case;
 pub mod fit;
 pub mod plan;
+pub mod profile;
 pub mod threshold;
 pub mod washout;
 
+use crate::core::advice::SuggestionPart;
 use crate::core::casefile::CaseFile;
+use crate::core::report::num;
+use crate::profiles::{Entry, FirstOrder};
 use crate::tui::app::{App, Screen};
 use crate::tui::fields::{self, Field};
+use crate::tui::strings;
 
 /// A selectable line of the case screen.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -101,4 +106,91 @@ pub fn selected_field(app: &App) -> Option<Field> {
         Screen::Threshold => THRESHOLD_FIELDS.get(app.cursors.threshold).copied(),
         Screen::Fit | Screen::Washout => None,
     }
+}
+
+/// The suggested regimens of the current figures, best first (empty without figures).
+pub fn suggestions(app: &App) -> &[SuggestionPart] {
+    app.figures
+        .report
+        .as_ref()
+        .map(|r| r.advice.suggestions.as_slice())
+        .unwrap_or(&[])
+}
+
+/// What a line of the profile overlay is.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum InfoKind {
+    /// A heading.
+    Heading,
+    /// Plain text.
+    Text,
+    /// A caution or a kinetics limit.
+    Caution,
+}
+
+/// The case's profile as lines for the overlay and the case screen's panel (unwrapped), or
+/// nothing when the case names none (or one that does not exist).
+pub fn profile_info_lines(app: &App) -> Vec<(InfoKind, String)> {
+    app.file
+        .drug
+        .profile
+        .as_deref()
+        .and_then(|n| app.profiles.get(n))
+        .map(entry_lines)
+        .unwrap_or_default()
+}
+
+/// One profile as lines: what it is, its levels and half-life, the default targets with
+/// their sampling advice, the kinetics limit, and the cautions.
+pub fn entry_lines(e: &Entry) -> Vec<(InfoKind, String)> {
+    let p = &e.profile;
+    let mut out = vec![
+        (
+            InfoKind::Heading,
+            strings::profile_title(e.display_name(), &e.name, &e.origin.words()),
+        ),
+        (
+            InfoKind::Text,
+            strings::profile_levels(
+                &p.level_unit,
+                &num(p.half_life_h.low),
+                &num(p.half_life_h.high),
+            ),
+        ),
+    ];
+    if let Some(v) = &p.level_valid_after_h {
+        out.push((InfoKind::Text, strings::profile_valid_after(&num(v.value))));
+    }
+    if p.kinetics.first_order != FirstOrder::Yes {
+        out.push((
+            InfoKind::Caution,
+            strings::profile_kinetics(&p.kinetics.why),
+        ));
+    }
+    if let Some(st) = p.default_strategy() {
+        let u = p.level_unit.as_str();
+        let mut parts = Vec::new();
+        if let Some(r) = &st.peak {
+            parts.push(strings::target_peak(&num(r.low), &num(r.high), u));
+        }
+        if let Some(t) = &st.trough_max {
+            parts.push(strings::target_trough(&num(t.value), u));
+        }
+        if let Some(r) = &st.auc24 {
+            parts.push(strings::target_auc(&num(r.low), &num(r.high), u));
+        }
+        if let Some(r) = &st.range {
+            parts.push(strings::target_range(&num(r.low), &num(r.high), u));
+        }
+        out.push((InfoKind::Heading, strings::profile_strategy(&st.label)));
+        if !parts.is_empty() {
+            out.push((InfoKind::Text, strings::profile_targets(&parts.join(", "))));
+        }
+        out.push((InfoKind::Text, strings::profile_sampling(&st.sampling)));
+    }
+    out.push((InfoKind::Heading, strings::PROFILE_CAUTIONS.into()));
+    for c in e.cautions() {
+        out.push((InfoKind::Caution, format!("- {c}")));
+    }
+    out
 }

@@ -11,11 +11,12 @@ use crate::core::clock::span_words;
 use crate::core::report::{num, TargetCheck};
 use crate::tui::app::App;
 use crate::tui::fields::Field;
-use crate::tui::screens::PLAN_FIELDS;
+use crate::tui::screens::{suggestions, PLAN_FIELDS};
 use crate::tui::strings;
+use crate::tui::update;
 use crate::tui::view::note;
 use crate::tui::widgets::chart::SemiLogChart;
-use crate::tui::widgets::{field_line, heading, or_dash, problem_style, quiet};
+use crate::tui::widgets::{self, field_line, heading, or_dash, problem_style, quiet};
 
 /// Draw the plan screen.
 pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
@@ -25,9 +26,10 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
     let unit = app.file.drug.level_unit.clone().unwrap_or_default();
     let mut lines = vec![Line::styled(strings::REGIMEN, heading())];
     let plan_part = app.figures.report.as_ref().and_then(|r| r.plan.as_ref());
+    let from_profile = update::file_with_profile_targets(app);
     for (i, f) in PLAN_FIELDS.iter().enumerate() {
         let (label, u) = strings::field_label(*f);
-        let u = if matches!(f, Field::TargetPeak | Field::TargetTrough) {
+        let mut u = if matches!(f, Field::TargetPeak | Field::TargetTrough) {
             unit.clone()
         } else if *f == Field::TargetAuc {
             format!("{unit}·h")
@@ -42,6 +44,13 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
         }
         if app.file.plan.is_none() && i < 6 {
             shown = "—".into();
+        }
+        if let Some(pf) = &from_profile {
+            let t = f.text(pf);
+            if i >= 6 && !t.is_empty() {
+                shown = t;
+                u = strings::from_profile(&u);
+            }
         }
         lines.push(field_line(
             app,
@@ -83,12 +92,35 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
         )),
         (Some(_), None, None) => lines.push(Line::styled(strings::NO_FIGURES_PLAIN, quiet())),
     }
-    Paragraph::new(lines).render(left, buf);
-    let chart_area = Rect {
+    let wide = area.width >= 120;
+    // Narrow: three suggestions at a time, so the chart keeps its room.
+    let advice = suggestion_lines(app, wide, &unit, if wide { 5 } else { 3 });
+    let mut chart_area = Rect {
         x: right.x + 1,
         width: right.width.saturating_sub(1),
         ..right
     };
+    if wide {
+        lines.push(Line::raw(""));
+        lines.extend(advice);
+    } else {
+        let n = (advice.len() as u16).min(chart_area.height / 2);
+        let [c, a] =
+            Layout::vertical([Constraint::Min(1), Constraint::Length(n)]).areas(chart_area);
+        Paragraph::new(advice).render(a, buf);
+        chart_area = c;
+    }
+    // Keep a selected suggestion in view when the left column is too short for it.
+    let h = usize::from(left.height);
+    let sel_row = lines
+        .iter()
+        .position(|l| l.spans.first().is_some_and(|s| s.content == "▸"));
+    let skip = match sel_row {
+        Some(r) if wide && r + 1 > h => r + 1 - h,
+        _ => 0,
+    };
+    let lines: Vec<Line> = lines.into_iter().skip(skip).collect();
+    Paragraph::new(lines).render(left, buf);
     match &app.figures.charts.plan {
         Some(c) => SemiLogChart {
             data: c,
@@ -130,4 +162,85 @@ fn figure(name: &str, v: Option<f64>, unit: &str, check: Option<&TargetCheck>) -
         None => spans.push(Span::styled(strings::NO_TARGET, quiet())),
     }
     Line::from(spans)
+}
+
+/// The suggested regimens (the selected one marked), the loading dose, and the
+/// proportional adjustment when there is no volume.
+fn suggestion_lines(app: &App, wide: bool, unit: &str, rows: usize) -> Vec<Line<'static>> {
+    let Some(r) = app.figures.report.as_ref() else {
+        return Vec::new();
+    };
+    let a = &r.advice;
+    let list = suggestions(app);
+    let mut out = vec![Line::styled(
+        if wide {
+            strings::suggestions(unit)
+        } else {
+            strings::suggestions_short(unit)
+        },
+        heading(),
+    )];
+    let [c_dose, c_every, c_route, c_peak, c_trough, c_auc] = strings::SUGGESTION_COLUMNS;
+    let row =
+        |n: &str, dose: &str, every: &str, route: &str, peak: &str, trough: &str, auc: &str| {
+            if wide {
+                format!("{n:<2} {dose:<8} {every:<6} {route:<11} {peak:<9} {trough:<10} {auc}")
+            } else {
+                format!("{n:<2} {dose:<8} {every:<6} {peak:<8} {trough}")
+            }
+        };
+    if list.is_empty() {
+        let why = match &app.figures.case {
+            Some(c) if c.targets.is_empty() => strings::NO_TARGETS_NO_SUGGESTIONS,
+            _ => strings::NO_SUGGESTION_MEETS,
+        };
+        out.push(Line::styled(why, quiet()));
+    } else {
+        let head = row("", c_dose, c_every, c_route, c_peak, c_trough, c_auc);
+        out.push(Line::styled(format!(" {head}"), quiet()));
+    }
+    // The window of `rows` suggestions that holds the selected one.
+    let sel = app.cursors.plan.checked_sub(PLAN_FIELDS.len());
+    let first = sel.map_or(0, |s| (s + 1).saturating_sub(rows));
+    for (i, s) in list.iter().enumerate().skip(first).take(rows) {
+        let selected = sel == Some(i);
+        let text = row(
+            &(i + 1).to_string(),
+            &format!("{} mg", num(s.dose_mg)),
+            &format!("{} h", num(s.interval_h)),
+            &strings::route_words(s.route, s.infusion_h),
+            &num(s.peak_ss),
+            &num(s.trough_ss),
+            &num(s.auc24_ss),
+        );
+        out.push(Line::from(vec![
+            Span::raw(if selected { "▸" } else { " " }),
+            Span::styled(
+                text,
+                if selected {
+                    widgets::selected()
+                } else {
+                    Style::new()
+                },
+            ),
+        ]));
+    }
+    if let Some(l) = &a.loading {
+        out.push(Line::raw(if wide {
+            strings::loading_dose(
+                &num(l.dose_mg),
+                &strings::route_words(l.route, l.infusion_h),
+                &num(l.peak),
+                unit,
+            )
+        } else {
+            strings::loading_dose_short(&num(l.dose_mg), &num(l.peak), unit)
+        }));
+    }
+    if let Some(p) = &a.proportional {
+        if let Some(d) = p.new_dose_mg {
+            out.push(Line::raw(strings::proportional(&num(d), &num(p.factor))));
+        }
+    }
+    out
 }

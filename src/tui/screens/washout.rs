@@ -28,16 +28,17 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
         Layout::horizontal([Constraint::Length(left_w), Constraint::Min(1)]).areas(area);
     let unit = r.unit.as_str();
     let w = usize::from(left_w).saturating_sub(2);
-    let mut lines = vec![
-        Line::styled(
-            strings::washout_heading(
-                &r.washout_from.readable(false),
-                &span_words(r.fit.half_life_h),
-            ),
-            heading(),
-        ),
-        Line::styled(strings::WASHOUT_COLUMNS, quiet()),
-    ];
+    // The half-life stays whole on one line when the heading wraps.
+    const KEEP: char = '\u{1}';
+    let title = strings::washout_heading(
+        &r.washout_from.readable(false),
+        &span_words(r.fit.half_life_h).replace(' ', &KEEP.to_string()),
+    );
+    let mut lines: Vec<Line> = widgets::wrap(&title, w)
+        .into_iter()
+        .map(|l| Line::styled(l.replace(KEEP, " "), heading()))
+        .collect();
+    lines.push(Line::styled(strings::WASHOUT_COLUMNS, quiet()));
     for row in &r.washout {
         lines.push(Line::raw(format!(
             "{:>2}  {:<15} {:<11} {:>6} %",
@@ -62,6 +63,28 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
     };
     for l in widgets::wrap(&text, w) {
         lines.push(Line::styled(l, style));
+    }
+    if let Some(sw) = &r.advice.switch {
+        if area.height > 24 {
+            lines.push(Line::raw(""));
+        }
+        lines.push(Line::styled(strings::switch_heading(&sw.to), heading()));
+        let rule = strings::switch_rule(sw.basis, &num(sw.value), unit, &sw.from.readable(false));
+        let start =
+            strings::switch_start(&sw.start_at.readable(false), &num(sw.level_at_start), unit);
+        let range = match &sw.start_at_ci95 {
+            Some([a, b]) => strings::range95(&a.readable(false), &b.readable(false)),
+            None => strings::NO_RANGE.to_string(),
+        };
+        for (text, style) in [
+            (rule, quiet()),
+            (start, Style::new().add_modifier(Modifier::BOLD)),
+            (range, Style::new()),
+        ] {
+            for l in widgets::wrap(&text, w) {
+                lines.push(Line::styled(l, style));
+            }
+        }
     }
     Paragraph::new(lines).render(left, buf);
     let chart_area = Rect {

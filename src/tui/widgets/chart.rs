@@ -22,6 +22,8 @@ pub enum CurveRole {
     Fitted,
     /// The projected course of the plan (solid).
     Plan,
+    /// An edge of the model's 95 % band (dotted, dim).
+    Band,
 }
 
 /// A curve in (hours on the case axis, level in the case's unit).
@@ -46,6 +48,8 @@ pub enum MarkKind {
     HalfLife(u32),
     /// The moment the level reaches the threshold.
     Reached,
+    /// The earliest start of the next agent (`[switch]`).
+    SwitchStart,
 }
 
 /// A marked point.
@@ -107,6 +111,7 @@ fn curve_style(role: CurveRole) -> Style {
         CurveRole::Model => Style::new().fg(Color::Cyan),
         CurveRole::Fitted => Style::new().fg(Color::Yellow),
         CurveRole::Plan => Style::new().fg(Color::Green),
+        CurveRole::Band => Style::new().fg(Color::Blue),
     }
 }
 
@@ -139,6 +144,10 @@ pub fn mark_symbol(kind: MarkKind) -> (String, Style) {
         MarkKind::Reached => (
             strings::MARK_REACHED.into(),
             Style::new().fg(Color::Red).add_modifier(Modifier::BOLD),
+        ),
+        MarkKind::SwitchStart => (
+            strings::MARK_SWITCH.into(),
+            Style::new().fg(Color::Magenta).add_modifier(Modifier::BOLD),
         ),
     }
 }
@@ -342,6 +351,7 @@ impl SemiLogChart<'_> {
                 CurveRole::Model => ("━", strings::LEGEND_MODEL),
                 CurveRole::Fitted => ("┅", strings::LEGEND_FITTED),
                 CurveRole::Plan => ("━", strings::LEGEND_PLAN),
+                CurveRole::Band => ("┈", strings::LEGEND_BAND),
             };
             items.push(vec![
                 Span::styled(sym, curve_style(c.role)),
@@ -365,6 +375,7 @@ impl SemiLogChart<'_> {
                 MarkKind::LeftOut => (sym, strings::LEGEND_LEFT_OUT),
                 MarkKind::HalfLife(_) => ("1 2 3".into(), strings::LEGEND_HALF_LIVES),
                 MarkKind::Reached => (sym, strings::LEGEND_REACHED),
+                MarkKind::SwitchStart => (sym, strings::LEGEND_SWITCH),
             };
             items.push(vec![
                 Span::styled(sym, style),
@@ -436,6 +447,20 @@ impl Widget for SemiLogChart<'_> {
                         .map(|(t, v)| (*t, v.ln()))
                         .collect();
                     let inside = |y: f64| y >= f.y[0] - 1e-9 && y <= f.y[1] + 1e-9;
+                    if c.role == CurveRole::Band {
+                        // A sparse dotted line: one dot every cell or so.
+                        let cell = (f.x[1] - f.x[0]) / f64::from(plot.width.max(1));
+                        let mut last = f64::NEG_INFINITY;
+                        let mut dots = Vec::new();
+                        for &(x, y) in &pts {
+                            if inside(y) && x - last >= cell {
+                                dots.push((x, y));
+                                last = x;
+                            }
+                        }
+                        ctx.draw(&Points::new(&dots, color));
+                        continue;
+                    }
                     for w in pts.windows(2) {
                         let ((x1, y1), (x2, y2)) = (w[0], w[1]);
                         if !(inside(y1) && inside(y2)) {
