@@ -43,6 +43,9 @@ pub fn update(app: &mut App, action: Action) {
         Mode::Editing(ed) => edit(app, ed, action),
         Mode::Normal => normal(app, action),
     }
+    // The suggestions change with the case: keep the plan cursor on a line that exists.
+    let lines = PLAN_FIELDS.len() + screens::suggestions(app).len();
+    app.cursors.plan = app.cursors.plan.min(lines - 1);
 }
 
 fn quit(app: &mut App) {
