@@ -785,7 +785,13 @@ fn validate_targets(t: &TargetsFile) -> Result<Targets> {
     })
 }
 
-/// A TOML date-time as a stamp; a date alone or a time alone is an error.
+/// The first year a case's date may be in.
+pub const FIRST_YEAR: u16 = 1900;
+/// The last year a case's date may be in.
+pub const LAST_YEAR: u16 = 2200;
+
+/// A TOML date-time as a stamp; a date alone, a time alone, or a year outside
+/// `FIRST_YEAR..=LAST_YEAR` is an error.
 pub fn to_stamp(dt: &Datetime, place: &str) -> Result<Stamp> {
     let (Some(date), Some(time)) = (dt.date, dt.time) else {
         return Err(Error::invalid(
@@ -793,6 +799,17 @@ pub fn to_stamp(dt: &Datetime, place: &str) -> Result<Stamp> {
             format!("needs a date and a time, like 2027-03-02T08:00:00; got {dt}"),
         ));
     };
+    // A bedside case lives in these years; anything outside is a typing slip, and far dates
+    // would put projected times where the report's day-and-month readings mislead.
+    if !(FIRST_YEAR..=LAST_YEAR).contains(&date.year) {
+        return Err(Error::invalid(
+            place,
+            format!(
+                "year {} is outside {FIRST_YEAR} to {LAST_YEAR}; check the date",
+                date.year
+            ),
+        ));
+    }
     let d = NaiveDate::from_ymd_opt(date.year.into(), date.month.into(), date.day.into())
         .ok_or_else(|| Error::invalid(place, format!("no such date: {dt}")))?;
     let t = NaiveTime::from_hms_nano_opt(
