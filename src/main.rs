@@ -233,7 +233,7 @@ fn note(file: &Path, output: Option<&Path>, markdown: bool, dir: Option<&Path>) 
     let meta = ebb::cli::note::meta_now(&name);
     let mut buf = Vec::new();
     let r = ebb::cli::load_case_with(file, dir)
-        .and_then(|c| ebb::cli::note::write_note(&mut buf, &c, &name, format, &meta))
+        .and_then(|c| ebb::cli::note::write_note(&mut buf, &c, &name, format, &meta, dir))
         .and_then(|()| match output {
             Some(o) => ebb::cli::note::write_file(o, &String::from_utf8_lossy(&buf)),
             None => std::io::stdout()

@@ -92,3 +92,34 @@ fn a_bad_switch_exits_2_with_one_line_naming_the_field() {
     assert!(!d.join("x.svg").exists());
     std::fs::remove_dir_all(&d).ok();
 }
+
+#[test]
+fn the_note_carries_the_profile_warnings_and_is_private() {
+    use std::os::unix::fs::PermissionsExt;
+    let d = tmp("profile");
+    let case = demo_file(&d);
+    let out_path = d.join("bed7.note.txt");
+    let out = ebb()
+        .arg("note")
+        .arg(&case)
+        .arg("-o")
+        .arg(&out_path)
+        .output()
+        .unwrap();
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let text = std::fs::read_to_string(&out_path).unwrap();
+    // The demo names the gentamicin profile, whose typical half-life range flags 3.006 h;
+    // `ebb report` shows the same warning, so the note must too.
+    let report = ebb().args(["report", "--demo"]).output().unwrap();
+    let report = String::from_utf8(report.stdout).unwrap();
+    let flag = "outside Gentamicin's typical adult range";
+    assert!(report.contains(flag));
+    assert!(text.contains(flag), "{text}");
+    let mode = std::fs::metadata(&out_path).unwrap().permissions().mode() & 0o777;
+    assert_eq!(mode, 0o600);
+}

@@ -98,36 +98,14 @@ pub fn write_report_with(
     profiles_dir: Option<&Path>,
 ) -> Result<()> {
     let output = |e: std::io::Error| Error::invalid("output", e.to_string());
-    let catalog = match &case.drug.profile {
-        Some(_) => Some(profiles::Catalog::load(profiles_dir)?),
-        None => None,
-    };
-    let entry = match (&case.drug.profile, &catalog) {
-        (Some(wanted), Some(c)) => Some(
-            c.lookup(wanted, "drug.profile")
-                .map_err(|e| e.in_file(name))?,
-        ),
-        _ => None,
-    };
-    if let Some(e) = entry {
-        if let Some(why) = profiles::refusal(&e.profile) {
-            if as_json {
-                return Err(Error::invalid(
-                    "drug.profile",
-                    format!(
-                        "\"{}\": {why}; the report without --json lists the measured levels",
-                        e.name
-                    ),
-                )
-                .in_file(name));
-            }
+    let catalog = catalog_for(case, profiles_dir)?;
+    let entry = profile_entry(case, name, catalog.as_ref())?;
+    if let (Some(e), false) = (entry, as_json) {
+        if profiles::refusal(&e.profile).is_some() {
             return profiles::write_refusal(out, case, e).map_err(output);
         }
     }
-    let mut r = report::build(case).map_err(|e| e.in_file(name))?;
-    if let Some(e) = entry {
-        profiles::apply(&e.profile, case, &mut r);
-    }
+    let r = report_for(case, name, entry)?;
     let written = if as_json {
         writeln!(out, "{}", json::to_json(&r))
     } else {
@@ -137,4 +115,61 @@ pub fn write_report_with(
         })
     };
     written.map_err(output)
+}
+
+/// The report of a case with its drug profile's warnings applied (the profile is looked up
+/// among the built-ins and `profiles_dir`). This is the report the note and the JSON carry.
+///
+/// # Errors
+/// The fit's or the projection's errors, with `name` in front; an unknown profile; a profile
+/// whose kinetics are not first-order refuses the projections (an error at `drug.profile`).
+pub fn report_with_profile(
+    case: &Case,
+    name: &str,
+    profiles_dir: Option<&Path>,
+) -> Result<report::Report> {
+    let catalog = catalog_for(case, profiles_dir)?;
+    let entry = profile_entry(case, name, catalog.as_ref())?;
+    report_for(case, name, entry)
+}
+
+fn catalog_for(case: &Case, profiles_dir: Option<&Path>) -> Result<Option<profiles::Catalog>> {
+    match &case.drug.profile {
+        Some(_) => profiles::Catalog::load(profiles_dir).map(Some),
+        None => Ok(None),
+    }
+}
+
+fn profile_entry<'c>(
+    case: &Case,
+    name: &str,
+    catalog: Option<&'c profiles::Catalog>,
+) -> Result<Option<&'c profiles::Entry>> {
+    match (&case.drug.profile, catalog) {
+        (Some(wanted), Some(c)) => c
+            .lookup(wanted, "drug.profile")
+            .map(Some)
+            .map_err(|e| e.in_file(name)),
+        _ => Ok(None),
+    }
+}
+
+fn report_for(case: &Case, name: &str, entry: Option<&profiles::Entry>) -> Result<report::Report> {
+    if let Some(e) = entry {
+        if let Some(why) = profiles::refusal(&e.profile) {
+            return Err(Error::invalid(
+                "drug.profile",
+                format!(
+                    "\"{}\": {why}; the report without --json lists the measured levels",
+                    e.name
+                ),
+            )
+            .in_file(name));
+        }
+    }
+    let mut r = report::build(case).map_err(|e| e.in_file(name))?;
+    if let Some(e) = entry {
+        profiles::apply(&e.profile, case, &mut r);
+    }
+    Ok(r)
 }

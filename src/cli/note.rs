@@ -7,7 +7,6 @@ use std::path::Path;
 use crate::core::case::Case;
 use crate::core::error::{Error, Result};
 use crate::core::note::{self, NoteFormat, NoteMeta};
-use crate::core::report;
 
 /// The note's metadata for a case file named `source`, made now.
 pub fn meta_now(source: &str) -> NoteMeta {
@@ -28,17 +27,21 @@ pub fn write_note(
     name: &str,
     format: NoteFormat,
     meta: &NoteMeta,
+    profiles_dir: Option<&Path>,
 ) -> Result<()> {
-    let r = report::build(case).map_err(|e| e.in_file(name))?;
+    let r = crate::cli::report_with_profile(case, name, profiles_dir)?;
     note::write_note(out, case, &r, meta, format)
         .map_err(|e| Error::invalid("output", e.to_string()))
 }
 
-/// Write `text` to `path` (creating or replacing the file).
+/// Write `text` to `path`, creating or replacing it the safe way (a temporary file beside
+/// it, synced, then renamed over) and readable by its owner only: notes and plots hold
+/// patient data.
 ///
 /// # Errors
-/// The operating system's error, naming the path.
+/// A step of the save failed; the message names the path.
 pub fn write_file(path: &Path, text: &str) -> Result<()> {
-    std::fs::write(path, text)
-        .map_err(|e| Error::invalid(path.display().to_string(), format!("cannot write: {e}")))
+    crate::cli::store::save_bytes(path, text.as_bytes(), &crate::cli::store::Expect::Overwrite)
+        .map(|_| ())
+        .map_err(|e| Error::invalid("output", e.to_string()))
 }

@@ -43,6 +43,8 @@ fn method_words(method: &str) -> String {
     match method {
         "two-point" => "two-point log-linear elimination rate, k = ln(C1/C2)/(t2 - t1) (Sawchuk-Zaske one-compartment method)".into(),
         "log-linear" => "log-linear regression: ordinary least squares of ln(level) on time, with the 95 % interval of k from Student's t".into(),
+        "dose-history" => "dose-history fit: weighted nonlinear least squares (Levenberg-Marquardt) of ln(level) against the superposition of the whole dose record, k and V together, 95 % intervals from the asymptotic covariance".into(),
+        "bayesian" => "Bayesian maximum a posteriori (MAP) estimate: log-normal population priors for k (or clearance) and V from the drug profile, updated by the levels".into(),
         other => format!("{other} fit"),
     }
 }
@@ -55,6 +57,10 @@ fn volume_words(method: Option<&str>, pre_row: Option<usize>) -> String {
         (Some("dose record"), _) => {
             "volume by superposition of the whole dose record at the first fitted level".into()
         }
+        (Some("dose-history"), _) => {
+            "volume fitted together with k from every level (dose-history fit)".into()
+        }
+        (Some("bayesian"), _) => "volume estimated together with k (Bayesian MAP)".into(),
         (Some(m), _) => format!("volume by {m}"),
         (None, _) => "no volume (dose amounts not known)".into(),
     }
