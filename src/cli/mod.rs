@@ -46,11 +46,7 @@ pub fn validate_with_profile(file: &CaseFile, profiles_dir: Option<&Path>) -> Re
         Some(wanted) => {
             let catalog = profiles::Catalog::load(profiles_dir)?;
             let entry = catalog.lookup(wanted, "drug.profile")?;
-            profiles::defaults_for(
-                &entry.profile,
-                file.drug.level_unit.as_deref(),
-                file.drug.molar_mass_g_mol,
-            )
+            profiles::defaults_for_file(&entry.profile, file)
         }
     };
     file.validate_with(&defaults)

@@ -283,6 +283,16 @@ pub fn defaults_for(
     }
 }
 
+/// The defaults `profile` supplies to a parsed case file (its unit and molar mass decide
+/// how the profile's targets convert).
+pub fn defaults_for_file(profile: &Profile, file: &crate::core::casefile::CaseFile) -> Defaults {
+    defaults_for(
+        profile,
+        file.drug.level_unit.as_deref(),
+        file.drug.molar_mass_g_mol,
+    )
+}
+
 /// The profile's usual intervals and dose rounding, over the common defaults where it is
 /// silent.
 fn regimen_of(profile: &Profile) -> Option<RegimenOptions> {

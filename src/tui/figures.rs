@@ -116,13 +116,7 @@ impl Figures {
             }
         };
         let defaults = entry
-            .map(|e| {
-                profiles::defaults_for(
-                    &e.profile,
-                    file.drug.level_unit.as_deref(),
-                    file.drug.molar_mass_g_mol,
-                )
-            })
+            .map(|e| profiles::defaults_for_file(&e.profile, file))
             .unwrap_or_default();
         let case = match file.validate_with(&defaults) {
             Ok(c) => c,
