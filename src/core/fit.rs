@@ -231,10 +231,27 @@ pub fn fit(case: &Case) -> Result<Fit> {
                 history::fit(case)
             } else if usable < 2 && doses_known && case.prior.is_some() {
                 bayes::fit(case)
+            } else if usable < 2 {
+                let which = too_few_levels(case);
+                Err(Error::invalid(
+                    "level",
+                    format!(
+                        "{which}; a fit needs two levels (after one dose, or anywhere when every dose amount is known), or one level with a drug profile that has population priors"
+                    ),
+                ))
             } else {
                 fit_log_linear(case)
             }
         }
+    }
+}
+
+/// Which levels there are, in words, when fewer than two are marked for use.
+fn too_few_levels(case: &Case) -> String {
+    match case.levels.iter().position(|l| l.use_in_fit) {
+        Some(i) => format!("only {} is marked for use", case.level_name(i)),
+        None if case.levels.is_empty() => "the case has no levels yet".to_string(),
+        None => "no level is marked for use".to_string(),
     }
 }
 
@@ -249,11 +266,7 @@ pub fn fit_log_linear(case: &Case) -> Result<Fit> {
         .filter(|&i| case.levels[i].use_in_fit)
         .collect();
     if used.len() < 2 {
-        let which = match used.first() {
-            Some(&i) => format!("only {} is marked for use", case.level_name(i)),
-            None if case.levels.is_empty() => "the case has no levels yet".to_string(),
-            None => "no level is marked for use".to_string(),
-        };
+        let which = too_few_levels(case);
         return Err(Error::invalid(
             "level",
             format!("{which}; the fit needs at least two levels drawn after the same dose"),
