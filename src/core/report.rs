@@ -465,44 +465,62 @@ fn target_checks(
     out
 }
 
+/// Every figure must be finite; the first part holding one that is not is named (the fit by
+/// its levels, then the plan, the threshold and the washout).
 fn check_finite(r: &Report) -> Result<()> {
-    let mut xs = vec![r.fit.k_per_h, r.fit.half_life_h];
-    xs.extend(r.fit.r_squared);
-    xs.extend(r.fit.k_ci95_per_h.into_iter().flatten());
-    xs.extend(r.fit.half_life_ci95_h.into_iter().flatten());
-    xs.extend(r.fit.volume_l);
-    xs.extend(r.fit.clearance_l_per_h);
-    xs.extend(r.fit.volume_ci95_l.into_iter().flatten());
-    xs.extend(r.fit.clearance_ci95_l_per_h.into_iter().flatten());
+    let mut fit = vec![r.fit.k_per_h, r.fit.half_life_h];
+    fit.extend(r.fit.r_squared);
+    fit.extend(r.fit.k_ci95_per_h.into_iter().flatten());
+    fit.extend(r.fit.half_life_ci95_h.into_iter().flatten());
+    fit.extend(r.fit.volume_l);
+    fit.extend(r.fit.clearance_l_per_h);
+    fit.extend(r.fit.volume_ci95_l.into_iter().flatten());
+    fit.extend(r.fit.clearance_ci95_l_per_h.into_iter().flatten());
     if let Some(s) = &r.fit.population {
         let p = &s.population;
-        xs.extend([p.k_per_h, p.volume_l, p.clearance_l_per_h]);
-        xs.extend([s.elimination_shift_sd, s.volume_shift_sd]);
+        fit.extend([p.k_per_h, p.volume_l, p.clearance_l_per_h]);
+        fit.extend([s.elimination_shift_sd, s.volume_shift_sd]);
     }
+    let mut plan = Vec::new();
     if let Some(p) = &r.plan {
-        xs.push(p.accumulation_factor);
+        plan.push(p.accumulation_factor);
         for range in [p.peak_ss_ci95, p.trough_ss_ci95, p.auc24_ss_ci95] {
-            xs.extend(range.into_iter().flatten());
+            plan.extend(range.into_iter().flatten());
         }
-        xs.extend(p.peak_ss);
-        xs.extend(p.trough_ss);
-        xs.extend(p.auc24_ss);
-        xs.extend(p.time_to_ss_h);
+        plan.extend(p.peak_ss);
+        plan.extend(p.trough_ss);
+        plan.extend(p.auc24_ss);
+        plan.extend(p.time_to_ss_h);
     }
+    let mut threshold = Vec::new();
     if let Some(t) = &r.threshold {
-        xs.push(t.c0);
-        xs.extend(t.level_at_procedure);
-        xs.extend(t.level_at_resume);
+        threshold.push(t.c0);
+        threshold.extend(t.level_at_procedure);
+        threshold.extend(t.level_at_resume);
     }
-    xs.extend(r.washout.iter().map(|w| w.level));
-    if xs.iter().all(|x| x.is_finite()) {
-        Ok(())
-    } else {
-        Err(Error::invalid(
-            "case",
-            "the values are too extreme for the model to give finite figures; check amounts, levels and times",
-        ))
+    let washout: Vec<f64> = r.washout.iter().map(|w| w.level).collect();
+    for (place, xs, check) in [
+        (
+            "level",
+            fit,
+            "the level values and times and the dose amounts",
+        ),
+        (
+            "plan",
+            plan,
+            "plan.dose_mg, plan.interval_h and plan.infusion_h",
+        ),
+        ("threshold", threshold, "threshold.below and the levels"),
+        ("washout", washout, "the level values and times"),
+    ] {
+        if !xs.iter().all(|x| x.is_finite()) {
+            return Err(Error::invalid(
+                place,
+                format!("the values are too extreme for the model to give finite figures; check {check}"),
+            ));
+        }
     }
+    Ok(())
 }
 
 /// A number for people: four significant figures, trailing zeros trimmed.
