@@ -1,6 +1,12 @@
-//! Fuzz target: a valid case's report must never panic, and never hold a NaN or infinity.
+//! Fuzz target: a valid case's report (text, JSON, record note; with its built-in drug
+//! profile when it names one) must never panic, and never hold a NaN or infinity.
 #![no_main]
 
+use std::sync::OnceLock;
+
+use ebb::core::casefile::{CaseFile, Defaults};
+use ebb::core::note::{self, NoteFormat, NoteMeta};
+use ebb::profiles::{self, Catalog};
 use libfuzzer_sys::fuzz_target;
 
 fn all_finite(v: &serde_json::Value) -> bool {
@@ -12,18 +18,71 @@ fn all_finite(v: &serde_json::Value) -> bool {
     }
 }
 
+/// Words that would mean a non-finite number reached the text.
+fn non_finite_word(out: &str) -> bool {
+    out.split(|c: char| !c.is_ascii_alphanumeric())
+        .any(|w| matches!(w, "NaN" | "nan" | "inf" | "Inf" | "Infinity"))
+}
+
+fn catalog() -> &'static Catalog {
+    static CATALOG: OnceLock<Catalog> = OnceLock::new();
+    CATALOG.get_or_init(|| Catalog::built_in().expect("the built-in profiles parse"))
+}
+
 fuzz_target!(|data: &[u8]| {
     let Ok(text) = std::str::from_utf8(data) else {
         return;
     };
-    let Ok(case) = ebb::core::casefile::CaseFile::parse(text).and_then(|f| f.validate()) else {
+    let Ok(file) = CaseFile::parse(text) else {
         return;
     };
+    // The profile's defaults, as `ebb report` resolves them.
+    let defaults = match &file.drug.profile {
+        None => Defaults::default(),
+        Some(name) => match catalog().get(name) {
+            None => return,
+            Some(entry) => profiles::defaults_for(
+                &entry.profile,
+                file.drug.level_unit.as_deref(),
+                file.drug.molar_mass_g_mol,
+            ),
+        },
+    };
+    let Ok(case) = file.validate_with(&defaults) else {
+        return;
+    };
+    // Free text (names, notes) is echoed in the output; when the input itself holds one of
+    // the words, only the JSON numbers can be checked.
+    let check_words = !non_finite_word(text);
+    for as_json in [false, true] {
+        let mut out = Vec::new();
+        if ebb::cli::write_report_with(&mut out, &case, "fuzz", as_json, None).is_ok() {
+            let out = String::from_utf8(out).expect("the report is UTF-8");
+            if as_json {
+                let value: serde_json::Value = serde_json::from_str(&out).expect("JSON");
+                assert!(all_finite(&value), "a figure is not finite: {out}");
+            }
+            assert!(
+                !(check_words && non_finite_word(&out)),
+                "a non-finite number in:\n{out}"
+            );
+        }
+    }
     if let Ok(report) = ebb::core::report::build(&case) {
         let json = ebb::core::json::to_json(&report);
         let value: serde_json::Value = serde_json::from_str(&json).expect("the report is JSON");
         assert!(all_finite(&value), "a figure is not finite: {json}");
-        let mut out = Vec::new();
-        ebb::core::report::write_text(&mut out, &case, &report).expect("writes to memory");
+        let meta = NoteMeta {
+            made_at: "2027-03-05 09:00".into(),
+            version: "fuzz".into(),
+            source: "fuzz".into(),
+        };
+        for format in [NoteFormat::Text, NoteFormat::Markdown] {
+            let n = note::note_text(&case, &report, &meta, format);
+            assert!(
+                !(check_words && non_finite_word(&n)),
+                "a non-finite number in the note:\n{n}"
+            );
+        }
     }
 });
