@@ -1,57 +1,78 @@
-//! Saving a case to disk safely: a temporary file in the same folder, flushed to the disk,
-//! then renamed over the old file, readable by its owner only (it holds patient data).
+//! Saving from the bedside screen: the safe save of `cli::store` (a temporary file in the
+//! same folder, flushed, renamed over the old file, owner-only permissions), guarded by what
+//! the file held when it was opened so that another program's changes are not overwritten
+//! silently.
 
-use std::fs::{self, File, OpenOptions};
-use std::io::Write;
 use std::path::Path;
 
+use crate::cli::store;
+pub use crate::cli::store::{Expect, Fingerprint, SaveError};
 use crate::core::casefile::CaseFile;
 
-/// Write `file` as TOML to `path`, replacing it in one step.
+/// Write `file` as TOML to `path`, replacing it in one step whatever it holds now.
 ///
 /// # Errors
 /// The case cannot be written as TOML, or the folder or file cannot be written; the old file
 /// is left as it was then.
 pub fn save(file: &CaseFile, path: &Path) -> Result<(), String> {
-    let text = file.to_toml().map_err(|e| e.to_string())?;
-    let dir = match path.parent() {
-        Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
-        _ => std::path::PathBuf::from("."),
-    };
-    let name = path
-        .file_name()
-        .map(|n| n.to_string_lossy().into_owned())
-        .ok_or_else(|| "not a file name".to_string())?;
-    let tmp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
-    let _ = fs::remove_file(&tmp);
-    let written = write_private(&tmp, text.as_bytes()).and_then(|()| fs::rename(&tmp, path));
-    if let Err(e) = written {
-        let _ = fs::remove_file(&tmp);
-        return Err(e.to_string());
-    }
-    // Make the rename itself durable; not every system lets a folder be opened, so a
-    // failure here is not reported.
-    if let Ok(d) = File::open(&dir) {
-        let _ = d.sync_all();
-    }
-    Ok(())
+    store::save_case(file, path, &Expect::Overwrite)
+        .map(|_| ())
+        .map_err(|e| e.to_string())
 }
 
-fn write_private(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
-    let mut opts = OpenOptions::new();
-    opts.write(true).create_new(true);
-    #[cfg(unix)]
-    {
-        use std::os::unix::fs::OpenOptionsExt;
-        opts.mode(0o600);
+/// Write `file` as TOML to `path` only if the file on disk is as `expect` says (as it was
+/// opened or last saved, or absent then; `Expect::Overwrite` once the user has said yes).
+/// Returns what the file holds now, to expect at the next save.
+///
+/// # Errors
+/// `SaveError::ChangedOnDisk` when the file changed since: ask the user, then call again
+/// with `Expect::Overwrite` (or save under another name); otherwise the step that failed.
+/// The old file is left whole either way.
+pub fn save_checked(
+    file: &CaseFile,
+    path: &Path,
+    expect: &Expect,
+) -> Result<Fingerprint, SaveError> {
+    store::save_case(file, path, expect)
+}
+
+/// What to expect at the first save of a case opened from `path`: the file as it is now,
+/// or no file. A file that cannot be read gives `Expect::Unchanged(None)`, so that a save
+/// over it later asks first.
+pub fn expect_at_open(path: &Path) -> Expect {
+    Expect::Unchanged(store::fingerprint(path).ok().flatten())
+}
+
+/// Write `text` to `path` the same safe way as a case (the record note holds patient data
+/// too), replacing whatever is there.
+///
+/// # Errors
+/// The folder or file cannot be written; the old file is left as it was then.
+pub fn write_text(text: &str, path: &Path) -> Result<(), String> {
+    store::save_bytes(path, text.as_bytes(), &Expect::Overwrite)
+        .map(|_| ())
+        .map_err(|e| e.to_string())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_case_changed_on_disk_needs_a_yes_before_it_is_overwritten() {
+        let dir = std::env::temp_dir().join(format!("ebb-tui-store-{}", std::process::id()));
+        let _ = std::fs::remove_dir_all(&dir);
+        std::fs::create_dir_all(&dir).unwrap();
+        let path = dir.join("case.toml");
+        std::fs::write(&path, "[drug]\nlevel_unit = \"mg/L\"\n").unwrap();
+        let expect = expect_at_open(&path);
+        let file = CaseFile::parse("[drug]\nlevel_unit = \"ng/mL\"\n").unwrap();
+        std::fs::write(&path, "[drug]\nlevel_unit = \"mmol/L\"\n").unwrap();
+        let e = save_checked(&file, &path, &expect).unwrap_err();
+        assert!(matches!(e, SaveError::ChangedOnDisk { .. }));
+        assert!(std::fs::read_to_string(&path).unwrap().contains("mmol/L"));
+        let now = save_checked(&file, &path, &Expect::Overwrite).unwrap();
+        assert!(std::fs::read_to_string(&path).unwrap().contains("ng/mL"));
+        save_checked(&file, &path, &Expect::Unchanged(Some(now))).unwrap();
     }
-    let mut f = opts.open(path)?;
-    f.write_all(bytes)?;
-    #[cfg(unix)]
-    {
-        use std::os::unix::fs::PermissionsExt;
-        // The mode above is filtered by the umask; set it exactly.
-        f.set_permissions(fs::Permissions::from_mode(0o600))?;
-    }
-    f.sync_all()
 }
