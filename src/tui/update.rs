@@ -412,17 +412,13 @@ fn add_dose(app: &mut App) {
     }) {
         return app.complain(e);
     }
-    app.cursors.case_line = line_of(app, CaseLine::Dose(i));
-    app.cursors.case_col = 0;
-    let mut ed = Editor::new(
-        Target::Field(Field::DoseTime(i)),
-        Field::DoseTime(i).text(&app.file),
+    edit_new_row(
+        app,
+        CaseLine::Dose(i),
+        [Field::DoseTime(i), Field::DoseAmount(i)],
+        NewRow::Dose(i),
+        strings::NEW_DOSE_HINT,
     );
-    ed.then = Some(Field::DoseAmount(i));
-    ed.new_row = Some(NewRow::Dose(i));
-    check(app, &mut ed);
-    app.mode = Mode::Editing(ed);
-    app.say(strings::NEW_DOSE_HINT);
 }
 
 fn add_level(app: &mut App) {
@@ -448,17 +444,31 @@ fn add_level(app: &mut App) {
     }) {
         return app.complain(e);
     }
-    app.cursors.case_line = line_of(app, CaseLine::Level(i));
-    app.cursors.case_col = 0;
-    let mut ed = Editor::new(
-        Target::Field(Field::LevelTime(i)),
-        Field::LevelTime(i).text(&app.file),
+    edit_new_row(
+        app,
+        CaseLine::Level(i),
+        [Field::LevelTime(i), Field::LevelValue(i)],
+        NewRow::Level(i),
+        strings::NEW_LEVEL_HINT,
     );
-    ed.then = Some(Field::LevelValue(i));
-    ed.new_row = Some(NewRow::Level(i));
+}
+
+/// Put the cursor on a row just added and open the editor on its time, then `fields[1]`.
+fn edit_new_row(
+    app: &mut App,
+    line: CaseLine,
+    fields: [Field; 2],
+    row: NewRow,
+    hint: &'static str,
+) {
+    app.cursors.case_line = line_of(app, line);
+    app.cursors.case_col = 0;
+    let mut ed = Editor::new(Target::Field(fields[0]), fields[0].text(&app.file));
+    ed.then = Some(fields[1]);
+    ed.new_row = Some(row);
     check(app, &mut ed);
     app.mode = Mode::Editing(ed);
-    app.say(strings::NEW_LEVEL_HINT);
+    app.say(hint);
 }
 
 fn line_of(app: &App, line: CaseLine) -> usize {
