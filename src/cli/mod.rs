@@ -44,7 +44,7 @@ pub fn validate_with_profile(file: &CaseFile, profiles_dir: Option<&Path>) -> Re
     let defaults = match &file.drug.profile {
         None => casefile::Defaults::default(),
         Some(wanted) => {
-            let catalog = profiles::Catalog::load(profiles_dir)?;
+            let catalog = profiles::Catalog::load_for(profiles_dir, wanted)?;
             let entry = catalog.lookup(wanted, "drug.profile")?;
             profiles::defaults_for_file(&entry.profile, file)
         }
@@ -131,7 +131,7 @@ pub fn report_with_profile(
 
 fn catalog_for(case: &Case, profiles_dir: Option<&Path>) -> Result<Option<profiles::Catalog>> {
     match &case.drug.profile {
-        Some(_) => profiles::Catalog::load(profiles_dir).map(Some),
+        Some(wanted) => profiles::Catalog::load_for(profiles_dir, wanted).map(Some),
         None => Ok(None),
     }
 }

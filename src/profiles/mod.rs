@@ -113,6 +113,30 @@ pub fn override_dir(flag: Option<&Path>) -> Option<PathBuf> {
     }
 }
 
+/// A built-in profile, parsed once per process (a report looks its profile up twice: to
+/// validate the case and to write the report).
+fn parsed_built_in(name: &str, text: &str) -> Result<Entry> {
+    static PARSED: std::sync::Mutex<Vec<Entry>> = std::sync::Mutex::new(Vec::new());
+    if let Some(e) = PARSED
+        .lock()
+        .ok()
+        .and_then(|cache| cache.iter().find(|e| e.name == name).cloned())
+    {
+        return Ok(e);
+    }
+    let file = format!("drug-profiles/{name}.toml (built-in)");
+    let entry = Entry {
+        name: name.to_string(),
+        origin: Origin::BuiltIn,
+        profile: parse_profile(text, &file)?,
+        text: text.to_string(),
+    };
+    if let Ok(mut cache) = PARSED.lock() {
+        cache.push(entry.clone());
+    }
+    Ok(entry)
+}
+
 impl Catalog {
     /// The built-in profiles only.
     ///
@@ -131,6 +155,23 @@ impl Catalog {
         }
         entries.sort_by(|a, b| a.name.cmp(&b.name));
         Ok(Catalog { entries })
+    }
+
+    /// A catalog in which `wanted` can be looked up, parsing no more than it must: without
+    /// `dir`, only the built-in named `wanted` (the others are not needed, and parsing them
+    /// all dominated the start-up of `ebb report`); with `dir`, or when no built-in has that
+    /// name, the same as `load(dir)`, so lookups, unknown-name messages and broken local
+    /// files behave exactly as there.
+    ///
+    /// # Errors
+    /// As `load`.
+    pub fn load_for(dir: Option<&Path>, wanted: &str) -> Result<Catalog> {
+        match (dir, builtin::BUILT_IN.iter().find(|(name, _)| *name == wanted)) {
+            (None, Some((name, text))) => Ok(Catalog {
+                entries: vec![parsed_built_in(name, text)?],
+            }),
+            _ => Catalog::load(dir),
+        }
     }
 
     /// The built-ins, then every `*.toml` file in `dir` (when given) by file stem.
