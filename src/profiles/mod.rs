@@ -166,7 +166,10 @@ impl Catalog {
     /// # Errors
     /// As `load`.
     pub fn load_for(dir: Option<&Path>, wanted: &str) -> Result<Catalog> {
-        match (dir, builtin::BUILT_IN.iter().find(|(name, _)| *name == wanted)) {
+        match (
+            dir,
+            builtin::BUILT_IN.iter().find(|(name, _)| *name == wanted),
+        ) {
             (None, Some((name, text))) => Ok(Catalog {
                 entries: vec![parsed_built_in(name, text)?],
             }),
