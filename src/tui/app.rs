@@ -8,6 +8,7 @@ use crate::demo::DEMO_CASE;
 use crate::tui::catalog::Profiles;
 use crate::tui::fields::Field;
 use crate::tui::figures::Figures;
+use crate::tui::store;
 use crate::tui::strings;
 
 /// The five screens, in tab order.
@@ -128,6 +129,9 @@ pub enum Confirm {
     DeleteDose(usize),
     /// Delete a level row (0-based).
     DeleteLevel(usize),
+    /// Overwrite the file at `App::pending_overwrite`, which changed on disk since it was
+    /// opened (or appeared where there was none).
+    Overwrite,
 }
 
 /// The line under the screen: what just happened.
@@ -185,6 +189,11 @@ pub struct App {
     pub quit_after_save: bool,
     /// The drug profiles on offer (built-in and the override directory).
     pub profiles: Profiles,
+    /// What the file at `path` held when opened or last saved: a save over anything else
+    /// asks first.
+    pub on_disk: store::Expect,
+    /// The file a save found changed on disk, while the user is asked about overwriting it.
+    pub pending_overwrite: Option<PathBuf>,
 }
 
 impl App {
@@ -205,6 +214,8 @@ impl App {
             figures,
             quit_after_save: false,
             profiles,
+            on_disk: store::Expect::Unchanged(None),
+            pending_overwrite: None,
         }
     }
 
@@ -258,10 +269,13 @@ impl App {
 
     /// Open a case file, offering `profiles`.
     pub fn open_in(path: &Path, profiles: Profiles) -> Self {
+        // Taken before reading: a change in between makes the save ask (the safe side).
+        let on_disk = store::expect_at_open(path);
         match casefile::read(path) {
             Ok(file) => {
                 let mut app = App::with_file(file, path.display().to_string(), profiles);
                 app.path = Some(path.to_path_buf());
+                app.on_disk = on_disk;
                 app
             }
             Err(e) => {

@@ -275,6 +275,18 @@ pub fn saved_to(path: &str) -> String {
 pub fn save_failed(path: &str, why: &str) -> String {
     format!("Not saved to {path}: {why}")
 }
+/// Title of the overwrite question.
+pub const CONFIRM_OVERWRITE_TITLE: &str = "Changed on disk";
+/// The overwrite question: the file changed since the case was opened (or appeared).
+pub fn confirm_overwrite(path: &str) -> String {
+    format!(
+        "{path} changed on disk since the case was opened\n(or a file appeared there).\ny: overwrite it with this case   n or Esc: keep it"
+    )
+}
+/// The answer to keep the file on disk.
+pub fn not_overwritten(path: &str) -> String {
+    format!("Not saved: {path} is kept as it is on disk; save under another name to keep both.")
+}
 
 fn plan_text(app: &App, f: impl Fn(&crate::core::casefile::PlanFile) -> String) -> String {
     app.file.plan.as_ref().map(f).unwrap_or_default()

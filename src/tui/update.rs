@@ -86,6 +86,19 @@ fn confirm(app: &mut App, c: Confirm, action: Action) {
             report(app, r, strings::level_deleted(i + 1));
             clamp_cursor(app);
         }
+        (Confirm::Overwrite, Action::Yes) => {
+            app.mode = Mode::Normal;
+            if let Some(path) = app.pending_overwrite.take() {
+                save_expecting(app, path, store::Expect::Overwrite);
+            }
+        }
+        (Confirm::Overwrite, Action::No | Action::Cancel | Action::Quit) => {
+            app.mode = Mode::Normal;
+            app.quit_after_save = false;
+            if let Some(path) = app.pending_overwrite.take() {
+                app.complain(strings::not_overwritten(&path.display().to_string()));
+            }
+        }
         (_, Action::No | Action::Cancel) => {
             app.mode = Mode::Normal;
             app.say(strings::NOTHING_DONE);
@@ -670,8 +683,23 @@ fn save(app: &mut App) {
 }
 
 fn save_to(app: &mut App, path: PathBuf) {
-    match store::save(&app.file, &path) {
-        Ok(()) => {
+    // The file the case came from must be as it was then; any other must not exist yet.
+    let expect = if app.path.as_ref() == Some(&path) {
+        app.on_disk.clone()
+    } else {
+        store::Expect::Unchanged(None)
+    };
+    save_expecting(app, path, expect);
+}
+
+fn save_expecting(app: &mut App, path: PathBuf, expect: store::Expect) {
+    match store::save_checked(&app.file, &path, &expect) {
+        Err(store::SaveError::ChangedOnDisk { .. }) => {
+            app.pending_overwrite = Some(path);
+            app.mode = Mode::Confirm(Confirm::Overwrite);
+        }
+        Ok(now) => {
+            app.on_disk = store::Expect::Unchanged(Some(now));
             app.dirty = false;
             app.saved = app.file.clone();
             app.load_error = None;
@@ -684,7 +712,11 @@ fn save_to(app: &mut App, path: PathBuf) {
         }
         Err(e) => {
             app.quit_after_save = false;
-            app.complain(strings::save_failed(&path.display().to_string(), &e));
+            let why = match &e {
+                store::SaveError::Io { step, reason, .. } => format!("{step}: {reason}"),
+                other => other.to_string(),
+            };
+            app.complain(strings::save_failed(&path.display().to_string(), &why));
         }
     }
 }

@@ -189,6 +189,15 @@ fn overlay(app: &App, body: Rect, buf: &mut ratatui::buffer::Buffer) {
                     strings::CONFIRM_DELETE_TITLE,
                     strings::confirm_delete_level(i + 1),
                 ),
+                Confirm::Overwrite => (
+                    strings::CONFIRM_OVERWRITE_TITLE,
+                    strings::confirm_overwrite(
+                        &app.pending_overwrite
+                            .as_ref()
+                            .map(|p| p.display().to_string())
+                            .unwrap_or_default(),
+                    ),
+                ),
             };
             let lines: Vec<Line> = text.lines().map(|l| Line::raw(l.to_string())).collect();
             let area = widgets::centered(body, 60, lines.len() as u16 + 2);
