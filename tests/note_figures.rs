@@ -113,11 +113,13 @@ fn the_note_lists_inputs_and_why_each_level_was_used() {
     let r = report::build(&case).unwrap();
     let n = note::note_text(&case, &r, &meta(), NoteFormat::Text);
     assert!(
-        n.contains("dose 4  Wed 3 Mar 06:00  140 mg  infusion over 0.5 h"),
+        n.contains("dose 4  Wed 3 Mar 2027 06:00  140 mg  infusion over 0.5 h"),
         "{n}"
     );
-    assert!(n.contains("level 1  Wed 3 Mar 05:40  0.9 mg/L  pre-dose level, used for the volume"));
-    assert!(n.contains("level 2  Wed 3 Mar 07:05  6.1 mg/L  in the fit"));
+    assert!(
+        n.contains("level 1  Wed 3 Mar 2027 05:40  0.9 mg/L  pre-dose level, used for the volume")
+    );
+    assert!(n.contains("level 2  Wed 3 Mar 2027 07:05  6.1 mg/L  in the fit"));
     // The method by its published names.
     assert!(n.contains("log-linear regression"));
     assert!(n.contains("Sawchuk-Zaske"));
@@ -126,7 +128,7 @@ fn the_note_lists_inputs_and_why_each_level_was_used() {
     assert!(n.contains("Switch planned to next agent (invented)"));
     let md = note::note_text(&case, &r, &meta(), NoteFormat::Markdown);
     assert!(md.starts_with("# Drug level note: gentamicin"));
-    assert!(md.contains("| 2 | Wed 3 Mar 07:05 | 6.1 mg/L | in the fit |"));
+    assert!(md.contains("| 2 | Wed 3 Mar 2027 07:05 | 6.1 mg/L | in the fit |"));
     assert!(md.contains("```text\n"));
 }
 
@@ -136,7 +138,7 @@ fn unused_levels_say_why() {
     let case = CaseFile::parse(&text).unwrap().validate().unwrap();
     let r = report::build(&case).unwrap();
     let n = note::note_text(&case, &r, &meta(), NoteFormat::Text);
-    assert!(n.contains("level 3  Wed 3 Mar 11:50  2 mg/L  left out by the user (use = false)"));
+    assert!(n.contains("level 3  Wed 3 Mar 2027 11:50  2 mg/L  left out by the user (use = false)"));
 }
 
 #[test]

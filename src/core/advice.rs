@@ -427,7 +427,7 @@ pub fn write_switch_text(w: &mut dyn Write, a: &AdvicePart, u: &str) -> io::Resu
         writeln!(
             w,
             "  earliest start {} (level then {} {u})",
-            when(&s.start_at),
+            s.start_at.readable_near(&s.from),
             num(s.level_at_start)
         )?;
         match &s.start_at_ci95 {

@@ -47,6 +47,12 @@ impl Stamp {
         }
     }
 
+    /// A reading for people that shows the year only when it is not `reference`'s year
+    /// (a projection into another year must say which).
+    pub fn readable_near(&self, reference: &Stamp) -> String {
+        self.readable(self.wall().year() != reference.wall().year())
+    }
+
     /// A reading for people: `Thu 4 Mar 03:40` (with the year when asked).
     pub fn readable(&self, with_year: bool) -> String {
         let w = self.wall();
@@ -270,6 +276,14 @@ mod tests {
             c.at_minute(1.5).unwrap().iso_minute(),
             "2027-03-02T09:30+01:00"
         );
+    }
+
+    #[test]
+    fn the_year_shows_only_when_it_differs_from_the_reference() {
+        let a = Stamp::Local(t(2027, 12, 31, 22, 0));
+        let b = Stamp::Local(t(2028, 1, 1, 3, 30));
+        assert_eq!(b.readable_near(&a), "Sat 1 Jan 2028 03:30");
+        assert_eq!(a.readable_near(&a), "Fri 31 Dec 22:00");
     }
 
     #[test]

@@ -4,7 +4,7 @@
 use std::io::{self, Write};
 
 use crate::core::case::{Case, Sex};
-use crate::core::report::{self, num, when, Report, CAUTION};
+use crate::core::report::{self, num, Report, CAUTION};
 
 /// How the note is laid out.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -170,9 +170,19 @@ pub fn write_note(
             .map_or("not known".into(), |a| format!("{} mg", num(a)));
         let route = crate::core::advice::route_of(d.route);
         if md {
-            writeln!(w, "| {} | {} | {amount} | {route} |", d.row, when(&d.time))?;
+            writeln!(
+                w,
+                "| {} | {} | {amount} | {route} |",
+                d.row,
+                d.time.readable(true)
+            )?;
         } else {
-            writeln!(w, "  dose {}  {}  {amount}  {route}", d.row, when(&d.time))?;
+            writeln!(
+                w,
+                "  dose {}  {}  {amount}  {route}",
+                d.row,
+                d.time.readable(true)
+            )?;
         }
     }
     writeln!(w)?;
@@ -191,7 +201,7 @@ pub fn write_note(
                 w,
                 "| {} | {} | {} {u} | {why} | {note} |",
                 l.row,
-                when(&l.time),
+                l.time.readable(true),
                 num(l.value)
             )?;
         } else {
@@ -204,7 +214,7 @@ pub fn write_note(
                 w,
                 "  level {}  {}  {} {u}  {why}{tail}",
                 l.row,
-                when(&l.time),
+                l.time.readable(true),
                 num(l.value)
             )?;
         }

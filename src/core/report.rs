@@ -746,14 +746,19 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
             writeln!(
                 w,
                 "  below it at {}, in {} from {} ({} {u} then)",
-                when(&t.reached_at),
+                t.reached_at.readable_near(&t.t0),
                 span_words(t.hours_from_t0),
                 when(&t.t0),
                 num(t.c0)
             )?;
         }
         match &t.reached_at_ci95 {
-            Some([a, b]) => writeln!(w, "  95 % range {} to {}", when(a), when(b))?,
+            Some([a, b]) => writeln!(
+                w,
+                "  95 % range {} to {}",
+                a.readable_near(&t.t0),
+                b.readable_near(&t.t0)
+            )?,
             None if matches!(r.fit.method, "dose-history" | "bayesian") => writeln!(
                 w,
                 "  95 % range not known (the spread of k and V is too wide to bound it)"
@@ -801,7 +806,7 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
             w,
             "  {:<10}  {:<17}  {:<10}  {} %",
             row.half_lives,
-            when(&row.at),
+            row.at.readable_near(&r.washout_from),
             format!("{} {u}", num(row.level)),
             num(row.fraction_remaining * 100.0)
         )?;

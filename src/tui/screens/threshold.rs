@@ -62,7 +62,10 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
             } else {
                 wrapped(
                     &mut lines,
-                    strings::below_at(&t.reached_at.readable(false), &span_words(t.hours_from_t0)),
+                    strings::below_at(
+                        &t.reached_at.readable_near(&t.t0),
+                        &span_words(t.hours_from_t0),
+                    ),
                     bold,
                 );
                 let from = strings::threshold_from(app.figures.threshold_from);
@@ -75,7 +78,7 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
             match &t.reached_at_ci95 {
                 Some([a, b]) => wrapped(
                     &mut lines,
-                    strings::range95(&a.readable(false), &b.readable(false)),
+                    strings::range95(&a.readable_near(&t.t0), &b.readable_near(&t.t0)),
                     Style::new(),
                 ),
                 None => wrapped(&mut lines, strings::NO_RANGE.into(), quiet()),

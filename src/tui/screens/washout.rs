@@ -43,7 +43,7 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
         lines.push(Line::raw(format!(
             "{:>2}  {:<15} {:<11} {:>6} %",
             row.half_lives,
-            row.at.readable(false),
+            row.at.readable_near(&r.washout_from),
             format!("{} {unit}", num(row.level)),
             num(row.fraction_remaining * 100.0)
         )));
@@ -53,7 +53,9 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
         Some(t) if t.hours_from_t0 <= 0.0 => {
             strings::washout_already_below(&num(t.below), unit, &t.t0.readable(false))
         }
-        Some(t) => strings::washout_threshold(&num(t.below), unit, &t.reached_at.readable(false)),
+        Some(t) => {
+            strings::washout_threshold(&num(t.below), unit, &t.reached_at.readable_near(&t.t0))
+        }
         None => strings::WASHOUT_NO_THRESHOLD.into(),
     };
     let style = if r.threshold.is_some() {
