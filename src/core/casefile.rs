@@ -769,7 +769,10 @@ fn validate_targets(t: &TargetsFile) -> Result<Targets> {
             }
             Some(v) => Err(Error::invalid(
                 place,
-                format!("must be [low, high], got {} numbers", v.len()),
+                match v.len() {
+                    1 => "must be [low, high], got one number".to_string(),
+                    n => format!("must be [low, high], got {n} numbers"),
+                },
             )),
         }
     }
