@@ -60,3 +60,26 @@ fn a_file_changed_on_disk_is_overwritten_only_after_a_yes() {
     assert_eq!(app.mode, Mode::Normal);
     assert!(std::fs::read_to_string(&path).unwrap().contains("third"));
 }
+
+#[test]
+fn opening_and_saving_a_file_with_comments_says_they_are_not_kept() {
+    let dir = std::env::temp_dir().join(format!("ebb-tui-remarks-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(&dir).unwrap();
+    let path = dir.join("case.toml");
+    // The demo case opens with # comments.
+    assert!(ebb::demo::DEMO_CASE.starts_with('#'));
+    std::fs::write(&path, ebb::demo::DEMO_CASE).unwrap();
+    let mut app = App::open_in(&path, Profiles::load(None));
+    let said = app.message.as_ref().unwrap().text.clone();
+    assert!(said.contains("# comments"), "{said}");
+    save(&mut app);
+    let said = app.message.as_ref().unwrap().text.clone();
+    assert!(said.contains("were not kept"), "{said}");
+    // Saved once, the file has no comments left; the next save says nothing of them.
+    app.file.drug.name = Some("again".into());
+    save(&mut app);
+    let said = app.message.as_ref().unwrap().text.clone();
+    assert!(!said.contains("were not kept"), "{said}");
+    let _ = std::fs::remove_dir_all(&dir);
+}

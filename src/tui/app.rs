@@ -187,6 +187,8 @@ pub struct App {
     pub figures: Figures,
     /// Quit as soon as the pending save succeeds.
     pub quit_after_save: bool,
+    /// The file the case came from holds `#` comments, which a save does not keep.
+    pub had_comments: bool,
     /// The drug profiles on offer (built-in and the override directory).
     pub profiles: Profiles,
     /// What the file at `path` held when opened or last saved: a save over anything else
@@ -213,6 +215,7 @@ impl App {
             message: None,
             figures,
             quit_after_save: false,
+            had_comments: false,
             profiles,
             on_disk: store::Expect::Unchanged(None),
             pending_overwrite: None,
@@ -276,6 +279,13 @@ impl App {
                 let mut app = App::with_file(file, path.display().to_string(), profiles);
                 app.path = Some(path.to_path_buf());
                 app.on_disk = on_disk;
+                app.had_comments = std::fs::read_to_string(path)
+                    .ok()
+                    .and_then(|t| crate::cli::store::first_comment_line(&t))
+                    .is_some();
+                if app.had_comments {
+                    app.say(strings::COMMENTS_NOT_KEPT);
+                }
                 app
             }
             Err(e) => {

@@ -271,6 +271,13 @@ pub fn level_use_now(row: usize, used: bool) -> String {
 pub fn saved_to(path: &str) -> String {
     format!("Saved to {path}.")
 }
+/// A save that dropped the file's `#` comments.
+pub fn saved_without_comments(path: &str) -> String {
+    format!("Saved to {path}; the # comments the file had were not kept.")
+}
+/// Said on opening a file that holds comments.
+pub const COMMENTS_NOT_KEPT: &str =
+    "This file has # comments: saving from here rewrites it without them (keep a copy if they matter).";
 /// A failed save.
 pub fn save_failed(path: &str, why: &str) -> String {
     format!("Not saved to {path}: {why}")

@@ -704,7 +704,11 @@ fn save_expecting(app: &mut App, path: PathBuf, expect: store::Expect) {
             app.saved = app.file.clone();
             app.load_error = None;
             app.title = path.display().to_string();
-            app.say(strings::saved_to(&app.title));
+            if std::mem::take(&mut app.had_comments) {
+                app.say(strings::saved_without_comments(&app.title));
+            } else {
+                app.say(strings::saved_to(&app.title));
+            }
             app.path = Some(path);
             if app.quit_after_save {
                 app.mode = Mode::Quitting;
