@@ -258,3 +258,32 @@ fn asked_bayesian_with_two_levels_uses_both() {
     assert_eq!(f.method, Method::Bayesian);
     assert_eq!(f.used.len(), 2);
 }
+
+#[test]
+fn the_built_in_gentamicin_profile_gives_a_bayesian_fit_from_one_level() {
+    // One level after one dose: no two-level fit is possible, so the method falls to the
+    // profile's population priors (their sources are in drug-profiles/gentamicin.toml).
+    let text = r#"
+[patient]
+weight_kg = 70.0
+[drug]
+level_unit = "mg/L"
+profile = "gentamicin"
+[[dose]]
+time = 2027-01-01T00:00:00
+amount_mg = 100.0
+route = "infusion"
+infusion_h = 0.5
+[[level]]
+time = 2027-01-01T03:00:00
+value = 3.0
+"#;
+    let file = ebb::core::casefile::CaseFile::parse(text).unwrap();
+    let case = ebb::cli::validate_with_profile(&file, None).unwrap();
+    let r = ebb::cli::report_with_profile(&case, "one.toml", None).unwrap();
+    assert_eq!(r.fit.method, "bayesian");
+    // The estimate comes with its 95 % interval.
+    let [lo, hi] = r.fit.k_ci95_per_h.unwrap();
+    assert!(lo < r.fit.k_per_h && r.fit.k_per_h < hi);
+    assert!(r.fit.volume_l.unwrap() > 0.0);
+}

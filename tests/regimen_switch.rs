@@ -150,7 +150,7 @@ fn bad_resume_and_target_settings_name_the_field() {
         ),
         (
             "[targets]\nauc24 = [400.0]\n",
-            "targets.auc24: must be [low, high], got 1 numbers",
+            "targets.auc24: must be [low, high], got one number",
         ),
         (
             "[targets]\ntrough_max = -1.0\n",
