@@ -64,28 +64,16 @@ fn confirm(app: &mut App, c: Confirm, action: Action) {
             app.quit_after_save = true;
             save(app);
         }
-        (Confirm::DeleteDose(i), Action::Yes) => {
-            app.mode = Mode::Normal;
-            let r = app.change(|f| {
-                if i < f.doses.len() {
-                    f.doses.remove(i);
-                }
-                Ok(())
-            });
-            report(app, r, strings::dose_deleted(i + 1));
-            clamp_cursor(app);
-        }
-        (Confirm::DeleteLevel(i), Action::Yes) => {
-            app.mode = Mode::Normal;
-            let r = app.change(|f| {
-                if i < f.levels.len() {
-                    f.levels.remove(i);
-                }
-                Ok(())
-            });
-            report(app, r, strings::level_deleted(i + 1));
-            clamp_cursor(app);
-        }
+        (Confirm::DeleteDose(i), Action::Yes) => remove_confirmed(
+            app,
+            |f| remove_at(&mut f.doses, i),
+            strings::dose_deleted(i + 1),
+        ),
+        (Confirm::DeleteLevel(i), Action::Yes) => remove_confirmed(
+            app,
+            |f| remove_at(&mut f.levels, i),
+            strings::level_deleted(i + 1),
+        ),
         (Confirm::Overwrite, Action::Yes) => {
             app.mode = Mode::Normal;
             if let Some(path) = app.pending_overwrite.take() {
@@ -105,6 +93,23 @@ fn confirm(app: &mut App, c: Confirm, action: Action) {
         }
         (_, Action::Quit) => app.mode = Mode::Normal,
         _ => {}
+    }
+}
+
+/// Delete a row the user has confirmed, say so, and keep the cursor on a line that exists.
+fn remove_confirmed(app: &mut App, remove: impl FnOnce(&mut CaseFile), done: String) {
+    app.mode = Mode::Normal;
+    let r = app.change(|f| {
+        remove(f);
+        Ok(())
+    });
+    report(app, r, done);
+    clamp_cursor(app);
+}
+
+fn remove_at<T>(rows: &mut Vec<T>, i: usize) {
+    if i < rows.len() {
+        rows.remove(i);
     }
 }
 
