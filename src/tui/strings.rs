@@ -471,6 +471,8 @@ pub const IN_FIT: &str = "in fit";
 pub const NOT_IN_FIT: &str = "other dose";
 /// Level status.
 pub const LEFT_OUT: &str = "left out";
+/// Level status: the pre-dose level the volume came from (Sawchuk-Zaske).
+pub const PRE_DOSE: &str = "pre-dose V";
 /// Heading.
 pub const WARNINGS: &str = "Warnings";
 /// No warnings.

@@ -130,6 +130,7 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
         let (sym, style) = mark_symbol(kind.0);
         let status = match kind.0 {
             MarkKind::InFit => strings::IN_FIT,
+            _ if fit.pre_dose_level == Some(i) => strings::PRE_DOSE,
             MarkKind::NotInFit => strings::NOT_IN_FIT,
             _ => strings::LEFT_OUT,
         };
