@@ -4,7 +4,7 @@
 use std::path::{Path, PathBuf};
 
 use crate::cli::store as safe;
-use crate::core::casefile::{CaseFile, DoseFile, FitFile, LevelFile, TargetsFile};
+use crate::core::casefile::{CaseFile, DoseFile, FitFile, LevelFile, PlanFile, TargetsFile};
 use crate::core::fit::CHOICES;
 use crate::core::note::{note_text, NoteFormat};
 use crate::tui::action::Action;
@@ -597,78 +597,88 @@ fn tidy(x: f64) -> f64 {
     (x * 1.0e6).round() / 1.0e6
 }
 
-fn plan_dose(app: &mut App, up: bool) {
+/// Adjust the plan with `adjust`, then say what it is now (`said`). With no plan yet, the
+/// first adjusting key only starts one from the last dose.
+fn adjust_plan(
+    app: &mut App,
+    adjust: impl FnOnce(&mut PlanFile) -> Result<(), String>,
+    said: fn(&App) -> String,
+) {
     let had = app.file.plan.is_some();
     let r = app.change(|f| {
-        if !had {
-            fields::plan_mut(f);
-            return Ok(());
-        }
         let p = fields::plan_mut(f);
-        let step = dose_step(if up { p.dose_mg } else { p.dose_mg * 0.95 });
-        let next = if up {
-            p.dose_mg + step
+        if had {
+            adjust(p)
         } else {
-            p.dose_mg - step
-        };
-        if next <= 0.0 {
-            return Err(strings::DOSE_AT_LEAST.into());
+            Ok(())
         }
-        p.dose_mg = tidy((next / step).round() * step);
-        Ok(())
     });
-    plan_said(app, r, had, strings::plan_dose_now);
+    plan_said(app, r, had, said);
+}
+
+fn plan_dose(app: &mut App, up: bool) {
+    adjust_plan(
+        app,
+        |p| {
+            let step = dose_step(if up { p.dose_mg } else { p.dose_mg * 0.95 });
+            let next = if up {
+                p.dose_mg + step
+            } else {
+                p.dose_mg - step
+            };
+            if next <= 0.0 {
+                return Err(strings::DOSE_AT_LEAST.into());
+            }
+            p.dose_mg = tidy((next / step).round() * step);
+            Ok(())
+        },
+        strings::plan_dose_now,
+    );
 }
 
 fn plan_interval(app: &mut App, up: bool) {
-    let had = app.file.plan.is_some();
-    let r = app.change(|f| {
-        if !had {
-            fields::plan_mut(f);
-            return Ok(());
-        }
-        let p = fields::plan_mut(f);
-        let now = p.interval_h;
-        let next = if up {
-            INTERVALS_H.iter().copied().find(|v| *v > now + 1e-9)
-        } else {
-            INTERVALS_H.iter().rev().copied().find(|v| *v < now - 1e-9)
-        };
-        match next {
-            Some(v) => {
-                p.interval_h = v;
-                Ok(())
+    adjust_plan(
+        app,
+        |p| {
+            let now = p.interval_h;
+            let next = if up {
+                INTERVALS_H.iter().copied().find(|v| *v > now + 1e-9)
+            } else {
+                INTERVALS_H.iter().rev().copied().find(|v| *v < now - 1e-9)
+            };
+            match next {
+                Some(v) => {
+                    p.interval_h = v;
+                    Ok(())
+                }
+                None => Err(strings::NO_FURTHER_INTERVAL.into()),
             }
-            None => Err(strings::NO_FURTHER_INTERVAL.into()),
-        }
-    });
-    plan_said(app, r, had, strings::plan_interval_now);
+        },
+        strings::plan_interval_now,
+    );
 }
 
 fn plan_infusion(app: &mut App, up: bool) {
-    let had = app.file.plan.is_some();
-    let r = app.change(|f| {
-        if !had {
-            fields::plan_mut(f);
-            return Ok(());
-        }
-        let p = fields::plan_mut(f);
-        if p.route != "infusion" {
-            return Err(strings::NOT_AN_INFUSION.into());
-        }
-        let now = p.infusion_h.unwrap_or(fields::DEFAULT_INFUSION_H);
-        let next = if up {
-            now + INFUSION_STEP_H
-        } else {
-            now - INFUSION_STEP_H
-        };
-        if next < INFUSION_STEP_H - 1e-9 {
-            return Err(strings::INFUSION_AT_LEAST.into());
-        }
-        p.infusion_h = Some(tidy(next));
-        Ok(())
-    });
-    plan_said(app, r, had, strings::plan_infusion_now);
+    adjust_plan(
+        app,
+        |p| {
+            if p.route != "infusion" {
+                return Err(strings::NOT_AN_INFUSION.into());
+            }
+            let now = p.infusion_h.unwrap_or(fields::DEFAULT_INFUSION_H);
+            let next = if up {
+                now + INFUSION_STEP_H
+            } else {
+                now - INFUSION_STEP_H
+            };
+            if next < INFUSION_STEP_H - 1e-9 {
+                return Err(strings::INFUSION_AT_LEAST.into());
+            }
+            p.infusion_h = Some(tidy(next));
+            Ok(())
+        },
+        strings::plan_infusion_now,
+    );
 }
 
 fn save(app: &mut App) {
