@@ -29,38 +29,8 @@ fn keys(v: &Value) -> BTreeSet<String> {
         .collect()
 }
 
-/// The contract's keys (case-and-report.md, "ebb report CASE.toml --json").
-const TOP: &[&str] = &["fit", "plan", "threshold", "washout", "warnings"];
-const FIT: &[&str] = &[
-    "method",
-    "levels_used",
-    "k_per_h",
-    "half_life_h",
-    "r_squared",
-    "k_ci95_per_h",
-    "half_life_ci95_h",
-    "volume_l",
-    "volume_method",
-    "clearance_l_per_h",
-];
-const PLAN: &[&str] = &[
-    "accumulation_factor",
-    "peak_ss",
-    "trough_ss",
-    "auc24_ss",
-    "time_to_90pct_ss_h",
-    "time_to_95pct_ss_h",
-    "time_to_97pct_ss_h",
-    "meets_targets",
-];
-const THRESHOLD: &[&str] = &[
-    "below",
-    "reached_at",
-    "reached_at_ci95",
-    "latest_plan_dose",
-    "level_at_procedure",
-];
-const WASHOUT: &[&str] = &["half_lives", "at", "level", "fraction_remaining"];
+mod common;
+use common::{FIT, PLAN, THRESHOLD, TOP, WASHOUT};
 
 /// Keys beyond the contract's: the contract allows additions only when documented, so
 /// every extra key must be named in docs/.
