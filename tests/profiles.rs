@@ -8,6 +8,8 @@
 //! [UKMi-Gent][MedscapeGent]; vancomycin AUC24 400-600 [Rybak20]; digoxin oral F 0.7
 //! [Lausanne-Dig]; keys as in drug-facts.md).
 
+mod common;
+
 use std::path::{Path, PathBuf};
 
 use ebb::core::model::Route;
@@ -510,34 +512,12 @@ fn an_unknown_profile_is_an_error_at_drug_profile() {
 // ---------------------------------------------------------------- overrides
 
 fn local_profile(display: &str, peak: (f64, f64)) -> String {
-    format!(
-        r#"schema = 1
-display_name = "{display}"
-level_unit = "mg/L"
-default_strategy = "local"
-half_life_h = {{ low = 1.5, high = 4.0, source = "[Local]" }}
-cautions = ["Local protocol [Local]."]
-
-[volume]
-l_per_kg = {{ low = 0.2, high = 0.3, source = "[Local]" }}
-weight = "ideal"
-weight_source = "[Local]"
-
-[kinetics]
-first_order = "yes"
-why = "linear"
-source = "[Local]"
-
-[[strategy]]
-name = "local"
-label = "Local protocol"
-sampling = "as the protocol says"
-peak = {{ low = {:?}, high = {:?}, source = "[Local]" }}
-
-[sources]
-Local = "Invented hospital protocol for tests, version 1"
-"#,
-        peak.0, peak.1
+    common::local_profile(
+        display,
+        &format!(
+            "peak = {{ low = {:?}, high = {:?}, source = \"[Local]\" }}",
+            peak.0, peak.1
+        ),
     )
 }
 

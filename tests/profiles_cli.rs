@@ -3,6 +3,8 @@
 //! Values checked are the shipped profiles' own (gentamicin conventional peak 5-10 mg/L
 //! [UKMi-Gent][MedscapeGent], as in drug-facts.md); cases are invented.
 
+mod common;
+
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
 
@@ -27,33 +29,9 @@ fn scratch(test: &str) -> PathBuf {
 }
 
 fn local(dir: &Path, stem: &str, display: &str) {
-    let body = format!(
-        r#"schema = 1
-display_name = "{display}"
-level_unit = "mg/L"
-default_strategy = "local"
-half_life_h = {{ low = 1.5, high = 4.0, source = "[Local]" }}
-cautions = ["Local protocol [Local]."]
-
-[volume]
-l_per_kg = {{ low = 0.2, high = 0.3, source = "[Local]" }}
-weight = "ideal"
-weight_source = "[Local]"
-
-[kinetics]
-first_order = "yes"
-why = "linear"
-source = "[Local]"
-
-[[strategy]]
-name = "local"
-label = "Local protocol"
-sampling = "as the protocol says"
-trough_max = {{ value = 1.5, source = "[Local]" }}
-
-[sources]
-Local = "Invented hospital protocol for tests, version 1"
-"#
+    let body = common::local_profile(
+        display,
+        "trough_max = { value = 1.5, source = \"[Local]\" }",
     );
     std::fs::write(dir.join(format!("{stem}.toml")), body).unwrap();
 }

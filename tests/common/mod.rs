@@ -1,4 +1,4 @@
-//! What several integration tests share: the contract's JSON keys.
+//! What several integration tests share: the contract's JSON keys and a local drug profile.
 #![allow(dead_code)]
 
 /// The contract's keys (case-and-report.md, "ebb report CASE.toml --json").
@@ -33,3 +33,36 @@ pub const THRESHOLD: &[&str] = &[
     "level_at_procedure",
 ];
 pub const WASHOUT: &[&str] = &["half_lives", "at", "level", "fraction_remaining"];
+
+/// A local drug profile (an invented hospital protocol, for tests only) whose one strategy
+/// holds `target_line`, e.g. `trough_max = { value = 1.5, source = "[Local]" }`.
+pub fn local_profile(display: &str, target_line: &str) -> String {
+    format!(
+        r#"schema = 1
+display_name = "{display}"
+level_unit = "mg/L"
+default_strategy = "local"
+half_life_h = {{ low = 1.5, high = 4.0, source = "[Local]" }}
+cautions = ["Local protocol [Local]."]
+
+[volume]
+l_per_kg = {{ low = 0.2, high = 0.3, source = "[Local]" }}
+weight = "ideal"
+weight_source = "[Local]"
+
+[kinetics]
+first_order = "yes"
+why = "linear"
+source = "[Local]"
+
+[[strategy]]
+name = "local"
+label = "Local protocol"
+sampling = "as the protocol says"
+{target_line}
+
+[sources]
+Local = "Invented hospital protocol for tests, version 1"
+"#
+    )
+}
