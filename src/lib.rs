@@ -6,6 +6,7 @@
 #![deny(missing_docs)]
 #![cfg_attr(not(test), deny(clippy::unwrap_used, clippy::panic))]
 
+pub mod analysis;
 pub mod cli;
 pub mod core;
 pub mod demo;

@@ -179,8 +179,8 @@ fn report(files: &[PathBuf], json: bool, demo: bool, dir: Option<&Path>) -> Exit
     let mut failed = false;
     if demo {
         let mut buf = Vec::new();
-        let r = ebb::cli::load_demo()
-            .and_then(|c| ebb::cli::write_report_with(&mut buf, &c, "demo", json, dir));
+        let r = ebb::cli::analyse_demo(dir)
+            .and_then(|a| ebb::cli::write_report(&mut buf, &a, "demo", json));
         match r {
             Ok(()) => {
                 let _ = stdout.lock().write_all(&buf);
@@ -198,8 +198,8 @@ fn report(files: &[PathBuf], json: bool, demo: bool, dir: Option<&Path>) -> Exit
     for (i, path) in files.iter().enumerate() {
         let mut buf = Vec::new();
         let name = path.display().to_string();
-        let r = ebb::cli::load_case_with(path, dir)
-            .and_then(|c| ebb::cli::write_report_with(&mut buf, &c, &name, json, dir));
+        let r = ebb::cli::analyse_file(path, dir)
+            .and_then(|a| ebb::cli::write_report(&mut buf, &a, &name, json));
         match r {
             Ok(()) => {
                 let mut out = stdout.lock();
@@ -232,8 +232,8 @@ fn note(file: &Path, output: Option<&Path>, markdown: bool, dir: Option<&Path>) 
     };
     let meta = ebb::cli::note::meta_now(&name);
     let mut buf = Vec::new();
-    let r = ebb::cli::load_case_with(file, dir)
-        .and_then(|c| ebb::cli::note::write_note(&mut buf, &c, &name, format, &meta, dir))
+    let r = ebb::cli::analyse_file(file, dir)
+        .and_then(|a| ebb::cli::note::write_note(&mut buf, &a, &name, format, &meta))
         .and_then(|()| match output {
             Some(o) => ebb::cli::note::write_file(o, &String::from_utf8_lossy(&buf)),
             None => std::io::stdout()
@@ -253,8 +253,8 @@ fn note(file: &Path, output: Option<&Path>, markdown: bool, dir: Option<&Path>) 
 /// `ebb plot`: the SVG drawing of a case.
 fn plot(file: &Path, output: &Path, dir: Option<&Path>) -> ExitCode {
     let name = file.display().to_string();
-    let r = ebb::cli::load_case_with(file, dir)
-        .and_then(|c| ebb::cli::plot::plot_svg(&c).map_err(|e| e.in_file(&name)))
+    let r = ebb::cli::analyse_file(file, dir)
+        .and_then(|a| ebb::cli::plot::plot_svg(&a, &name))
         .and_then(|svg| ebb::cli::note::write_file(output, &svg));
     match r {
         Ok(()) => ExitCode::SUCCESS,

@@ -279,8 +279,11 @@ time = 2027-01-01T03:00:00
 value = 3.0
 "#;
     let file = ebb::core::casefile::CaseFile::parse(text).unwrap();
-    let case = ebb::cli::validate_with_profile(&file, None).unwrap();
-    let r = ebb::cli::report_with_profile(&case, "one.toml", None).unwrap();
+    let r = ebb::cli::analyse_parsed(&file, None)
+        .unwrap()
+        .finished()
+        .unwrap()
+        .report;
     assert_eq!(r.fit.method, "bayesian");
     // The estimate comes with its 95 % interval.
     let [lo, hi] = r.fit.k_ci95_per_h.unwrap();

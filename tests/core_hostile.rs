@@ -158,14 +158,18 @@ fn check_json(json: &str, text: &str) -> Result<(), TestCaseError> {
 fn check(text: &str) -> Result<(), TestCaseError> {
     let path = scratch_file(text);
     let outcome = cli::load_case_with(&path, None);
+    let analysis = cli::analyse_file(&path, None);
     let _ = std::fs::remove_file(&path);
     let case = match outcome {
         Ok(c) => c,
         Err(e) => return check_rejection(&e, text),
     };
+    let Ok(analysis) = analysis else {
+        return Err(TestCaseError::fail("the case loaded, so it must analyse"));
+    };
     for as_json in [false, true] {
         let mut out = Vec::new();
-        match cli::write_report_with(&mut out, &case, "case.toml", as_json, None) {
+        match cli::write_report(&mut out, &analysis, "case.toml", as_json) {
             Err(e) => check_rejection(&e, text)?,
             Ok(()) => {
                 let out = String::from_utf8(out).unwrap();

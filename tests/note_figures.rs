@@ -99,7 +99,7 @@ fn every_figure_of_the_report_is_in_the_note() {
             assert!(n.contains(&when(&s)), "{format:?} lacks {}", when(&s));
         }
         for w in &r.warnings {
-            assert!(n.contains(w.as_str()), "{format:?} lacks warning {w}");
+            assert!(n.contains(w.text()), "{format:?} lacks warning {w}");
         }
         assert!(n.contains(report::CAUTION));
         assert!(n.contains("2027-03-04 07:15") && n.contains("ebb 9.9.9"));

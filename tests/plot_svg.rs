@@ -4,8 +4,8 @@ use ebb::cli::plot::{self, LEGEND};
 use ebb::core::casefile::CaseFile;
 
 fn svg_of(text: &str) -> String {
-    let case = CaseFile::parse(text).unwrap().validate().unwrap();
-    plot::plot_svg(&case).unwrap()
+    let file = CaseFile::parse(text).unwrap();
+    plot::plot_svg(&ebb::cli::analyse_parsed(&file, None).unwrap(), "case.toml").unwrap()
 }
 
 fn texts(doc: &roxmltree::Document) -> Vec<String> {
@@ -75,7 +75,8 @@ route = "bolus"
 time = 2027-03-02T10:00:00
 value = 4.0
 "#;
-    let case = CaseFile::parse(text).unwrap().validate().unwrap();
-    let e = plot::plot_svg(&case).unwrap_err().to_string();
+    let file = CaseFile::parse(text).unwrap();
+    let a = ebb::cli::analyse_parsed(&file, None).unwrap();
+    let e = plot::plot_svg(&a, "case.toml").unwrap_err().to_string();
     assert!(e.contains("level"), "{e}");
 }

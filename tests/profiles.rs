@@ -213,9 +213,14 @@ fn gent(unit: &str, first: &str, a: f64, b: f64) -> String {
 fn warnings_of(test: &str, text: &str) -> Vec<String> {
     let dir = scratch(test);
     let path = write(&dir, "case.toml", text);
-    let case = ebb::cli::load_case_with(&path, None).unwrap();
     let mut out = Vec::new();
-    ebb::cli::write_report_with(&mut out, &case, "case.toml", true, None).unwrap();
+    ebb::cli::write_report(
+        &mut out,
+        &ebb::cli::analyse_file(&path, None).unwrap(),
+        "case.toml",
+        true,
+    )
+    .unwrap();
     let v: serde_json::Value = serde_json::from_slice(&out).unwrap();
     v["warnings"]
         .as_array()
@@ -450,9 +455,14 @@ route = "oral"
 fn phenytoin_refuses_projections_but_shows_the_levels() {
     let dir = scratch("phenytoin");
     let path = write(&dir, "p.toml", PHENYTOIN);
-    let case = ebb::cli::load_case_with(&path, None).unwrap();
     let mut out = Vec::new();
-    ebb::cli::write_report_with(&mut out, &case, "p.toml", false, None).unwrap();
+    ebb::cli::write_report(
+        &mut out,
+        &ebb::cli::analyse_file(&path, None).unwrap(),
+        "p.toml",
+        false,
+    )
+    .unwrap();
     let text = String::from_utf8(out).unwrap();
     assert!(text.contains("NO PROJECTION: Phenytoin does not follow first-order kinetics"));
     assert!(text.contains("saturable (Michaelis-Menten)"));
@@ -462,9 +472,14 @@ fn phenytoin_refuses_projections_but_shows_the_levels() {
     assert!(!text.contains("Washout") && !text.contains("steady state  "));
 
     let mut out = Vec::new();
-    let e = ebb::cli::write_report_with(&mut out, &case, "p.toml", true, None)
-        .unwrap_err()
-        .to_string();
+    let e = ebb::cli::write_report(
+        &mut out,
+        &ebb::cli::analyse_file(&path, None).unwrap(),
+        "p.toml",
+        true,
+    )
+    .unwrap_err()
+    .to_string();
     assert!(out.is_empty(), "nothing on stdout in JSON");
     assert!(
         e.starts_with(
@@ -485,9 +500,14 @@ fn a_first_order_drug_is_not_refused() {
     let text = PHENYTOIN.replace("\"phenytoin\"\nlevel_unit", "\"carbamazepine\"\nlevel_unit");
     let dir = scratch("cbz");
     let path = write(&dir, "c.toml", &text);
-    let case = ebb::cli::load_case_with(&path, None).unwrap();
     let mut out = Vec::new();
-    ebb::cli::write_report_with(&mut out, &case, "c.toml", false, None).unwrap();
+    ebb::cli::write_report(
+        &mut out,
+        &ebb::cli::analyse_file(&path, None).unwrap(),
+        "c.toml",
+        false,
+    )
+    .unwrap();
     let text = String::from_utf8(out).unwrap();
     assert!(text.contains("Washout"));
     assert!(!text.contains("NO PROJECTION"));

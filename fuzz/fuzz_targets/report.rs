@@ -4,9 +4,9 @@
 
 use std::sync::OnceLock;
 
-use ebb::core::casefile::{CaseFile, Defaults};
+use ebb::core::casefile::CaseFile;
 use ebb::core::note::{self, NoteFormat, NoteMeta};
-use ebb::profiles::{self, Catalog};
+use ebb::profiles::Catalog;
 use libfuzzer_sys::fuzz_target;
 
 fn all_finite(v: &serde_json::Value) -> bool {
@@ -36,19 +36,9 @@ fuzz_target!(|data: &[u8]| {
     let Ok(file) = CaseFile::parse(text) else {
         return;
     };
-    // The profile's defaults, as `ebb report` resolves them.
-    let defaults = match &file.drug.profile {
-        None => Defaults::default(),
-        Some(name) => match catalog().get(name) {
-            None => return,
-            Some(entry) => profiles::defaults_for(
-                &entry.profile,
-                file.drug.level_unit.as_deref(),
-                file.drug.molar_mass_g_mol,
-            ),
-        },
-    };
-    let Ok(case) = file.validate_with(&defaults) else {
+    // The one analysis `ebb report` runs, with the built-in profiles.
+    let analysis = ebb::analysis::analyse(&file, catalog());
+    let Some(case) = analysis.case.clone() else {
         return;
     };
     // Free text (names, notes) is echoed in the output; when the input itself holds one of
@@ -56,7 +46,7 @@ fuzz_target!(|data: &[u8]| {
     let check_words = !non_finite_word(text);
     for as_json in [false, true] {
         let mut out = Vec::new();
-        if ebb::cli::write_report_with(&mut out, &case, "fuzz", as_json, None).is_ok() {
+        if ebb::cli::write_report(&mut out, &analysis, "fuzz", as_json).is_ok() {
             let out = String::from_utf8(out).expect("the report is UTF-8");
             if as_json {
                 let value: serde_json::Value = serde_json::from_str(&out).expect("JSON");

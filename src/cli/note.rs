@@ -4,9 +4,11 @@
 use std::io::Write;
 use std::path::Path;
 
+use crate::analysis::Analysis;
 use crate::core::case::Case;
 use crate::core::error::{Error, Result};
 use crate::core::note::{self, NoteFormat, NoteMeta};
+use crate::core::report::Report;
 
 /// The note's metadata for a case file named `source`, made now.
 pub fn meta_now(source: &str) -> NoteMeta {
@@ -17,21 +19,35 @@ pub fn meta_now(source: &str) -> NoteMeta {
     }
 }
 
-/// Build the note of `case` and write it to `out`.
+/// Build the note of an analysis and write it to `out`.
 ///
 /// # Errors
-/// The fit's or the projection's errors with `name` in front, or a write error.
+/// The step that stopped the analysis with `name` in front (a drug whose profile refuses
+/// first-order projections gets no note), or a write error.
 pub fn write_note(
     out: &mut dyn Write,
-    case: &Case,
+    a: &Analysis,
     name: &str,
     format: NoteFormat,
     meta: &NoteMeta,
-    profiles_dir: Option<&Path>,
 ) -> Result<()> {
-    let r = crate::cli::report_with_profile(case, name, profiles_dir)?;
-    note::write_note(out, case, &r, meta, format)
+    let (case, r) = finished(a, name)?;
+    note::write_note(out, case, r, meta, format)
         .map_err(|e| Error::invalid("output", e.to_string()))
+}
+
+/// The case and report of a finished analysis, or the reason there are none.
+///
+/// # Errors
+/// The step that stopped the analysis, with `name` in front.
+pub fn finished<'a>(a: &'a Analysis, name: &str) -> Result<(&'a Case, &'a Report)> {
+    if let Some(stop) = &a.stop {
+        return Err(stop.to_error(a.profile.as_ref()).in_file(name));
+    }
+    match (&a.case, &a.report) {
+        (Some(c), Some(r)) => Ok((c, r)),
+        _ => Err(Error::Fit("the analysis did not finish".into()).in_file(name)),
+    }
 }
 
 /// Write `text` to `path`, creating or replacing it the safe way (a temporary file beside

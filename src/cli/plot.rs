@@ -4,11 +4,13 @@
 
 use plotters::prelude::*;
 
+use crate::analysis::Analysis;
 use crate::core::case::Case;
 use crate::core::error::{Error, Result};
-use crate::core::fit::{self, Fit};
+use crate::core::fit::Fit;
+use crate::core::format::num;
 use crate::core::project::Patient;
-use crate::core::report::{self, Report};
+use crate::core::report::Report;
 
 /// Width and height of the drawing, in SVG pixels.
 pub const SIZE: (u32, u32) = (960, 600);
@@ -33,14 +35,16 @@ fn draw_err(e: impl std::fmt::Display) -> Error {
     Error::invalid("plot", format!("cannot draw: {e}"))
 }
 
-/// Fit the case and draw its plot as an SVG document.
+/// Draw the plot of an analysis as an SVG document.
 ///
 /// # Errors
-/// The fit's or the report's errors, or a drawing error.
-pub fn plot_svg(case: &Case) -> Result<String> {
-    let fit = fit::fit(case)?;
-    let r = report::build_from_fit(case, &fit)?;
-    plot_svg_from(case, &fit, &r)
+/// The step that stopped the analysis (with `name` in front), or a drawing error.
+pub fn plot_svg(a: &Analysis, name: &str) -> Result<String> {
+    let (case, r) = crate::cli::note::finished(a, name)?;
+    match &a.fit {
+        Some(fit) => plot_svg_from(case, fit, r).map_err(|e| e.in_file(name)),
+        None => Err(Error::Fit("the analysis did not finish".into()).in_file(name)),
+    }
 }
 
 /// Sample times over [a, b], with the moments just before and after each dose and at each
@@ -164,9 +168,9 @@ pub fn plot_svg_from(case: &Case, fit: &Fit, r: &Report) -> Result<String> {
 
     let clock = case.clock;
     let label_x = move |h: &f64| -> String {
-        clock.at_minute(*h).map_or(String::new(), |s| {
-            s.wall().format("%d %b %H:%M").to_string()
-        })
+        clock
+            .at_minute(*h)
+            .map_or(String::new(), |s| s.axis_label())
     };
 
     let mut svg = String::new();
@@ -190,7 +194,7 @@ pub fn plot_svg_from(case: &Case, fit: &Fit, r: &Report) -> Result<String> {
             .x_labels(8)
             .y_labels(10)
             .x_label_formatter(&label_x)
-            .y_label_formatter(&|y: &f64| report::num(*y))
+            .y_label_formatter(&|y: &f64| num(*y))
             .x_desc("clock time")
             .y_desc(format!("level ({u}, log scale)"))
             .light_line_style(WHITE)
@@ -244,7 +248,7 @@ pub fn plot_svg_from(case: &Case, fit: &Fit, r: &Report) -> Result<String> {
             chart
                 .draw_series(DashedLineSeries::new([(x0, b), (x1, b)], 16, 4, grey))
                 .map_err(draw_err)?
-                .label(format!("{} ({} {u})", LEGEND[5], report::num(b)))
+                .label(format!("{} ({} {u})", LEGEND[5], num(b)))
                 .legend(move |(x, y)| Rectangle::new([(x, y - 1), (x + 16, y + 1)], grey.filled()));
         }
         if let Some(tp) = procedure.filter(|t| *t >= x0 && *t <= x1) {

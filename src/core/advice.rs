@@ -2,6 +2,7 @@
 //! regimens, the loading dose, the proportional adjustment, AUC24 by two methods side by side,
 //! and the switch to another agent. `report` builds them through `build`.
 
+use crate::core::warning::{Code, Warning};
 use std::io::{self, Write};
 
 use crate::core::auc;
@@ -9,10 +10,10 @@ use crate::core::case::Case;
 use crate::core::clock::Stamp;
 use crate::core::error::{Error, Result};
 use crate::core::fit::{self, Fit};
+use crate::core::format::{num, when};
 use crate::core::model::Route;
 use crate::core::project::Patient;
 use crate::core::regimen::{self, Advice};
-use crate::core::report::{num, when};
 use crate::core::switch::{self, SwitchRule};
 
 /// The published name of the two-level AUC method.
@@ -193,7 +194,7 @@ pub fn build(
     case: &Case,
     fit: &Fit,
     plan_peak_mg_l: Option<f64>,
-    warnings: &mut Vec<String>,
+    warnings: &mut Vec<Warning>,
 ) -> Result<AdvicePart> {
     let p = Patient::new(case, fit);
     let scale = case.drug.scale;
@@ -260,9 +261,9 @@ pub fn build(
         let (start, end) = (p.level_mg_l(dose_t), p.level_mg_l(dose_t + a.interval_h));
         let apart = p.v().is_none() || (start - end).abs() > 0.1 * start.max(end);
         if apart {
-            warnings.push(
-                "AUC24 from two levels assumes steady state (the level at the start of the interval equals the one at its end); this interval is not at steady state, so it differs from the k-and-V figure".into(),
-            );
+            warnings.push(Warning::new(Code::AucNotSteady,
+                "AUC24 from two levels assumes steady state (the level at the start of the interval equals the one at its end); this interval is not at steady state, so it differs from the k-and-V figure",
+            ));
         }
     }
     let switch = match &case.switch {

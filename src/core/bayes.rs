@@ -9,133 +9,18 @@
 //! intervals use the normal quantile 1.96. The weight is the case's recorded (total) body
 //! weight, for the volume and for Cockcroft-Gault alike.
 
+use crate::core::warning::{Code, Warning};
 use statrs::distribution::{ContinuousCDF, Normal};
 
 use crate::core::case::{Case, Patient};
 use crate::core::error::{Error, Result};
-use crate::core::fit::{Fit, Method};
-use crate::core::history::{self, Failure, Gaussian, Solution, Spread};
+use crate::core::fitted::{Fit, Method};
+use crate::core::history::{self, Failure, Solution};
 use crate::core::model::Given;
-use crate::core::renal::{self, CreatinineClearance};
-
-/// The typical elimination of a population, perhaps rising with creatinine clearance.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub enum Typical {
-    /// k (1/h) = `per_h` + `per_ml_min` × CrCl (mL/min).
-    RateConstant {
-        /// k at zero creatinine clearance, or the typical k when there is no slope, 1/h.
-        per_h: f64,
-        /// Rise of k per mL/min of creatinine clearance, 1/h per mL/min.
-        per_ml_min: Option<f64>,
-    },
-    /// CL (L/h) = `l_per_h` + `per_ml_min` × CrCl (mL/min).
-    Clearance {
-        /// CL at zero creatinine clearance, or the typical CL when there is no slope, L/h.
-        l_per_h: f64,
-        /// Rise of CL per mL/min of creatinine clearance, L/h per mL/min.
-        per_ml_min: Option<f64>,
-    },
-}
-
-/// Log-normal population priors for k (or CL) and V, with their sources.
-#[derive(Debug, Clone, PartialEq)]
-pub struct Prior {
-    /// Typical k or CL, with an optional creatinine-clearance slope.
-    pub typical: Typical,
-    /// Typical volume per kg of (total) body weight, L/kg.
-    pub v_l_per_kg: f64,
-    /// Between-patient SD of ln k (of ln CL when `typical` is a clearance).
-    pub omega_k: f64,
-    /// Between-patient SD of ln V.
-    pub omega_v: f64,
-    /// Residual SD of ln(level) (a proportional error of about this fraction).
-    pub residual_sd: f64,
-    /// Where the numbers come from.
-    pub sources: Vec<String>,
-}
-
-/// The population values for one patient, and the prior they make on (ln k, ln V).
-#[derive(Debug, Clone, PartialEq)]
-pub struct Population {
-    /// Typical k for this patient, 1/h.
-    pub k_per_h: f64,
-    /// Typical V for this patient, L.
-    pub volume_l: f64,
-    /// Typical CL for this patient, L/h.
-    pub clearance_l_per_h: f64,
-    /// Whether the prior is on CL (true) or on k (false).
-    pub on_clearance: bool,
-    /// The creatinine clearance used, when the prior has a slope.
-    pub creatinine_clearance: Option<CreatinineClearance>,
-    /// The weight used for V, kg (the case's recorded total body weight).
-    pub weight_kg: f64,
-    /// The prior on (ln k, ln V).
-    pub gaussian: Gaussian,
-    /// Residual SD of ln(level).
-    pub residual_sd: f64,
-    /// Between-patient SDs of ln k (or ln CL) and ln V.
-    pub omega: [f64; 2],
-}
-
-/// What the report shows of a Bayesian estimate: the population values and the move from them.
-#[derive(Debug, Clone, PartialEq)]
-pub struct Summary {
-    /// The population values for this patient.
-    pub population: Population,
-    /// How far the estimate moved from the typical k (or CL), in between-patient SDs of its log.
-    pub elimination_shift_sd: f64,
-    /// How far the estimate moved from the typical V, in between-patient SDs of ln V.
-    pub volume_shift_sd: f64,
-    /// Where the priors come from.
-    pub sources: Vec<String>,
-}
-
-impl Prior {
-    /// Check every number.
-    ///
-    /// # Errors
-    /// The first impossible value, named as `prior.FIELD`.
-    pub fn check(&self) -> Result<()> {
-        let positive = |x: f64, field: &str| {
-            if x.is_finite() && x > 0.0 {
-                Ok(())
-            } else {
-                Err(Error::invalid(
-                    format!("prior.{field}"),
-                    format!("must be above 0, got {x}"),
-                ))
-            }
-        };
-        let at_least_zero = |x: f64, field: &str| {
-            if x.is_finite() && x >= 0.0 {
-                Ok(())
-            } else {
-                Err(Error::invalid(
-                    format!("prior.{field}"),
-                    format!("must be 0 or more, got {x}"),
-                ))
-            }
-        };
-        let (base, slope, name) = match self.typical {
-            Typical::RateConstant { per_h, per_ml_min } => (per_h, per_ml_min, "k"),
-            Typical::Clearance {
-                l_per_h,
-                per_ml_min,
-            } => (l_per_h, per_ml_min, "clearance"),
-        };
-        match slope {
-            None => positive(base, name)?,
-            Some(s) => {
-                at_least_zero(base, name)?;
-                positive(s, &format!("{name}_per_ml_min"))?;
-            }
-        }
-        positive(self.v_l_per_kg, "v_l_per_kg")?;
-        positive(self.omega_k, "omega_k")?;
-        positive(self.omega_v, "omega_v")?;
-        positive(self.residual_sd, "residual_sd")
-    }
-}
+pub use crate::core::population::{Population, Summary};
+pub use crate::core::prior::{Prior, Typical};
+use crate::core::renal;
+use crate::core::spread::{Gaussian, Spread};
 
 /// The population values for this patient: typical k (or CL) from creatinine clearance when
 /// the prior has a slope, and typical V from the recorded weight.
@@ -272,29 +157,30 @@ pub fn fit(case: &Case) -> Result<Fit> {
         )
     })?;
     if used.is_empty() {
-        warnings.push(
-            "no level is in the fit: k and V are the population values for this patient, not measured ones".into(),
-        );
+        warnings.push(Warning::new(Code::PriorWeighs,
+            "no level is in the fit: k and V are the population values for this patient, not measured ones",
+        ));
     } else {
-        warnings.push(format!(
+        warnings.push(Warning::new(Code::PriorWeighs, format!(
             "k and V are a Bayesian estimate from {} and population priors: with few levels they lean on the population values",
             match used.len() {
                 1 => "one level".to_string(),
                 n => format!("{n} levels"),
             }
-        ));
+        )));
     }
     let weight_words = format!(
         "the population volume uses the recorded (total) body weight, {} kg",
         pop.weight_kg
     );
-    warnings.push(match &pop.creatinine_clearance {
+    let covariates = match &pop.creatinine_clearance {
         Some(c) => format!(
             "{weight_words}; creatinine clearance {:.0} mL/min by Cockcroft-Gault with that weight",
             c.ml_min
         ),
         None => weight_words,
-    });
+    };
+    warnings.push(Warning::new(Code::PopulationCovariates, covariates));
     let summary = summarise(&pop, sol.k, sol.v, &prior.sources);
     Ok(history::to_fit(
         case,

@@ -3,11 +3,9 @@
 //! Values here have passed validation (see `casefile`): levels are above zero, times are in
 //! order where they must be, and every unit has what it needs to convert.
 
-use crate::core::bayes::Prior;
 use crate::core::clock::{Clock, Stamp};
 use crate::core::model::{Given, Route};
-use crate::core::regimen::RegimenOptions;
-use crate::core::switch::Switch;
+use crate::core::prior::Prior;
 use crate::core::units::Scale;
 
 /// Who the patient is, as far as dosing needs (every field optional).
@@ -230,5 +228,58 @@ impl Case {
     /// The level's row number in the file, as `level N`.
     pub fn level_name(&self, i: usize) -> String {
         format!("level {}", self.levels[i].row)
+    }
+}
+
+/// The practical choices a regimen is searched over. A drug profile supplies them; until one
+/// does, `RegimenOptions::default()` holds the common ones.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RegimenOptions {
+    /// Dosing intervals to try, in hours.
+    pub intervals_h: Vec<f64>,
+    /// Doses are multiples of this many mg.
+    pub dose_step_mg: f64,
+    /// Infusion durations to try, in hours, for an infusion route. Empty: keep the duration
+    /// of the plan (or of the last recorded dose).
+    pub infusion_h: Vec<f64>,
+}
+
+impl Default for RegimenOptions {
+    /// Intervals 6, 8, 12, 24, 36 and 48 h; doses in steps of 10 mg; the infusion time of
+    /// the plan or of the last dose (common practice).
+    fn default() -> Self {
+        RegimenOptions {
+            intervals_h: vec![6.0, 8.0, 12.0, 24.0, 36.0, 48.0],
+            dose_step_mg: 10.0,
+            infusion_h: Vec::new(),
+        }
+    }
+}
+
+/// The `[switch]` section of a case: which agent comes next and when it may start.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Switch {
+    /// The next agent, free text.
+    pub to: String,
+    /// When it may start.
+    pub rule: SwitchRule,
+}
+
+/// The local protocol's rule for starting the next agent.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum SwitchRule {
+    /// Once the level is at or below this value, in the case's level unit.
+    StartBelow(f64),
+    /// After this many half-lives from the end of the last recorded dose.
+    AfterHalfLives(f64),
+}
+
+impl SwitchRule {
+    /// The name of the rule as the case file spells it (the JSON `basis`).
+    pub fn basis(&self) -> &'static str {
+        match self {
+            SwitchRule::StartBelow(_) => "start_below",
+            SwitchRule::AfterHalfLives(_) => "after_half_lives",
+        }
     }
 }

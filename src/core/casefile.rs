@@ -6,15 +6,14 @@ use chrono::{FixedOffset, NaiveDate, NaiveDateTime, NaiveTime};
 use serde::{Deserialize, Serialize};
 use toml::value::{Datetime, Offset};
 
-use crate::core::bayes::Prior;
 use crate::core::case::{
-    Case, Dose, Drug, FitChoice, Level, Patient, Plan, Sex, Targets, Threshold,
+    Case, Dose, Drug, FitChoice, Level, Patient, Plan, RegimenOptions, Sex, Switch, SwitchRule,
+    Targets, Threshold,
 };
 use crate::core::clock::{Clock, Stamp};
 use crate::core::error::{Error, Result};
 use crate::core::model::Route;
-use crate::core::regimen::RegimenOptions;
-use crate::core::switch::{Switch, SwitchRule};
+use crate::core::prior::Prior;
 use crate::core::units::{LevelUnit, Scale};
 
 /// The case file as written: every field as the user typed it, before validation.

@@ -53,6 +53,17 @@ impl Stamp {
         self.readable(self.wall().year() != reference.wall().year())
     }
 
+    /// The weekday and time alone, `Thu 03:40`, for a list whose dates are shown elsewhere.
+    pub fn weekday_time(&self) -> String {
+        self.wall().format("%a %H:%M").to_string()
+    }
+
+    /// Day, month and time, `04 Mar 03:40`, for a chart's time axis (no year: the axis spans
+    /// days, and its title gives the case).
+    pub fn axis_label(&self) -> String {
+        self.wall().format("%d %b %H:%M").to_string()
+    }
+
     /// A reading for people: `Thu 4 Mar 03:40` (with the year when asked).
     pub fn readable(&self, with_year: bool) -> String {
         let w = self.wall();

@@ -3,7 +3,7 @@
 use std::path::PathBuf;
 
 /// Everything that can go wrong between reading a case and writing its report.
-#[derive(Debug, thiserror::Error)]
+#[derive(Debug, Clone, thiserror::Error)]
 pub enum Error {
     /// The case file could not be read from disk.
     #[error("{path}: cannot read the file: {reason}")]

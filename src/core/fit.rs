@@ -1,12 +1,12 @@
 //! Elimination fits: ordinary least squares, and k, half-life and volume from a case's levels.
 
-use statrs::distribution::{ContinuousCDF, StudentsT};
-
-use crate::core::bayes::{self, Summary};
+use crate::core::bayes;
 use crate::core::case::{Case, FitChoice};
 use crate::core::error::{Error, Result};
-use crate::core::history::{self, Spread};
+pub use crate::core::fitted::{t975, window_of, Fit, Method, VolumeMethod};
+use crate::core::history;
 use crate::core::model::{self, one_minus_exp_neg};
+use crate::core::warning::{Code, Warning};
 
 /// A straight line y = intercept + slope·x fitted by ordinary least squares.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -79,130 +79,12 @@ pub fn ols(xs: &[f64], ys: &[f64]) -> Option<Line> {
     })
 }
 
-/// The 0.975 quantile of Student's t with `df` degrees of freedom.
-pub fn t975(df: usize) -> f64 {
-    StudentsT::new(0.0, 1.0, df as f64)
-        .map(|t| t.inverse_cdf(0.975))
-        .unwrap_or(f64::INFINITY)
-}
-
-/// How the fit was made.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Method {
-    /// Two levels: k = ln(C1/C2)/(t2 - t1).
-    TwoPoint,
-    /// Three or more levels: least squares of ln(level) on time.
-    LogLinear,
-    /// k and V together from every used level against the whole dose record (`history`).
-    DoseHistory,
-    /// Maximum a posteriori k and V from population priors and the levels (`bayes`).
-    Bayesian,
-}
-
-impl Method {
-    /// The contract's name.
-    pub fn name(self) -> &'static str {
-        match self {
-            Method::TwoPoint => "two-point",
-            Method::LogLinear => "log-linear",
-            Method::DoseHistory => "dose-history",
-            Method::Bayesian => "bayesian",
-        }
-    }
-}
-
 /// The methods a case can ask for in `[fit] method`, in the order offered to users.
 pub const CHOICES: [FitChoice; 3] = [
     FitChoice::LogLinear,
     FitChoice::DoseHistory,
     FitChoice::Bayesian,
 ];
-
-/// How the volume was found.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum VolumeMethod {
-    /// Sawchuk-Zaske, from a level drawn before the window's dose.
-    PreDoseLevel,
-    /// Superposition of the whole dose record at the first fitted level.
-    DoseRecord,
-    /// Fitted together with k by the dose-history fit.
-    DoseHistory,
-    /// Estimated together with k by the Bayesian fit.
-    Bayesian,
-}
-
-impl VolumeMethod {
-    /// The contract's name.
-    pub fn name(self) -> &'static str {
-        match self {
-            VolumeMethod::PreDoseLevel => "pre-dose level",
-            VolumeMethod::DoseRecord => "dose record",
-            VolumeMethod::DoseHistory => "dose-history",
-            VolumeMethod::Bayesian => "bayesian",
-        }
-    }
-}
-
-/// The patient's fitted elimination.
-#[derive(Debug, Clone, PartialEq)]
-pub struct Fit {
-    /// How k was found.
-    pub method: Method,
-    /// Indices (into `case.levels`) of the levels in the fit, in time order.
-    pub used: Vec<usize>,
-    /// Index (into `case.doses`) of the dose whose window holds the fitted levels.
-    pub window_dose: usize,
-    /// Elimination rate constant, 1/h.
-    pub k: f64,
-    /// ln 2 / k, hours.
-    pub half_life_h: f64,
-    /// r² of the log-linear fit (None for two points).
-    pub r_squared: Option<f64>,
-    /// Standard error of k (None for two points).
-    pub se_k: Option<f64>,
-    /// 95 % interval of k (None for two points).
-    pub k_ci95: Option<[f64; 2]>,
-    /// 95 % interval of the half-life (None for two points or when k_lo <= 0).
-    pub half_life_ci95: Option<[f64; 2]>,
-    /// ln(mg/L) of the fitted line at t = 0 on the case axis.
-    pub ln_intercept: f64,
-    /// Residuals ln(measured) - ln(fitted), per used level.
-    pub residuals: Vec<f64>,
-    /// Volume of distribution, L.
-    pub volume_l: Option<f64>,
-    /// How the volume was found.
-    pub volume_method: Option<VolumeMethod>,
-    /// The pre-dose level used for the volume (index into `case.levels`).
-    pub pre_dose_level: Option<usize>,
-    /// k·V, L/h.
-    pub clearance_l_per_h: Option<f64>,
-    /// Warnings the fit raised.
-    pub warnings: Vec<String>,
-    /// Joint uncertainty of (ln k, ln V) (dose-history and Bayesian fits with an interval).
-    pub spread: Option<Spread>,
-    /// 95 % interval of V (dose-history and Bayesian fits).
-    pub volume_ci95: Option<[f64; 2]>,
-    /// 95 % interval of the clearance (dose-history and Bayesian fits).
-    pub clearance_ci95: Option<[f64; 2]>,
-    /// The population values and how far the estimate moved from them (Bayesian fits).
-    pub population: Option<Summary>,
-}
-
-impl Fit {
-    /// The fitted line's value (mg/L) at time `t`.
-    pub fn line_mg_l(&self, t: f64) -> f64 {
-        (self.ln_intercept - self.k * t).exp()
-    }
-}
-
-/// Which window (index into `case.doses`) a level at time `t` falls in, if any.
-/// A level at a dose's own time is a pre-dose level of that dose (it belongs to the window
-/// before); one drawn during an infusion or before the first dose is in no window.
-pub fn window_of(case: &Case, t: f64) -> Option<usize> {
-    // Doses are sorted by time: the number of doses strictly before t, less one.
-    let i = case.doses.partition_point(|d| d.t < t).checked_sub(1)?;
-    (t >= case.doses[i].end()).then_some(i)
-}
 
 /// Fit the case by the method it asks for (`[fit] method`), or, when it names none: log-linear
 /// when one dosing interval holds two used levels, else dose-history when two or more used
@@ -280,10 +162,10 @@ pub fn fit_log_linear(case: &Case) -> Result<Fit> {
                 Some((lw, v)) if *lw == w => v.push(i),
                 _ => windows.push((w, vec![i])),
             },
-            None => warnings.push(format!(
+            None => warnings.push(Warning::about_level(Code::OutsideWindow, case.levels[i].row, format!(
                 "{} was drawn during an infusion or at the first dose, so it is in no dosing window and is left out of the fit",
                 case.level_name(i)
-            )),
+            ))),
         }
     }
     let Some((window, in_fit)) = windows.iter().rev().find(|(_, v)| v.len() >= 2).cloned() else {
@@ -325,18 +207,17 @@ pub fn fit_log_linear(case: &Case) -> Result<Fit> {
     for w in in_fit.windows(2) {
         let (a, b) = (&case.levels[w[0]], &case.levels[w[1]]);
         if b.value >= a.value {
-            warnings.push(format!(
+            warnings.push(Warning::about_level(Code::RisingLevels, b.row, format!(
                 "level {} ({}) is not below level {} ({}) though drawn later: check the times, or a dose missing from the record",
                 b.row, b.value, a.row, a.value
-            ));
+            )));
         }
     }
     let n = in_fit.len();
     let (method, r_squared, se_k, k_ci95, half_life_ci95) = if n == 2 {
-        warnings.push(
-            "k comes from two levels: no interval can be given; a third level in the same interval would show how sure it is"
-                .into(),
-        );
+        warnings.push(Warning::new(Code::NoInterval,
+            "k comes from two levels: no interval can be given; a third level in the same interval would show how sure it is",
+        ));
         (Method::TwoPoint, None, None, None, None)
     } else {
         let half = t975(n - 2) * line.se_slope;
@@ -344,16 +225,16 @@ pub fn fit_log_linear(case: &Case) -> Result<Fit> {
         let hl = if lo > 0.0 {
             Some([model::half_life(hi), model::half_life(lo)])
         } else {
-            warnings.push(format!(
+            warnings.push(Warning::new(Code::IntervalReachesZero, format!(
                 "the 95 % interval of k reaches zero or below ({lo:.4} to {hi:.4} /h): the levels are too scattered to bound the half-life; times from the interval are not given"
-            ));
+            )));
             None
         };
         if line.r_squared < 0.9 {
-            warnings.push(format!(
+            warnings.push(Warning::new(Code::Scatter, format!(
                 "r² is {:.3}: the levels scatter about the fitted line; look for a timing or assay error",
                 line.r_squared
-            ));
+            )));
         }
         (
             Method::LogLinear,
@@ -395,11 +276,11 @@ pub fn fit_log_linear(case: &Case) -> Result<Fit> {
     for (w, v) in &windows {
         if *w != window {
             for &i in v.iter().filter(|&&i| Some(i) != fit.pre_dose_level) {
-                fit.warnings.push(format!(
+                fit.warnings.push(Warning::about_level(Code::OtherDose, case.levels[i].row, format!(
                     "{} follows a different dose (dose {}) from the fitted levels and is not in the fit",
                     case.level_name(i),
                     case.doses[*w].row
-                ));
+                )));
             }
         }
     }
@@ -412,10 +293,10 @@ fn volume(case: &Case, fit: &mut Fit) {
         Ok(g) => g,
         Err(rows) => {
             let rows: Vec<String> = rows.iter().map(|r| format!("dose {r}")).collect();
-            fit.warnings.push(format!(
+            fit.warnings.push(Warning::new(Code::NoAmount, format!(
                 "{} has no amount_mg: no volume, so peak, trough and AUC are not projected and the threshold runs from the fitted line",
                 rows.join(", ")
-            ));
+            )));
             return;
         }
     };
@@ -453,11 +334,11 @@ fn volume(case: &Case, fit: &mut Fit) {
             fit.volume_method = Some(VolumeMethod::PreDoseLevel);
             fit.pre_dose_level = Some(i);
         } else {
-            fit.warnings.push(format!(
+            fit.warnings.push(Warning::about_level(Code::PreDoseLevel, case.levels[i].row, format!(
                 "{} (pre-dose) is not below the fitted level after dose {}: the volume comes from the dose record instead",
                 case.level_name(i),
                 case.doses[w].row
-            ));
+            )));
         }
     }
     if v.is_none() {
@@ -468,8 +349,10 @@ fn volume(case: &Case, fit: &mut Fit) {
             v = Some(vol);
             fit.volume_method = Some(VolumeMethod::DoseRecord);
         } else {
-            fit.warnings
-                .push("the volume could not be found from the dose record".into());
+            fit.warnings.push(Warning::new(
+                Code::NoVolume,
+                "the volume could not be found from the dose record",
+            ));
         }
     }
     fit.volume_l = v;

@@ -12,58 +12,16 @@
 //! The same solver serves the Bayesian estimate (`bayes`): a Gaussian prior on θ adds its
 //! precision to JᵀJ, and the residuals are scaled by a known residual SD.
 
+use crate::core::warning::{Code, Warning};
 use std::f64::consts::LN_2;
 
 use crate::core::case::Case;
 use crate::core::error::{Error, Result};
-use crate::core::fit::{t975, Fit, Method, VolumeMethod};
-use crate::core::model::{self, one_minus_exp_neg, Given, Route};
-
-/// Joint uncertainty of θ = (ln k, ln V), and the quantile its 95 % intervals use.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Spread {
-    /// Covariance matrix of (ln k, ln V).
-    pub cov: [[f64; 2]; 2],
-    /// Two-sided 95 % quantile: t(0.975, n − 2) for the dose-history fit, the normal
-    /// 1.959964 for the Bayesian estimate.
-    pub quantile: f64,
-}
-
-impl Spread {
-    /// Standard error of ln q for a quantity q whose log has gradient `g` in (ln k, ln V)
-    /// (delta method).
-    pub fn se_ln(&self, g: [f64; 2]) -> f64 {
-        let c = &self.cov;
-        let var = g[0] * g[0] * c[0][0] + 2.0 * g[0] * g[1] * c[0][1] + g[1] * g[1] * c[1][1];
-        var.max(0.0).sqrt()
-    }
-
-    /// 95 % interval of a positive quantity `value` whose log has gradient `g`:
-    /// value·e^(∓q·SE(ln value)).
-    pub fn interval(&self, value: f64, g: [f64; 2]) -> [f64; 2] {
-        let h = self.quantile * self.se_ln(g);
-        [value * (-h).exp(), value * h.exp()]
-    }
-
-    /// Standard error of ln k.
-    pub fn se_ln_k(&self) -> f64 {
-        self.cov[0][0].max(0.0).sqrt()
-    }
-
-    /// Standard error of ln V.
-    pub fn se_ln_v(&self) -> f64 {
-        self.cov[1][1].max(0.0).sqrt()
-    }
-}
-
-/// A Gaussian prior on θ = (ln k, ln V): its mean and precision (inverse covariance).
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Gaussian {
-    /// Mean of (ln k, ln V).
-    pub mean: [f64; 2],
-    /// Precision matrix (symmetric, positive definite).
-    pub precision: [[f64; 2]; 2],
-}
+use crate::core::fitted::{
+    after_dose, in_distribution_phase, t975, Fit, Method, VolumeMethod, DISTRIBUTION_PHASE_H,
+};
+use crate::core::model::{self, Given};
+pub use crate::core::spread::{Gaussian, Spread};
 
 /// The result of a dose-history or Bayesian solve on plain numbers.
 #[derive(Debug, Clone, PartialEq)]
@@ -80,51 +38,11 @@ pub struct Solution {
     pub iterations: usize,
 }
 
-/// Concentration (mg/L) from one dose with V = 1 L, `s` hours after it began, and its
-/// derivative in k. Zero for s <= 0 (a level at a dose time is a pre-dose level).
-pub fn unit_response(d: &Given, k: f64, s: f64) -> (f64, f64) {
-    if s <= 0.0 {
-        return (0.0, 0.0);
-    }
-    match d.route {
-        Route::Bolus | Route::Oral { .. } => {
-            let c = d.route.bioavailability() * d.amount_mg * (-k * s).exp();
-            (c, -s * c)
-        }
-        Route::Infusion { hours } => {
-            let r0 = d.amount_mg / hours;
-            if s <= hours {
-                let (g, dg) = rise(k, s);
-                (r0 * g, r0 * dg)
-            } else {
-                let (g, dg) = rise(k, hours);
-                let after = s - hours;
-                let e = (-k * after).exp();
-                (r0 * g * e, r0 * e * (dg - after * g))
-            }
-        }
-    }
-}
-
-/// (1 − e^(−k·s))/k and its derivative in k, with the series near k·s = 0.
-fn rise(k: f64, s: f64) -> (f64, f64) {
-    let x = k * s;
-    if x.abs() < 1e-5 {
-        (
-            s * (1.0 - x / 2.0 + x * x / 6.0 - x * x * x / 24.0),
-            s * s * (-0.5 + x / 3.0 - x * x / 8.0),
-        )
-    } else {
-        let g = one_minus_exp_neg(x) / k;
-        (g, (s * (-x).exp() - g) / k)
-    }
-}
-
 /// ln S(t; k) and ∂ln S/∂ln k for the summed unit responses; None when no dose precedes t.
 pub fn ln_unit_level(doses: &[Given], k: f64, t: f64) -> Option<(f64, f64)> {
     let (mut s, mut ds) = (0.0, 0.0);
     for d in doses {
-        let (c, dc) = unit_response(d, k, t - d.t);
+        let (c, dc) = model::unit_response(d.amount_mg, d.route, k, t - d.t);
         s += c;
         ds += dc;
     }
@@ -424,35 +342,35 @@ pub(crate) fn check_plausible(ln_k: f64) -> std::result::Result<(), Failure> {
 
 /// The levels a dose-history or Bayesian fit can use: marked for use and drawn after the first
 /// dose began. Returns their indices, and warnings for the ones left out or drawn early.
-pub(crate) fn usable_levels(case: &Case) -> (Vec<usize>, Vec<String>) {
+pub(crate) fn usable_levels(case: &Case) -> (Vec<usize>, Vec<Warning>) {
     let mut warnings = Vec::new();
     let mut used = Vec::new();
     for (i, l) in case.levels.iter().enumerate() {
         if !l.use_in_fit {
             continue;
         }
-        let Some(d) = case.doses.iter().rev().find(|d| d.t < l.t) else {
-            warnings.push(format!(
+        let Some((di, after)) = after_dose(case, l.t) else {
+            warnings.push(Warning::about_level(Code::OutsideWindow, case.levels[i].row, format!(
                 "{} was drawn before any recorded dose (or at the first): the model has no level then, so it is left out of the fit",
                 case.level_name(i)
-            ));
+            )));
             continue;
         };
         used.push(i);
-        let after = l.t - d.end();
+        let d = &case.doses[di];
         if after < 0.0 {
-            warnings.push(format!(
+            warnings.push(Warning::about_level(Code::DistributionPhase, case.levels[i].row, format!(
                 "{} was drawn during the infusion of dose {}: it may be in the distribution phase, which would bias k and V",
                 case.level_name(i),
                 d.row
-            ));
-        } else if after < 0.5 {
-            warnings.push(format!(
+            )));
+        } else if in_distribution_phase(after, DISTRIBUTION_PHASE_H) {
+            warnings.push(Warning::about_level(Code::DistributionPhase, case.levels[i].row, format!(
                 "{} was drawn {} after the end of dose {}: it may be in the distribution phase, which would bias k and V",
                 case.level_name(i),
                 crate::core::clock::span_words(after),
                 d.row
-            ));
+            )));
         }
     }
     (used, warnings)
@@ -520,9 +438,9 @@ pub fn fit(case: &Case) -> Result<Fit> {
         ),
     })?;
     if sol.spread.is_none() {
-        warnings.push(
-            "k and V come from two levels, which the model fits exactly: no interval can be given; a third level would show how sure they are".into(),
-        );
+        warnings.push(Warning::new(Code::NoInterval,
+            "k and V come from two levels, which the model fits exactly: no interval can be given; a third level would show how sure they are",
+        ));
     }
     Ok(to_fit(
         case,
@@ -540,8 +458,8 @@ pub(crate) fn to_fit(
     method: Method,
     used: Vec<usize>,
     sol: &Solution,
-    warnings: Vec<String>,
-    population: Option<crate::core::bayes::Summary>,
+    warnings: Vec<Warning>,
+    population: Option<crate::core::population::Summary>,
 ) -> Fit {
     let (k, v) = (sol.k, sol.v);
     let mut warnings = warnings;
@@ -555,9 +473,10 @@ pub(crate) fn to_fit(
     };
     let spread = match sol.spread {
         Some(s) if !finite(&s) => {
-            warnings.push(
-                "the levels barely bound k and V: their 95 % intervals are too wide to give".into(),
-            );
+            warnings.push(Warning::new(
+                Code::WideIntervals,
+                "the levels barely bound k and V: their 95 % intervals are too wide to give",
+            ));
             None
         }
         other => other,
@@ -609,50 +528,7 @@ pub(crate) fn to_fit(
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    #[test]
-    fn unit_response_matches_the_model_and_its_derivative() {
-        let doses = [
-            Given {
-                t: 0.0,
-                amount_mg: 500.0,
-                route: Route::Infusion { hours: 1.0 },
-            },
-            Given {
-                t: 3.0,
-                amount_mg: 200.0,
-                route: Route::Bolus,
-            },
-            Given {
-                t: 5.0,
-                amount_mg: 100.0,
-                route: Route::Oral { f: 0.6 },
-            },
-        ];
-        for k in [1e-7, 0.03, 0.2, 1.5] {
-            for t in [0.3, 1.0, 2.5, 4.0, 7.0, 30.0] {
-                let c: f64 = doses.iter().map(|d| unit_response(d, k, t - d.t).0).sum();
-                let want = model::superpose(&doses, k, 1.0, t);
-                assert!((c - want).abs() <= 1e-12 * want, "{k} {t}: {c} vs {want}");
-                // Derivative against a central difference.
-                let h = 1e-4 * k.max(1e-3);
-                let up: f64 = doses
-                    .iter()
-                    .map(|d| unit_response(d, k + h, t - d.t).0)
-                    .sum();
-                let dn: f64 = doses
-                    .iter()
-                    .map(|d| unit_response(d, k - h, t - d.t).0)
-                    .sum();
-                let numeric = (up - dn) / (2.0 * h);
-                let dc: f64 = doses.iter().map(|d| unit_response(d, k, t - d.t).1).sum();
-                assert!(
-                    (dc - numeric).abs() <= 1e-6 * numeric.abs().max(1.0),
-                    "{k} {t}: {dc} vs {numeric}"
-                );
-            }
-        }
-    }
+    use crate::core::model::Route;
 
     #[test]
     fn exact_points_give_back_k_and_v() {

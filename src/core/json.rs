@@ -13,6 +13,8 @@ pub struct JsonReport {
     threshold: Option<JsonThreshold>,
     washout: Vec<JsonWashout>,
     warnings: Vec<String>,
+    /// Addition: the code of each warning, in the same order (`crate::core::warning::Code`).
+    warning_codes: Vec<&'static str>,
     /// Addition: regimens that meet every target, best first, at most 5.
     suggestions: Vec<JsonSuggestion>,
     /// Addition: the loading dose in mg (null without V).
@@ -203,7 +205,8 @@ impl From<&Report> for JsonReport {
                     fraction_remaining: w.fraction_remaining,
                 })
                 .collect(),
-            warnings: r.warnings.clone(),
+            warnings: r.warnings.iter().map(|w| w.text().to_string()).collect(),
+            warning_codes: r.warnings.iter().map(|w| w.code().as_str()).collect(),
             suggestions: r
                 .advice
                 .suggestions

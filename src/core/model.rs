@@ -69,34 +69,68 @@ pub fn one_minus_exp_neg(x: f64) -> f64 {
     -(-x).exp_m1()
 }
 
-/// Concentration (mg/L) `s` hours after the start of one dose, for rate constant `k` (1/h)
-/// and volume `v` (L). Zero for `s <= 0`: a level drawn at a dose time is a pre-dose level.
-pub fn single_dose(amount_mg: f64, route: Route, k: f64, v: f64, s: f64) -> f64 {
+/// The rise of a unit-rate infusion after `s` hours, (1 − e^(−k·s))/k, and its derivative in
+/// k; near k·s = 0 a series (whose limit is s), so a very long half-life loses no digits.
+/// This is the one small-k rule of the model.
+pub fn rise(k: f64, s: f64) -> (f64, f64) {
+    let x = k * s;
+    if x.abs() < 1e-5 {
+        (
+            s * (1.0 - x / 2.0 + x * x / 6.0 - x * x * x / 24.0),
+            s * s * (-0.5 + x / 3.0 - x * x / 8.0),
+        )
+    } else {
+        let g = one_minus_exp_neg(x) / k;
+        (g, (s * (-x).exp() - g) / k)
+    }
+}
+
+/// The single-dose response: concentration (mg/L) with a volume of 1 L, `s` hours after the
+/// start of a dose of `amount_mg` by `route`, and its derivative in k. Zero for `s <= 0`: a
+/// level drawn at a dose time is a pre-dose level. Every concentration of the model, and of
+/// the fits, is built from this one function.
+pub fn unit_response(amount_mg: f64, route: Route, k: f64, s: f64) -> (f64, f64) {
     if s <= 0.0 {
-        return 0.0;
+        return (0.0, 0.0);
     }
     match route {
         Route::Bolus | Route::Oral { .. } => {
-            route.bioavailability() * amount_mg / v * (-k * s).exp()
+            let c = route.bioavailability() * amount_mg * (-k * s).exp();
+            (c, -s * c)
         }
         Route::Infusion { hours } => {
             let r0 = amount_mg / hours;
             if s <= hours {
-                r0 * infusion_rise(k, s) / v
+                let (g, dg) = rise(k, s);
+                (r0 * g, r0 * dg)
             } else {
-                r0 * infusion_rise(k, hours) / v * (-k * (s - hours)).exp()
+                let (g, dg) = rise(k, hours);
+                let after = s - hours;
+                let e = (-k * after).exp();
+                (r0 * g * e, r0 * e * (dg - after * g))
             }
         }
     }
 }
 
-/// (1 - e^(-k·s))/k, the rise of a unit-rate infusion, with its limit s as k -> 0.
-fn infusion_rise(k: f64, s: f64) -> f64 {
-    if (k * s).abs() < 1e-12 {
-        s
-    } else {
-        one_minus_exp_neg(k * s) / k
+/// Concentration (mg/L) `s` hours after the start of one dose, for rate constant `k` (1/h)
+/// and volume `v` (L). Zero for `s <= 0`: a level drawn at a dose time is a pre-dose level.
+pub fn single_dose(amount_mg: f64, route: Route, k: f64, v: f64, s: f64) -> f64 {
+    unit_response(amount_mg, route, k, s).0 / v
+}
+
+/// The peak (mg/L) one dose gives with no drug on board: at the end of the infusion, or just
+/// after a bolus or oral dose.
+pub fn single_peak(amount_mg: f64, route: Route, k: f64, v: f64) -> f64 {
+    match route {
+        Route::Infusion { hours } => amount_mg / hours * rise(k, hours).0 / v,
+        r => r.bioavailability() * amount_mg / v,
     }
+}
+
+/// The accumulation factor of a regimen repeated every `tau` hours: 1/(1 − e^(−k·tau)).
+pub fn accumulation_factor(k: f64, tau: f64) -> f64 {
+    1.0 / one_minus_exp_neg(k * tau)
 }
 
 /// Concentration (mg/L) at time `t` from every dose given before it.
@@ -122,13 +156,10 @@ pub struct SteadyState {
 
 /// Steady state of `amount_mg` by `route` every `tau` hours, for `k` and `v`.
 pub fn steady_state(amount_mg: f64, route: Route, tau: f64, k: f64, v: f64) -> SteadyState {
-    let acc = 1.0 / one_minus_exp_neg(k * tau);
+    let acc = accumulation_factor(k, tau);
     let t_inf = route.infusion_h();
     let f = route.bioavailability();
-    let peak = match route {
-        Route::Infusion { hours } => amount_mg / hours * infusion_rise(k, hours) / v * acc,
-        _ => f * amount_mg / v * acc,
-    };
+    let peak = single_peak(amount_mg, route, k, v) * acc;
     let trough = peak * (-k * (tau - t_inf)).exp();
     let auc24 = f * amount_mg / (k * v) * 24.0 / tau;
     SteadyState {
@@ -185,5 +216,55 @@ mod tests {
         let a = single_dose(120.0, r, 0.3, 18.0, 0.5);
         let b = single_dose(120.0, r, 0.3, 18.0, 0.5 + 1e-9);
         assert!((a - b).abs() < 1e-7);
+    }
+
+    #[test]
+    fn unit_response_matches_the_model_and_its_derivative() {
+        let doses = [
+            Given {
+                t: 0.0,
+                amount_mg: 500.0,
+                route: Route::Infusion { hours: 1.0 },
+            },
+            Given {
+                t: 3.0,
+                amount_mg: 200.0,
+                route: Route::Bolus,
+            },
+            Given {
+                t: 5.0,
+                amount_mg: 100.0,
+                route: Route::Oral { f: 0.6 },
+            },
+        ];
+        for k in [1e-7, 0.03, 0.2, 1.5] {
+            for t in [0.3, 1.0, 2.5, 4.0, 7.0, 30.0] {
+                let c: f64 = doses
+                    .iter()
+                    .map(|d| unit_response(d.amount_mg, d.route, k, t - d.t).0)
+                    .sum();
+                let want = superpose(&doses, k, 1.0, t);
+                assert!((c - want).abs() <= 1e-12 * want, "{k} {t}: {c} vs {want}");
+                // Derivative against a central difference.
+                let h = 1e-4 * k.max(1e-3);
+                let up: f64 = doses
+                    .iter()
+                    .map(|d| unit_response(d.amount_mg, d.route, k + h, t - d.t).0)
+                    .sum();
+                let dn: f64 = doses
+                    .iter()
+                    .map(|d| unit_response(d.amount_mg, d.route, k - h, t - d.t).0)
+                    .sum();
+                let numeric = (up - dn) / (2.0 * h);
+                let dc: f64 = doses
+                    .iter()
+                    .map(|d| unit_response(d.amount_mg, d.route, k, t - d.t).1)
+                    .sum();
+                assert!(
+                    (dc - numeric).abs() <= 1e-6 * numeric.abs().max(1.0),
+                    "{k} {t}: {dc} vs {numeric}"
+                );
+            }
+        }
     }
 }

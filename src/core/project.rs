@@ -90,7 +90,7 @@ pub fn plan(p: &Patient, plan: &Plan) -> PlanProjection {
         .v()
         .map(|v| model::steady_state(plan.dose_mg, plan.route, plan.interval_h, k, v));
     PlanProjection {
-        accumulation_factor: 1.0 / model::one_minus_exp_neg(k * plan.interval_h),
+        accumulation_factor: model::accumulation_factor(k, plan.interval_h),
         steady,
         time_to_ss_h: [0.90, 0.95, 0.97].map(|f| model::time_to_fraction_of_ss(f, k)),
     }
@@ -128,26 +128,85 @@ pub fn hours_to_fall(c0: f64, below: f64, k: f64) -> f64 {
 /// The largest number of plan doses considered before a procedure.
 const MAX_PLAN_DOSES: usize = 100_000;
 
+/// Why a projection after the record starts where it does.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Start {
+    /// The end of the last recorded dose.
+    LastDoseEnd,
+    /// The last level drawn (it is later than the end of the last dose).
+    LastLevel,
+    /// The last level in the fit (no volume: the fitted line is used).
+    LastFittedLevel,
+}
+
+/// Where the threshold countdown starts: the later of the end of the last recorded dose and
+/// the last level on record (used or not), with the model's value then; without V, the last
+/// fitted level and the fitted line's value there (contract v1).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct StartPoint {
+    /// Hours on the axis.
+    pub t: f64,
+    /// The model's value then, mg/L.
+    pub c_mg_l: f64,
+    /// Why there.
+    pub from: Start,
+}
+
+/// The last fitted level's time (the start of everything without V).
+fn last_fitted_level(p: &Patient) -> f64 {
+    p.fit
+        .used
+        .iter()
+        .map(|&i| p.case.levels[i].t)
+        .fold(f64::NEG_INFINITY, f64::max)
+}
+
+/// Where the threshold countdown starts (see `StartPoint`).
+pub fn threshold_start(p: &Patient) -> StartPoint {
+    if p.v().is_none() {
+        let t = last_fitted_level(p);
+        return StartPoint {
+            t,
+            c_mg_l: p.fit.line_mg_l(t),
+            from: Start::LastFittedLevel,
+        };
+    }
+    let last_level = p
+        .case
+        .levels
+        .iter()
+        .map(|l| l.t)
+        .fold(f64::NEG_INFINITY, f64::max);
+    let end = p.last_dose_end();
+    let (t, from) = if last_level >= end {
+        (last_level, Start::LastLevel)
+    } else {
+        (end, Start::LastDoseEnd)
+    };
+    StartPoint {
+        t,
+        c_mg_l: p.level_mg_l(t),
+        from,
+    }
+}
+
+/// Where the washout table and a switch by half-lives count from: the end of the last
+/// recorded dose, or without V the last fitted level.
+pub fn washout_start(p: &Patient) -> f64 {
+    if p.v().is_some() {
+        p.last_dose_end()
+    } else {
+        last_fitted_level(p)
+    }
+}
+
 /// Project the threshold of `below_mg_l`, with a procedure time if given.
 pub fn threshold(p: &Patient, below_mg_l: f64, procedure_t: Option<f64>) -> ThresholdProjection {
     let case = p.case;
     let fit = p.fit;
-    let (t0, c0) = if p.v().is_some() {
-        let last_level = case
-            .levels
-            .iter()
-            .map(|l| l.t)
-            .fold(f64::NEG_INFINITY, f64::max);
-        let t0 = p.last_dose_end().max(last_level);
-        (t0, p.level_mg_l(t0))
-    } else {
-        let t0 = fit
-            .used
-            .iter()
-            .map(|&i| case.levels[i].t)
-            .fold(f64::NEG_INFINITY, f64::max);
-        (t0, fit.line_mg_l(t0))
-    };
+    let StartPoint {
+        t: t0, c_mg_l: c0, ..
+    } = threshold_start(p);
     let reached_t = t0 + hours_to_fall(c0, below_mg_l, fit.k);
     let reached_ci95_t = match fit.k_ci95 {
         Some([lo, hi]) if lo > 0.0 => Some([
@@ -283,15 +342,7 @@ pub struct WashoutRow {
 /// level), one row per half-life for five, then on until at or below the threshold (at most
 /// ten rows).
 pub fn washout(p: &Patient, below_mg_l: Option<f64>) -> Vec<WashoutRow> {
-    let start = if p.v().is_some() {
-        p.last_dose_end()
-    } else {
-        p.fit
-            .used
-            .iter()
-            .map(|&i| p.case.levels[i].t)
-            .fold(f64::NEG_INFINITY, f64::max)
-    };
+    let start = washout_start(p);
     let th = p.fit.half_life_h;
     let mut rows: Vec<WashoutRow> = Vec::new();
     for n in 1..=10u32 {

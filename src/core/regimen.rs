@@ -5,35 +5,12 @@
 //! converts to the case's level unit.
 
 use crate::core::auc;
+pub use crate::core::case::RegimenOptions;
 use crate::core::case::{Case, Targets};
 use crate::core::fit::Fit;
 use crate::core::model::{self, Route, SteadyState};
 use crate::core::project::Patient;
-
-/// The practical choices a regimen is searched over. A drug profile supplies them; until one
-/// does, `RegimenOptions::default()` holds the common ones.
-#[derive(Debug, Clone, PartialEq)]
-pub struct RegimenOptions {
-    /// Dosing intervals to try, in hours.
-    pub intervals_h: Vec<f64>,
-    /// Doses are multiples of this many mg.
-    pub dose_step_mg: f64,
-    /// Infusion durations to try, in hours, for an infusion route. Empty: keep the duration
-    /// of the plan (or of the last recorded dose).
-    pub infusion_h: Vec<f64>,
-}
-
-impl Default for RegimenOptions {
-    /// Intervals 6, 8, 12, 24, 36 and 48 h; doses in steps of 10 mg; the infusion time of
-    /// the plan or of the last dose (common practice).
-    fn default() -> Self {
-        RegimenOptions {
-            intervals_h: vec![6.0, 8.0, 12.0, 24.0, 36.0, 48.0],
-            dose_step_mg: 10.0,
-            infusion_h: Vec::new(),
-        }
-    }
-}
+use crate::core::warning::{Code, Warning};
 
 /// The most suggestions given.
 pub const MAX_SUGGESTIONS: usize = 5;
@@ -125,7 +102,7 @@ pub struct Advice {
     /// The proportional adjustment (only without a volume).
     pub proportional: Option<Proportional>,
     /// Things to tell the user (why there is no suggestion, what an adjustment assumes).
-    pub notes: Vec<String>,
+    pub notes: Vec<Warning>,
 }
 
 /// Targets converted to mg/L (AUC to mg·h/L) with `per_mg_l` level units per mg/L.
@@ -290,15 +267,6 @@ pub fn suggest(
     out
 }
 
-/// The peak (mg/L) one dose of 1 mg gives in an empty patient: at the end of the infusion,
-/// or just after a bolus or oral dose.
-fn peak_per_mg(route: Route, k: f64, v: f64) -> f64 {
-    match route {
-        Route::Infusion { hours } => model::one_minus_exp_neg(k * hours) / (k * v * hours),
-        r => r.bioavailability() / v,
-    }
-}
-
 /// The dose that reaches `target_peak_mg_l` at once in a patient with no drug on board,
 /// rounded to the nearest `step` mg. `None` when that rounds to nothing or the inputs are
 /// not usable.
@@ -310,7 +278,7 @@ pub fn loading_dose(
     step: f64,
     basis: LoadingBasis,
 ) -> Option<LoadingDose> {
-    let per = peak_per_mg(route, k, v);
+    let per = model::single_peak(1.0, route, k, v);
     let exact = target_peak_mg_l / per;
     if !(exact.is_finite() && exact > 0.0 && step > 0.0) {
         return None;
@@ -404,14 +372,14 @@ pub fn advise(p: &Patient, plan_peak_mg_l: Option<f64>, opts: &RegimenOptions) -
                 let current = observed_interval(case, p.fit);
                 advice.suggestions = suggest(k, v, route, &t, opts, current);
                 if advice.suggestions.is_empty() {
-                    advice.notes.push(
-                        "no regimen among the usual intervals and dose steps meets every target; review the targets or consider other intervals".into(),
-                    );
+                    advice.notes.push(Warning::new(Code::NoSuggestion,
+                        "no regimen among the usual intervals and dose steps meets every target; review the targets or consider other intervals",
+                    ));
                 }
             } else if t.trough_max.is_some() {
-                advice.notes.push(
-                    "no regimen suggested: a trough ceiling alone does not pick a dose; give a peak or AUC24 range".into(),
-                );
+                advice.notes.push(Warning::new(Code::NoSuggestion,
+                    "no regimen suggested: a trough ceiling alone does not pick a dose; give a peak or AUC24 range",
+                ));
             }
             let aim = match (t.peak, advice.suggestions.first(), plan_peak_mg_l) {
                 (Some([lo, hi]), _, _) => Some(((lo + hi) / 2.0, LoadingBasis::PeakTarget)),
@@ -428,9 +396,9 @@ pub fn advise(p: &Patient, plan_peak_mg_l: Option<f64>, opts: &RegimenOptions) -
             if has_range {
                 advice.proportional = proportional(case, p.fit, &t, opts.dose_step_mg);
                 if advice.proportional.is_some() {
-                    advice.notes.push(
-                        "no volume: the dose adjustment is proportional (new dose = dose × target / measured, same interval), which holds for linear kinetics at steady state only".into(),
-                    );
+                    advice.notes.push(Warning::new(Code::Proportional,
+                        "no volume: the dose adjustment is proportional (new dose = dose × target / measured, same interval), which holds for linear kinetics at steady state only",
+                    ));
                 }
             }
         }

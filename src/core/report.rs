@@ -1,13 +1,16 @@
 //! The report as plain data: every figure of contract v1 in the case's unit and clock times,
 //! plus the readable text form. The JSON wire form lives in `json`.
 
+pub use crate::core::format::{num, when};
+use crate::core::warning::{Code, Warning};
 use std::io::{self, Write};
 
-use crate::core::bayes::Summary;
 use crate::core::case::{Case, Targets};
 use crate::core::clock::{span_words, Stamp};
 use crate::core::error::{Error, Result};
 use crate::core::fit::{self, Fit};
+use crate::core::fitted;
+use crate::core::population::Summary;
 use crate::core::project::{self, Patient};
 use crate::core::uncertainty;
 use crate::core::units::LevelUnit;
@@ -151,7 +154,7 @@ pub struct Report {
     /// When the washout table starts (end of the last dose, or the last fitted level).
     pub washout_from: Stamp,
     /// Specific warnings, most important first.
-    pub warnings: Vec<String>,
+    pub warnings: Vec<Warning>,
     /// Suggested regimens, loading dose, AUC24 by two methods and the switch.
     pub advice: crate::core::advice::AdvicePart,
 }
@@ -228,9 +231,9 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
                 None => (None, None, None),
             };
             if pp.steady.is_none() {
-                warnings.push(
-                    "no volume: steady-state peak, trough and AUC24 cannot be projected; the times to steady state still hold".into(),
-                );
+                warnings.push(Warning::new(Code::NoVolume,
+                    "no volume: steady-state peak, trough and AUC24 cannot be projected; the times to steady state still hold",
+                ));
             }
             let checks = target_checks(&case.targets, peak, trough, auc);
             let meets = if checks.is_empty() {
@@ -241,10 +244,10 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
             if matches!(pl.route, crate::core::model::Route::Infusion { .. })
                 && pl.start_t < patient.last_dose_end()
             {
-                warnings.push(
-                    "the plan's first dose starts before the last recorded dose has finished"
-                        .into(),
-                );
+                warnings.push(Warning::new(
+                    Code::PlanOverlap,
+                    "the plan's first dose starts before the last recorded dose has finished",
+                ));
             }
             Some(PlanPart {
                 accumulation_factor: pp.accumulation_factor,
@@ -268,10 +271,10 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
             let tp = project::threshold(&patient, scale.to_mg_l(th.below), th.procedure_t);
             let hours = tp.reached_t - tp.t0;
             if hours > 3.0 * fit.half_life_h {
-                warnings.push(format!(
+                warnings.push(Warning::new(Code::Extrapolation, format!(
                     "the threshold is reached {} after the last data, more than three half-lives: an extrapolation that assumes k stays as fitted",
                     span_words(hours)
-                ));
+                )));
             }
             if fit.half_life_ci95.is_none() && fit.k_ci95.is_some() {
                 // already warned by the fit
@@ -281,9 +284,9 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
             let reached_ci95_t = if fit.spread.is_some() {
                 let r = uncertainty::threshold_range(case, fit, tp.t0, tp.below_mg_l);
                 if r.is_none() {
-                    warnings.push(
-                        "the spread of k is too wide to bound when the level falls below the threshold: the 95 % range is not given".into(),
-                    );
+                    warnings.push(Warning::new(Code::NoTimeRange,
+                        "the spread of k is too wide to bound when the level falls below the threshold: the 95 % range is not given",
+                    ));
                 }
                 r
             } else {
@@ -298,13 +301,16 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
             };
             if let (Some(t), true) = (th.procedure_t, case.plan.is_some()) {
                 if tp.latest_plan_dose.is_none() && patient.v().is_none() {
-                    warnings.push(
-                        "no volume: the latest plan dose before the procedure cannot be found"
-                            .into(),
-                    );
+                    warnings.push(Warning::new(
+                        Code::NoVolume,
+                        "no volume: the latest plan dose before the procedure cannot be found",
+                    ));
                 }
                 if t < tp.t0 {
-                    warnings.push("the procedure time is before the last dose or level".into());
+                    warnings.push(Warning::new(
+                        Code::ProcedureBeforeData,
+                        "the procedure time is before the last dose or level",
+                    ));
                 }
             }
             let latest = match tp.latest_plan_dose {
@@ -350,10 +356,7 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
     let advice = crate::core::advice::build(case, fit, plan_peak_mg_l, &mut warnings)?;
     let below_mg_l = case.threshold.as_ref().map(|t| scale.to_mg_l(t.below));
     let rows = project::washout(&patient, below_mg_l);
-    let washout_start = rows
-        .first()
-        .map(|r| r.t - fit.half_life_h)
-        .unwrap_or(patient.last_dose_end());
+    let washout_start = project::washout_start(&patient);
     let mut washout = Vec::with_capacity(rows.len());
     for r in rows {
         washout.push(WashoutPart {
@@ -378,7 +381,7 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
 }
 
 /// Warnings read off the shape of the data: timing, route and curvature.
-fn shape_warnings(case: &Case, fit: &Fit, warnings: &mut Vec<String>) {
+fn shape_warnings(case: &Case, fit: &Fit, warnings: &mut Vec<Warning>) {
     if case
         .doses
         .iter()
@@ -388,9 +391,9 @@ fn shape_warnings(case: &Case, fit: &Fit, warnings: &mut Vec<String>) {
             Some(crate::core::model::Route::Oral { .. })
         )
     {
-        warnings.push(
-            "oral doses are modelled as an instant dose of F x amount (absorption is not modelled): measured peaks will be lower and later than projected".into(),
-        );
+        warnings.push(Warning::new(Code::OralAbsorption,
+            "oral doses are modelled as an instant dose of F x amount (absorption is not modelled): measured peaks will be lower and later than projected",
+        ));
     }
     if matches!(fit.method, fit::Method::DoseHistory | fit::Method::Bayesian) {
         // These fits span doses: their own warnings cover the timing of each level.
@@ -399,13 +402,13 @@ fn shape_warnings(case: &Case, fit: &Fit, warnings: &mut Vec<String>) {
     let dose = &case.doses[fit.window_dose];
     for &i in &fit.used {
         let after = case.levels[i].t - dose.end();
-        if after < 0.5 {
-            warnings.push(format!(
+        if fitted::in_distribution_phase(after, fitted::DISTRIBUTION_PHASE_H) {
+            warnings.push(Warning::about_level(Code::DistributionPhase, case.levels[i].row, format!(
                 "{} was drawn {} after the end of dose {}: it may be in the distribution phase, which would overstate k",
                 case.level_name(i),
                 span_words(after),
                 dose.row
-            ));
+            )));
         }
     }
     // Curvature: compare the first and the last segment's slopes (3 or more levels).
@@ -418,14 +421,14 @@ fn shape_warnings(case: &Case, fit: &Fit, warnings: &mut Vec<String>) {
         let (first, last) = (seg(u[0], u[1]), seg(u[u.len() - 2], u[u.len() - 1]));
         if first > 0.0 && last > 0.0 {
             if last > 1.5 * first {
-                warnings.push(
-                    "the levels fall faster as they get lower: elimination may be saturable (nonlinear kinetics), and first-order projections would mislead".into(),
-                );
+                warnings.push(Warning::new(Code::NonlinearKinetics,
+                    "the levels fall faster as they get lower: elimination may be saturable (nonlinear kinetics), and first-order projections would mislead",
+                ));
             } else if first > 1.5 * last {
-                warnings.push(format!(
+                warnings.push(Warning::new(Code::DistributionPhase, format!(
                     "the early levels fall faster than the later ones: {} may be in the distribution phase",
                     case.level_name(u[0])
-                ));
+                )));
             }
         }
     }
@@ -521,33 +524,6 @@ fn check_finite(r: &Report) -> Result<()> {
         }
     }
     Ok(())
-}
-
-/// A number for people: four significant figures, trailing zeros trimmed.
-pub fn num(x: f64) -> String {
-    if !x.is_finite() {
-        return "—".into();
-    }
-    if x == 0.0 {
-        return "0".into();
-    }
-    let digits = 4i32;
-    let mag = x.abs().log10().floor() as i32;
-    if !(-4..=9).contains(&mag) {
-        return format!("{x:.3e}");
-    }
-    let decimals = (digits - 1 - mag).max(0) as usize;
-    let s = format!("{x:.decimals$}");
-    if s.contains('.') {
-        s.trim_end_matches('0').trim_end_matches('.').to_string()
-    } else {
-        s
-    }
-}
-
-/// A readable stamp, with the year only when it differs from `reference`'s.
-pub fn when(s: &Stamp) -> String {
-    s.readable(false)
 }
 
 /// Write the readable report.

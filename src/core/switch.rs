@@ -1,35 +1,8 @@
 //! Switching agents: the earliest time the next drug may start once this one is stopped after
 //! its last recorded dose, by a level to fall below or by a number of half-lives.
 
+pub use crate::core::case::{Switch, SwitchRule};
 use crate::core::project::{self, Patient};
-
-/// The `[switch]` section of a case: which agent comes next and when it may start.
-#[derive(Debug, Clone, PartialEq)]
-pub struct Switch {
-    /// The next agent, free text.
-    pub to: String,
-    /// When it may start.
-    pub rule: SwitchRule,
-}
-
-/// The local protocol's rule for starting the next agent.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub enum SwitchRule {
-    /// Once the level is at or below this value, in the case's level unit.
-    StartBelow(f64),
-    /// After this many half-lives from the end of the last recorded dose.
-    AfterHalfLives(f64),
-}
-
-impl SwitchRule {
-    /// The name of the rule as the case file spells it (the JSON `basis`).
-    pub fn basis(&self) -> &'static str {
-        match self {
-            SwitchRule::StartBelow(_) => "start_below",
-            SwitchRule::AfterHalfLives(_) => "after_half_lives",
-        }
-    }
-}
 
 /// When the next agent may start, on the case's axis.
 #[derive(Debug, Clone, PartialEq)]
@@ -60,14 +33,7 @@ pub fn project(p: &Patient, sw: &Switch) -> SwitchProjection {
             }
         }
         SwitchRule::AfterHalfLives(n) => {
-            let from = if p.v().is_some() {
-                p.last_dose_end()
-            } else {
-                fit.used
-                    .iter()
-                    .map(|&i| p.case.levels[i].t)
-                    .fold(f64::NEG_INFINITY, f64::max)
-            };
+            let from = project::washout_start(p);
             let after = |k: f64| from + n * std::f64::consts::LN_2 / k;
             let start = after(fit.k);
             SwitchProjection {

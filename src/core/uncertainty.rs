@@ -11,8 +11,9 @@
 
 use crate::core::case::{Case, Plan};
 use crate::core::fit::Fit;
-use crate::core::history::{self, Spread};
+use crate::core::history;
 use crate::core::model::{self, Given};
+use crate::core::spread::Spread;
 
 /// Step in ln k and ln V for numerical gradients.
 const STEP: f64 = 1e-6;

@@ -138,6 +138,24 @@ fn parsed_built_in(name: &str, text: &str) -> Result<Entry> {
 }
 
 impl Catalog {
+    /// A catalog with no profile (for a case that names none).
+    pub fn empty() -> Catalog {
+        Catalog {
+            entries: Vec::new(),
+        }
+    }
+
+    /// The profiles a case that names `wanted` (or none) needs: none, or as `load_for`.
+    ///
+    /// # Errors
+    /// As `load_for`.
+    pub fn for_case(dir: Option<&Path>, wanted: Option<&str>) -> Result<Catalog> {
+        match wanted {
+            None => Ok(Catalog::empty()),
+            Some(w) => Catalog::load_for(dir, w),
+        }
+    }
+
     /// The built-in profiles only.
     ///
     /// # Errors

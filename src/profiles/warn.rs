@@ -3,8 +3,10 @@
 
 use crate::core::case::Case;
 use crate::core::clock::span_words;
+use crate::core::fitted;
 use crate::core::model::Route;
 use crate::core::report::{num, Report};
+use crate::core::warning::{Code, Warning};
 use crate::profiles::schema::{FirstOrder, Profile};
 use crate::profiles::unit_factor;
 
@@ -26,19 +28,15 @@ pub fn refusal(profile: &Profile) -> Option<String> {
 }
 
 /// Put the profile's warnings in front of the report's own. Where the profile flags a level
-/// as drawn inside its sampling window, the core's generic distribution-phase warning for the
-/// same level is dropped (the profile's says the same, with the drug's own window).
+/// as drawn inside its sampling window, the core's generic distribution-phase warning about
+/// the same level is dropped (the profile's says the same, with the drug's own window).
 pub fn apply(profile: &Profile, case: &Case, report: &mut Report) {
-    let mine = warnings(profile, case, report);
-    let flagged: Vec<String> = window_rows(profile, case)
-        .into_iter()
-        .map(|row| format!("level {row} was drawn "))
-        .collect();
+    let mut all = warnings(profile, case, report);
+    let flagged = window_rows(profile, case);
     report.warnings.retain(|w| {
-        !(w.contains("may be in the distribution phase")
-            && flagged.iter().any(|p| w.starts_with(p.as_str())))
+        !(w.code() == Code::DistributionPhase
+            && w.level_row().is_some_and(|row| flagged.contains(&row)))
     });
-    let mut all = mine;
     all.append(&mut report.warnings);
     report.warnings = all;
 }
@@ -51,14 +49,11 @@ fn window_hits(profile: &Profile, case: &Case) -> Vec<(usize, usize, f64)> {
     };
     let mut out = Vec::new();
     for level in case.levels.iter().filter(|l| l.use_in_fit) {
-        // The latest dose started strictly before the level (a level at a dose time is that
-        // dose's pre-dose level).
-        let Some(dose) = case.doses.iter().rev().find(|d| d.t < level.t) else {
+        let Some((d, after)) = fitted::after_dose(case, level.t) else {
             continue;
         };
-        let after = level.t - dose.end();
-        if after < w.value {
-            out.push((level.row, dose.row, after));
+        if fitted::in_distribution_phase(after, w.value) {
+            out.push((level.row, case.doses[d].row, after));
         }
     }
     out
@@ -78,7 +73,7 @@ fn window_rows(profile: &Profile, case: &Case) -> Vec<usize> {
 /// - an oral dose of a drug the profile gives no oral bioavailability;
 /// - a level with `use = true` drawn inside the distribution or absorption window;
 /// - the fitted half-life outside the typical adult range (a plausibility flag).
-pub fn warnings(profile: &Profile, case: &Case, report: &Report) -> Vec<String> {
+pub fn warnings(profile: &Profile, case: &Case, report: &Report) -> Vec<Warning> {
     let mut out = Vec::new();
     let name = &profile.display_name;
 
@@ -93,19 +88,22 @@ pub fn warnings(profile: &Profile, case: &Case, report: &Report) -> Vec<String> 
                 Some(_) => "its ranges and targets were converted",
                 None => "its targets could not be converted and were not applied",
             };
-            out.push(format!(
+            out.push(Warning::new(Code::ProfileUnit, format!(
                 "the levels are entered in {} but the {name} profile works in {}: {what}; check the unit on the laboratory report",
                 case_unit.as_str(),
                 pu.as_str()
-            ));
+            )));
         }
     }
 
     if profile.kinetics.first_order == FirstOrder::Partly {
-        out.push(format!(
-            "{name}: first-order projections have limits here: {} {}",
-            profile.kinetics.why.trim_end_matches('.'),
-            profile.kinetics.source
+        out.push(Warning::new(
+            Code::ProfileKinetics,
+            format!(
+                "{name}: first-order projections have limits here: {} {}",
+                profile.kinetics.why.trim_end_matches('.'),
+                profile.kinetics.source
+            ),
         ));
     }
 
@@ -116,9 +114,9 @@ pub fn warnings(profile: &Profile, case: &Case, report: &Report) -> Vec<String> 
         .chain(case.plan.iter().map(|p| p.route))
         .any(|r| matches!(r, Route::Oral { .. }));
     if oral && profile.bioavailability.is_none() {
-        out.push(format!(
+        out.push(Warning::new(Code::ProfileRoute, format!(
             "an oral dose is recorded, but the {name} profile gives no oral bioavailability (it is not given by mouth): check the route"
-        ));
+        )));
     }
 
     if let Some(w) = &profile.level_valid_after_h {
@@ -137,24 +135,24 @@ pub fn warnings(profile: &Profile, case: &Case, report: &Report) -> Vec<String> 
             } else {
                 ""
             };
-            out.push(format!(
+            out.push(Warning::about_level(Code::DistributionPhase, row, format!(
                 "level {row} was drawn {when}, inside {name}'s first {} ({phase}) {}: {in_fit}use a later level, or set use = false",
                 span_words(w.value),
                 w.source
-            ));
+            )));
         }
     }
 
     let t_half = report.fit.half_life_h;
     let typical = &profile.half_life_h;
     if !typical.contains(t_half) {
-        out.push(format!(
+        out.push(Warning::new(Code::HalfLifeImplausible, format!(
             "the fitted half-life {} h is outside {name}'s typical adult range with normal organ function ({}–{} h {}): a plausibility flag, not an error; check the sample and dose times, and renal or hepatic function",
             num(t_half),
             num(typical.low),
             num(typical.high),
             typical.source
-        ));
+        )));
     }
     out
 }

@@ -4,14 +4,18 @@
 use std::path::{Path, PathBuf};
 use std::sync::Arc;
 
+use crate::analysis::ProfileSource;
 use crate::core::case::Targets;
+use crate::core::error::Error;
 use crate::profiles::{self, Catalog, Entry};
 
 /// The profiles available to one run of the UI (cheap to clone).
 #[derive(Debug, Clone)]
 pub struct Profiles {
     dir: Option<PathBuf>,
-    catalog: Result<Arc<Catalog>, String>,
+    catalog: Result<Arc<Catalog>, Error>,
+    /// The catalog's error in words, when it could not be read.
+    why_none: String,
 }
 
 impl Profiles {
@@ -19,9 +23,15 @@ impl Profiles {
     /// broken profile in it, is kept as the error to show (the built-ins are not offered
     /// then either: a broken local protocol is never skipped silently).
     pub fn load(dir: Option<&Path>) -> Self {
+        let catalog = Catalog::load(dir).map(Arc::new);
         Profiles {
             dir: dir.map(Path::to_path_buf),
-            catalog: Catalog::load(dir).map(Arc::new).map_err(|e| e.to_string()),
+            why_none: catalog
+                .as_ref()
+                .err()
+                .map(Error::to_string)
+                .unwrap_or_default(),
+            catalog,
         }
     }
 
@@ -39,7 +49,7 @@ impl Profiles {
     pub fn entries(&self) -> Result<&[Entry], &str> {
         match &self.catalog {
             Ok(c) => Ok(c.entries()),
-            Err(e) => Err(e.as_str()),
+            Err(_) => Err(self.why_none.as_str()),
         }
     }
 
@@ -48,15 +58,21 @@ impl Profiles {
     /// # Errors
     /// No catalog (broken override directory), or no profile of that name.
     pub fn lookup(&self, name: &str) -> Result<&Entry, String> {
-        match &self.catalog {
-            Ok(c) => c.lookup(name, "drug.profile").map_err(|e| e.to_string()),
-            Err(e) => Err(e.clone()),
-        }
+        self.find(name).map_err(|e| e.to_string())
     }
 
     /// The profile named `name`, if it exists.
     pub fn get(&self, name: &str) -> Option<&Entry> {
         self.catalog.as_ref().ok().and_then(|c| c.get(name))
+    }
+}
+
+impl ProfileSource for Profiles {
+    fn find(&self, name: &str) -> Result<&Entry, Error> {
+        match &self.catalog {
+            Ok(c) => c.lookup(name, "drug.profile"),
+            Err(e) => Err(e.clone()),
+        }
     }
 }
 

@@ -1,14 +1,14 @@
 //! The figures the screens show, all computed by the core from the case file: validation,
 //! the fit, the report, and the model's course sampled for the charts.
 
+use crate::analysis::{self, Stop};
 use crate::core::case::Case;
 use crate::core::casefile::CaseFile;
 use crate::core::error::Error;
-use crate::core::fit::{self, Fit, Method};
+use crate::core::fit::{Fit, Method};
 use crate::core::project::{self, Patient};
-use crate::core::report::{self, Report};
+use crate::core::report::Report;
 use crate::core::uncertainty;
-use crate::profiles::{self, Entry};
 use crate::tui::catalog::Profiles;
 use crate::tui::strings;
 use crate::tui::widgets::chart::{ChartData, Curve, CurveRole, Guide, GuideRole, Mark, MarkKind};
@@ -86,83 +86,31 @@ fn problem(e: &Error, invalid_case: bool) -> Problem {
     }
 }
 
-/// The profile the case names, if any.
-fn profile_of<'a>(file: &CaseFile, profiles: &'a Profiles) -> Result<Option<&'a Entry>, Problem> {
-    let Some(name) = file.drug.profile.as_deref() else {
-        return Ok(None);
-    };
-    match profiles.lookup(name) {
-        Ok(e) => Ok(Some(e)),
-        Err(text) => Err(Problem {
-            place: Some("drug.profile".into()),
-            text,
-            invalid_case: true,
-        }),
-    }
-}
-
 impl Figures {
-    /// Validate the case file (with its drug profile's defaults, as `ebb report` does) and
-    /// compute every figure; never panics, never fails: what cannot be computed is left
+    /// Run the one analysis on the case file (with its drug profile, as `ebb report` does)
+    /// and draw the charts; never panics, never fails: what cannot be computed is left
     /// `None` with the reason in `problem`.
     pub fn compute(file: &CaseFile, profiles: &Profiles) -> Figures {
-        let entry = match profile_of(file, profiles) {
-            Ok(e) => e,
-            Err(p) => {
+        let a = analysis::analyse(file, profiles);
+        let problem = a.stop.as_ref().map(|stop| match stop {
+            Stop::Refused(why) => Problem {
+                place: Some("drug.profile".into()),
+                text: strings::refused(why),
+                invalid_case: false,
+            },
+            other => problem(&other.to_error(None), other.is_invalid_case()),
+        });
+        let (case, fit, report) = match (a.case, a.fit, a.report) {
+            (Some(c), Some(f), Some(r)) => (c, f, r),
+            (case, fit, _) => {
                 return Figures {
-                    problem: Some(p),
+                    problem,
+                    case,
+                    fit,
                     ..Figures::default()
                 }
             }
         };
-        let defaults = entry
-            .map(|e| profiles::defaults_for_file(&e.profile, file))
-            .unwrap_or_default();
-        let case = match file.validate_with(&defaults) {
-            Ok(c) => c,
-            Err(e) => {
-                return Figures {
-                    problem: Some(problem(&e, true)),
-                    ..Figures::default()
-                }
-            }
-        };
-        let fit = match fit::fit(&case) {
-            Ok(f) => f,
-            Err(e) => {
-                return Figures {
-                    problem: Some(problem(&e, false)),
-                    case: Some(case),
-                    ..Figures::default()
-                }
-            }
-        };
-        if let Some(why) = entry.and_then(|e| profiles::refusal(&e.profile)) {
-            return Figures {
-                problem: Some(Problem {
-                    place: Some("drug.profile".into()),
-                    text: strings::refused(&why),
-                    invalid_case: false,
-                }),
-                case: Some(case),
-                fit: Some(fit),
-                ..Figures::default()
-            };
-        }
-        let mut report = match report::build_from_fit(&case, &fit) {
-            Ok(r) => r,
-            Err(e) => {
-                return Figures {
-                    problem: Some(problem(&e, false)),
-                    case: Some(case),
-                    fit: Some(fit),
-                    ..Figures::default()
-                }
-            }
-        };
-        if let Some(e) = entry {
-            profiles::apply(&e.profile, &case, &mut report);
-        }
         let patient = Patient::new(&case, &fit);
         let charts = Charts {
             fit: Some(fit_chart(&case, &fit, &patient)),
@@ -170,20 +118,14 @@ impl Figures {
             threshold: threshold_chart(&case, &patient),
             washout: washout_chart(&case, &report, &patient),
         };
-        let threshold_from = case.threshold.as_ref().map(|_| {
-            let last_level = case
-                .levels
-                .iter()
-                .map(|l| l.t)
-                .fold(f64::NEG_INFINITY, f64::max);
-            if patient.v().is_none() {
-                ThresholdFrom::LastFittedLevel
-            } else if last_level >= patient.last_dose_end() {
-                ThresholdFrom::LastLevel
-            } else {
-                ThresholdFrom::LastDoseEnd
-            }
-        });
+        let threshold_from =
+            case.threshold
+                .as_ref()
+                .map(|_| match project::threshold_start(&patient).from {
+                    project::Start::LastDoseEnd => ThresholdFrom::LastDoseEnd,
+                    project::Start::LastLevel => ThresholdFrom::LastLevel,
+                    project::Start::LastFittedLevel => ThresholdFrom::LastFittedLevel,
+                });
         Figures {
             case: Some(case),
             fit: Some(fit),

@@ -134,7 +134,7 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
             MarkKind::NotInFit => strings::NOT_IN_FIT,
             _ => strings::LEFT_OUT,
         };
-        let when = l.time.wall().format("%a %H:%M").to_string();
+        let when = l.time.weekday_time();
         let text = format!("{:<2} {when}  {:>7} ", l.row, num(l.value),);
         let resid = kind.1.map(|x| format!("{x:+.3}")).unwrap_or_default();
         let body = Style::new();

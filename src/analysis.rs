@@ -1,0 +1,258 @@
+//! The one analysis every surface runs (the report, the note, the plot and the screen): a
+//! parsed case file and the drug profiles on offer go in; the drug profile, the validated
+//! case, the fit and the report with the profile's warnings come out — as far as each step
+//! gets, with the reason it stopped.
+//!
+//! The steps, always in this order: look up the profile the case names (once: the same entry
+//! gives the case its defaults and the report its warnings); validate the case with the
+//! profile's defaults; refuse first-order projections for a drug whose profile says they do
+//! not hold; fit; build the report; put the profile's warnings in front of the report's own.
+
+use crate::core::case::Case;
+use crate::core::casefile::CaseFile;
+use crate::core::error::{Error, Result};
+use crate::core::fit::{self, Fit};
+use crate::core::report::{self, Report};
+use crate::profiles::{self, Catalog, Entry};
+
+/// Where drug profiles are looked up by name.
+pub trait ProfileSource {
+    /// The profile named `name` (its file stem), or an error at `drug.profile` saying why not.
+    ///
+    /// # Errors
+    /// No profile of that name, or no profiles could be read at all.
+    fn find(&self, name: &str) -> Result<&Entry>;
+}
+
+impl ProfileSource for Catalog {
+    fn find(&self, name: &str) -> Result<&Entry> {
+        self.lookup(name, "drug.profile")
+    }
+}
+
+/// Why an analysis stopped before the report.
+#[derive(Debug)]
+pub enum Stop {
+    /// The drug profile the case names could not be found.
+    Profile(Error),
+    /// The case file is not a valid case.
+    Case(Error),
+    /// The drug profile says first-order projections do not hold; the words say why.
+    Refused(String),
+    /// The levels gave no fit.
+    Fit(Error),
+    /// The report could not be built (a figure out of range).
+    Report(Error),
+}
+
+impl Stop {
+    /// The stop as an error; a refusal is an error at `drug.profile` naming the profile.
+    pub fn to_error(&self, profile: Option<&Entry>) -> Error {
+        match self {
+            Stop::Profile(e) | Stop::Case(e) | Stop::Fit(e) | Stop::Report(e) => e.clone(),
+            Stop::Refused(why) => Error::invalid(
+                "drug.profile",
+                format!(
+                    "\"{}\": {why}; the report without --json lists the measured levels",
+                    profile.map_or("", |e| e.name.as_str())
+                ),
+            ),
+        }
+    }
+
+    /// Whether the case itself is invalid (rather than valid but without a report).
+    pub fn is_invalid_case(&self) -> bool {
+        matches!(self, Stop::Profile(_) | Stop::Case(_))
+    }
+}
+
+/// Everything one analysis found, as far as it got.
+#[derive(Debug)]
+pub struct Analysis {
+    /// The drug profile the case names, when it was found.
+    pub profile: Option<Entry>,
+    /// The validated case.
+    pub case: Option<Case>,
+    /// The fit.
+    pub fit: Option<Fit>,
+    /// The report, with the profile's warnings in front.
+    pub report: Option<Report>,
+    /// Why it stopped short of the report, when it did.
+    pub stop: Option<Stop>,
+}
+
+/// A finished analysis: every part there.
+#[derive(Debug)]
+pub struct Finished {
+    /// The drug profile the case names, if any.
+    pub profile: Option<Entry>,
+    /// The validated case.
+    pub case: Case,
+    /// The fit.
+    pub fit: Fit,
+    /// The report, with the profile's warnings in front.
+    pub report: Report,
+}
+
+impl Analysis {
+    fn stopped(profile: Option<Entry>, case: Option<Case>, stop: Stop) -> Analysis {
+        Analysis {
+            profile,
+            case,
+            fit: None,
+            report: None,
+            stop: Some(stop),
+        }
+    }
+
+    /// Every part, or the reason there is none (a refusal as an error at `drug.profile`).
+    ///
+    /// # Errors
+    /// The step that stopped the analysis, as an error.
+    pub fn finished(self) -> Result<Finished> {
+        if let Some(stop) = &self.stop {
+            return Err(stop.to_error(self.profile.as_ref()));
+        }
+        match (self.case, self.fit, self.report) {
+            (Some(case), Some(fit), Some(report)) => Ok(Finished {
+                profile: self.profile,
+                case,
+                fit,
+                report,
+            }),
+            _ => Err(Error::Fit("the analysis did not finish".into())),
+        }
+    }
+}
+
+/// The first steps alone: the drug profile the case names (looked up in `profiles`) and the
+/// case validated with that profile's defaults.
+///
+/// # Errors
+/// An unknown profile (at `drug.profile`), or the first invalid field of the case.
+pub fn validate(file: &CaseFile, profiles: &dyn ProfileSource) -> Result<(Case, Option<Entry>)> {
+    let profile = match file.drug.profile.as_deref() {
+        None => None,
+        Some(name) => Some(profiles.find(name)?.clone()),
+    };
+    let case = validate_with(file, profile.as_ref())?;
+    Ok((case, profile))
+}
+
+fn validate_with(file: &CaseFile, profile: Option<&Entry>) -> Result<Case> {
+    let defaults = profile
+        .map(|e| profiles::defaults_for_file(&e.profile, file))
+        .unwrap_or_default();
+    file.validate_with(&defaults)
+}
+
+/// Run the analysis of a parsed case file with the drug profiles of `profiles`.
+pub fn analyse(file: &CaseFile, profiles: &dyn ProfileSource) -> Analysis {
+    let profile = match file.drug.profile.as_deref() {
+        None => None,
+        Some(name) => match profiles.find(name) {
+            Ok(e) => Some(e.clone()),
+            Err(e) => return Analysis::stopped(None, None, Stop::Profile(e)),
+        },
+    };
+    let case = match validate_with(file, profile.as_ref()) {
+        Ok(c) => c,
+        Err(e) => return Analysis::stopped(profile, None, Stop::Case(e)),
+    };
+    if let Some(why) = profile.as_ref().and_then(|e| profiles::refusal(&e.profile)) {
+        return Analysis::stopped(profile, Some(case), Stop::Refused(why));
+    }
+    let fit = match fit::fit(&case) {
+        Ok(f) => f,
+        Err(e) => return Analysis::stopped(profile, Some(case), Stop::Fit(e)),
+    };
+    let mut report = match report::build_from_fit(&case, &fit) {
+        Ok(r) => r,
+        Err(e) => {
+            return Analysis {
+                profile,
+                case: Some(case),
+                fit: Some(fit),
+                report: None,
+                stop: Some(Stop::Report(e)),
+            }
+        }
+    };
+    if let Some(e) = &profile {
+        profiles::apply(&e.profile, &case, &mut report);
+    }
+    Analysis {
+        profile,
+        case: Some(case),
+        fit: Some(fit),
+        report: Some(report),
+        stop: None,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn parse(text: &str) -> CaseFile {
+        CaseFile::parse(text).unwrap()
+    }
+
+    const DOSES: &str = r#"
+[drug]
+level_unit = "mg/L"
+profile = "PROFILE"
+[[dose]]
+time = 2027-03-02T08:00:00
+amount_mg = 400.0
+route = "infusion"
+infusion_h = 0.5
+[[level]]
+time = 2027-03-02T10:00:00
+value = 12.0
+[[level]]
+time = 2027-03-02T20:00:00
+value = 2.0
+"#;
+
+    #[test]
+    fn an_unknown_profile_stops_before_the_case() {
+        let cat = Catalog::built_in().unwrap();
+        let a = analyse(&parse(&DOSES.replace("PROFILE", "no-such")), &cat);
+        assert!(matches!(a.stop, Some(Stop::Profile(_))));
+        assert!(a.case.is_none());
+        let e = a.finished().unwrap_err().to_string();
+        assert!(
+            e.starts_with("drug.profile: no drug profile named \"no-such\""),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn a_drug_whose_kinetics_are_not_first_order_is_refused_before_the_fit() {
+        let cat = Catalog::built_in().unwrap();
+        let a = analyse(&parse(&DOSES.replace("PROFILE", "phenytoin")), &cat);
+        assert!(matches!(a.stop, Some(Stop::Refused(_))));
+        assert!(a.case.is_some() && a.fit.is_none());
+        let e = a.finished().unwrap_err().to_string();
+        assert!(e.starts_with("drug.profile: \"phenytoin\": "), "{e}");
+    }
+
+    #[test]
+    fn the_profile_that_gave_the_defaults_gives_the_warnings() {
+        let cat = Catalog::built_in().unwrap();
+        let done = analyse(&parse(&DOSES.replace("PROFILE", "gentamicin")), &cat)
+            .finished()
+            .unwrap();
+        assert_eq!(done.profile.as_ref().unwrap().name, "gentamicin");
+        // Conventional gentamicin's peak target came from the profile (peak 5-10 mg/L,
+        // [UKMi-Gent][MedscapeGent] in drug-profiles/gentamicin.toml).
+        assert_eq!(done.case.targets.peak, Some([5.0, 10.0]));
+        // Its typical half-life (2-3 h) flags this fit's 3.9 h as implausible.
+        assert!(done
+            .report
+            .warnings
+            .iter()
+            .any(|w| w.code() == crate::core::warning::Code::HalfLifeImplausible));
+    }
+}

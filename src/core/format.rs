@@ -1,0 +1,30 @@
+//! Numbers and clock times written for people, the same way in every report, note and screen.
+
+use crate::core::clock::Stamp;
+
+/// A number for people: four significant figures, trailing zeros trimmed.
+pub fn num(x: f64) -> String {
+    if !x.is_finite() {
+        return "—".into();
+    }
+    if x == 0.0 {
+        return "0".into();
+    }
+    let digits = 4i32;
+    let mag = x.abs().log10().floor() as i32;
+    if !(-4..=9).contains(&mag) {
+        return format!("{x:.3e}");
+    }
+    let decimals = (digits - 1 - mag).max(0) as usize;
+    let s = format!("{x:.decimals$}");
+    if s.contains('.') {
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        s
+    }
+}
+
+/// A readable stamp, with the year only when it differs from `reference`'s.
+pub fn when(s: &Stamp) -> String {
+    s.readable(false)
+}
