@@ -1,4 +1,5 @@
-//! Elimination fits: ordinary least squares, and k, half-life and volume from a case's levels.
+//! Choosing the fit method for a case, and the fit within one dosing interval: ordinary least
+//! squares, the two-point and log-linear k, and the volume by Sawchuk-Zaske or the dose record.
 
 use crate::core::bayes;
 use crate::core::case::{Case, FitChoice};
