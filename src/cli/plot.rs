@@ -9,7 +9,7 @@ use crate::core::case::Case;
 use crate::core::error::{Error, Result};
 use crate::core::fit::Fit;
 use crate::core::format::num;
-use crate::core::project::Patient;
+use crate::core::project::{self, Patient};
 use crate::core::report::Report;
 
 /// Width and height of the drawing, in SVG pixels.
@@ -47,21 +47,6 @@ pub fn plot_svg(a: &Analysis, name: &str) -> Result<String> {
     }
 }
 
-/// Sample times over [a, b], with the moments just before and after each dose and at each
-/// infusion end so the saw-tooth of the course is drawn sharp.
-fn times(a: f64, b: f64, kinks: &[f64]) -> Vec<f64> {
-    let mut ts: Vec<f64> = (0..=SAMPLES)
-        .map(|i| a + (b - a) * i as f64 / SAMPLES as f64)
-        .collect();
-    for &k in kinks {
-        if k > a && k < b {
-            ts.extend([k - 1e-6, k + 1e-6]);
-        }
-    }
-    ts.sort_by(f64::total_cmp);
-    ts
-}
-
 /// Draw from a fit and report already made.
 ///
 /// # Errors
@@ -90,37 +75,32 @@ pub fn plot_svg_from(case: &Case, fit: &Fit, r: &Report) -> Result<String> {
     let span = (last - first).clamp(1.0, MAX_SPAN_H);
     let (x0, x1) = (first - 0.03 * span, first + 1.05 * span);
 
-    let mut kinks: Vec<f64> = case.doses.iter().flat_map(|d| [d.t, d.end()]).collect();
-    // Curves, in the level unit.
-    let recorded: Vec<(f64, f64)> = times(first, x1, &kinks)
-        .into_iter()
-        .map(|t| (t, to(p.level_mg_l(t))))
-        .collect();
+    // Curves, in the level unit, sampled by the same core sampler as the screen's charts.
+    let in_unit = |pts: Vec<(f64, f64)>| -> Vec<(f64, f64)> {
+        pts.into_iter().map(|(t, c)| (t, to(c))).collect()
+    };
+    let recorded = in_unit(project::course_mg_l(&p, None, first, x1, SAMPLES));
     let planned: Vec<(f64, f64)> = match (&case.plan, p.v()) {
-        (Some(pl), Some(_)) => {
-            let n = crate::core::project::plan_doses_before(pl, x1);
-            for j in 0..n {
-                let td = pl.start_t + j as f64 * pl.interval_h;
-                kinks.extend([td, td + pl.route.infusion_h()]);
-            }
-            times(pl.start_t, x1, &kinks)
-                .into_iter()
-                .filter_map(|t| {
-                    let last = crate::core::project::plan_doses_before(pl, t + 1e-9);
-                    let last = last.checked_sub(1);
-                    p.level_with_plan(t, pl, last).map(|c| (t, to(c)))
-                })
-                .collect()
-        }
+        (Some(pl), Some(_)) => match project::plan_doses_before(pl, x1).checked_sub(1) {
+            Some(last) => in_unit(project::course_mg_l(
+                &p,
+                Some((pl, last)),
+                pl.start_t,
+                x1,
+                SAMPLES,
+            )),
+            None => Vec::new(),
+        },
         _ => Vec::new(),
     };
+    // The fitted line is straight on the log axis: its two ends draw it.
     let window = &case.doses[fit.window_dose];
     let fitted_end = fit
         .used
         .iter()
         .map(|&i| case.levels[i].t)
         .fold(window.end(), f64::max);
-    let line: Vec<(f64, f64)> = times(window.end(), fitted_end, &[])
+    let line: Vec<(f64, f64)> = [window.end(), fitted_end]
         .into_iter()
         .map(|t| (t, to(fit.line_mg_l(t))))
         .collect();
