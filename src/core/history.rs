@@ -20,7 +20,7 @@ use crate::core::error::{Error, Result};
 use crate::core::fitted::{
     after_dose, in_distribution_phase, t975, Fit, Method, VolumeMethod, DISTRIBUTION_PHASE_H,
 };
-use crate::core::model::{self, Given};
+use crate::core::model::{self, Given, Schedule};
 pub use crate::core::spread::{Gaussian, Spread};
 
 /// The result of a dose-history or Bayesian solve on plain numbers.
@@ -58,8 +58,8 @@ const PLAUSIBLE_HALF_LIFE_H: [f64; 2] = [0.01, 5000.0];
 
 /// A least-squares problem in θ = (ln k, ln V).
 pub(crate) struct Problem<'a> {
-    /// The dose record.
-    pub doses: &'a [Given],
+    /// The dose record, laid out for one forward pass per evaluation.
+    pub schedule: Schedule<'a>,
     /// Times of the points, hours.
     pub ts: Vec<f64>,
     /// ln of the measured levels, ln(mg/L).
@@ -93,21 +93,43 @@ impl Problem<'_> {
         }
     }
 
+    /// ln S and ∂ln S/∂ln k at every point for this k (one forward pass over the record),
+    /// or None if a point has no model value.
+    fn ln_levels(&self, k: f64) -> Option<Vec<(f64, f64)>> {
+        self.schedule
+            .unit_levels(k, &self.ts)
+            .into_iter()
+            .map(|(s, ds)| (s > 0.0 && s.is_finite()).then(|| (s.ln(), k * ds / s)))
+            .collect()
+    }
+
+    /// Residuals ln(measured) − ln(model) at θ.
+    fn residuals(&self, th: [f64; 2]) -> Option<Vec<f64>> {
+        let levels = self.ln_levels(th[0].exp())?;
+        Some(
+            self.ln_y
+                .iter()
+                .zip(levels)
+                .map(|(ly, (ls, _))| ly - (ls - th[1]))
+                .collect(),
+        )
+    }
+
     /// Residuals and Jacobian rows of ln(model), or None if a point has no model value.
     fn eval(&self, th: [f64; 2]) -> Option<(Vec<f64>, Vec<[f64; 2]>)> {
-        let k = th[0].exp();
-        let mut r = Vec::with_capacity(self.ts.len());
-        let mut j = Vec::with_capacity(self.ts.len());
-        for (t, ly) in self.ts.iter().zip(&self.ln_y) {
-            let (ls, dls) = ln_unit_level(self.doses, k, *t)?;
-            r.push(ly - (ls - th[1]));
-            j.push([dls, -1.0]);
-        }
+        let levels = self.ln_levels(th[0].exp())?;
+        let r = self
+            .ln_y
+            .iter()
+            .zip(&levels)
+            .map(|(ly, (ls, _))| ly - (ls - th[1]))
+            .collect();
+        let j = levels.iter().map(|&(_, dls)| [dls, -1.0]).collect();
         Some((r, j))
     }
 
     fn cost(&self, th: [f64; 2]) -> Option<f64> {
-        let (r, _) = self.eval(th)?;
+        let r = self.residuals(th)?;
         let s2 = self.sigma * self.sigma;
         let c = r.iter().map(|x| x * x).sum::<f64>() / s2 + self.prior_cost(th);
         c.is_finite().then_some(c)
@@ -117,11 +139,12 @@ impl Problem<'_> {
     fn profile_ln_v(&self, ln_k: f64) -> Option<f64> {
         let k = ln_k.exp();
         let s2 = self.sigma * self.sigma;
-        let mut sum_a = 0.0;
-        for (t, ly) in self.ts.iter().zip(&self.ln_y) {
-            let (ls, _) = ln_unit_level(self.doses, k, *t)?;
-            sum_a += ls - ly;
-        }
+        let sum_a: f64 = self
+            .ln_levels(k)?
+            .iter()
+            .zip(&self.ln_y)
+            .map(|((ls, _), ly)| ls - ly)
+            .sum();
         let n = self.ts.len() as f64;
         let (num, den) = match &self.prior {
             None => (sum_a / s2, n / s2),
@@ -314,15 +337,16 @@ pub(crate) fn problem<'a>(
 ) -> std::result::Result<Problem<'a>, Failure> {
     let mut ts = Vec::with_capacity(points.len());
     let mut ln_y = Vec::with_capacity(points.len());
+    let first_dose = doses.iter().map(|d| d.t).fold(f64::INFINITY, f64::min);
     for &(t, y) in points {
-        if !doses.iter().any(|d| d.t < t) {
+        if t <= first_dose {
             return Err(Failure::BeforeFirstDose);
         }
         ts.push(t);
         ln_y.push(y.ln());
     }
     Ok(Problem {
-        doses,
+        schedule: Schedule::new(doses),
         ts,
         ln_y,
         sigma,

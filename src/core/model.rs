@@ -141,6 +141,120 @@ pub fn superpose<'a>(doses: impl IntoIterator<Item = &'a Given>, k: f64, v: f64,
         .sum()
 }
 
+/// A dose record laid out for evaluating the model at many times in one forward pass: the
+/// doses that have fully entered decay together (three running sums), and only infusions still
+/// running are added one by one. Cost O(doses + times) per pass once the times are in order,
+/// instead of O(doses x times) for `superpose` at each time.
+#[derive(Debug, Clone)]
+pub struct Schedule<'a> {
+    doses: &'a [Given],
+    /// Doses by the time they have fully entered (bolus and oral: their time; infusion: its end).
+    by_entry: Vec<usize>,
+    /// Infusions by start time.
+    infusions: Vec<usize>,
+}
+
+impl<'a> Schedule<'a> {
+    /// Lay out `doses` (in any order).
+    pub fn new(doses: &'a [Given]) -> Self {
+        let mut by_entry: Vec<usize> = (0..doses.len()).collect();
+        by_entry.sort_by(|&a, &b| doses[a].end().total_cmp(&doses[b].end()));
+        let mut infusions: Vec<usize> = (0..doses.len())
+            .filter(|&i| matches!(doses[i].route, Route::Infusion { .. }))
+            .collect();
+        infusions.sort_by(|&a, &b| doses[a].t.total_cmp(&doses[b].t));
+        Schedule {
+            doses,
+            by_entry,
+            infusions,
+        }
+    }
+
+    /// The doses, as given.
+    pub fn doses(&self) -> &'a [Given] {
+        self.doses
+    }
+
+    /// The summed single-dose responses with a volume of 1 L at each time of `ts` (any order),
+    /// each with its derivative in k: the same figures as `unit_response` summed over every
+    /// dose, in one pass forward in time.
+    pub fn unit_levels(&self, k: f64, ts: &[f64]) -> Vec<(f64, f64)> {
+        let mut order: Vec<usize> = (0..ts.len()).collect();
+        if !ts.windows(2).all(|w| w[0] <= w[1]) {
+            order.sort_by(|&a, &b| ts[a].total_cmp(&ts[b]));
+        }
+        let mut out = vec![(0.0, 0.0); ts.len()];
+        // Over the doses that have fully entered, at time `now`: s = Σ A·e^(−k·(now−τ)),
+        // p = Σ A'·e^(−k·(now−τ)) and q = Σ (now−τ)·A·e^(−k·(now−τ)), where τ is the time a
+        // dose fully entered, A what it left then (per litre) and A' = ∂A/∂k; so the level is
+        // s and its derivative in k is p − q.
+        let (mut s, mut p, mut q) = (0.0, 0.0, 0.0);
+        let mut now = f64::NEG_INFINITY;
+        let mut advance = |s: &mut f64, p: &mut f64, q: &mut f64, to: f64| {
+            if to > now {
+                if now.is_finite() {
+                    let dt = to - now;
+                    let e = (-k * dt).exp();
+                    *q = (*q + dt * *s) * e;
+                    *s *= e;
+                    *p *= e;
+                }
+                now = to;
+            }
+        };
+        let (mut next_entry, mut next_infusion) = (0, 0);
+        let mut running: Vec<usize> = Vec::new();
+        for &j in &order {
+            let t = ts[j];
+            // Doses fully entered before t (a bolus at t itself is not yet given; an infusion
+            // ending at t is still counted as running, with the same value).
+            while let Some(&i) = self.by_entry.get(next_entry) {
+                let d = &self.doses[i];
+                if d.end() >= t {
+                    break;
+                }
+                advance(&mut s, &mut p, &mut q, d.end());
+                let (a, da) = match d.route {
+                    Route::Infusion { hours } => {
+                        let (g, dg) = rise(k, hours);
+                        (d.amount_mg / hours * g, d.amount_mg / hours * dg)
+                    }
+                    r => (r.bioavailability() * d.amount_mg, 0.0),
+                };
+                s += a;
+                p += da;
+                next_entry += 1;
+            }
+            advance(&mut s, &mut p, &mut q, t);
+            while let Some(&i) = self.infusions.get(next_infusion) {
+                if self.doses[i].t >= t {
+                    break;
+                }
+                running.push(i);
+                next_infusion += 1;
+            }
+            running.retain(|&i| self.doses[i].end() >= t);
+            let (mut c, mut dc) = (s, p - q);
+            for &i in &running {
+                let d = &self.doses[i];
+                let (x, dx) = unit_response(d.amount_mg, d.route, k, t - d.t);
+                c += x;
+                dc += dx;
+            }
+            out[j] = (c, dc);
+        }
+        out
+    }
+
+    /// Concentrations (mg/L) at each time of `ts` for rate constant `k` and volume `v`.
+    pub fn levels(&self, k: f64, v: f64, ts: &[f64]) -> Vec<f64> {
+        self.unit_levels(k, ts)
+            .into_iter()
+            .map(|(c, _)| c / v)
+            .collect()
+    }
+}
+
 /// Steady-state figures of a regimen repeated every `tau` hours.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct SteadyState {
@@ -263,6 +377,56 @@ mod tests {
                 assert!(
                     (dc - numeric).abs() <= 1e-6 * numeric.abs().max(1.0),
                     "{k} {t}: {dc} vs {numeric}"
+                );
+            }
+        }
+    }
+
+    #[test]
+    fn the_forward_pass_matches_the_sum_at_every_time() {
+        let doses = [
+            Given {
+                t: 0.0,
+                amount_mg: 500.0,
+                route: Route::Infusion { hours: 2.0 },
+            },
+            Given {
+                t: 1.0,
+                amount_mg: 80.0,
+                route: Route::Bolus,
+            },
+            Given {
+                t: 1.5,
+                amount_mg: 300.0,
+                route: Route::Infusion { hours: 0.25 },
+            },
+            Given {
+                t: 12.0,
+                amount_mg: 250.0,
+                route: Route::Oral { f: 0.7 },
+            },
+            Given {
+                t: 24.0,
+                amount_mg: 500.0,
+                route: Route::Infusion { hours: 1.0 },
+            },
+        ];
+        // Times out of order, on dose times and infusion ends, during overlapping infusions.
+        let ts = [
+            30.0, 0.0, 0.5, 1.0, 1.2, 1.75, 2.0, 3.0, 12.0, 12.5, 24.0, 24.5, 25.0, 100.0,
+        ];
+        let schedule = Schedule::new(&doses);
+        for k in [1e-9, 0.05, 0.3, 2.0] {
+            let fast = schedule.unit_levels(k, &ts);
+            for (j, &t) in ts.iter().enumerate() {
+                let (c, dc) = doses
+                    .iter()
+                    .map(|d| unit_response(d.amount_mg, d.route, k, t - d.t))
+                    .fold((0.0, 0.0), |a, b| (a.0 + b.0, a.1 + b.1));
+                assert!((fast[j].0 - c).abs() <= 1e-12 * c.abs().max(1.0), "{k} {t}");
+                assert!(
+                    (fast[j].1 - dc).abs() <= 1e-9 * dc.abs().max(1.0),
+                    "{k} {t}"
                 );
             }
         }

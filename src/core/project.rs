@@ -5,7 +5,7 @@
 
 use crate::core::case::{Case, Plan};
 use crate::core::fit::Fit;
-use crate::core::model::{self, Given, SteadyState};
+use crate::core::model::{self, Given, Schedule, SteadyState};
 
 /// The fitted patient as a model that can be evaluated at any time.
 #[derive(Debug, Clone)]
@@ -285,44 +285,47 @@ pub fn course_mg_l(
     if !(from.is_finite() && to.is_finite() && to > from) || n < 2 {
         return Vec::new();
     }
+    let plan = plan.filter(|_| p.v().is_some());
+    // Every dose of the course: the record, then the plan doses up to `last` before `to`.
+    let mut doses: Vec<Given> = p.given.clone().unwrap_or_default();
+    if let Some((pl, last)) = plan {
+        let count = plan_doses_before(pl, to).min(last.saturating_add(1));
+        doses.extend((0..count).map(|j| Given {
+            t: pl.start_t + j as f64 * pl.interval_h,
+            amount_mg: pl.dose_mg,
+            route: pl.route,
+        }));
+    }
     let step = (to - from) / (n - 1) as f64;
     let mut times: Vec<f64> = (0..n).map(|i| from + i as f64 * step).collect();
-    let mut edges = |start: f64, end: f64| {
-        // A bolus enters at once: sample just after it to catch the peak.
-        let end = if end > start { end } else { start + 1e-6 };
-        for t in [start, end] {
-            if t > from && t < to {
-                times.push(t);
-            }
-        }
-    };
-    for d in &p.case.doses {
-        edges(d.t, d.end());
-    }
-    let plan = plan.filter(|_| p.v().is_some());
-    if let Some((pl, last)) = plan {
-        for j in 0..=last.min(MAX_PLAN_DOSES) {
-            let td = pl.start_t + j as f64 * pl.interval_h;
-            if td >= to {
-                break;
-            }
-            edges(td, td + pl.route.infusion_h());
+    // The start and end of each dose inside the span, so no peak is cut off — while there are
+    // no more of them than samples: past that the doses are closer than the chart can show
+    // and the even samples draw the course.
+    let inside: Vec<&Given> = doses
+        .iter()
+        .filter(|d| d.end() > from && d.t < to)
+        .collect();
+    let by_record = p.case.doses.iter().filter(|d| d.end() > from && d.t < to);
+    if inside.len() <= n {
+        for (start, end) in inside.iter().map(|d| (d.t, d.end())).chain(
+            by_record
+                .filter(|_| p.given.is_none())
+                .map(|d| (d.t, d.end())),
+        ) {
+            // A bolus enters at once: sample just after it to catch the peak.
+            let end = if end > start { end } else { start + 1e-6 };
+            times.extend([start, end].into_iter().filter(|t| *t > from && *t < to));
         }
     }
     times.sort_by(f64::total_cmp);
     times.dedup();
-    times
-        .into_iter()
-        .map(|t| {
-            let c = match plan {
-                Some((pl, last)) => p
-                    .level_with_plan(t, pl, Some(last))
-                    .unwrap_or_else(|| p.level_mg_l(t)),
-                None => p.level_mg_l(t),
-            };
-            (t, c)
-        })
-        .collect()
+    match (p.given.is_some(), p.fit.volume_l) {
+        (true, Some(v)) => {
+            let levels = Schedule::new(&doses).levels(p.fit.k, v, &times);
+            times.into_iter().zip(levels).collect()
+        }
+        _ => times.into_iter().map(|t| (t, p.level_mg_l(t))).collect(),
+    }
 }
 
 /// One row of the washout table.

@@ -12,7 +12,7 @@
 use crate::core::case::{Case, Plan};
 use crate::core::fit::Fit;
 use crate::core::history;
-use crate::core::model::{self, Given};
+use crate::core::model::{self, Given, Schedule};
 use crate::core::spread::Spread;
 
 /// Step in ln k and ln V for numerical gradients.
@@ -81,30 +81,40 @@ fn ln_level(given: &[Given], k: f64, v: f64, t: f64) -> Option<(f64, [f64; 2])> 
 /// amounts) the fitted line is given, without a band. For a chart of the fit screen.
 pub fn band(case: &Case, fit: &Fit, ts: &[f64]) -> Vec<BandPoint> {
     let given = case.given().ok();
-    ts.iter()
-        .map(|&t| match (&given, fit.volume_l) {
-            (Some(g), Some(v)) => match ln_level(g, fit.k, v, t) {
-                Some((lc, grad)) => {
-                    let c = lc.exp();
+    match (&given, fit.volume_l) {
+        (Some(g), Some(v)) => {
+            // One forward pass over the record for every time at once.
+            let k = fit.k;
+            let levels = Schedule::new(g).unit_levels(k, ts);
+            ts.iter()
+                .zip(levels)
+                .map(|(&t, (s, ds))| {
+                    if !(s > 0.0 && s.is_finite()) {
+                        return BandPoint {
+                            t,
+                            mg_l: 0.0,
+                            band: None,
+                        };
+                    }
+                    let c = s / v;
+                    let grad = [k * ds / s, -1.0];
                     BandPoint {
                         t,
                         mg_l: c,
-                        band: fit.spread.map(|s| s.interval(c, grad)),
+                        band: fit.spread.map(|sp| sp.interval(c, grad)),
                     }
-                }
-                None => BandPoint {
-                    t,
-                    mg_l: 0.0,
-                    band: None,
-                },
-            },
-            _ => BandPoint {
+                })
+                .collect()
+        }
+        _ => ts
+            .iter()
+            .map(|&t| BandPoint {
                 t,
                 mg_l: fit.line_mg_l(t),
                 band: None,
-            },
-        })
-        .collect()
+            })
+            .collect(),
+    }
 }
 
 /// The 95 % range of the time (hours on the axis) the level falls to `below_mg_l`, from `t0`
