@@ -1,6 +1,6 @@
 //! Benchmarks of the fits and the regimen search: the dose-history fit and the log-linear fit
 //! as the dose record and the levels grow (10 to 10,000), the full report as the levels grow,
-//! and the regimen search on the demo's fitted k and V.
+//! doses and levels grown together, and the regimen search on the demo's fitted k and V.
 
 use std::fmt::Write;
 use std::hint::black_box;
@@ -89,6 +89,23 @@ fn bench_by_levels(c: &mut Criterion) {
     g.finish();
 }
 
+/// Doses and levels grown together (ten doses to each level), in steps of four: a cost linear
+/// in the record grows about four times a step, a cost in their product sixteen times.
+fn bench_together(c: &mut Criterion) {
+    let mut g = c.benchmark_group("dose-history report, doses and levels together");
+    g.sample_size(10);
+    for n in [250, 1_000, 4_000, 16_000] {
+        let case = case(n, n / 10);
+        g.bench_with_input(BenchmarkId::from_parameter(n), &case, |b, case| {
+            b.iter(|| {
+                let f = history::fit(black_box(case)).expect("fits");
+                report::build_from_fit(case, &f).expect("reports")
+            })
+        });
+    }
+    g.finish();
+}
+
 fn bench_regimen(c: &mut Criterion) {
     let case = CaseFile::parse(DEMO_CASE)
         .and_then(|f| f.validate())
@@ -126,6 +143,7 @@ criterion_group!(
     benches,
     bench_regimen,
     bench_history_by_doses,
-    bench_by_levels
+    bench_by_levels,
+    bench_together
 );
 criterion_main!(benches);
