@@ -52,14 +52,8 @@ impl<'a> Patient<'a> {
     pub fn level_with_plan(&self, t: f64, plan: &Plan, last: Option<usize>) -> Option<f64> {
         let (g, v) = (self.given.as_ref()?, self.fit.volume_l?);
         let k = self.fit.k;
-        let mut c = model::superpose(g, k, v, t);
-        if let Some(last) = last {
-            for j in 0..=last {
-                let td = plan.start_t + j as f64 * plan.interval_h;
-                c += model::single_dose(plan.dose_mg, plan.route, k, v, t - td);
-            }
-        }
-        Some(c)
+        let from_plan = last.map_or(0.0, |last| plan_level(plan, last, k, v, t));
+        Some(model::superpose(g, k, v, t) + from_plan)
     }
 
     /// The end of the last recorded dose.
@@ -70,6 +64,40 @@ impl<'a> Patient<'a> {
             .map(|d| d.end())
             .fold(f64::NEG_INFINITY, f64::max)
     }
+}
+
+/// The level (mg/L) at `t` from the plan doses numbered 0..=`last`, summed as a geometric
+/// series: every dose that has fully entered by `t` left the same amount, decaying by
+/// e^(−k·interval) from one to the next, so their sum is closed-form; only a dose still
+/// running (an infusion) is added on its own. The same figure as adding the doses one by one.
+fn plan_level(plan: &Plan, last: usize, k: f64, v: f64, t: f64) -> f64 {
+    let started = plan_doses_before(plan, t).min(last.saturating_add(1));
+    let Some(newest) = started.checked_sub(1) else {
+        return 0.0;
+    };
+    let at = |j: usize| plan.start_t + j as f64 * plan.interval_h;
+    let t_inf = plan.route.infusion_h();
+    // The newest dose started may still be running; every earlier one has fully entered
+    // (an infusion is never longer than the interval).
+    let running = t_inf > 0.0 && t <= at(newest) + t_inf;
+    let (entered, mut c) = if running {
+        (
+            newest,
+            model::single_dose(plan.dose_mg, plan.route, k, v, t - at(newest)),
+        )
+    } else {
+        (started, 0.0)
+    };
+    if let Some(latest) = entered.checked_sub(1) {
+        // What one dose leaves per litre when it has fully entered, decayed to `t` from the
+        // latest entered dose, times 1 + q + q² + … over the `entered` doses, q = e^(−k·τ).
+        let left = model::single_peak(plan.dose_mg, plan.route, k, v);
+        let decay = (-k * (t - at(latest) - t_inf)).exp();
+        let series = model::one_minus_exp_neg(k * plan.interval_h * entered as f64)
+            / model::one_minus_exp_neg(k * plan.interval_h);
+        c += left * decay * series;
+    }
+    c
 }
 
 /// The plan at steady state.
@@ -366,4 +394,46 @@ pub fn washout(p: &Patient, below_mg_l: Option<f64>) -> Vec<WashoutRow> {
         });
     }
     rows
+}
+
+#[cfg(test)]
+mod plan_series_tests {
+    use super::*;
+    use crate::core::model::Route;
+
+    #[test]
+    fn the_geometric_sum_matches_adding_the_plan_doses_one_by_one() {
+        for route in [
+            Route::Bolus,
+            Route::Oral { f: 0.8 },
+            Route::Infusion { hours: 1.0 },
+            Route::Infusion { hours: 12.0 },
+        ] {
+            let plan = Plan {
+                dose_mg: 500.0,
+                interval_h: 12.0,
+                route,
+                start_t: 10.0,
+                start_given: true,
+            };
+            for last in [0usize, 1, 4, 40] {
+                for t in [
+                    5.0, 10.0, 10.5, 11.0, 22.0, 22.5, 23.0, 34.0, 70.3, 100.0, 1000.0,
+                ] {
+                    let (k, v) = (0.11, 35.0);
+                    let one_by_one: f64 = (0..=last)
+                        .map(|j| {
+                            let td = plan.start_t + j as f64 * plan.interval_h;
+                            model::single_dose(plan.dose_mg, route, k, v, t - td)
+                        })
+                        .sum();
+                    let series = plan_level(&plan, last, k, v, t);
+                    assert!(
+                        (series - one_by_one).abs() <= 1e-12 * one_by_one.max(1.0),
+                        "{route:?} last {last} t {t}: {series} vs {one_by_one}"
+                    );
+                }
+            }
+        }
+    }
 }
