@@ -2,14 +2,12 @@
 
 use std::collections::BTreeSet;
 use std::path::Path;
-use std::process::Command;
 
 use serde_json::Value;
 
 fn report_json(name: &str) -> Value {
-    let o = Command::new(env!("CARGO_BIN_EXE_ebb"))
+    let o = common::ebb()
         .args(["report", "--json", &format!("tests/cases/valid/{name}")])
-        .current_dir(env!("CARGO_MANIFEST_DIR"))
         .output()
         .expect("the ebb binary runs");
     assert_eq!(

@@ -1,14 +1,13 @@
 //! The `ebb report` command end to end: text, JSON, errors, several files, and the demo.
 
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+use std::process::Output;
 
 use serde_json::Value;
 
 fn ebb(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_ebb"))
+    common::ebb()
         .args(args)
-        .current_dir(env!("CARGO_MANIFEST_DIR"))
         .output()
         .expect("the ebb binary runs")
 }

@@ -1,5 +1,14 @@
-//! What several integration tests share: the contract's JSON keys and a local drug profile.
+//! What several integration tests share: the `ebb` binary, the contract's JSON keys and a
+//! local drug profile.
 #![allow(dead_code)]
+
+/// The `ebb` binary built for these tests, to be run from the package root (where the
+/// fixtures' relative paths start).
+pub fn ebb() -> assert_cmd::Command {
+    let mut c = assert_cmd::cargo::cargo_bin_cmd!("ebb");
+    c.current_dir(env!("CARGO_MANIFEST_DIR"));
+    c
+}
 
 /// The contract's keys (case-and-report.md, "ebb report CASE.toml --json").
 pub const TOP: &[&str] = &["fit", "plan", "threshold", "washout", "warnings"];

@@ -6,8 +6,7 @@
 //! rejection whose one-line message names a field, a row or a line, or output in which no
 //! number is NaN or infinite.
 
-use std::path::PathBuf;
-use std::sync::atomic::{AtomicUsize, Ordering};
+use std::io::Write;
 
 use chrono::{Datelike, Duration, NaiveDate, NaiveDateTime, Offset, TimeZone};
 use chrono_tz::Tz;
@@ -79,14 +78,11 @@ fn line(key: &str, v: Option<f64>) -> String {
 
 // ---- running a case and checking what comes out -------------------------------------------
 
-static FILES: AtomicUsize = AtomicUsize::new(0);
-
-fn scratch_file(text: &str) -> PathBuf {
-    let dir = std::env::temp_dir().join(format!("ebb-hostile-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
-    let path = dir.join(format!("{}.toml", FILES.fetch_add(1, Ordering::Relaxed)));
-    std::fs::write(&path, text).unwrap();
-    path
+/// The case text in a temporary `.toml` file, removed when dropped.
+fn scratch_file(text: &str) -> tempfile::NamedTempFile {
+    let mut file = tempfile::Builder::new().suffix(".toml").tempfile().unwrap();
+    file.write_all(text.as_bytes()).unwrap();
+    file
 }
 
 /// The places a message may name: a row, a table's field, a line of the file.
@@ -156,10 +152,10 @@ fn check_json(json: &str, text: &str) -> Result<(), TestCaseError> {
 /// The one check: load the case as `ebb report FILE` does (drug profile included), then
 /// write the text report, the JSON and the note; any failure must be a named rejection.
 fn check(text: &str) -> Result<(), TestCaseError> {
-    let path = scratch_file(text);
-    let outcome = cli::load_case_with(&path, None);
-    let analysis = cli::analyse_file(&path, None);
-    let _ = std::fs::remove_file(&path);
+    let file = scratch_file(text);
+    let outcome = cli::load_case_with(file.path(), None);
+    let analysis = cli::analyse_file(file.path(), None);
+    drop(file);
     let case = match outcome {
         Ok(c) => c,
         Err(e) => return check_rejection(&e, text),

@@ -1,9 +1,9 @@
 //! `ebb note` and `ebb plot` on the command line: files written, exit codes, errors.
 
-use std::process::Command;
+use crate::common;
 
-fn ebb() -> Command {
-    let mut c = Command::new(env!("CARGO_BIN_EXE_ebb"));
+fn ebb() -> assert_cmd::Command {
+    let mut c = common::ebb();
     c.env_remove("EBB_PROFILES");
     c
 }
@@ -14,16 +14,11 @@ fn demo_file(dir: &std::path::Path) -> std::path::PathBuf {
     p
 }
 
-fn tmp(name: &str) -> std::path::PathBuf {
-    let d = std::env::temp_dir().join(format!("ebb-note-cli-{name}-{}", std::process::id()));
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
-
 #[test]
 fn note_to_stdout_and_to_a_markdown_file() {
-    let d = tmp("note");
-    let case = demo_file(&d);
+    let tmp = tempfile::tempdir().unwrap();
+    let d = tmp.path();
+    let case = demo_file(d);
     let out = ebb().arg("note").arg(&case).output().unwrap();
     assert_eq!(out.status.code(), Some(0));
     let text = String::from_utf8(out.stdout).unwrap();
@@ -41,13 +36,13 @@ fn note_to_stdout_and_to_a_markdown_file() {
     assert!(out.stdout.is_empty());
     let written = std::fs::read_to_string(&md).unwrap();
     assert!(written.starts_with("# Drug level note: gentamicin"));
-    std::fs::remove_dir_all(&d).ok();
 }
 
 #[test]
 fn plot_writes_an_svg_file() {
-    let d = tmp("plot");
-    let case = demo_file(&d);
+    let tmp = tempfile::tempdir().unwrap();
+    let d = tmp.path();
+    let case = demo_file(d);
     let svg = d.join("course.svg");
     let out = ebb()
         .arg("plot")
@@ -64,12 +59,12 @@ fn plot_writes_an_svg_file() {
     );
     let text = std::fs::read_to_string(&svg).unwrap();
     assert!(roxmltree::Document::parse(&text).is_ok());
-    std::fs::remove_dir_all(&d).ok();
 }
 
 #[test]
 fn a_bad_switch_exits_2_with_one_line_naming_the_field() {
-    let d = tmp("bad");
+    let tmp = tempfile::tempdir().unwrap();
+    let d = tmp.path();
     let p = d.join("bad.toml");
     let text = format!("{}\n[switch]\nto = \"x\"\n", ebb::demo::DEMO_CASE);
     std::fs::write(&p, text).unwrap();
@@ -90,14 +85,14 @@ fn a_bad_switch_exits_2_with_one_line_naming_the_field() {
         );
     }
     assert!(!d.join("x.svg").exists());
-    std::fs::remove_dir_all(&d).ok();
 }
 
 #[test]
 fn the_note_carries_the_profile_warnings_and_is_private() {
     use std::os::unix::fs::PermissionsExt;
-    let d = tmp("profile");
-    let case = demo_file(&d);
+    let tmp = tempfile::tempdir().unwrap();
+    let d = tmp.path();
+    let case = demo_file(d);
     let out_path = d.join("bed7.note.txt");
     let out = ebb()
         .arg("note")

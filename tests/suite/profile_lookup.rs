@@ -25,12 +25,11 @@ fn a_lookup_by_name_matches_the_full_catalog() {
 
 #[test]
 fn with_a_profile_folder_every_file_is_still_read() {
-    let dir = std::env::temp_dir().join(format!("ebb-profile-lookup-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&dir);
-    std::fs::create_dir_all(&dir).unwrap();
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
     std::fs::write(dir.join("broken.toml"), "half_life_h = [\n").unwrap();
     // A broken local file is reported even when the case names a built-in profile.
-    let e = Catalog::load_for(Some(&dir), "vancomycin")
+    let e = Catalog::load_for(Some(dir), "vancomycin")
         .unwrap_err()
         .to_string();
     assert!(e.contains("broken.toml: line 1:"), "{e}");

@@ -16,14 +16,6 @@ use ebb::core::model::Route;
 use ebb::profiles::schema::{citations, FROM_MEMORY};
 use ebb::profiles::{parse_profile, Catalog, Origin};
 
-/// A fresh scratch directory for one test.
-fn scratch(test: &str) -> PathBuf {
-    let dir = std::env::temp_dir().join(format!("ebb-profiles-{}-{test}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&dir);
-    std::fs::create_dir_all(&dir).unwrap();
-    dir
-}
-
 fn write(dir: &Path, name: &str, text: &str) -> PathBuf {
     let p = dir.join(name);
     std::fs::write(&p, text).unwrap();
@@ -210,9 +202,10 @@ fn gent(unit: &str, first: &str, a: f64, b: f64) -> String {
 
 /// Load a case text through the command-line path (built-in profiles only) and return the
 /// JSON report's warnings.
-fn warnings_of(test: &str, text: &str) -> Vec<String> {
-    let dir = scratch(test);
-    let path = write(&dir, "case.toml", text);
+fn warnings_of(text: &str) -> Vec<String> {
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
+    let path = write(dir, "case.toml", text);
     let mut out = Vec::new();
     ebb::cli::write_report(
         &mut out,
@@ -238,7 +231,7 @@ fn any(ws: &[String], phrase: &str) -> bool {
 fn a_clean_gentamicin_case_brings_no_profile_warning() {
     // First level 1 h after the end of the infusion; 6.0 -> 1.2 mg/L over 5.5 h gives a
     // half-life of 2.37 h, inside 2-3 h.
-    let ws = warnings_of("clean", &gent("mg/L", "2027-03-02T07:30:00", 6.0, 1.2));
+    let ws = warnings_of(&gent("mg/L", "2027-03-02T07:30:00", 6.0, 1.2));
     for phrase in [
         "Gentamicin's first",
         "outside Gentamicin's typical",
@@ -253,7 +246,7 @@ fn a_clean_gentamicin_case_brings_no_profile_warning() {
 #[test]
 fn a_level_inside_the_distribution_window_is_flagged_once() {
     // 10 min after the end of the infusion: inside the 30 min window.
-    let ws = warnings_of("window", &gent("mg/L", "2027-03-02T06:40:00", 7.0, 1.2));
+    let ws = warnings_of(&gent("mg/L", "2027-03-02T06:40:00", 7.0, 1.2));
     assert!(
         any(
             &ws,
@@ -282,7 +275,7 @@ fn a_level_set_aside_is_not_flagged_for_the_window() {
         "[plan]",
         "[[level]]\ntime = 2027-03-02T09:00:00\nvalue = 3.5\n\n[plan]",
     );
-    let ws = warnings_of("window-unused", &text);
+    let ws = warnings_of(&text);
     assert!(!any(&ws, "Gentamicin's first"), "{ws:?}");
 }
 
@@ -290,7 +283,7 @@ fn a_level_set_aside_is_not_flagged_for_the_window() {
 fn a_half_life_outside_the_typical_range_is_flagged() {
     // 6.0 -> 3.0 mg/L over 6 h: half-life 6 h, outside 2-3 h.
     let text = gent("mg/L", "2027-03-02T07:00:00", 6.0, 3.0);
-    let ws = warnings_of("half-life", &text);
+    let ws = warnings_of(&text);
     assert!(
         any(
             &ws,
@@ -303,24 +296,22 @@ fn a_half_life_outside_the_typical_range_is_flagged() {
 
 #[test]
 fn a_level_unit_other_than_the_profiles_is_flagged_but_equal_units_are_not() {
-    let ws = warnings_of(
-        "unit",
-        &gent("ng/mL", "2027-03-02T07:30:00", 6000.0, 1200.0),
-    );
+    let ws = warnings_of(&gent("ng/mL", "2027-03-02T07:30:00", 6000.0, 1200.0));
     assert!(
         any(&ws, "the levels are entered in ng/mL but the Gentamicin profile works in mg/L: its ranges and targets were converted"),
         "{ws:?}"
     );
     // ug/mL is the same quantity as mg/L.
-    let ws = warnings_of("unit-same", &gent("ug/mL", "2027-03-02T07:30:00", 6.0, 1.2));
+    let ws = warnings_of(&gent("ug/mL", "2027-03-02T07:30:00", 6.0, 1.2));
     assert!(!any(&ws, "profile works in"), "{ws:?}");
 }
 
 #[test]
 fn profile_targets_are_converted_to_the_case_unit() {
-    let dir = scratch("targets-unit");
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
     let path = write(
-        &dir,
+        dir,
         "c.toml",
         &gent("ng/mL", "2027-03-02T07:30:00", 6000.0, 1200.0),
     );
@@ -331,9 +322,10 @@ fn profile_targets_are_converted_to_the_case_unit() {
 
 #[test]
 fn the_profile_gives_default_targets_and_the_cases_own_win() {
-    let dir = scratch("targets");
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
     let path = write(
-        &dir,
+        dir,
         "c.toml",
         &gent("mg/L", "2027-03-02T07:30:00", 6.0, 1.2),
     );
@@ -343,7 +335,7 @@ fn the_profile_gives_default_targets_and_the_cases_own_win() {
     assert_eq!(case.targets.auc24, None);
 
     let own = gent("mg/L", "2027-03-02T07:30:00", 6.0, 1.2) + "\n[targets]\npeak = [6.0, 9.0]\n";
-    let path = write(&dir, "own.toml", &own);
+    let path = write(dir, "own.toml", &own);
     let case = ebb::cli::load_case_with(&path, None).unwrap();
     assert_eq!(case.targets.peak, Some([6.0, 9.0]));
     assert_eq!(
@@ -353,7 +345,7 @@ fn the_profile_gives_default_targets_and_the_cases_own_win() {
 
     let vanc =
         gent("mg/L", "2027-03-02T07:30:00", 6.0, 1.2).replace("\"gentamicin\"", "\"vancomycin\"");
-    let path = write(&dir, "vanc.toml", &vanc);
+    let path = write(dir, "vanc.toml", &vanc);
     let case = ebb::cli::load_case_with(&path, None).unwrap();
     assert_eq!(case.targets.auc24, Some([400.0, 600.0]));
 }
@@ -379,8 +371,9 @@ value = 0.4
 
 #[test]
 fn the_profile_supplies_the_molar_mass_and_bioavailability() {
-    let dir = scratch("molar");
-    let path = write(&dir, "li.toml", LITHIUM);
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
+    let path = write(dir, "li.toml", LITHIUM);
     let case = ebb::cli::load_case_with(&path, None).unwrap();
     // Lithium carbonate 73.89 g/mol per two lithium ions [FDA-Li]: 36.945 mg per mmol.
     assert_eq!(case.drug.molar_mass_g_mol, Some(36.945));
@@ -388,7 +381,7 @@ fn the_profile_supplies_the_molar_mass_and_bioavailability() {
     assert_eq!(case.doses[0].route, Route::Oral { f: 0.9 });
     // Without the profile a molar unit needs the case's own molar mass.
     let path = write(
-        &dir,
+        dir,
         "bare.toml",
         &LITHIUM.replace("profile = \"lithium\"\n", ""),
     );
@@ -400,9 +393,9 @@ fn the_profile_supplies_the_molar_mass_and_bioavailability() {
 
 #[test]
 fn partly_first_order_kinetics_bring_a_warning() {
-    let ws = warnings_of("partly", LITHIUM);
+    let ws = warnings_of(LITHIUM);
     assert!(any(&ws, "Lithium (as carbonate): first-order projections have limits here: elimination is renal and first-order, but redistribution is incomplete"), "{ws:?}");
-    let ws = warnings_of("partly-no", &gent("mg/L", "2027-03-02T07:30:00", 6.0, 1.2));
+    let ws = warnings_of(&gent("mg/L", "2027-03-02T07:30:00", 6.0, 1.2));
     assert!(!any(&ws, "first-order projections have limits"));
 }
 
@@ -413,12 +406,12 @@ fn an_oral_dose_of_a_drug_not_given_by_mouth_is_flagged() {
         "route = \"oral\"",
         1,
     );
-    let ws = warnings_of("oral", &text);
+    let ws = warnings_of(&text);
     assert!(
         any(&ws, "the Gentamicin profile gives no oral bioavailability"),
         "{ws:?}"
     );
-    let ws = warnings_of("oral-li", LITHIUM);
+    let ws = warnings_of(LITHIUM);
     assert!(!any(&ws, "no oral bioavailability"), "{ws:?}");
 }
 
@@ -453,8 +446,9 @@ route = "oral"
 
 #[test]
 fn phenytoin_refuses_projections_but_shows_the_levels() {
-    let dir = scratch("phenytoin");
-    let path = write(&dir, "p.toml", PHENYTOIN);
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
+    let path = write(dir, "p.toml", PHENYTOIN);
     let mut out = Vec::new();
     ebb::cli::write_report(
         &mut out,
@@ -492,14 +486,12 @@ fn phenytoin_refuses_projections_but_shows_the_levels() {
 
 #[test]
 fn a_first_order_drug_is_not_refused() {
-    let ws = warnings_of(
-        "not-refused",
-        &gent("mg/L", "2027-03-02T07:30:00", 6.0, 1.2),
-    );
+    let ws = warnings_of(&gent("mg/L", "2027-03-02T07:30:00", 6.0, 1.2));
     assert!(!any(&ws, "does not follow first-order"));
     let text = PHENYTOIN.replace("\"phenytoin\"\nlevel_unit", "\"carbamazepine\"\nlevel_unit");
-    let dir = scratch("cbz");
-    let path = write(&dir, "c.toml", &text);
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
+    let path = write(dir, "c.toml", &text);
     let mut out = Vec::new();
     ebb::cli::write_report(
         &mut out,
@@ -515,10 +507,11 @@ fn a_first_order_drug_is_not_refused() {
 
 #[test]
 fn an_unknown_profile_is_an_error_at_drug_profile() {
-    let dir = scratch("unknown-profile");
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
     let text = gent("mg/L", "2027-03-02T07:30:00", 6.0, 1.2)
         .replace("\"gentamicin\"\nlevel", "\"gentamycin\"\nlevel");
-    let path = write(&dir, "c.toml", &text);
+    let path = write(dir, "c.toml", &text);
     let e = ebb::cli::load_case_with(&path, None)
         .unwrap_err()
         .to_string();
@@ -543,15 +536,16 @@ fn local_profile(display: &str, peak: (f64, f64)) -> String {
 
 #[test]
 fn an_override_directory_replaces_a_built_in_and_adds_a_new_profile() {
-    let dir = scratch("override");
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
     write(
-        &dir,
+        dir,
         "gentamicin.toml",
         &local_profile("Gentamicin (local)", (6.0, 9.0)),
     );
-    write(&dir, "newdrug.toml", &local_profile("New drug", (1.0, 2.0)));
-    write(&dir, "readme.txt", "not a profile");
-    let cat = Catalog::load(Some(&dir)).unwrap();
+    write(dir, "newdrug.toml", &local_profile("New drug", (1.0, 2.0)));
+    write(dir, "readme.txt", "not a profile");
+    let cat = Catalog::load(Some(dir)).unwrap();
     let g = cat.get("gentamicin").unwrap();
     assert_eq!(g.profile.display_name, "Gentamicin (local)");
     assert_eq!(g.origin, Origin::Replaces(dir.join("gentamicin.toml")));
@@ -565,23 +559,25 @@ fn an_override_directory_replaces_a_built_in_and_adds_a_new_profile() {
     assert_eq!(gs.cautions, vec!["Local protocol [Local].".to_string()]);
 
     // A case (kept outside the profile directory) then gets the local targets.
-    let cases = scratch("override-case");
+    let tmp_cases = tempfile::tempdir().unwrap();
+    let cases = tmp_cases.path();
     let path = write(
-        &cases,
+        cases,
         "case.toml",
         &gent("mg/L", "2027-03-02T07:30:00", 6.0, 1.2),
     );
-    let case = ebb::cli::load_case_with(&path, Some(&dir)).unwrap();
+    let case = ebb::cli::load_case_with(&path, Some(dir)).unwrap();
     assert_eq!(case.targets.peak, Some([6.0, 9.0]));
     assert_eq!(case.targets.trough_max, None);
 }
 
 // ---------------------------------------------------------------- broken files
 
-fn broken(test: &str, text: &str) -> String {
-    let dir = scratch(test);
-    let path = write(&dir, "gentamicin.toml", text);
-    let e = Catalog::load(Some(&dir)).unwrap_err().to_string();
+fn broken(text: &str) -> String {
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
+    let path = write(dir, "gentamicin.toml", text);
+    let e = Catalog::load(Some(dir)).unwrap_err().to_string();
     assert!(
         e.starts_with(&path.display().to_string()),
         "names the file: {e}"
@@ -592,7 +588,7 @@ fn broken(test: &str, text: &str) -> String {
 #[test]
 fn a_wrong_type_names_file_line_and_field() {
     let text = local_profile("X", (1.0, 2.0)).replace("low = 1.5", "low = \"one\"");
-    let e = broken("type", &text);
+    let e = broken(&text);
     assert!(e.contains(": line 5: field half_life_h.low: "), "{e}");
 }
 
@@ -602,7 +598,7 @@ fn a_missing_source_names_file_line_and_field() {
         "l_per_kg = { low = 0.2, high = 0.3, source = \"[Local]\" }",
         "l_per_kg = { low = 0.2, high = 0.3 }",
     );
-    let e = broken("missing-source", &text);
+    let e = broken(&text);
     assert!(e.contains(": line 9: field volume.l_per_kg: "), "{e}");
     assert!(e.contains("source"), "{e}");
 }
@@ -613,7 +609,7 @@ fn an_unknown_field_names_file_line_and_field() {
         "label = \"Local protocol\"",
         "label = \"Local protocol\"\ncolour = \"red\"",
     );
-    let e = broken("unknown", &text);
+    let e = broken(&text);
     assert!(e.contains(": line 21: field strategy[1]"), "{e}");
     assert!(e.contains("colour"), "{e}");
 }
@@ -624,7 +620,7 @@ fn an_unresolved_citation_names_file_line_and_field() {
         "peak = { low = 1.0, high = 2.0, source = \"[Local]\" }",
         "peak = { low = 1.0, high = 2.0, source = \"[Nowhere]\" }",
     );
-    let e = broken("citation", &text);
+    let e = broken(&text);
     assert!(
         e.contains(": line 22: field strategy[1].peak: cites [Nowhere]"),
         "{e}"
@@ -637,7 +633,7 @@ fn a_source_that_cites_nothing_is_refused() {
         "weight_source = \"[Local]\"",
         "weight_source = \"trust me\"",
     );
-    let e = broken("nothing", &text);
+    let e = broken(&text);
     assert!(
         e.contains(": line 11: field volume.weight_source: the source must cite"),
         "{e}"
@@ -647,7 +643,7 @@ fn a_source_that_cites_nothing_is_refused() {
 #[test]
 fn an_inverted_range_and_a_missing_default_strategy_are_refused() {
     let text = local_profile("X", (3.0, 2.0));
-    let e = broken("inverted", &text);
+    let e = broken(&text);
     assert!(
         e.contains(": line 22: field strategy[1].peak: the low end 3 is above the high end 2"),
         "{e}"
@@ -656,7 +652,7 @@ fn an_inverted_range_and_a_missing_default_strategy_are_refused() {
         "default_strategy = \"local\"",
         "default_strategy = \"other\"",
     );
-    let e = broken("default", &text);
+    let e = broken(&text);
     assert!(
         e.contains(": line 4: field default_strategy: no strategy named \"other\""),
         "{e}"
@@ -666,21 +662,23 @@ fn an_inverted_range_and_a_missing_default_strategy_are_refused() {
 #[test]
 fn a_toml_syntax_error_names_file_and_line() {
     let text = local_profile("X", (1.0, 2.0)).replace("weight = \"ideal\"", "weight = ideal");
-    let e = broken("syntax", &text);
+    let e = broken(&text);
     assert!(e.contains(": line 10: "), "{e}");
 }
 
 #[test]
 fn a_broken_profile_fails_a_case_that_uses_any_profile() {
-    let dir = scratch("broken-case");
-    write(&dir, "gentamicin.toml", "schema = 1\n");
-    let cases = scratch("broken-case-file");
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
+    write(dir, "gentamicin.toml", "schema = 1\n");
+    let tmp_cases = tempfile::tempdir().unwrap();
+    let cases = tmp_cases.path();
     let path = write(
-        &cases,
+        cases,
         "case.toml",
         &gent("mg/L", "2027-03-02T07:30:00", 6.0, 1.2),
     );
-    let e = ebb::cli::load_case_with(&path, Some(&dir))
+    let e = ebb::cli::load_case_with(&path, Some(dir))
         .unwrap_err()
         .to_string();
     assert!(e.contains("gentamicin.toml: line 1: "), "{e}");

@@ -5,11 +5,11 @@
 
 use crate::common;
 
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+use std::path::Path;
+use std::process::Output;
 
 fn ebb(args: &[&str], env: Option<(&str, &Path)>) -> Output {
-    let mut c = Command::new(env!("CARGO_BIN_EXE_ebb"));
+    let mut c = common::ebb();
     c.args(args).env_remove("EBB_PROFILES");
     if let Some((k, v)) = env {
         c.env(k, v);
@@ -19,13 +19,6 @@ fn ebb(args: &[&str], env: Option<(&str, &Path)>) -> Output {
 
 fn text(b: &[u8]) -> String {
     String::from_utf8(b.to_vec()).unwrap()
-}
-
-fn scratch(test: &str) -> PathBuf {
-    let dir = std::env::temp_dir().join(format!("ebb-profiles-cli-{}-{test}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&dir);
-    std::fs::create_dir_all(&dir).unwrap();
-    dir
 }
 
 fn local(dir: &Path, stem: &str, display: &str) {
@@ -87,9 +80,10 @@ fn profiles_show_of_an_unknown_name_fails_with_status_2() {
 
 #[test]
 fn the_profiles_option_and_the_environment_variable_override() {
-    let dir = scratch("override");
-    local(&dir, "gentamicin", "Gentamicin (ward 5)");
-    local(&dir, "newdrug", "New drug");
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
+    local(dir, "gentamicin", "Gentamicin (ward 5)");
+    local(dir, "newdrug", "New drug");
     let d = dir.to_str().unwrap();
 
     let out = ebb(&["--profiles", d, "profiles"], None);
@@ -109,11 +103,11 @@ fn the_profiles_option_and_the_environment_variable_override() {
     // The option also works after the subcommand, and the variable works without it.
     let out = ebb(&["profiles", "--profiles", d], None);
     assert!(text(&out.stdout).contains("New drug"));
-    let out = ebb(&["profiles"], Some(("EBB_PROFILES", &dir)));
+    let out = ebb(&["profiles"], Some(("EBB_PROFILES", dir)));
     assert!(text(&out.stdout).contains("Gentamicin (ward 5)"));
     let out = ebb(
         &["profiles", "show", "newdrug"],
-        Some(("EBB_PROFILES", &dir)),
+        Some(("EBB_PROFILES", dir)),
     );
     assert!(out.status.success());
     assert!(text(&out.stdout).starts_with("New drug (newdrug; "));
@@ -121,8 +115,9 @@ fn the_profiles_option_and_the_environment_variable_override() {
 
 #[test]
 fn a_broken_profile_directory_fails_with_file_line_and_field() {
-    let dir = scratch("broken");
-    local(&dir, "gentamicin", "X");
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
+    local(dir, "gentamicin", "X");
     let p = dir.join("gentamicin.toml");
     let body = std::fs::read_to_string(&p)
         .unwrap()
@@ -162,7 +157,8 @@ value = 12.9
 
 #[test]
 fn report_on_phenytoin_lists_levels_in_text_and_fails_in_json() {
-    let dir = scratch("phenytoin");
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
     let case = dir.join("p.toml");
     std::fs::write(&case, PHENYTOIN).unwrap();
     let c = case.to_str().unwrap();

@@ -4,7 +4,7 @@
 
 use std::fs;
 use std::io::{BufRead, BufReader};
-use std::path::{Path, PathBuf};
+use std::path::Path;
 use std::process::{Command, Stdio};
 
 use ebb::cli::store::PAUSE_ENV;
@@ -31,13 +31,6 @@ time = 2027-03-02T15:00:00
 value = 2.0
 "#;
 
-fn scratch(name: &str) -> PathBuf {
-    let dir = std::env::temp_dir().join(format!("ebb-kill-{}-{name}", std::process::id()));
-    let _ = fs::remove_dir_all(&dir);
-    fs::create_dir_all(&dir).unwrap();
-    dir
-}
-
 fn temporaries(dir: &Path) -> Vec<String> {
     fs::read_dir(dir)
         .unwrap()
@@ -48,7 +41,8 @@ fn temporaries(dir: &Path) -> Vec<String> {
 
 #[test]
 fn a_save_killed_before_the_rename_leaves_the_old_file_whole() {
-    let dir = scratch("killed");
+    let scratch = tempfile::tempdir().unwrap();
+    let dir = scratch.path();
     let path = dir.join("case.toml");
     fs::write(&path, CASE).unwrap();
     let mut child = Command::new(EBB)
@@ -66,7 +60,7 @@ fn a_save_killed_before_the_rename_leaves_the_old_file_whole() {
         .unwrap();
     assert!(line.contains("pausing"), "{line}");
     // The new content is on disk under the temporary name, not yet renamed.
-    let tmp = temporaries(&dir);
+    let tmp = temporaries(dir);
     assert_eq!(tmp.len(), 1, "{tmp:?}");
     let pending = fs::read_to_string(dir.join(&tmp[0])).unwrap();
     assert_ne!(pending, CASE);
@@ -85,7 +79,8 @@ fn a_save_killed_before_the_rename_leaves_the_old_file_whole() {
 
 #[test]
 fn a_finished_tidy_writes_the_canonical_form_owner_only() {
-    let dir = scratch("finished");
+    let scratch = tempfile::tempdir().unwrap();
+    let dir = scratch.path();
     let path = dir.join("case.toml");
     fs::write(&path, CASE).unwrap();
     let out = Command::new(EBB).arg("tidy").arg(&path).output().unwrap();
@@ -107,7 +102,7 @@ fn a_finished_tidy_writes_the_canonical_form_owner_only() {
         at("time = 2027-03-02T09:00:00") < at("value = 6.1"),
         "{text}"
     );
-    assert!(temporaries(&dir).is_empty());
+    assert!(temporaries(dir).is_empty());
     #[cfg(unix)]
     {
         use std::os::unix::fs::PermissionsExt;
@@ -118,7 +113,8 @@ fn a_finished_tidy_writes_the_canonical_form_owner_only() {
 
 #[test]
 fn tidy_leaves_files_with_comments_or_errors_alone() {
-    let dir = scratch("refused");
+    let scratch = tempfile::tempdir().unwrap();
+    let dir = scratch.path();
     let commented = dir.join("commented.toml");
     let text = format!("{CASE}# checked by the ward round\n");
     fs::write(&commented, &text).unwrap();

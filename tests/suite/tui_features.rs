@@ -2,7 +2,7 @@
 //! key sequences checked against the core's own figures on the same case file (the UI must
 //! show what the core computes), and snapshots of the new views at 80x24 and 160x48.
 
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
 use crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
 use ebb::core::casefile::{CaseFile, SwitchFile};
@@ -54,13 +54,6 @@ fn snap_both(name: &str, app: &App) {
     }
 }
 
-fn temp_dir(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("ebb-tui-feat-{name}-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
-
 /// The demo, changed by `f`.
 fn demo_with(f: impl FnOnce(&mut CaseFile)) -> App {
     let mut app = App::demo();
@@ -99,8 +92,9 @@ fn choose_profile(app: &mut App, name: Option<&str>) {
 /// A profile directory with a gentamicin profile that also gives the residual error a
 /// Bayesian prior needs. The 15 % is invented for this screen test (not a drug fact): it only
 /// has to make the core's prior exist; the figures are compared with the core's own.
-fn priors_dir(name: &str) -> PathBuf {
-    let dir = temp_dir(name);
+fn priors_dir() -> tempfile::TempDir {
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
     let text = std::fs::read_to_string(
         Path::new(env!("CARGO_MANIFEST_DIR")).join("drug-profiles/gentamicin.toml"),
     )
@@ -117,7 +111,7 @@ fn priors_dir(name: &str) -> PathBuf {
         1,
     );
     std::fs::write(dir.join("gentamicin.toml"), text).unwrap();
-    dir
+    tmp
 }
 
 fn mode_600(path: &Path) -> u32 {
@@ -251,8 +245,8 @@ fn enter_on_the_profile_field_opens_the_list() {
 
 #[test]
 fn a_profiles_directory_replaces_a_built_in() {
-    let dir = priors_dir("override");
-    let app = App::demo_in(Profiles::load(Some(&dir)));
+    let dir = priors_dir();
+    let app = App::demo_in(Profiles::load(Some(dir.path())));
     let e = app.profiles.get("gentamicin").unwrap();
     assert!(
         e.origin.words().contains("replaces the built-in"),
@@ -266,15 +260,15 @@ fn a_profiles_directory_replaces_a_built_in() {
         .unwrap()
         .residual_error_percent
         .is_some());
-    assert_eq!(app.profiles.dir(), Some(dir.as_path()));
+    assert_eq!(app.profiles.dir(), Some(dir.path()));
     // A broken directory: the list says why, and choosing is still possible ("none").
-    let broken = temp_dir("broken-profiles");
+    let broken = tempfile::tempdir().unwrap();
     std::fs::write(
-        broken.join("gentamicin.toml"),
+        broken.path().join("gentamicin.toml"),
         "schema = 1\ndisplay_name = 3\n",
     )
     .unwrap();
-    let mut app = App::demo_in(Profiles::load(Some(&broken)));
+    let mut app = App::demo_in(Profiles::load(Some(broken.path())));
     assert!(app
         .figures
         .problem
@@ -393,8 +387,8 @@ fn the_fit_method_key_steps_through_the_choices() {
 
 #[test]
 fn a_bayesian_fit_shows_the_population_and_the_move() {
-    let dir = priors_dir("bayes");
-    let mut app = App::demo_in(Profiles::load(Some(&dir)));
+    let dir = priors_dir();
+    let mut app = App::demo_in(Profiles::load(Some(dir.path())));
     ch(&mut app, '2');
     for _ in 0..3 {
         ch(&mut app, 'm');
@@ -406,7 +400,8 @@ fn a_bayesian_fit_shows_the_population_and_the_move() {
     let r = app.figures.report.as_ref().unwrap();
     assert_eq!(r.fit.method, "bayesian", "{:?}", app.figures.problem);
     let core =
-        report::build(&ebb::cli::validate_with_profile(&app.file, Some(&dir)).unwrap()).unwrap();
+        report::build(&ebb::cli::validate_with_profile(&app.file, Some(dir.path())).unwrap())
+            .unwrap();
     assert_eq!(r.fit.k_per_h, core.fit.k_per_h);
     let pop = r.fit.population.as_ref().unwrap();
     let shown = text(&app, 80, 24);
@@ -517,7 +512,8 @@ fn the_switch_time_is_on_the_washout_screen() {
 
 #[test]
 fn the_note_is_written_beside_the_case_file_for_its_owner_only() {
-    let dir = temp_dir("note");
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
     let case_path = dir.join("bed7.toml");
     let mut app = App::demo();
     app.path = Some(case_path.clone());
@@ -546,7 +542,7 @@ fn the_note_is_written_beside_the_case_file_for_its_owner_only() {
     assert!(again.contains("with changes not yet saved"), "{again}");
     assert_eq!(mode_600(&note), 0o600);
     // No stray temporary files.
-    let names: Vec<String> = std::fs::read_dir(&dir)
+    let names: Vec<String> = std::fs::read_dir(dir)
         .unwrap()
         .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
         .collect();
@@ -555,7 +551,8 @@ fn the_note_is_written_beside_the_case_file_for_its_owner_only() {
 
 #[test]
 fn a_case_without_a_file_asks_for_the_note_name() {
-    let dir = temp_dir("note-ask");
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
     let mut app = App::demo();
     ch(&mut app, 'n');
     assert!(matches!(&app.mode, Mode::Editing(e) if e.target == Target::NotePath));
@@ -581,10 +578,11 @@ fn a_case_without_a_file_asks_for_the_note_name() {
 #[test]
 fn no_note_without_figures() {
     let mut app = App::new_case();
-    app.path = Some(temp_dir("note-none").join("empty.toml"));
+    let dir = tempfile::tempdir().unwrap();
+    app.path = Some(dir.path().join("empty.toml"));
     ch(&mut app, 'n');
     assert!(app.message.as_ref().unwrap().is_error);
-    assert!(!temp_dir("note-none").join("empty.note.txt").exists());
+    assert!(!dir.path().join("empty.note.txt").exists());
 }
 
 // ---- help ----------------------------------------------------------------------------------

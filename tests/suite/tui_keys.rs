@@ -38,13 +38,6 @@ fn shown(app: &App) -> &Report {
     app.figures.report.as_ref().expect("figures")
 }
 
-fn temp_dir(name: &str) -> std::path::PathBuf {
-    let d = std::env::temp_dir().join(format!("ebb-tui-{name}-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
-
 /// Go to the "add a level" line of the case screen.
 fn to_add_level(app: &mut App) {
     key(app, KeyCode::Char('1'));
@@ -243,7 +236,8 @@ fn quitting_with_changes_asks_first() {
 
 #[test]
 fn save_then_reopen_gives_the_same_case() {
-    let dir = temp_dir("save");
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
     let path = dir.join("bed7.toml");
     let mut app = App::demo();
     key(&mut app, KeyCode::Char('3'));
@@ -267,7 +261,7 @@ fn save_then_reopen_gives_the_same_case() {
         assert_eq!(mode & 0o777, 0o600);
     }
     // No temporary file is left behind.
-    assert_eq!(std::fs::read_dir(&dir).unwrap().count(), 1);
+    assert_eq!(std::fs::read_dir(dir).unwrap().count(), 1);
     let again = App::open(&path);
     assert_eq!(again.file, app.file);
     assert_eq!(again.file.plan.as_ref().unwrap().dose_mg, 170.0);
@@ -285,7 +279,6 @@ fn save_then_reopen_gives_the_same_case() {
     key(&mut again, KeyCode::Char('q'));
     assert!(again.should_quit());
     assert_eq!(App::open(&path).file.plan.unwrap().dose_mg, 160.0);
-    std::fs::remove_dir_all(&dir).unwrap();
 }
 
 #[test]

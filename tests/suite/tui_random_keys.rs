@@ -59,8 +59,8 @@ fn random_key(rng: &mut Rng) -> KeyEvent {
 }
 
 fn walk(seed: u64, start: App, steps: usize) {
-    let dir = std::env::temp_dir().join(format!("ebb-tui-walk-{}-{seed}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
     let mut app = start;
     // Saves go to the temporary folder, never the working directory.
     app.path = Some(dir.join("walk.toml"));
@@ -92,7 +92,6 @@ fn walk(seed: u64, start: App, steps: usize) {
             );
         }
     }
-    std::fs::remove_dir_all(&dir).unwrap();
 }
 
 #[test]

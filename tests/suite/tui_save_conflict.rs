@@ -17,9 +17,8 @@ fn save(app: &mut App) {
 
 #[test]
 fn a_file_changed_on_disk_is_overwritten_only_after_a_yes() {
-    let dir = std::env::temp_dir().join(format!("ebb-tui-conflict-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&dir);
-    std::fs::create_dir_all(&dir).unwrap();
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
     let path = dir.join("case.toml");
     std::fs::write(&path, ebb::demo::DEMO_CASE).unwrap();
     let mut app = App::open_in(&path, Profiles::load(None));
@@ -63,9 +62,8 @@ fn a_file_changed_on_disk_is_overwritten_only_after_a_yes() {
 
 #[test]
 fn opening_and_saving_a_file_with_comments_says_they_are_not_kept() {
-    let dir = std::env::temp_dir().join(format!("ebb-tui-remarks-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&dir);
-    std::fs::create_dir_all(&dir).unwrap();
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
     let path = dir.join("case.toml");
     // The demo case opens with # comments.
     assert!(ebb::demo::DEMO_CASE.starts_with('#'));
@@ -81,5 +79,4 @@ fn opening_and_saving_a_file_with_comments_says_they_are_not_kept() {
     save(&mut app);
     let said = app.message.as_ref().unwrap().text.clone();
     assert!(!said.contains("were not kept"), "{said}");
-    let _ = std::fs::remove_dir_all(&dir);
 }

@@ -75,15 +75,14 @@ fn too_small_asks_for_a_larger_window() {
 
 #[test]
 fn a_broken_file_opens_showing_its_error() {
-    let dir = std::env::temp_dir().join(format!("ebb-tui-broken-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
     let path = dir.join("broken.toml");
     std::fs::write(&path, "schema = 1\n[patient\nlabel = 3\n").unwrap();
     let app = App::open(&path);
     let text = screen_text(&app, 80, 24);
     assert!(text.contains("line 2"), "{text}");
     assert!(app.load_error.is_some());
-    std::fs::remove_dir_all(&dir).unwrap();
 }
 
 #[test]

@@ -1,7 +1,7 @@
 //! End to end: the real `ebb` binary driven in a tmux session (skipped, with a note, when
 //! tmux is not installed). The k read off the screen must be the core's k for the same case.
 
-use std::path::PathBuf;
+use std::path::Path;
 use std::process::Command;
 use std::time::{Duration, Instant};
 
@@ -14,7 +14,7 @@ struct Session {
 }
 
 impl Session {
-    fn start(tag: &str, cwd: &PathBuf, command: &str) -> Option<Session> {
+    fn start(tag: &str, cwd: &Path, command: &str) -> Option<Session> {
         let socket = format!("ebb-test-{tag}-{}", std::process::id());
         let name = "ebb".to_string();
         let ok = Command::new("tmux")
@@ -147,21 +147,15 @@ fn core_k(toml: &str) -> String {
     num(report::build(&case).unwrap().fit.k_per_h)
 }
 
-fn temp_dir(tag: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("ebb-tmux-{tag}-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
-
 #[test]
 fn the_demo_shows_the_cores_k_and_quits() {
     if !tmux_present() {
         return;
     }
-    let dir = temp_dir("demo");
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
     let bin = env!("CARGO_BIN_EXE_ebb");
-    let s = Session::start("demo", &dir, &format!("{bin} demo")).expect("tmux session");
+    let s = Session::start("demo", dir, &format!("{bin} demo")).expect("tmux session");
     s.wait_for("CAUTION");
     s.keys(&["2"]);
     let screen = s.wait_for("[2 Fit]");
@@ -169,7 +163,6 @@ fn the_demo_shows_the_cores_k_and_quits() {
     assert_eq!(k_on_screen(&screen), core_k(ebb::demo::DEMO_CASE));
     s.keys(&["q"]);
     s.wait_gone();
-    std::fs::remove_dir_all(&dir).unwrap();
 }
 
 #[test]
@@ -177,9 +170,10 @@ fn two_levels_typed_into_a_new_case_give_k() {
     if !tmux_present() {
         return;
     }
-    let dir = temp_dir("new");
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
     let bin = env!("CARGO_BIN_EXE_ebb");
-    let s = Session::start("new", &dir, bin).expect("tmux session");
+    let s = Session::start("new", dir, bin).expect("tmux session");
     s.wait_for("CAUTION");
     let clear = ["End"; 1]
         .iter()
@@ -227,6 +221,5 @@ fn two_levels_typed_into_a_new_case_give_k() {
     s.wait_for("Unsaved changes");
     s.keys(&["y"]);
     s.wait_gone();
-    assert_eq!(std::fs::read_dir(&dir).unwrap().count(), 0, "nothing saved");
-    std::fs::remove_dir_all(&dir).unwrap();
+    assert_eq!(std::fs::read_dir(dir).unwrap().count(), 0, "nothing saved");
 }
