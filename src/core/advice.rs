@@ -87,8 +87,10 @@ pub struct AucPart {
     pub dose_row: usize,
     /// That dose, mg (when known).
     pub dose_mg: Option<f64>,
-    /// The interval, hours.
+    /// The interval, hours: the one given in the record.
     pub interval_h: f64,
+    /// Whether the interval is the plan's (only one dose on record, so none was given yet).
+    pub interval_from_plan: bool,
     /// By the linear-up/log-down trapezoid from the two levels, at steady state.
     pub by_levels: f64,
     /// By F·D/(k·V)·24/tau with the fitted k and V (None without V).
@@ -164,7 +166,11 @@ pub fn auc_compare(p: &Patient) -> Option<AucPart> {
         .filter(|&i| fit::window_of(case, case.levels[i].t) == Some(w))
         .collect();
     let (&a, &b) = (in_window.first()?, in_window.last()?);
-    let tau = regimen::observed_interval(case, fit)?;
+    // A measured figure: the interval actually given; the plan's only when the record holds
+    // a single dose (and the report says so).
+    let recorded = regimen::recorded_interval(case, fit);
+    let interval_from_plan = recorded.is_none();
+    let tau = recorded.or_else(|| case.plan.as_ref().map(|p| p.interval_h))?;
     let (la, lb) = (&case.levels[a], &case.levels[b]);
     let t_inf = dose.route.infusion_h();
     let two =
@@ -179,6 +185,7 @@ pub fn auc_compare(p: &Patient) -> Option<AucPart> {
         dose_row: dose.row,
         dose_mg: dose.amount_mg,
         interval_h: tau,
+        interval_from_plan,
         by_levels: scale.to_level(two.auc24),
         by_k_and_v: by_kv.map(|x| scale.to_level(x)),
         method: TRAPEZOID_METHOD,
@@ -391,9 +398,14 @@ pub fn write_regimen_text(w: &mut dyn Write, a: &AdvicePart, u: &str) -> io::Res
         writeln!(w)?;
     }
     if let Some(x) = &a.auc24 {
+        let whose = if x.interval_from_plan {
+            ", the plan's: only one dose is on record"
+        } else {
+            " as given"
+        };
         writeln!(
             w,
-            "AUC24 over the interval of dose {} ({} h), at steady state:",
+            "AUC24 over the interval of dose {} ({} h{whose}), at steady state:",
             x.dose_row,
             num(x.interval_h)
         )?;

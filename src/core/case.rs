@@ -129,8 +129,11 @@ pub struct Threshold {
     /// Addition: the regimen may resume after the procedure once at or below this (level
     /// unit).
     pub resume_below: Option<f64>,
-    /// Addition: the regimen may resume this many hours after the procedure.
+    /// Addition: the regimen may resume this many hours after the end of the procedure.
     pub resume_after_h: Option<f64>,
+    /// Addition: how long the procedure lasts, hours (0 when not given): the level must stay
+    /// at or below `below` throughout.
+    pub procedure_h: f64,
 }
 
 /// A fit method a case can ask for in `[fit] method`.

@@ -168,9 +168,13 @@ pub struct ThresholdFile {
     /// this (level unit).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub resume_below: Option<f64>,
-    /// Addition: the regimen may resume this many hours after the procedure.
+    /// Addition: the regimen may resume this many hours after the end of the procedure.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub resume_after_h: Option<f64>,
+    /// Addition: how long the procedure lasts, hours (default 0): the level must stay at or
+    /// below `below` from `procedure` to its end.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub procedure_h: Option<f64>,
 }
 
 /// `[switch]` as written (addition): the next agent and exactly one rule for its start.
@@ -439,7 +443,23 @@ impl CaseFile {
                     ));
                 }
                 let (start_t, start_given) = match plan_start {
-                    Some(s) => (clock.hours(&s), true),
+                    Some(s) => {
+                        let t = clock.hours(&s);
+                        // The plan follows the record: a first plan dose at or before the last
+                        // recorded dose would count doses twice.
+                        if let Some(last) = doses.last().filter(|d| t <= d.t) {
+                            return Err(Error::invalid(
+                                "plan.start",
+                                format!(
+                                    "{} is not after the last recorded dose (dose {} at {}); the plan's doses follow the record, so start it after that dose, or record the doses already given as [[dose]] rows",
+                                    s.iso_minute(),
+                                    last.row,
+                                    last.time.iso_minute()
+                                ),
+                            ));
+                        }
+                        (t, true)
+                    }
                     None => match doses.last() {
                         Some(last) => (last.t + p.interval_h, false),
                         None => {
@@ -475,6 +495,7 @@ impl CaseFile {
                     procedure_t: procedure.map(|p| clock.hours(&p)),
                     resume_below: th.resume_below,
                     resume_after_h: th.resume_after_h,
+                    procedure_h: th.procedure_h.unwrap_or(0.0),
                 })
             }
         };
@@ -524,7 +545,16 @@ fn validate_resume(th: &ThresholdFile) -> Result<()> {
             ));
         }
     }
+    if let Some(h) = th.procedure_h {
+        if !(h.is_finite() && (0.0..=720.0).contains(&h)) {
+            return Err(Error::invalid(
+                "threshold.procedure_h",
+                format!("must be from 0 to 720 hours, got {h}"),
+            ));
+        }
+    }
     for (set, name) in [
+        (th.procedure_h.is_some(), "threshold.procedure_h"),
         (th.resume_below.is_some(), "threshold.resume_below"),
         (th.resume_after_h.is_some(), "threshold.resume_after_h"),
     ] {

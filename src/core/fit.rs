@@ -334,6 +334,15 @@ fn volume(case: &Case, fit: &mut Fit) {
             v = Some(vol);
             fit.volume_method = Some(VolumeMethod::PreDoseLevel);
             fit.pre_dose_level = Some(i);
+            if !l.use_in_fit {
+                // Contract v1 takes a pre-dose level for the volume whether used or not; say
+                // so, since "use = false" reads as "left out of everything".
+                fit.warnings.push(Warning::about_level(Code::UnusedLevelSetsVolume, l.row, format!(
+                    "{} is marked use = false and is not in the fit of k, but as the pre-dose level of dose {} it still sets the volume (Sawchuk-Zaske), and with it the peak, trough and AUC; delete the row if it should not count at all",
+                    case.level_name(i),
+                    case.doses[w].row
+                )));
+            }
         } else {
             fit.warnings.push(Warning::about_level(Code::PreDoseLevel, case.levels[i].row, format!(
                 "{} (pre-dose) is not below the fitted level after dose {}: the volume comes from the dose record instead",

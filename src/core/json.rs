@@ -125,6 +125,10 @@ struct JsonThreshold {
     level_at_procedure: Option<f64>,
     resume_at: Option<String>,
     level_at_resume: Option<f64>,
+    /// Addition: how long the procedure lasts, hours.
+    procedure_h: f64,
+    /// Addition: plan doses that start before the procedure (null without a plan or procedure).
+    plan_doses_before_procedure: Option<usize>,
 }
 
 #[derive(Debug, Serialize)]
@@ -194,6 +198,8 @@ impl From<&Report> for JsonReport {
                 level_at_procedure: t.level_at_procedure,
                 resume_at: t.resume_at.as_ref().map(|s| s.iso_minute()),
                 level_at_resume: t.level_at_resume,
+                procedure_h: t.procedure_h,
+                plan_doses_before_procedure: t.plan_doses_before_procedure,
             }),
             washout: r
                 .washout

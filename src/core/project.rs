@@ -140,8 +140,14 @@ pub struct ThresholdProjection {
     /// The latest plan dose (0-based number and its time) that still lets the level be
     /// below the threshold at the procedure.
     pub latest_plan_dose: Option<(usize, f64)>,
-    /// The level at the procedure (mg/L), with the plan doses up to the latest one.
+    /// The level at the procedure (mg/L), with the plan doses up to the latest one: the
+    /// highest level over the procedure window.
     pub level_at_procedure_mg_l: Option<f64>,
+    /// Plan doses that start strictly before the procedure (with a plan and a procedure).
+    pub plan_doses_before: Option<usize>,
+    /// Of those, the ones whose infusion has ended by the procedure (the only candidates: no
+    /// infusion may be running at the procedure).
+    pub plan_doses_done_before: Option<usize>,
 }
 
 /// Hours for a first-order fall from `c0` to `below` at rate `k` (0 when already below).
@@ -228,32 +234,99 @@ pub fn washout_start(p: &Patient) -> f64 {
     }
 }
 
-/// Project the threshold of `below_mg_l`, with a procedure time if given.
+/// Project the threshold of `below_mg_l`, with a procedure time if given (a procedure of no
+/// length; see `threshold_window`).
 pub fn threshold(p: &Patient, below_mg_l: f64, procedure_t: Option<f64>) -> ThresholdProjection {
+    threshold_window(p, below_mg_l, procedure_t, 0.0)
+}
+
+/// The 95 % range of the time the level falls from `c0` at `t0` to `below_mg_l` with no
+/// further dose, by k_hi (earlier) and k_lo (later). `None` when k has no interval above
+/// zero. Fits with a joint spread of k and V get theirs from `uncertainty::crossing_range`,
+/// the one range the threshold and the switch share.
+pub fn k_crossing_range(p: &Patient, t0: f64, c0: f64, below_mg_l: f64) -> Option<[f64; 2]> {
+    match p.fit.k_ci95 {
+        Some([lo, hi]) if lo > 0.0 => Some([
+            t0 + hours_to_fall(c0, below_mg_l, hi),
+            t0 + hours_to_fall(c0, below_mg_l, lo),
+        ]),
+        _ => None,
+    }
+}
+
+/// The highest model level over `[from, from + hours]` with the recorded doses and the plan
+/// doses `0..=last` (`None`: no plan dose). Between the start or end of one dose and the next
+/// the level is c + d·e^(-k·t), so it is monotonic there: the highest value is at the window's
+/// edges or at a dose start or end inside it.
+pub fn window_max(
+    p: &Patient,
+    plan: Option<&Plan>,
+    last: Option<usize>,
+    from: f64,
+    hours: f64,
+) -> f64 {
+    let to = from + hours.max(0.0);
+    let at = |t: f64| match plan {
+        Some(pl) => p
+            .level_with_plan(t, pl, last)
+            .unwrap_or_else(|| p.level_mg_l(t)),
+        None => p.level_mg_l(t),
+    };
+    let mut edges: Vec<f64> = vec![from, to];
+    for d in &p.case.doses {
+        edges.extend([d.t, d.end()]);
+    }
+    if let (Some(pl), Some(last)) = (plan, last) {
+        for j in 0..=last {
+            let td = pl.start_t + j as f64 * pl.interval_h;
+            edges.extend([td, td + pl.route.infusion_h()]);
+        }
+    }
+    edges
+        .into_iter()
+        .filter(|t| *t >= from && *t <= to)
+        .map(at)
+        .fold(f64::NEG_INFINITY, f64::max)
+}
+
+/// Project the threshold of `below_mg_l`, with a procedure at `procedure_t` lasting
+/// `window_h` hours. The latest plan dose allowed is the latest one that has fully entered by
+/// the procedure (no infusion may still be running then) and that, with every plan dose
+/// before it given, leaves the level at or below the threshold for the whole window.
+pub fn threshold_window(
+    p: &Patient,
+    below_mg_l: f64,
+    procedure_t: Option<f64>,
+    window_h: f64,
+) -> ThresholdProjection {
     let case = p.case;
     let fit = p.fit;
     let StartPoint {
         t: t0, c_mg_l: c0, ..
     } = threshold_start(p);
     let reached_t = t0 + hours_to_fall(c0, below_mg_l, fit.k);
-    let reached_ci95_t = match fit.k_ci95 {
-        Some([lo, hi]) if lo > 0.0 => Some([
-            t0 + hours_to_fall(c0, below_mg_l, hi),
-            t0 + hours_to_fall(c0, below_mg_l, lo),
-        ]),
-        _ => None,
-    };
+    let reached_ci95_t = k_crossing_range(p, t0, c0, below_mg_l);
     let (mut latest_plan_dose, mut level_at_procedure) = (None, None);
+    let (mut before, mut done) = (None, None);
     if let Some(tp) = procedure_t {
         let plan = case.plan.as_ref();
         match (plan, p.v()) {
             (Some(plan), Some(_)) => {
-                let count = plan_doses_before(plan, tp);
-                let at =
-                    |last: Option<usize>| p.level_with_plan(tp, plan, last).unwrap_or(f64::NAN);
+                let started = plan_doses_before(plan, tp);
+                // Plan doses are in time order, so those ended by the procedure are a prefix.
+                let mut count = started;
+                while count > 0
+                    && plan.start_t + (count - 1) as f64 * plan.interval_h + plan.route.infusion_h()
+                        > tp
+                {
+                    count -= 1;
+                }
+                before = Some(started);
+                done = Some(count);
+                let at = |last: Option<usize>| window_max(p, Some(plan), last, tp, window_h);
                 let none = at(None);
-                // The level at the procedure rises with each plan dose given, so the doses
-                // that keep it at or below the threshold are a prefix: search its end.
+                // Each plan dose adds to the level over the window, so the doses that keep it
+                // at or below the threshold are a prefix: search its end.
                 if count == 0 || at(Some(0)) > below_mg_l {
                     level_at_procedure = Some(none);
                 } else {
@@ -270,7 +343,7 @@ pub fn threshold(p: &Patient, below_mg_l: f64, procedure_t: Option<f64>) -> Thre
                     level_at_procedure = Some(at(Some(ok)));
                 }
             }
-            _ => level_at_procedure = Some(p.level_mg_l(tp)),
+            _ => level_at_procedure = Some(window_max(p, None, None, tp, window_h)),
         }
     }
     ThresholdProjection {
@@ -281,6 +354,8 @@ pub fn threshold(p: &Patient, below_mg_l: f64, procedure_t: Option<f64>) -> Thre
         reached_ci95_t,
         latest_plan_dose,
         level_at_procedure_mg_l: level_at_procedure,
+        plan_doses_before: before,
+        plan_doses_done_before: done,
     }
 }
 

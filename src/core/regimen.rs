@@ -293,20 +293,24 @@ pub fn loading_dose(
     })
 }
 
-/// The interval the fitted levels were measured over: from the fitted dose to the next
-/// recorded one; when it is the last dose, the plan's interval; else the interval before it.
-pub fn observed_interval(case: &Case, fit: &Fit) -> Option<f64> {
+/// The interval actually given around the fitted dose, from the record alone: from the
+/// fitted dose to the next recorded one; when it is the last dose, the interval before it.
+/// `None` with a single recorded dose.
+pub fn recorded_interval(case: &Case, fit: &Fit) -> Option<f64> {
     let w = fit.window_dose;
     let here = case.doses.get(w)?;
     if let Some(next) = case.doses.get(w + 1) {
         return Some(next.t - here.t);
     }
-    if let Some(p) = &case.plan {
-        return Some(p.interval_h);
-    }
     w.checked_sub(1)
         .and_then(|i| case.doses.get(i))
         .map(|prev| here.t - prev.t)
+}
+
+/// The interval the fitted levels were measured over: the recorded one
+/// (`recorded_interval`), else, after a single dose, the plan's interval.
+pub fn observed_interval(case: &Case, fit: &Fit) -> Option<f64> {
+    recorded_interval(case, fit).or_else(|| case.plan.as_ref().map(|p| p.interval_h))
 }
 
 /// The route regimens are designed for: the plan's, else the last recorded dose's.

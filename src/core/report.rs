@@ -117,7 +117,13 @@ pub struct ThresholdPart {
     pub procedure: Option<Stamp>,
     /// The latest plan dose that still lets the level be below at the procedure.
     pub latest_plan_dose: Option<Stamp>,
-    /// The level at the procedure (level unit).
+    /// Addition: how long the procedure lasts, hours (0 when not given).
+    pub procedure_h: f64,
+    /// Addition: plan doses that start before the procedure (with a plan and a procedure).
+    pub plan_doses_before_procedure: Option<usize>,
+    /// Addition: of those, the ones that have fully entered by the procedure.
+    pub plan_doses_done_before_procedure: Option<usize>,
+    /// The level at the procedure (level unit): the highest over the procedure window.
     pub level_at_procedure: Option<f64>,
     /// Addition: when the regimen may resume after the procedure (rounded up to the minute).
     pub resume_at: Option<Stamp>,
@@ -268,7 +274,12 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
     let threshold = match &case.threshold {
         None => None,
         Some(th) => {
-            let tp = project::threshold(&patient, scale.to_mg_l(th.below), th.procedure_t);
+            let tp = project::threshold_window(
+                &patient,
+                scale.to_mg_l(th.below),
+                th.procedure_t,
+                th.procedure_h,
+            );
             let hours = tp.reached_t - tp.t0;
             if hours > 3.0 * fit.half_life_h {
                 warnings.push(Warning::new(Code::Extrapolation, format!(
@@ -276,22 +287,14 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
                     span_words(hours)
                 )));
             }
-            if fit.half_life_ci95.is_none() && fit.k_ci95.is_some() {
-                // already warned by the fit
+            // One crossing computation for the threshold and the switch.
+            let reached_ci95_t =
+                uncertainty::crossing_range(&patient, tp.t0, tp.c0_mg_l, tp.below_mg_l);
+            if fit.spread.is_some() && reached_ci95_t.is_none() {
+                warnings.push(Warning::new(Code::NoTimeRange,
+                    "the spread of k is too wide to bound when the level falls below the threshold: the 95 % range is not given",
+                ));
             }
-            // Dose-history and Bayesian fits: where the model's 95 % band crosses the
-            // threshold (delta method on k and V together); otherwise k_hi and k_lo as before.
-            let reached_ci95_t = if fit.spread.is_some() {
-                let r = uncertainty::threshold_range(case, fit, tp.t0, tp.below_mg_l);
-                if r.is_none() {
-                    warnings.push(Warning::new(Code::NoTimeRange,
-                        "the spread of k is too wide to bound when the level falls below the threshold: the 95 % range is not given",
-                    ));
-                }
-                r
-            } else {
-                tp.reached_ci95_t
-            };
             let ci = match reached_ci95_t {
                 Some([a, b]) => Some([
                     place_up(case, a, "threshold.below")?,
@@ -322,6 +325,7 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
                     &patient,
                     &tp,
                     t,
+                    th.procedure_h,
                     th.resume_below.map(|x| scale.to_mg_l(x)),
                     th.resume_after_h,
                 )
@@ -342,6 +346,9 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
                     None => None,
                 },
                 latest_plan_dose: latest,
+                procedure_h: th.procedure_h,
+                plan_doses_before_procedure: tp.plan_doses_before,
+                plan_doses_done_before_procedure: tp.plan_doses_done_before,
                 level_at_procedure: tp.level_at_procedure_mg_l.map(to),
                 resume_at,
                 level_at_resume: resume.map(|r| to(r.level_mg_l)),
@@ -431,6 +438,45 @@ fn shape_warnings(case: &Case, fit: &Fit, warnings: &mut Vec<Warning>) {
                 )));
             }
         }
+    }
+}
+
+/// What the report says about the plan doses before a procedure (`u` is the level unit).
+pub fn procedure_words(t: &ThresholdPart, has_plan: bool, u: &str) -> String {
+    let held = if t.procedure_h > 0.0 {
+        "the highest level during it"
+    } else {
+        "level at the procedure"
+    };
+    match (&t.latest_plan_dose, t.level_at_procedure) {
+        (Some(d), Some(l)) => format!(
+            "the last plan dose that may be given is {} ({held} {} {u})",
+            when(d),
+            num(l)
+        ),
+        (None, Some(l)) if l <= t.below && has_plan => match (
+            t.plan_doses_before_procedure,
+            t.plan_doses_done_before_procedure,
+        ) {
+            (Some(0), _) => format!(
+                "no plan dose falls before the procedure (level then {} {u}, at or below the threshold)",
+                num(l)
+            ),
+            (_, Some(0)) => format!(
+                "hold every plan dose before it: the first would still be infusing at the procedure (level with none {} {u})",
+                num(l)
+            ),
+            _ => format!(
+                "hold every plan dose before it: even the first would leave the level above the threshold (level with none {} {u})",
+                num(l)
+            ),
+        },
+        (None, Some(l)) if has_plan => format!(
+            "NOT below even if every plan dose is held (level then {} {u})",
+            num(l)
+        ),
+        (None, Some(l)) => format!("level then {} {u}", num(l)),
+        (_, None) => "level not known".into(),
     }
 }
 
@@ -742,27 +788,17 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
             None => writeln!(w, "  95 % range not known (no interval of k)")?,
         }
         if let Some(p) = &t.procedure {
-            write!(w, "  procedure {}: ", when(p))?;
-            match (&t.latest_plan_dose, t.level_at_procedure) {
-                (Some(d), Some(l)) => writeln!(
+            if t.procedure_h > 0.0 {
+                write!(
                     w,
-                    "the last plan dose that may be given is {} (level at the procedure {} {u})",
-                    when(d),
-                    num(l)
-                )?,
-                (None, Some(l)) if l <= t.below && case.plan.is_some() => writeln!(
-                    w,
-                    "hold every plan dose: even the first would leave it above (level with none {} {u})",
-                    num(l)
-                )?,
-                (None, Some(l)) if case.plan.is_some() => writeln!(
-                    w,
-                    "NOT below even if every plan dose is held (level then {} {u})",
-                    num(l)
-                )?,
-                (None, Some(l)) => writeln!(w, "level then {} {u}", num(l))?,
-                (_, None) => writeln!(w, "level not known")?,
+                    "  procedure {} for {}: ",
+                    when(p),
+                    span_words(t.procedure_h)
+                )?;
+            } else {
+                write!(w, "  procedure {}: ", when(p))?;
             }
+            writeln!(w, "{}", procedure_words(t, case.plan.is_some(), u))?;
         }
         if let Some(at) = &t.resume_at {
             write!(w, "  the regimen may resume from {}", when(at))?;

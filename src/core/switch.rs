@@ -12,7 +12,8 @@ pub struct SwitchProjection {
     pub from_t: f64,
     /// The earliest start, hours.
     pub start_t: f64,
-    /// The 95 % range of the start (k_hi, k_lo), when k has an interval above zero.
+    /// The 95 % range of the start: for a level, the threshold's (`uncertainty::crossing_range`);
+    /// for half-lives, k_hi and k_lo, when k has an interval above zero.
     pub start_ci95_t: Option<[f64; 2]>,
     /// The model's level at the start, mg/L.
     pub level_at_start_mg_l: f64,
@@ -28,7 +29,8 @@ pub fn project(p: &Patient, sw: &Switch) -> SwitchProjection {
             SwitchProjection {
                 from_t: th.t0,
                 start_t: th.reached_t,
-                start_ci95_t: th.reached_ci95_t,
+                // The threshold's own range for the same crossing (one computation).
+                start_ci95_t: crate::core::uncertainty::crossing_range(p, th.t0, th.c0_mg_l, below),
                 level_at_start_mg_l: p.level_mg_l(th.reached_t),
             }
         }

@@ -169,6 +169,23 @@ pub fn threshold_range(case: &Case, fit: &Fit, t0: f64, below_mg_l: f64) -> Opti
     Some([cross(-1.0)?, cross(1.0)?])
 }
 
+/// The one 95 % range of the time the level falls to `below_mg_l` from `t0` (level `c0`) with
+/// no further dose, shared by the threshold and the switch: for dose-history and Bayesian
+/// fits, where the model's 95 % band crosses it (`threshold_range`); otherwise by k_hi and
+/// k_lo (`project::k_crossing_range`).
+pub fn crossing_range(
+    p: &crate::core::project::Patient,
+    t0: f64,
+    c0: f64,
+    below_mg_l: f64,
+) -> Option<[f64; 2]> {
+    if p.fit.spread.is_some() {
+        threshold_range(p.case, p.fit, t0, below_mg_l)
+    } else {
+        crate::core::project::k_crossing_range(p, t0, c0, below_mg_l)
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -616,6 +616,14 @@ pub fn last_plan_dose(when: &str, level: &str, unit: &str) -> String {
 pub fn hold_every_dose(level: &str, unit: &str) -> String {
     format!("Hold every plan dose: even the first leaves it above the threshold (with none: {level} {unit}).")
 }
+/// No plan dose falls before the procedure.
+pub fn no_plan_dose_before(level: &str, unit: &str) -> String {
+    format!("No plan dose falls before the procedure (level then {level} {unit}, below ✓).")
+}
+/// The first plan dose would still be infusing at the procedure.
+pub fn first_dose_still_running(level: &str, unit: &str) -> String {
+    format!("Hold every plan dose before it: the first would still be infusing at the procedure (with none: {level} {unit}).")
+}
 /// Not below even holding.
 pub fn not_below_even_holding(level: &str, unit: &str) -> String {
     format!("✗ NOT below at the procedure even with every plan dose held ({level} {unit} then).")

@@ -94,7 +94,14 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
                         strings::last_plan_dose(&d.readable(false), &num(l), &unit)
                     }
                     (None, Some(l)) if has_plan && l <= t.below => {
-                        strings::hold_every_dose(&num(l), &unit)
+                        match (
+                            t.plan_doses_before_procedure,
+                            t.plan_doses_done_before_procedure,
+                        ) {
+                            (Some(0), _) => strings::no_plan_dose_before(&num(l), &unit),
+                            (_, Some(0)) => strings::first_dose_still_running(&num(l), &unit),
+                            _ => strings::hold_every_dose(&num(l), &unit),
+                        }
                     }
                     (None, Some(l)) if has_plan => strings::not_below_even_holding(&num(l), &unit),
                     (None, Some(l)) => strings::level_at_procedure(&num(l), &unit, l <= t.below),
