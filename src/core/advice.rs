@@ -36,6 +36,14 @@ pub struct SuggestionPart {
     pub trough_ss: f64,
     /// Steady-state AUC over 24 h.
     pub auc24_ss: f64,
+    /// Addition: the steady-state peak at the time the peak target is defined on.
+    pub peak_sampled_ss: f64,
+    /// Addition: whether this is the regimen the patient is on.
+    pub current: bool,
+    /// Addition: hours per interval at or below the trough ceiling (strategies that care).
+    pub drug_free_h: Option<f64>,
+    /// Addition: whether the infusion was lengthened to keep to the maximum rate.
+    pub lengthened: bool,
 }
 
 /// The loading dose, as reported.
@@ -223,6 +231,10 @@ pub fn build(
             peak_ss: to(s.steady.peak_mg_l),
             trough_ss: to(s.steady.trough_mg_l),
             auc24_ss: to(s.steady.auc24_mg_h_l),
+            peak_sampled_ss: to(s.peak_sampled_mg_l),
+            current: s.current,
+            drug_free_h: s.drug_free_h,
+            lengthened: s.lengthened,
         })
         .filter(|s| {
             [s.peak_ss, s.trough_ss, s.auc24_ss]
@@ -340,9 +352,24 @@ pub fn write_regimen_text(w: &mut dyn Write, a: &AdvicePart, u: &str) -> io::Res
     if !a.suggestions.is_empty() {
         writeln!(w, "Regimens that meet every target (best first):")?;
         for (i, s) in a.suggestions.iter().enumerate() {
+            let sampled = if s.peak_sampled_ss != s.peak_ss {
+                format!(" ({} {u} when sampled)", num(s.peak_sampled_ss))
+            } else {
+                String::new()
+            };
+            let mut tail = String::new();
+            if let Some(h) = s.drug_free_h {
+                tail += &format!(", drug-free {} h per interval", num(h));
+            }
+            if s.current {
+                tail += " — the current regimen";
+            }
+            if s.lengthened {
+                tail += " — infusion lengthened for the maximum rate";
+            }
             writeln!(
                 w,
-                "  {}. {} mg {} every {} h: peak {} {u}, trough {} {u}, AUC24 {} {u}·h",
+                "  {}. {} mg {} every {} h: peak {} {u}{sampled}, trough {} {u}, AUC24 {} {u}·h{tail}",
                 i + 1,
                 num(s.dose_mg),
                 suggestion_route(s),

@@ -234,29 +234,71 @@ impl Case {
     }
 }
 
-/// The practical choices a regimen is searched over. A drug profile supplies them; until one
-/// does, `RegimenOptions::default()` holds the common ones.
+/// The practical choices a regimen is searched over, and the dosing strategy's rules. A drug
+/// profile supplies them; until one does, `RegimenOptions::default()` holds the common ones.
 #[derive(Debug, Clone, PartialEq)]
 pub struct RegimenOptions {
-    /// Dosing intervals to try, in hours.
+    /// Dosing intervals to try, in hours (the chosen strategy's usual intervals).
     pub intervals_h: Vec<f64>,
-    /// Doses are multiples of this many mg.
+    /// Doses are multiples of this many mg (a finer step is taken when the dose is small).
     pub dose_step_mg: f64,
     /// Infusion durations to try, in hours, for an infusion route. Empty: keep the duration
     /// of the plan (or of the last recorded dose).
     pub infusion_h: Vec<f64>,
+    /// The dosing strategy's name (the profile's), when a profile gave the options.
+    pub strategy: Option<String>,
+    /// Whether the strategy cares for the drug-free time per interval (extended interval).
+    pub drug_free_time: bool,
+    /// Hours after the end of the infusion at which the peak target is defined (0: at the end).
+    pub peak_sampled_after_h: f64,
+    /// The fastest infusion allowed, mg/min.
+    pub max_rate_mg_per_min: Option<f64>,
+    /// The largest single dose, mg.
+    pub max_single_dose_mg: Option<f64>,
+    /// The largest daily dose, mg.
+    pub max_daily_dose_mg: Option<f64>,
+    /// Whether and how a loading dose is given.
+    pub loading: LoadingRule,
+    /// Tablet or capsule strengths, mg: doses are made of them.
+    pub dose_forms_mg: Vec<f64>,
 }
 
 impl Default for RegimenOptions {
     /// Intervals 6, 8, 12, 24, 36 and 48 h; doses in steps of 10 mg; the infusion time of
-    /// the plan or of the last dose (common practice).
+    /// the plan or of the last dose (common practice); a loading dose by the kinetics; no
+    /// limits.
     fn default() -> Self {
         RegimenOptions {
             intervals_h: vec![6.0, 8.0, 12.0, 24.0, 36.0, 48.0],
             dose_step_mg: 10.0,
             infusion_h: Vec::new(),
+            strategy: None,
+            drug_free_time: false,
+            peak_sampled_after_h: 0.0,
+            max_rate_mg_per_min: None,
+            max_single_dose_mg: None,
+            max_daily_dose_mg: None,
+            loading: LoadingRule::Kinetic,
+            dose_forms_mg: Vec::new(),
         }
     }
+}
+
+/// Whether a loading dose is given, and how it is sized.
+#[derive(Debug, Clone, PartialEq)]
+pub enum LoadingRule {
+    /// Never (the profile gives none: lithium, or a drug where none is used).
+    Never,
+    /// The dose that reaches the aimed peak at once (no profile, or the profile says so).
+    Kinetic,
+    /// By body weight, as the guideline gives it: mg/kg range (the middle is used) and an
+    /// optional cap, mg.
+    PerKg {
+        /// Low and high mg/kg.
+        mg_per_kg: [f64; 2],
+        /// The largest loading dose, mg.
+        max_mg: Option<f64>,
+    },
 }
 
 /// The `[switch]` section of a case: which agent comes next and when it may start.

@@ -97,6 +97,10 @@ pub struct DrugFile {
     pub level_unit: Option<String>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub molar_mass_g_mol: Option<f64>,
+    /// Addition: the profile's dosing strategy (targets, usual intervals, sampling rules);
+    /// default: the profile's `default_strategy`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub strategy: Option<String>,
 }
 
 /// One `[[dose]]` as written.
@@ -206,6 +210,8 @@ pub struct Defaults {
     /// The practical choices regimen suggestions are searched over (usual intervals, dose
     /// rounding); `None` keeps `RegimenOptions::default()`.
     pub regimen: Option<RegimenOptions>,
+    /// The profile's strategy names (a case's `drug.strategy` must be one of them).
+    pub strategies: Vec<String>,
 }
 
 impl CaseFile {
@@ -248,6 +254,23 @@ impl CaseFile {
             }
         }
         let patient = validate_patient(&self.patient)?;
+        if let Some(name) = &self.drug.strategy {
+            if defaults.strategies.is_empty() {
+                return Err(Error::invalid(
+                    "drug.strategy",
+                    "a dosing strategy belongs to a drug profile; give drug.profile too",
+                ));
+            }
+            if !defaults.strategies.iter().any(|s| s == name) {
+                return Err(Error::invalid(
+                    "drug.strategy",
+                    format!(
+                        "the profile has no strategy \"{name}\"; it has {}",
+                        defaults.strategies.join(", ")
+                    ),
+                ));
+            }
+        }
         let drug = validate_drug(&self.drug, defaults)?;
         let scale = drug.scale;
 

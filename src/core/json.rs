@@ -36,6 +36,14 @@ struct JsonSuggestion {
     peak_ss: f64,
     trough_ss: f64,
     auc24_ss: f64,
+    /// Addition: the peak at the time the peak target is defined on.
+    peak_sampled_ss: f64,
+    /// Addition: whether this is the regimen the patient is on.
+    current: bool,
+    /// Addition: hours per interval at or below the trough ceiling, or null.
+    drug_free_h: Option<f64>,
+    /// Addition: whether the infusion was lengthened for the maximum rate.
+    lengthened: bool,
 }
 
 #[derive(Debug, Serialize)]
@@ -110,6 +118,12 @@ struct JsonPlan {
     time_to_95pct_ss_h: f64,
     time_to_97pct_ss_h: f64,
     meets_targets: Option<bool>,
+    /// Addition: the steady-state peak at the strategy's sampling time, or null.
+    peak_sampled_ss: Option<f64>,
+    /// Addition: hours after the end of the infusion the peak target is defined at.
+    peak_sampled_after_h: f64,
+    /// Addition: hours per interval at or below the trough ceiling, or null.
+    drug_free_h: Option<f64>,
     /// Addition: 95 % ranges of the steady-state figures (dose-history and Bayesian fits).
     peak_ss_ci95: Option<[f64; 2]>,
     trough_ss_ci95: Option<[f64; 2]>,
@@ -183,6 +197,9 @@ impl From<&Report> for JsonReport {
                 time_to_95pct_ss_h: p.time_to_ss_h[1],
                 time_to_97pct_ss_h: p.time_to_ss_h[2],
                 meets_targets: p.meets_targets,
+                peak_sampled_ss: p.peak_sampled_ss,
+                peak_sampled_after_h: p.peak_sampled_after_h,
+                drug_free_h: p.drug_free_h,
                 peak_ss_ci95: p.peak_ss_ci95,
                 trough_ss_ci95: p.trough_ss_ci95,
                 auc24_ss_ci95: p.auc24_ss_ci95,
@@ -225,6 +242,10 @@ impl From<&Report> for JsonReport {
                     peak_ss: s.peak_ss,
                     trough_ss: s.trough_ss,
                     auc24_ss: s.auc24_ss,
+                    peak_sampled_ss: s.peak_sampled_ss,
+                    current: s.current,
+                    drug_free_h: s.drug_free_h,
+                    lengthened: s.lengthened,
                 })
                 .collect(),
             loading_dose_mg: r.advice.loading.as_ref().map(|l| l.dose_mg),

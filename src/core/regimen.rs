@@ -5,12 +5,53 @@
 //! converts to the case's level unit.
 
 use crate::core::auc;
+pub use crate::core::case::LoadingRule;
 pub use crate::core::case::RegimenOptions;
 use crate::core::case::{Case, Targets};
 use crate::core::fit::Fit;
 use crate::core::model::{self, Route, SteadyState};
 use crate::core::project::Patient;
 use crate::core::warning::{Code, Warning};
+
+/// The step a dose of about `need_mg` is rounded on: the profile's `step` while it is at most
+/// a quarter of the dose, else the largest of 0.05, 0.1, 0.25, 0.5, 1, 2.5, 5 … mg that is at
+/// most a tenth of it, so rounding moves it by at most about 5 % (a 6.25 mg need is rounded
+/// on 0.5 mg to 6.5 mg, not on 10 mg).
+pub fn fitting_step(need_mg: f64, step: f64) -> f64 {
+    const STEPS: [f64; 13] = [
+        0.05, 0.1, 0.25, 0.5, 1.0, 2.5, 5.0, 10.0, 25.0, 50.0, 100.0, 250.0, 500.0,
+    ];
+    if !(need_mg.is_finite() && need_mg > 0.0) || step / need_mg <= 0.25 {
+        return step;
+    }
+    STEPS
+        .iter()
+        .rev()
+        .copied()
+        .find(|s| *s <= step && *s <= need_mg / 10.0)
+        .unwrap_or(STEPS[0].min(step))
+}
+
+/// The step doses of tablet strengths `forms` are made on: the smallest strength when every
+/// other is a multiple of it (200 and 400 mg: 200 mg), else their greatest common divisor.
+pub fn forms_step(forms: &[f64]) -> Option<f64> {
+    let mut ok: Vec<f64> = forms
+        .iter()
+        .copied()
+        .filter(|f| f.is_finite() && *f > 0.0)
+        .collect();
+    ok.sort_by(f64::total_cmp);
+    let first = *ok.first()?;
+    let gcd = |mut a: f64, mut b: f64| {
+        while b > 1e-6 {
+            let r = a % b;
+            a = b;
+            b = r;
+        }
+        a
+    };
+    Some(ok.iter().fold(first, |g, &f| gcd(f, g)))
+}
 
 /// The most suggestions given.
 pub const MAX_SUGGESTIONS: usize = 5;
@@ -29,6 +70,15 @@ pub struct Suggestion {
     /// Distance from the middle of the target ranges: the mean of the squared distances,
     /// each in half-widths of its range (0 in the middle, 1 at an edge).
     pub score: f64,
+    /// The peak at the time the peak target is defined on (`peak_sampled_after_h` after the
+    /// end of the infusion), mg/L.
+    pub peak_sampled_mg_l: f64,
+    /// Whether this is the regimen the patient is on (listed first when it meets every target).
+    pub current: bool,
+    /// Hours per steady-state interval at or below the trough ceiling (strategies that care).
+    pub drug_free_h: Option<f64>,
+    /// Whether the infusion was lengthened to keep to the maximum rate.
+    pub lengthened: bool,
 }
 
 /// What the loading dose aims at.
@@ -40,6 +90,8 @@ pub enum LoadingBasis {
     BestSuggestion,
     /// The steady-state peak of the case's plan (no target, no suggestion).
     Plan,
+    /// The profile's mg/kg range (its middle) on the recorded body weight, capped.
+    WeightBased,
 }
 
 impl LoadingBasis {
@@ -49,6 +101,9 @@ impl LoadingBasis {
             LoadingBasis::PeakTarget => "the middle of the peak target",
             LoadingBasis::BestSuggestion => "the steady-state peak of the first suggestion",
             LoadingBasis::Plan => "the steady-state peak of the plan",
+            LoadingBasis::WeightBased => {
+                "the middle of the profile's mg/kg range on the recorded weight"
+            }
         }
     }
 }
@@ -153,10 +208,46 @@ pub fn score(s: &SteadyState, t: &Targets) -> f64 {
         / r.len() as f64
 }
 
-/// Whether an interval keeps doses at the same clock times every day.
-fn fits_the_day(tau: f64) -> bool {
-    let r = |a: f64, b: f64| (a / b - (a / b).round()).abs() < 1e-9;
-    r(24.0, tau) || r(tau, 24.0)
+/// The steady state with its peak moved to the time the peak target is defined on:
+/// `after_h` hours after the end of the infusion (kept within the interval).
+pub fn for_targets(s: SteadyState, route: Route, tau: f64, k: f64, after_h: f64) -> SteadyState {
+    let after = after_h.clamp(0.0, (tau - route.infusion_h()).max(0.0));
+    SteadyState {
+        peak_mg_l: s.peak_mg_l * (-k * after).exp(),
+        ..s
+    }
+}
+
+/// Hours per steady-state interval with the level at or below `below` mg/L: the part of the
+/// infusion before the level climbs past it and the tail after it falls below it again.
+pub fn drug_free_h(dose: f64, route: Route, tau: f64, k: f64, v: f64, below: f64) -> f64 {
+    let s = model::steady_state(dose, route, tau, k, v);
+    let t_inf = route.infusion_h();
+    if s.peak_mg_l <= below {
+        return tau;
+    }
+    let tail = (tau - t_inf - (s.peak_mg_l / below).ln() / k).max(0.0);
+    let rise = match route {
+        Route::Infusion { hours } if s.trough_mg_l < below => {
+            // During the infusion c(t) = c_inf + (trough - c_inf)·e^(-k·t), c_inf = R0/(k·V).
+            let c_inf = dose / hours / (k * v);
+            ((c_inf - s.trough_mg_l) / (c_inf - below)).ln() / k
+        }
+        _ => 0.0,
+    };
+    (rise.clamp(0.0, t_inf) + tail).min(tau)
+}
+
+/// The route with its infusion lengthened, when needed, so `dose` runs no faster than
+/// `max_rate` mg/min (rounded up to a quarter hour); and whether it was.
+pub fn keep_to_rate(route: Route, dose: f64, max_rate: Option<f64>) -> (Route, bool) {
+    match (route, max_rate) {
+        (Route::Infusion { hours }, Some(r)) if r > 0.0 && dose / (hours * 60.0) > r + 1e-9 => {
+            let need = (dose / (r * 60.0) * 4.0 - 1e-9).ceil() / 4.0;
+            (Route::Infusion { hours: need }, true)
+        }
+        _ => (route, false),
+    }
 }
 
 /// The routes to try: the given one, or each usual infusion time for an infusion.
@@ -172,23 +263,99 @@ fn routes(route: Route, opts: &RegimenOptions) -> Vec<Route> {
     }
 }
 
-/// Search the practical regimens for `k` (1/h) and `v` (L) that meet every target (in mg/L),
-/// best first: closest to the middle of the target ranges (scores equal to two decimals tie);
-/// on ties, the interval nearest `current_interval_h` (the least change to the ward's
-/// routine), then intervals that keep the same clock times each day, then longer intervals.
-/// One regimen per interval (its best dose and infusion time). Empty when no peak or AUC24
-/// range is given: a trough ceiling alone does not pick a dose.
+/// The regimen the patient is on: dose, interval and route.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Current {
+    /// Dose, mg.
+    pub dose_mg: f64,
+    /// Interval, hours.
+    pub interval_h: f64,
+    /// Route.
+    pub route: Route,
+}
+
+/// Whether a dose breaks one of the limits: the single or daily maximum, or the rate.
+fn within_limits(d: f64, route: Route, tau: f64, opts: &RegimenOptions) -> bool {
+    let rate_ok = match (route, opts.max_rate_mg_per_min) {
+        (Route::Infusion { hours }, Some(r)) => d / (hours * 60.0) <= r + 1e-9,
+        _ => true,
+    };
+    rate_ok
+        && opts.max_single_dose_mg.is_none_or(|m| d <= m)
+        && opts
+            .max_daily_dose_mg
+            .is_none_or(|m| d * 24.0 / tau <= m * (1.0 + 1e-9))
+}
+
+/// A suggestion for dose `d` by `route` every `tau`, when it meets every target.
+fn candidate(
+    d: f64,
+    route: Route,
+    tau: f64,
+    k: f64,
+    v: f64,
+    t: &Targets,
+    opts: &RegimenOptions,
+) -> Option<Suggestion> {
+    let (r, lengthened) = keep_to_rate(route, d, opts.max_rate_mg_per_min);
+    if d <= 0.0 || !d.is_finite() || r.infusion_h() >= tau || !within_limits(d, r, tau, opts) {
+        return None;
+    }
+    let steady = model::steady_state(d, r, tau, k, v);
+    let checked = for_targets(steady, r, tau, k, opts.peak_sampled_after_h);
+    if !meets(&checked, t) {
+        return None;
+    }
+    Some(Suggestion {
+        dose_mg: d,
+        interval_h: tau,
+        route: r,
+        steady,
+        score: score(&checked, t),
+        peak_sampled_mg_l: checked.peak_mg_l,
+        current: false,
+        drug_free_h: match (opts.drug_free_time, t.trough_max) {
+            (true, Some(m)) => Some(drug_free_h(d, r, tau, k, v, m)),
+            _ => None,
+        },
+        lengthened,
+    })
+}
+
+/// Search the practical regimens for `k` (1/h) and `v` (L) that meet every target (in mg/L).
+/// See `suggest_for`; here with no current regimen.
 pub fn suggest(
     k: f64,
     v: f64,
     route: Route,
     t: &Targets,
     opts: &RegimenOptions,
-    current_interval_h: Option<f64>,
+    _current_interval_h: Option<f64>,
 ) -> Vec<Suggestion> {
-    let step = opts.dose_step_mg;
+    suggest_for(k, v, route, t, opts, None)
+}
+
+/// Search the practical regimens for `k` (1/h) and `v` (L) that meet every target (in mg/L),
+/// ranked by this rule: only the strategy's usual intervals (`opts.intervals_h`); the
+/// regimen the patient is on first when it meets every target; then closest to the middle of
+/// the target ranges (scores equal to two decimals tie); then the shorter interval. One
+/// regimen per interval (its best dose and infusion time) besides the current one; doses on
+/// the dose step (finer for small doses, tablet strengths when the profile lists them);
+/// infusions lengthened to keep to the maximum rate; no dose above a single or daily
+/// maximum. Empty when no peak or AUC24 range is given: a trough ceiling alone does not pick
+/// a dose. The order depends on the record, the targets and the options only (not on the
+/// plan), so taking a suggestion into the plan does not re-sort the list.
+pub fn suggest_for(
+    k: f64,
+    v: f64,
+    route: Route,
+    t: &Targets,
+    opts: &RegimenOptions,
+    current: Option<Current>,
+) -> Vec<Suggestion> {
+    let base_step = forms_step(&opts.dose_forms_mg).unwrap_or(opts.dose_step_mg);
     let rs = ranges(t);
-    if rs.is_empty() || !(step.is_finite() && step > 0.0 && k > 0.0 && v > 0.0) {
+    if rs.is_empty() || !(base_step.is_finite() && base_step > 0.0 && k > 0.0 && v > 0.0) {
         return Vec::new();
     }
     let mut out: Vec<Suggestion> = Vec::new();
@@ -198,71 +365,86 @@ pub fn suggest(
         .filter(|x| x.is_finite() && **x > 0.0)
     {
         let mut best: Option<Suggestion> = None;
-        for r in routes(route, opts) {
-            if r.infusion_h() >= tau {
-                continue;
-            }
-            // Every figure is proportional to the dose: value = a·D.
-            let unit = model::steady_state(1.0, r, tau, k, v);
-            let (mut lo, mut hi) = (step, f64::INFINITY);
-            if let Some([a, b]) = t.peak {
-                lo = lo.max(a / unit.peak_mg_l);
-                hi = hi.min(b / unit.peak_mg_l);
-            }
-            if let Some(m) = t.trough_max {
-                hi = hi.min(m / unit.trough_mg_l);
-            }
-            if let Some([a, b]) = t.auc24 {
-                lo = lo.max(a / unit.auc24_mg_h_l);
-                hi = hi.min(b / unit.auc24_mg_h_l);
-            }
-            if !(hi.is_finite() && lo <= hi * (1.0 + 1e-12)) {
-                continue;
-            }
-            // The dose nearest the middles (least squares in D), kept inside [lo, hi].
-            let (mut num, mut den) = (0.0, 0.0);
-            for (mid, half, get) in &rs {
-                let a = get(&unit);
-                num += a * mid / (half * half);
-                den += a * a / (half * half);
-            }
-            // hi may sit a rounding error below lo (allowed above); clamp panics if lo > hi.
-            let d_star = (num / den).clamp(lo, hi.max(lo));
-            let n = (d_star / step).floor();
-            for d in [n * step, (n + 1.0) * step] {
-                if d <= 0.0 || !d.is_finite() {
-                    continue;
+        for r0 in routes(route, opts) {
+            // Twice: the second time with the infusion the first best dose needs for the rate.
+            let mut r = r0;
+            for _ in 0..2 {
+                if r.infusion_h() >= tau {
+                    break;
                 }
-                let s = model::steady_state(d, r, tau, k, v);
-                if !meets(&s, t) {
-                    continue;
+                // Every figure is proportional to the dose: value = a·D.
+                let unit = for_targets(
+                    model::steady_state(1.0, r, tau, k, v),
+                    r,
+                    tau,
+                    k,
+                    opts.peak_sampled_after_h,
+                );
+                let (mut lo, mut hi) = (0.0f64, f64::INFINITY);
+                if let Some([a, b]) = t.peak {
+                    lo = lo.max(a / unit.peak_mg_l);
+                    hi = hi.min(b / unit.peak_mg_l);
                 }
-                let sc = score(&s, t);
-                if best.as_ref().is_none_or(|b| sc < b.score) {
-                    best = Some(Suggestion {
-                        dose_mg: d,
-                        interval_h: tau,
-                        route: r,
-                        steady: s,
-                        score: sc,
-                    });
+                if let Some(m) = t.trough_max {
+                    hi = hi.min(m / unit.trough_mg_l);
                 }
+                if let Some([a, b]) = t.auc24 {
+                    lo = lo.max(a / unit.auc24_mg_h_l);
+                    hi = hi.min(b / unit.auc24_mg_h_l);
+                }
+                if !(hi.is_finite() && lo <= hi * (1.0 + 1e-12)) {
+                    break;
+                }
+                // The dose nearest the middles (least squares in D), kept inside [lo, hi].
+                let (mut num, mut den) = (0.0, 0.0);
+                for (mid, half, get) in &rs {
+                    let a = get(&unit);
+                    num += a * mid / (half * half);
+                    den += a * a / (half * half);
+                }
+                let d_star = (num / den).clamp(lo, hi.max(lo));
+                let step = if opts.dose_forms_mg.is_empty() {
+                    fitting_step(d_star, base_step)
+                } else {
+                    base_step
+                };
+                let n = (d_star / step).floor();
+                for d in [n * step, (n + 1.0) * step] {
+                    if let Some(c) = candidate(d, r, tau, k, v, t, opts) {
+                        if best.as_ref().is_none_or(|b| c.score < b.score) {
+                            best = Some(c);
+                        }
+                    }
+                }
+                let (longer, changed) = keep_to_rate(r, d_star, opts.max_rate_mg_per_min);
+                if !changed {
+                    break;
+                }
+                r = longer;
             }
         }
         out.extend(best);
     }
     let key = |s: &Suggestion| {
-        let change = current_interval_h
-            .filter(|c| c.is_finite() && *c > 0.0)
-            .map_or(0, |c| ((s.interval_h / c).ln().abs() * 1e6).round() as i64);
         (
             (s.score * 100.0).round() as i64,
-            change,
-            !fits_the_day(s.interval_h),
-            std::cmp::Reverse((s.interval_h * 1000.0).round() as i64),
+            (s.interval_h * 1000.0).round() as i64,
         )
     };
     out.sort_by_key(key);
+    if let Some(c) = current {
+        if let Some(mut now) =
+            candidate(c.dose_mg, c.route, c.interval_h, k, v, t, opts).filter(|s| !s.lengthened)
+        {
+            now.current = true;
+            out.retain(|s| {
+                !(s.dose_mg == now.dose_mg
+                    && s.interval_h == now.interval_h
+                    && s.route == now.route)
+            });
+            out.insert(0, now);
+        }
+    }
     out.truncate(MAX_SUGGESTIONS);
     out
 }
@@ -283,6 +465,7 @@ pub fn loading_dose(
     if !(exact.is_finite() && exact > 0.0 && step > 0.0) {
         return None;
     }
+    let step = fitting_step(exact, step);
     let dose = (exact / step).round() * step;
     (dose > 0.0 && dose.is_finite()).then_some(LoadingDose {
         dose_mg: dose,
@@ -358,6 +541,22 @@ pub fn proportional(case: &Case, fit: &Fit, t: &Targets, step: f64) -> Option<Pr
     })
 }
 
+/// The regimen the patient is on, from the record: the last recorded dose and the interval
+/// before it (`None` with one dose or an unknown amount).
+pub fn current_regimen(case: &Case) -> Option<Current> {
+    let n = case.doses.len();
+    let (prev, last) = (case.doses.get(n.checked_sub(2)?)?, case.doses.get(n - 1)?);
+    Some(Current {
+        dose_mg: last.amount_mg?,
+        interval_h: last.t - prev.t,
+        route: last.route,
+    })
+}
+
+/// A level above this fraction of the aimed peak at the time a loading dose would be given
+/// counts as drug on board (our rule: a loading dose is for starting with none).
+pub const ON_BOARD_FRACTION: f64 = 0.05;
+
 /// Regimen advice for a fitted case: suggestions and a loading dose with a volume, the
 /// proportional adjustment without one. `plan_peak_mg_l` is the plan's steady-state peak, when
 /// projected (the loading dose's last resort).
@@ -373,12 +572,18 @@ pub fn advise(p: &Patient, plan_peak_mg_l: Option<f64>, opts: &RegimenOptions) -
         Some(v) => {
             let k = p.fit.k;
             if has_range {
-                let current = observed_interval(case, p.fit);
-                advice.suggestions = suggest(k, v, route, &t, opts, current);
+                advice.suggestions = suggest_for(k, v, route, &t, opts, current_regimen(case));
                 if advice.suggestions.is_empty() {
                     advice.notes.push(Warning::new(Code::NoSuggestion,
                         "no regimen among the usual intervals and dose steps meets every target; review the targets or consider other intervals",
                     ));
+                } else if advice.suggestions.iter().any(|s| s.lengthened) {
+                    if let Some(r) = opts.max_rate_mg_per_min {
+                        advice.notes.push(Warning::new(Code::RateLimit, format!(
+                            "some suggested infusions are longer than the plan's to keep to the maximum rate of {} mg/min",
+                            crate::core::format::num(r)
+                        )));
+                    }
                 }
             } else if t.trough_max.is_some() {
                 advice.notes.push(Warning::new(Code::NoSuggestion,
@@ -392,9 +597,64 @@ pub fn advise(p: &Patient, plan_peak_mg_l: Option<f64>, opts: &RegimenOptions) -
                 _ => None,
             };
             let load_route = advice.suggestions.first().map_or(route, |s| s.route);
-            advice.loading = aim.and_then(|(peak, basis)| {
-                loading_dose(k, v, load_route, peak, opts.dose_step_mg, basis)
-            });
+            let given_at = case.plan.as_ref().map_or_else(
+                || crate::core::project::threshold_start(p).t,
+                |pl| pl.start_t,
+            );
+            let on_board = p.level_mg_l(given_at);
+            let scale = case.drug.scale;
+            let words = |x: f64| {
+                format!(
+                    "{} {}",
+                    crate::core::format::num(scale.to_level(x)),
+                    scale.unit.as_str()
+                )
+            };
+            match (&opts.loading, aim) {
+                (LoadingRule::Never, _) => {}
+                (_, Some((peak, _))) if on_board > ON_BOARD_FRACTION * peak => {
+                    advice.notes.push(Warning::new(Code::NoLoadingDose, format!(
+                        "no loading dose: the drug is on board (model level {} when the next dose is due); a loading dose is for starting with none, so adjust the maintenance dose instead",
+                        words(on_board)
+                    )));
+                }
+                (LoadingRule::Kinetic, Some((peak, basis))) => {
+                    advice.loading =
+                        loading_dose(k, v, load_route, peak, opts.dose_step_mg, basis);
+                }
+                (LoadingRule::PerKg { mg_per_kg, max_mg }, _) => {
+                    match case.patient.weight_kg {
+                        None => advice.notes.push(
+                            Warning::new(Code::NoLoadingDose, "no loading dose: the profile doses it by body weight, and the case gives no patient.weight_kg"),
+                        ),
+                        Some(w) => {
+                            let mut need = (mg_per_kg[0] + mg_per_kg[1]) / 2.0 * w;
+                            if let Some(m) = max_mg {
+                                need = need.min(*m);
+                            }
+                            let step = fitting_step(need, opts.dose_step_mg);
+                            let mut dose = (need / step).round() * step;
+                            if let Some(m) = max_mg {
+                                if dose > *m {
+                                    dose -= step;
+                                }
+                            }
+                            let (r, _) = keep_to_rate(load_route, dose, opts.max_rate_mg_per_min);
+                            let per = model::single_peak(1.0, r, k, v);
+                            if dose > 0.0 && per.is_finite() {
+                                advice.loading = Some(LoadingDose {
+                                    dose_mg: dose,
+                                    route: r,
+                                    target_peak_mg_l: need * per,
+                                    peak_mg_l: dose * per,
+                                    basis: LoadingBasis::WeightBased,
+                                });
+                            }
+                        }
+                    }
+                }
+                (LoadingRule::Kinetic, None) => {}
+            }
         }
         None => {
             if has_range {
@@ -436,7 +696,7 @@ mod tests {
         let opts = RegimenOptions {
             intervals_h: vec![8.0],
             dose_step_mg: 0.1,
-            infusion_h: vec![],
+            ..RegimenOptions::default()
         };
         let s = suggest(k, v, r, &t, &opts, None);
         assert_eq!(s.len(), 1);
@@ -461,28 +721,104 @@ mod tests {
     }
 
     #[test]
-    fn ranking_prefers_the_middle_and_breaks_ties_by_convenience() {
-        let s = suggest(
-            0.25,
-            18.0,
-            Route::Infusion { hours: 0.5 },
-            &gent_targets(),
-            &RegimenOptions {
-                dose_step_mg: 1.0,
-                ..RegimenOptions::default()
-            },
-            Some(8.0),
-        );
-        assert!(!s.is_empty() && s.len() <= MAX_SUGGESTIONS);
-        // A peak range and a trough ceiling, 1 mg steps: every interval gets within 0.05 of the
-        // middle of the peak (scores tie at two decimals), so the tie goes to the current
-        // interval, then its nearest neighbours.
-        assert_eq!(s[0].interval_h, 8.0);
-        assert_eq!(s[1].interval_h, 6.0);
-        for w in s.windows(2) {
-            assert!((w[0].score * 100.0).round() <= (w[1].score * 100.0).round());
+    fn ranking_follows_the_stated_rule() {
+        // Rule (common practice, docs/methods-regimen.md): the strategy's usual intervals only;
+        // the current regimen first when it meets every target; then closest to the middle of
+        // the target ranges; then the shorter interval. Conventional gentamicin targets (peak
+        // 5-10, trough <= 2 mg/L [UKMi-Gent][MedscapeGent]) with conventional intervals 8 and
+        // 12 h never list a 36 or 48 h regimen.
+        let (k, v) = (0.25, 18.0);
+        let r = Route::Infusion { hours: 0.5 };
+        let opts = RegimenOptions {
+            intervals_h: vec![8.0, 12.0],
+            ..RegimenOptions::default()
+        };
+        let current = Current {
+            dose_mg: 100.0,
+            interval_h: 8.0,
+            route: r,
+        };
+        let s = suggest_for(k, v, r, &gent_targets(), &opts, Some(current));
+        assert!(s
+            .iter()
+            .all(|x| x.interval_h == 8.0 || x.interval_h == 12.0));
+        assert!(s[0].current && s[0].dose_mg == 100.0, "{:?}", s[0]);
+        for w in s[1..].windows(2) {
+            let (a, b) = ((w[0].score * 100.0).round(), (w[1].score * 100.0).round());
+            assert!(a < b || (a == b && w[0].interval_h <= w[1].interval_h));
         }
-        assert!(fits_the_day(8.0) && fits_the_day(48.0) && !fits_the_day(36.0));
+        // A current regimen out of range is not listed.
+        let high = Current {
+            dose_mg: 400.0,
+            ..current
+        };
+        let s2 = suggest_for(k, v, r, &gent_targets(), &opts, Some(high));
+        assert!(s2.iter().all(|x| !x.current));
+        // Taking a suggestion changes the plan, not the record: the list is the same.
+        assert_eq!(
+            s,
+            suggest_for(k, v, r, &gent_targets(), &opts, Some(current))
+        );
+    }
+
+    #[test]
+    fn a_small_need_is_rounded_on_a_step_that_fits_it() {
+        // Rule (common practice): rounding must not change a small dose much; a 6.25 mg need
+        // must not become 10 mg on a 10 mg step.
+        assert_eq!(fitting_step(6.25, 10.0), 0.5);
+        assert_eq!(fitting_step(100.0, 10.0), 10.0);
+        let l = loading_dose(0.1, 1.0, Route::Bolus, 6.25, 10.0, LoadingBasis::PeakTarget).unwrap();
+        assert_eq!(l.dose_mg, 6.5);
+        // Tablet strengths of 200 and 400 mg make doses in 200 mg steps.
+        assert_eq!(forms_step(&[400.0, 200.0]), Some(200.0));
+        assert_eq!(forms_step(&[250.0, 400.0]), Some(50.0));
+    }
+
+    #[test]
+    fn infusions_are_lengthened_to_keep_to_the_maximum_rate() {
+        // Vancomycin: no faster than 10 mg/min (profile, from memory, unverified): 1500 mg
+        // needs 150 min, so 2.5 h.
+        let (r, longer) = keep_to_rate(Route::Infusion { hours: 1.0 }, 1500.0, Some(10.0));
+        assert!(longer);
+        assert_eq!(r, Route::Infusion { hours: 2.5 });
+        let t = Targets {
+            auc24: Some([400.0, 600.0]),
+            ..Targets::default()
+        };
+        let opts = RegimenOptions {
+            intervals_h: vec![8.0, 12.0, 24.0],
+            dose_step_mg: 250.0,
+            max_rate_mg_per_min: Some(10.0),
+            ..RegimenOptions::default()
+        };
+        let s = suggest_for(0.08, 50.0, Route::Infusion { hours: 1.0 }, &t, &opts, None);
+        assert!(!s.is_empty());
+        for x in &s {
+            assert!(
+                x.dose_mg / (x.route.infusion_h() * 60.0) <= 10.0 + 1e-9,
+                "{x:?}"
+            );
+        }
+        assert!(s.iter().any(|x| x.lengthened));
+    }
+
+    #[test]
+    fn drug_free_time_is_the_time_below_the_ceiling() {
+        // Self-consistency: sample the steady-state course and count the time at or below.
+        let (d, r, tau, k, v, below) =
+            (500.0, Route::Infusion { hours: 0.5 }, 24.0, 0.3, 20.0, 1.0);
+        let h = drug_free_h(d, r, tau, k, v, below);
+        let ss = model::steady_state(d, r, tau, k, v);
+        let n = 240_000;
+        let mut free = 0.0;
+        for i in 0..n {
+            let s = (i as f64 + 0.5) * tau / n as f64;
+            let c = ss.trough_mg_l * (-k * s).exp() + model::single_dose(d, r, k, v, s);
+            if c <= below {
+                free += tau / n as f64;
+            }
+        }
+        assert!((h - free).abs() < 1e-3, "{h} vs {free}");
     }
 
     #[test]
@@ -490,6 +826,6 @@ mod tests {
         let l = loading_dose(0.1, 20.0, Route::Bolus, 8.0, 10.0, LoadingBasis::PeakTarget).unwrap();
         assert_eq!(l.dose_mg, 160.0);
         assert!((l.peak_mg_l - 8.0).abs() < 1e-12);
-        assert!(loading_dose(0.1, 20.0, Route::Bolus, 0.1, 10.0, LoadingBasis::Plan).is_none());
+        assert!(loading_dose(0.1, 20.0, Route::Bolus, 0.0, 10.0, LoadingBasis::Plan).is_none());
     }
 }

@@ -76,8 +76,15 @@ pub struct TargetCheck {
 pub struct PlanPart {
     /// 1/(1 - e^(-k·tau)).
     pub accumulation_factor: f64,
-    /// Steady-state peak.
+    /// Steady-state peak at the end of the infusion (bolus, oral: just after the dose).
     pub peak_ss: Option<f64>,
+    /// Addition: the steady-state peak at the strategy's sampling time, when that is after
+    /// the end of the infusion (peak targets are checked on it).
+    pub peak_sampled_ss: Option<f64>,
+    /// Addition: hours after the end of the infusion the peak target is defined at (0: end).
+    pub peak_sampled_after_h: f64,
+    /// Addition: hours per interval at or below the trough ceiling (strategies that care).
+    pub drug_free_h: Option<f64>,
     /// Steady-state trough.
     pub trough_ss: Option<f64>,
     /// Steady-state AUC over 24 h (level unit x h).
@@ -224,6 +231,7 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
     let plan = match &case.plan {
         None => None,
         Some(pl) => {
+            let mut drug_free_h = None;
             let pp = project::plan(&patient, pl);
             let ranges = patient
                 .v()
@@ -241,7 +249,30 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
                     "no volume: steady-state peak, trough and AUC24 cannot be projected; the times to steady state still hold",
                 ));
             }
-            let checks = target_checks(&case.targets, peak, trough, auc);
+            // Peak targets are defined at the strategy's sampling time after the end of the
+            // infusion: report that peak beside the end-of-infusion one and check it.
+            let after = case.regimen.peak_sampled_after_h;
+            let sampled = pp.steady.map(|s| {
+                crate::core::regimen::for_targets(s, pl.route, pl.interval_h, fit.k, after)
+                    .peak_mg_l
+            });
+            let peak_sampled = sampled.filter(|_| after > 0.0).map(to);
+            let checks = target_checks(&case.targets, peak_sampled.or(peak), trough, auc);
+            if let Some(v) = patient.v() {
+                plan_limit_warnings(case, pl, &mut warnings);
+                let drug_free = match (case.regimen.drug_free_time, case.targets.trough_max) {
+                    (true, Some(m)) => Some(crate::core::regimen::drug_free_h(
+                        pl.dose_mg,
+                        pl.route,
+                        pl.interval_h,
+                        fit.k,
+                        v,
+                        scale.to_mg_l(m),
+                    )),
+                    _ => None,
+                };
+                drug_free_h = drug_free;
+            }
             let meets = if checks.is_empty() {
                 None
             } else {
@@ -258,6 +289,9 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
             Some(PlanPart {
                 accumulation_factor: pp.accumulation_factor,
                 peak_ss: peak,
+                peak_sampled_ss: peak_sampled,
+                peak_sampled_after_h: after,
+                drug_free_h,
                 trough_ss: trough,
                 auc24_ss: auc,
                 time_to_ss_h: pp.time_to_ss_h,
@@ -438,6 +472,48 @@ fn shape_warnings(case: &Case, fit: &Fit, warnings: &mut Vec<Warning>) {
                 )));
             }
         }
+    }
+}
+
+/// Flag a plan that breaks one of the profile's limits: the infusion rate, the single or the
+/// daily dose.
+fn plan_limit_warnings(case: &Case, pl: &crate::core::case::Plan, warnings: &mut Vec<Warning>) {
+    let o = &case.regimen;
+    if let (crate::core::model::Route::Infusion { hours }, Some(r)) =
+        (pl.route, o.max_rate_mg_per_min)
+    {
+        let rate = pl.dose_mg / (hours * 60.0);
+        if rate > r + 1e-9 {
+            warnings.push(Warning::new(Code::RateLimit, format!(
+                "the plan infuses {} mg over {} h, {} mg/min: faster than the profile's maximum of {} mg/min; give it over at least {} h",
+                num(pl.dose_mg),
+                num(hours),
+                num(rate),
+                num(r),
+                num((pl.dose_mg / (r * 60.0) * 4.0 - 1e-9).ceil() / 4.0)
+            )));
+        }
+    }
+    if let Some(m) = o.max_single_dose_mg.filter(|m| pl.dose_mg > *m) {
+        warnings.push(Warning::new(
+            Code::DoseLimit,
+            format!(
+                "the plan's dose of {} mg is above the profile's largest single dose of {} mg",
+                num(pl.dose_mg),
+                num(m)
+            ),
+        ));
+    }
+    let daily = pl.dose_mg * 24.0 / pl.interval_h;
+    if let Some(m) = o.max_daily_dose_mg.filter(|m| daily > *m * (1.0 + 1e-9)) {
+        warnings.push(Warning::new(
+            Code::DoseLimit,
+            format!(
+                "the plan gives {} mg a day, above the profile's largest daily dose of {} mg",
+                num(daily),
+                num(m)
+            ),
+        ));
     }
 }
 
@@ -734,9 +810,36 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
                 None => writeln!(w, "  {name:<8} at steady state  not known (no volume)"),
             }
         };
-        line(w, "peak", p.peak_ss, p.peak_ss_ci95, u)?;
+        match p.peak_sampled_ss {
+            Some(sampled) => {
+                // The target is defined on the sampled peak: check that line, not the end.
+                let end = p
+                    .peak_ss
+                    .map_or("not known".into(), |x| format!("{} {u}", num(x)));
+                writeln!(w, "  peak     at the end of the infusion  {end}")?;
+                let name = format!("peak {} h after the end", num(p.peak_sampled_after_h));
+                let check = p.checks.iter().find(|c| c.name == "peak");
+                let tail = match check {
+                    Some(c) => format!(
+                        "  target {}: {}",
+                        c.wanted,
+                        if c.met { "met" } else { "NOT MET" }
+                    ),
+                    None => String::new(),
+                };
+                writeln!(w, "  {name} at steady state  {} {u}{tail}", num(sampled))?;
+            }
+            None => line(w, "peak", p.peak_ss, p.peak_ss_ci95, u)?,
+        }
         line(w, "trough", p.trough_ss, p.trough_ss_ci95, u)?;
         line(w, "AUC24", p.auc24_ss, p.auc24_ss_ci95, &format!("{u}·h"))?;
+        if let Some(h) = p.drug_free_h {
+            writeln!(
+                w,
+                "  drug-free   {} h per interval at or below the trough ceiling",
+                num(h)
+            )?;
+        }
         writeln!(w, "  accumulation factor   {}", num(p.accumulation_factor))?;
         writeln!(
             w,

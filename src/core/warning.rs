@@ -62,11 +62,23 @@ pub enum Code {
     HalfLifeImplausible,
     /// A level marked `use = false` still sets the volume as the pre-dose level.
     UnusedLevelSetsVolume,
+    /// An infusion faster than the profile's maximum rate, or suggestions lengthened for it.
+    RateLimit,
+    /// A dose above the profile's largest single or daily dose.
+    DoseLimit,
+    /// Why no loading dose is given (drug on board, no weight).
+    NoLoadingDose,
+    /// The fitted volume is far outside the drug's L/kg range.
+    VolumeImplausible,
+    /// A level beyond any clinical value for the drug.
+    LevelImplausible,
+    /// A projection leaves the strategy's therapeutic range.
+    OutsideRange,
 }
 
 impl Code {
     /// Every code, in declaration order.
-    pub const ALL: [Code; 27] = [
+    pub const ALL: [Code; 33] = [
         Code::OutsideWindow,
         Code::DistributionPhase,
         Code::RisingLevels,
@@ -94,6 +106,12 @@ impl Code {
         Code::ProfileRoute,
         Code::HalfLifeImplausible,
         Code::UnusedLevelSetsVolume,
+        Code::RateLimit,
+        Code::DoseLimit,
+        Code::NoLoadingDose,
+        Code::VolumeImplausible,
+        Code::LevelImplausible,
+        Code::OutsideRange,
     ];
 
     /// The code as the JSON report spells it.
@@ -126,6 +144,12 @@ impl Code {
             Code::ProfileRoute => "profile-route",
             Code::HalfLifeImplausible => "half-life-implausible",
             Code::UnusedLevelSetsVolume => "unused-level-sets-volume",
+            Code::RateLimit => "rate-limit",
+            Code::DoseLimit => "dose-limit",
+            Code::NoLoadingDose => "no-loading-dose",
+            Code::VolumeImplausible => "volume-implausible",
+            Code::LevelImplausible => "level-implausible",
+            Code::OutsideRange => "outside-range",
         }
     }
 }

@@ -331,44 +331,91 @@ pub fn defaults_for(
     case_unit: Option<&str>,
     case_molar_mass: Option<f64>,
 ) -> Defaults {
+    defaults_for_strategy(profile, None, case_unit, case_molar_mass)
+}
+
+/// As `defaults_for`, with the strategy the case names (`drug.strategy`) in place of the
+/// profile's default. An unknown name keeps the default's figures; validation then refuses
+/// the case, listing the profile's strategies.
+#[allow(clippy::needless_update)]
+pub fn defaults_for_strategy(
+    profile: &Profile,
+    strategy: Option<&str>,
+    case_unit: Option<&str>,
+    case_molar_mass: Option<f64>,
+) -> Defaults {
+    let chosen = strategy
+        .and_then(|n| profile.strategy(n))
+        .or_else(|| profile.default_strategy());
     let targets = case_unit
         .and_then(|u| LevelUnit::parse(u, "drug.level_unit").ok())
         .and_then(|u| unit_factor(profile, u, case_molar_mass))
-        .and_then(|f| profile.default_strategy().map(|s| targets_of(s, f)))
+        .and_then(|f| chosen.map(|s| targets_of(s, f)))
         .unwrap_or_default();
     Defaults {
         molar_mass_g_mol: profile.molar_mass_g_mol.as_ref().map(|m| m.value),
         bioavailability: profile.bioavailability.as_ref().map(|f| f.value),
         targets,
         prior: prior_of(profile),
-        regimen: regimen_of(profile),
+        regimen: Some(regimen_of(profile, chosen)),
+        strategies: profile.strategies.iter().map(|s| s.name.clone()).collect(),
+        ..Defaults::default()
     }
 }
 
 /// The defaults `profile` supplies to a parsed case file (its unit and molar mass decide
 /// how the profile's targets convert).
 pub fn defaults_for_file(profile: &Profile, file: &crate::core::casefile::CaseFile) -> Defaults {
-    defaults_for(
+    defaults_for_strategy(
         profile,
+        file.drug.strategy.as_deref(),
         file.drug.level_unit.as_deref(),
         file.drug.molar_mass_g_mol,
     )
 }
 
-/// The profile's usual intervals and dose rounding, over the common defaults where it is
-/// silent.
-fn regimen_of(profile: &Profile) -> Option<RegimenOptions> {
-    if profile.dose_rounding_mg.is_none() && profile.usual_intervals_h.is_none() {
-        return None;
-    }
+/// The profile's regimen choices and rules for `strategy`: its usual intervals (the
+/// strategy's own over the profile's), dose rounding, limits, tablet strengths, loading rule,
+/// peak sampling time and drug-free time, over the common defaults where it is silent.
+fn regimen_of(profile: &Profile, strategy: Option<&Strategy>) -> RegimenOptions {
+    use crate::core::regimen::LoadingRule;
     let mut opts = RegimenOptions::default();
     if let Some(r) = &profile.dose_rounding_mg {
         opts.dose_step_mg = r.value;
     }
-    if let Some(l) = &profile.usual_intervals_h {
+    if let Some(l) = strategy
+        .and_then(|s| s.usual_intervals_h.as_ref())
+        .or(profile.usual_intervals_h.as_ref())
+    {
         opts.intervals_h = l.values.clone();
     }
-    Some(opts)
+    opts.strategy = strategy.map(|s| s.name.clone());
+    opts.drug_free_time = strategy.is_some_and(|s| s.drug_free_time);
+    opts.peak_sampled_after_h = strategy
+        .and_then(|s| s.peak_sampled_after_h.as_ref())
+        .map_or(0.0, |x| x.value);
+    opts.max_rate_mg_per_min = profile
+        .max_infusion_rate_mg_per_min
+        .as_ref()
+        .map(|x| x.value);
+    opts.max_single_dose_mg = profile.max_single_dose_mg.as_ref().map(|x| x.value);
+    opts.max_daily_dose_mg = profile.max_daily_dose_mg.as_ref().map(|x| x.value);
+    opts.dose_forms_mg = profile
+        .dose_forms_mg
+        .as_ref()
+        .map(|l| l.values.clone())
+        .unwrap_or_default();
+    opts.loading = match &profile.loading {
+        None => LoadingRule::Never,
+        Some(l) => match &l.mg_per_kg {
+            None => LoadingRule::Kinetic,
+            Some(r) => LoadingRule::PerKg {
+                mg_per_kg: [r.low, r.high],
+                max_mg: l.max_mg.as_ref().map(|m| m.value),
+            },
+        },
+    };
+    opts
 }
 
 #[cfg(test)]
@@ -394,7 +441,14 @@ mod tests {
         let g = &cat.get("gentamicin").unwrap().profile;
         let d = defaults_for(g, Some("mg/L"), None);
         let r = d.regimen.clone().unwrap();
-        let want: Vec<f64> = g.usual_intervals_h.as_ref().unwrap().values.clone();
+        assert_eq!(r.strategy.as_deref(), Some("conventional"));
+        // The default (conventional) strategy's own usual intervals win over the profile's.
+        let want: Vec<f64> = g
+            .default_strategy()
+            .and_then(|s| s.usual_intervals_h.as_ref())
+            .unwrap()
+            .values
+            .clone();
         assert_eq!(r.intervals_h, want);
         assert_eq!(r.dose_step_mg, g.dose_rounding_mg.as_ref().unwrap().value);
         // The validated case carries them to the regimen search.
@@ -404,6 +458,48 @@ mod tests {
             .validate_with(&d)
             .unwrap();
         assert_eq!(case.regimen.intervals_h, want);
+    }
+
+    #[test]
+    fn the_case_chooses_the_strategy_and_its_intervals_follow() {
+        // Extended-interval gentamicin: trough below 1 mg/L [SouthTeesGent], intervals 24, 36
+        // and 48 h by creatinine clearance [Nicolau95], drug-free time shown; conventional:
+        // 8 and 12 h (from memory, unverified).
+        let cat = Catalog::built_in().unwrap();
+        let g = &cat.get("gentamicin").unwrap().profile;
+        let text = "[drug]\nlevel_unit = \"mg/L\"\nprofile = \"gentamicin\"\nstrategy = \"extended-interval\"\n";
+        let file = crate::core::casefile::CaseFile::parse(text).unwrap();
+        let case = file.validate_with(&defaults_for_file(g, &file)).unwrap();
+        assert_eq!(case.regimen.intervals_h, vec![24.0, 36.0, 48.0]);
+        assert!(case.regimen.drug_free_time);
+        assert_eq!(case.targets.trough_max, Some(1.0));
+        assert_eq!(case.targets.peak, None);
+        // An unknown name is an error listing the profile's strategies.
+        let bad =
+            crate::core::casefile::CaseFile::parse(&text.replace("extended-interval", "weekly"))
+                .unwrap();
+        let e = bad
+            .validate_with(&defaults_for_file(g, &bad))
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.starts_with("drug.strategy: the profile has no strategy \"weekly\""),
+            "{e}"
+        );
+        assert!(
+            e.contains("conventional, conventional-serious, extended-interval"),
+            "{e}"
+        );
+        // Without a profile there is no strategy to choose.
+        let none = crate::core::casefile::CaseFile::parse(
+            "[drug]\nlevel_unit = \"mg/L\"\nstrategy = \"conventional\"\n",
+        )
+        .unwrap();
+        assert!(none
+            .validate()
+            .unwrap_err()
+            .to_string()
+            .starts_with("drug.strategy:"));
     }
 
     #[test]
@@ -418,5 +514,146 @@ mod tests {
         assert_eq!(d.bioavailability, None);
         let unknown = defaults_for(g, Some("grains"), None);
         assert!(unknown.targets.is_empty());
+    }
+}
+
+#[cfg(test)]
+mod dosing_rule_tests {
+    use super::*;
+    use crate::core::casefile::CaseFile;
+    use crate::core::report::{self, Report};
+
+    fn report_of(profile: &str, text: &str) -> (crate::core::case::Case, Report) {
+        let cat = Catalog::built_in().unwrap();
+        let p = &cat.get(profile).unwrap().profile;
+        let file = CaseFile::parse(text).unwrap();
+        let case = file.validate_with(&defaults_for_file(p, &file)).unwrap();
+        let mut r = report::build(&case).unwrap();
+        apply(p, &case, &mut r);
+        (case, r)
+    }
+
+    /// Two 1000 mg vancomycin doses over 2 h, 12 h apart, with two levels after the second;
+    /// `extra` is appended. Invented data.
+    fn vanc(extra: &str) -> String {
+        format!(
+            r#"[patient]
+weight_kg = 80.0
+[drug]
+profile = "vancomycin"
+level_unit = "mg/L"
+[[dose]]
+time = 2027-03-02T08:00:00
+amount_mg = 1000.0
+route = "infusion"
+infusion_h = 2.0
+[[dose]]
+time = 2027-03-02T20:00:00
+amount_mg = 1000.0
+route = "infusion"
+infusion_h = 2.0
+[[level]]
+time = 2027-03-02T23:00:00
+value = 28.0
+[[level]]
+time = 2027-03-03T07:30:00
+value = 14.0
+{extra}"#
+        )
+    }
+
+    #[test]
+    fn vancomycin_suggestions_keep_to_ten_mg_per_minute_and_a_fast_plan_is_flagged() {
+        // Vancomycin infusion rate at most 10 mg/min (profile: from memory, unverified).
+        let (_, r) = report_of(
+            "vancomycin",
+            &vanc("[plan]\ndose_mg = 1500.0\ninterval_h = 12.0\nroute = \"infusion\"\ninfusion_h = 1.0\n"),
+        );
+        assert!(!r.advice.suggestions.is_empty());
+        for s in &r.advice.suggestions {
+            assert!(s.dose_mg / (s.infusion_h * 60.0) <= 10.0 + 1e-9, "{s:?}");
+        }
+        assert!(
+            r.warnings.iter().any(
+                |w| w.contains("faster than the profile's maximum of 10 mg/min")
+                    && w.contains("at least 2.5 h")
+            ),
+            "{:?}",
+            r.warnings
+        );
+    }
+
+    #[test]
+    fn vancomycin_loading_is_weight_based_capped_and_only_with_no_drug_on_board() {
+        // 25-30 mg/kg of actual body weight [PMC5579760], at most 3000 mg [Kidney360-Vanc]:
+        // 27.5 mg/kg x 80 kg = 2200 mg; with drug on board, no loading dose and why.
+        let later = vanc(
+            "[plan]\ndose_mg = 1000.0\ninterval_h = 12.0\nroute = \"infusion\"\ninfusion_h = 2.0\nstart = 2027-03-12T08:00:00\n",
+        );
+        let (_, r) = report_of("vancomycin", &later);
+        let l = r
+            .advice
+            .loading
+            .as_ref()
+            .expect("a loading dose after washout");
+        assert_eq!(l.dose_mg, 2250.0, "27.5 x 80 = 2200, on the 250 mg step");
+        assert!(l.dose_mg / (l.infusion_h * 60.0) <= 10.0 + 1e-9);
+        let heavy = later.replace("weight_kg = 80.0", "weight_kg = 150.0");
+        let (_, r) = report_of("vancomycin", &heavy);
+        assert_eq!(r.advice.loading.as_ref().unwrap().dose_mg, 3000.0);
+        let (_, r) = report_of(
+            "vancomycin",
+            &vanc("[plan]\ndose_mg = 1000.0\ninterval_h = 12.0\nroute = \"infusion\"\ninfusion_h = 2.0\n"),
+        );
+        assert!(r.advice.loading.is_none());
+        assert!(r
+            .warnings
+            .iter()
+            .any(|w| w.starts_with("no loading dose: the drug is on board")));
+    }
+
+    #[test]
+    fn the_conventional_gentamicin_peak_is_checked_30_min_after_the_infusion() {
+        // Conventional gentamicin: the peak target 5-10 mg/L is for a level 30 min after the
+        // end of a 30-min infusion [MedscapeGent][UIHC-Gent][CLN-Gent]. A plan whose end-of-
+        // infusion peak is above 10 but whose 30-min peak is inside meets it.
+        let text = crate::demo::DEMO_CASE.replace("dose_mg = 160.0", "dose_mg = 200.0");
+        let (case, r) = report_of("gentamicin", &text);
+        let p = r.plan.as_ref().unwrap();
+        let k = r.fit.k_per_h;
+        let sampled = p.peak_sampled_ss.unwrap();
+        assert!((sampled - p.peak_ss.unwrap() * (-0.5 * k).exp()).abs() < 1e-12);
+        assert_eq!(p.peak_sampled_after_h, 0.5);
+        let c = p.checks.iter().find(|c| c.name == "peak").unwrap();
+        assert_eq!(c.value, sampled);
+        assert_eq!(c.met, (5.0..=10.0).contains(&sampled));
+        assert!(case.targets.peak.is_some());
+    }
+
+    #[test]
+    fn lithium_doses_are_tablet_multiples_checked_at_12_h_and_never_loaded() {
+        // Lithium 0.6-0.8 mmol/L at 12 h after the dose [NICE-QS95][CKS-Li]; tablets of 200
+        // and 400 mg (profile: from memory, unverified); never a loading dose (common practice).
+        let mut text = String::from(
+            "[patient]\nweight_kg = 70.0\n[drug]\nprofile = \"lithium\"\nlevel_unit = \"mmol/L\"\n",
+        );
+        for day in 2..=8 {
+            text += &format!(
+                "[[dose]]\ntime = 2027-03-0{day}T20:00:00\namount_mg = 800.0\nroute = \"oral\"\n"
+            );
+        }
+        text += "[[level]]\ntime = 2027-03-09T08:00:00\nvalue = 0.62\n[[level]]\ntime = 2027-03-09T18:00:00\nvalue = 0.47\n";
+        text += "[plan]\ndose_mg = 800.0\ninterval_h = 24.0\nroute = \"oral\"\n";
+        let (_, r) = report_of("lithium", &text);
+        assert!(!r.advice.suggestions.is_empty());
+        for s in &r.advice.suggestions {
+            assert_eq!(s.dose_mg % 200.0, 0.0, "{s:?}");
+            assert!((0.6..=0.8).contains(&s.peak_sampled_ss), "{s:?}");
+        }
+        assert!(r.advice.loading.is_none());
+        assert!(!r.warnings.iter().any(|w| w.contains("loading")));
+        let p = r.plan.as_ref().unwrap();
+        assert_eq!(p.peak_sampled_after_h, 12.0);
+        assert!(p.checks.iter().any(|c| c.name == "peak"));
     }
 }

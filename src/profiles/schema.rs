@@ -45,9 +45,24 @@ pub struct Profile {
     /// Doses are rounded to a multiple of this, mg.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub dose_rounding_mg: Option<Sourced>,
-    /// Usual dosing intervals, hours.
+    /// Usual dosing intervals, hours (a strategy may give its own).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub usual_intervals_h: Option<SourcedList>,
+    /// The fastest an infusion may run, mg/min.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub max_infusion_rate_mg_per_min: Option<Sourced>,
+    /// The largest single dose, mg.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub max_single_dose_mg: Option<Sourced>,
+    /// The largest daily dose, mg.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub max_daily_dose_mg: Option<Sourced>,
+    /// Tablet or capsule strengths, mg: suggested doses are made of them.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub dose_forms_mg: Option<SourcedList>,
+    /// Whether and how a loading dose is used; absent: none is suggested.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub loading: Option<Loading>,
     /// Target sets, one per dosing strategy, in file order.
     #[serde(rename = "strategy")]
     pub strategies: Vec<Strategy>,
@@ -186,6 +201,21 @@ pub struct Kinetics {
     pub source: String,
 }
 
+/// `[loading]`: a loading dose is used for this drug.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Loading {
+    /// Where the use of a loading dose comes from.
+    pub source: String,
+    /// By weight (the profile's weight basis), mg/kg; absent: sized by the kinetics to the
+    /// middle of the peak target.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub mg_per_kg: Option<SourcedRange>,
+    /// The largest loading dose, mg.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub max_mg: Option<Sourced>,
+}
+
 /// One target set (`[[strategy]]`).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -212,6 +242,16 @@ pub struct Strategy {
     /// Optional plain words.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub note: Option<String>,
+    /// This strategy's usual dosing intervals, hours (over the profile's).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub usual_intervals_h: Option<SourcedList>,
+    /// Hours after the end of the infusion at which the peak target is defined (its sampling
+    /// time); absent: at the end of the infusion.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub peak_sampled_after_h: Option<Sourced>,
+    /// Show the drug-free time per interval (hours at or below the trough ceiling).
+    #[serde(default, skip_serializing_if = "std::ops::Not::not")]
+    pub drug_free_time: bool,
 }
 
 /// `[population]`: optional typical values with variability, for later Bayesian work.
@@ -331,6 +371,30 @@ impl Profile {
         if let Some(l) = &self.usual_intervals_h {
             out.push(("usual_intervals_h".into(), &l.source));
         }
+        for (name, x) in [
+            (
+                "max_infusion_rate_mg_per_min",
+                &self.max_infusion_rate_mg_per_min,
+            ),
+            ("max_single_dose_mg", &self.max_single_dose_mg),
+            ("max_daily_dose_mg", &self.max_daily_dose_mg),
+        ] {
+            if let Some(x) = x {
+                out.push((name.into(), &x.source));
+            }
+        }
+        if let Some(l) = &self.dose_forms_mg {
+            out.push(("dose_forms_mg".into(), &l.source));
+        }
+        if let Some(l) = &self.loading {
+            out.push(("loading.source".into(), &l.source));
+            if let Some(r) = &l.mg_per_kg {
+                out.push(("loading.mg_per_kg".into(), &r.source));
+            }
+            if let Some(m) = &l.max_mg {
+                out.push(("loading.max_mg".into(), &m.source));
+            }
+        }
         for (i, s) in self.strategies.iter().enumerate() {
             let at = |f: &str| format!("strategy[{}].{f}", i + 1);
             if let Some(p) = &s.peak {
@@ -344,6 +408,12 @@ impl Profile {
             }
             if let Some(r) = &s.range {
                 out.push((at("range"), &r.source));
+            }
+            if let Some(l) = &s.usual_intervals_h {
+                out.push((at("usual_intervals_h"), &l.source));
+            }
+            if let Some(x) = &s.peak_sampled_after_h {
+                out.push((at("peak_sampled_after_h"), &x.source));
             }
         }
         if let Some(p) = &self.population {
@@ -410,6 +480,35 @@ impl Profile {
                 positive(*v, "usual_intervals_h")?;
             }
         }
+        for (name, x) in [
+            (
+                "max_infusion_rate_mg_per_min",
+                &self.max_infusion_rate_mg_per_min,
+            ),
+            ("max_single_dose_mg", &self.max_single_dose_mg),
+            ("max_daily_dose_mg", &self.max_daily_dose_mg),
+        ] {
+            if let Some(x) = x {
+                positive(x.value, name)?;
+            }
+        }
+        if let Some(l) = &self.dose_forms_mg {
+            if l.values.is_empty() {
+                return Err(problem("dose_forms_mg", "give at least one strength"));
+            }
+            for v in &l.values {
+                positive(*v, "dose_forms_mg")?;
+            }
+        }
+        if let Some(l) = &self.loading {
+            if let Some(r) = &l.mg_per_kg {
+                range(r, "loading.mg_per_kg")?;
+                positive(r.low, "loading.mg_per_kg")?;
+            }
+            if let Some(m) = &l.max_mg {
+                positive(m.value, "loading.max_mg")?;
+            }
+        }
         if self.strategies.is_empty() {
             return Err(problem("strategy", "give at least one [[strategy]]"));
         }
@@ -448,6 +547,25 @@ impl Profile {
             }
             if let Some(r) = &s.range {
                 range(r, &at("range"))?;
+            }
+            if let Some(l) = &s.usual_intervals_h {
+                if l.values.is_empty() {
+                    return Err(problem(
+                        at("usual_intervals_h"),
+                        "give at least one interval",
+                    ));
+                }
+                for v in &l.values {
+                    positive(*v, &at("usual_intervals_h"))?;
+                }
+            }
+            if let Some(x) = &s.peak_sampled_after_h {
+                if !(x.value.is_finite() && x.value >= 0.0) {
+                    return Err(problem(
+                        at("peak_sampled_after_h"),
+                        format!("must be 0 or more hours, got {}", x.value),
+                    ));
+                }
             }
         }
         if self.default_strategy().is_none() {

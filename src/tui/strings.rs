@@ -545,6 +545,14 @@ pub const NO_PLAN: &str = "No plan yet: press + or ] to start one from the last 
 pub const NO_PLAN_CHART: &str = "The course to steady state needs a plan and a volume.";
 /// Label.
 pub const PEAK: &str = "Peak";
+/// The peak at the strategy's sampling time, `after` hours after the end of the infusion.
+pub fn peak_sampled(after: &str) -> String {
+    format!(" +{after} h")
+}
+/// Beside the end-of-infusion peak when the target is on a later one.
+pub const PEAK_AT_END: &str = "end of infusion";
+/// Hours per interval at or below the trough ceiling.
+pub const DRUG_FREE: &str = "Drug-free";
 /// Label.
 pub const TROUGH: &str = "Trough";
 /// Label.

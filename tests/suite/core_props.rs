@@ -195,19 +195,28 @@ proptest! {
             prop_assert!(plan.start_t + j as f64 * plan.interval_h < tp);
         }
         let proj = project::threshold(&p, below, Some(tp));
+        // Only doses that have fully entered by the procedure may be given (no infusion
+        // running at the procedure; docs/methods-regimen.md, the procedure window rule).
+        let done = proj.plan_doses_done_before.unwrap();
+        prop_assert!(done <= count);
+        if done > 0 {
+            let end = plan.start_t + (done - 1) as f64 * plan.interval_h + route.infusion_h();
+            prop_assert!(end <= tp);
+        }
         match proj.latest_plan_dose {
             Some((j, t)) => {
-                prop_assert!(t < tp);
+                prop_assert!(t < tp && j < done);
+                prop_assert!(t + route.infusion_h() <= tp);
                 prop_assert!(levels[j] <= below);
                 prop_assert_eq!(proj.level_at_procedure_mg_l, Some(levels[j]));
-                if j + 1 < count {
+                if j + 1 < done {
                     prop_assert!(levels[j + 1] > below);
                 }
             }
             None => {
                 let none = p.level_with_plan(tp, plan, None).unwrap();
                 prop_assert_eq!(proj.level_at_procedure_mg_l, Some(none));
-                prop_assert!(count == 0 || levels[0] > below);
+                prop_assert!(done == 0 || levels[0] > below);
             }
         }
     }

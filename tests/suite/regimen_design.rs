@@ -103,7 +103,12 @@ fn aminoglycoside_style_targets_are_met_over_twenty_doses() {
     let route = Route::Infusion { hours: 0.5 };
     let s = regimen::suggest(k, v, route, &t, &RegimenOptions::default(), Some(8.0));
     assert!(!s.is_empty() && s.len() <= MAX_SUGGESTIONS);
-    assert_eq!(s[0].interval_h, 8.0, "the current interval wins a tie");
+    // Ranking (docs/methods-regimen.md): closest to the middle, scores equal to two decimals
+    // tie, then the shorter interval.
+    for w in s.windows(2) {
+        let (a, b) = ((w[0].score * 100.0).round(), (w[1].score * 100.0).round());
+        assert!(a < b || (a == b && w[0].interval_h < w[1].interval_h));
+    }
     for x in &s {
         assert_eq!(x.dose_mg % 10.0, 0.0, "10 mg steps");
         check_meets(x, &t, k, v);
@@ -221,6 +226,7 @@ dose_mg = 120.0
 interval_h = 8.0
 route = "infusion"
 infusion_h = 0.5
+start = 2027-03-05T08:00:00
 [targets]
 peak = [5.0, 10.0]
 trough_max = 2.0
@@ -248,12 +254,22 @@ fn report_json_carries_suggestions_and_a_loading_dose() {
         assert!((5.0..=10.0).contains(&peak));
         assert!(x["trough_ss"].as_f64().unwrap() <= 2.0);
     }
-    // Loading dose aims at the middle of the peak range, 7.5 mg/L.
+    // The plan starts three days after the only dose, with no drug on board: the loading
+    // dose aims at the middle of the peak range, 7.5 mg/L.
     let ld = j["loading_dose_mg"].as_f64().unwrap();
     let l = r.advice.loading.as_ref().unwrap();
     assert_eq!(ld, l.dose_mg);
     assert_eq!(l.target_peak, 7.5);
     assert!(j["proportional"].is_null());
+    // With the plan due 8 h after the dose the drug is on board: no loading dose, and why.
+    let soon = CASE_WITH_V.replace("start = 2027-03-05T08:00:00\n", "");
+    let case = CaseFile::parse(&soon).unwrap().validate().unwrap();
+    let r = report::build(&case).unwrap();
+    assert!(r.advice.loading.is_none());
+    assert!(r
+        .warnings
+        .iter()
+        .any(|w| w.starts_with("no loading dose: the drug is on board")));
 }
 
 #[test]

@@ -457,9 +457,20 @@ fn taking_a_suggestion_changes_the_plan_and_its_figures() {
     let part = app.figures.report.as_ref().unwrap().plan.as_ref().unwrap();
     assert_eq!(part.peak_ss, Some(s.peak_ss));
     assert_eq!(part.trough_ss, Some(s.trough_ss));
-    assert_ne!(part.trough_ss, trough_before);
+    // In the demo the second suggestion is the plan already (160 mg every 8 h).
+    assert_eq!(part.trough_ss, trough_before);
     assert_eq!(part.meets_targets, Some(true));
+    // The list does not re-sort under the cursor after taking one (docs/methods-regimen.md).
+    assert_eq!(screens::suggestions(&app), &list[..]);
+    assert_eq!(app.cursors.plan, PLAN_FIELDS.len() + 1);
+    // Taking the third changes the plan's figures, and still not the list.
+    key(&mut app, KeyCode::Down);
+    key(&mut app, KeyCode::Enter);
+    let part = app.figures.report.as_ref().unwrap().plan.as_ref().unwrap();
+    assert_eq!(part.trough_ss, Some(list[2].trough_ss));
+    assert_ne!(part.trough_ss, trough_before);
     assert!(app.dirty);
+    assert_eq!(screens::suggestions(&app), &list[..]);
     // `t` with the cursor on a field takes the first.
     for _ in 0..20 {
         key(&mut app, KeyCode::Up);

@@ -67,7 +67,26 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
         (None, _, _) => lines.push(Line::styled(strings::NO_PLAN, quiet())),
         (Some(_), Some(p), _) => {
             let check = |name: &str| p.checks.iter().find(|c| c.name == name);
-            lines.push(figure(strings::PEAK, p.peak_ss, &unit, check("peak")));
+            match p.peak_sampled_ss {
+                // The peak target is defined at a sampling time after the end of the infusion:
+                // show both, and the check on the sampled one.
+                Some(sampled) => {
+                    let end = p
+                        .peak_ss
+                        .map_or(strings::NOT_KNOWN.into(), |v| format!("{} {unit}", num(v)));
+                    lines.push(Line::from(vec![
+                        Span::styled(format!("{:<8}", strings::PEAK), quiet()),
+                        Span::styled(
+                            format!("{end:<15}"),
+                            Style::new().add_modifier(Modifier::BOLD),
+                        ),
+                        Span::styled(strings::PEAK_AT_END, quiet()),
+                    ]));
+                    let name = strings::peak_sampled(&num(p.peak_sampled_after_h));
+                    lines.push(figure(&name, Some(sampled), &unit, check("peak")));
+                }
+                None => lines.push(figure(strings::PEAK, p.peak_ss, &unit, check("peak"))),
+            }
             lines.push(figure(strings::TROUGH, p.trough_ss, &unit, check("trough")));
             lines.push(figure(
                 strings::AUC24,
@@ -75,6 +94,12 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
                 &format!("{unit}·h"),
                 check("AUC24"),
             ));
+            if let Some(h) = p.drug_free_h {
+                lines.push(Line::from(vec![
+                    Span::styled(format!("{:<13}", strings::DRUG_FREE), quiet()),
+                    Span::raw(format!("{} h per interval", num(h))),
+                ]));
+            }
             lines.push(Line::from(vec![
                 Span::styled(format!("{:<13}", strings::ACCUMULATION), quiet()),
                 Span::raw(num(p.accumulation_factor)),
