@@ -657,3 +657,90 @@ value = 14.0
         assert!(p.checks.iter().any(|c| c.name == "peak"));
     }
 }
+
+#[cfg(test)]
+mod plausibility_tests {
+    use super::*;
+    use crate::core::casefile::CaseFile;
+    use crate::core::report;
+
+    fn warnings_of(profile: &str, text: &str) -> Vec<String> {
+        let cat = Catalog::built_in().unwrap();
+        let p = &cat.get(profile).unwrap().profile;
+        let file = CaseFile::parse(text).unwrap();
+        let case = file.validate_with(&defaults_for_file(p, &file)).unwrap();
+        let mut r = report::build(&case).unwrap();
+        apply(p, &case, &mut r);
+        r.warnings
+    }
+
+    #[test]
+    fn a_unit_slip_of_x1000_is_flagged_by_volume_and_level() {
+        // Gentamicin volume 0.25-0.28 L/kg [NottmRLO][Bauer3e-AG][TraumaHartford]: levels
+        // typed in ng/mL under mg/L make the volume a thousand times too small.
+        let slip = crate::demo::DEMO_CASE
+            .replace("value = 0.9\n", "value = 900.0\n")
+            .replace("value = 6.1\n", "value = 6100.0\n")
+            .replace("value = 2.0\n", "value = 2000.0\n")
+            .replace("value = 1.4\n", "value = 1400.0\n")
+            .replace("below = 1.0", "below = 1000.0");
+        let w = warnings_of("gentamicin", &slip);
+        assert!(
+            w.iter()
+                .any(|x| x.starts_with("the fitted volume") && x.contains("far outside")),
+            "{w:?}"
+        );
+        assert!(w
+            .iter()
+            .any(|x| x.starts_with("level 2 (6100 mg/L) is above 60 mg/L")));
+        // The demo itself is plausible, and its half-life of 3.006 h is inside 2-3 h.
+        let w = warnings_of("gentamicin", crate::demo::DEMO_CASE);
+        assert!(!w
+            .iter()
+            .any(|x| x.contains("far outside") || x.contains("beyond any")));
+        assert!(!w.iter().any(|x| x.contains("half-life")), "{w:?}");
+    }
+
+    #[test]
+    fn values_outside_a_range_are_flagged_only_when_clearly_outside() {
+        // Common practice: 3.0 h against 2-3 h is inside; 3.5 h is outside.
+        assert!(!warn::clearly_outside(3.0, 2.0, 3.0));
+        assert!(!warn::clearly_outside(3.006, 2.0, 3.0));
+        assert!(warn::clearly_outside(3.5, 2.0, 3.0));
+        assert!(warn::clearly_outside(1.5, 2.0, 3.0));
+    }
+
+    #[test]
+    fn a_projection_below_the_trough_range_is_flagged() {
+        // Vancomycin trough 15-20 mg/L (2009 surrogate) [Rybak20exec][Rybak20]: a plan whose
+        // steady-state trough is far below 15 says so.
+        let text = r#"[drug]
+profile = "vancomycin"
+strategy = "trough-2009"
+level_unit = "mg/L"
+[[dose]]
+time = 2027-03-02T08:00:00
+amount_mg = 1000.0
+route = "infusion"
+infusion_h = 2.0
+[[level]]
+time = 2027-03-02T11:00:00
+value = 25.0
+[[level]]
+time = 2027-03-02T19:00:00
+value = 10.0
+[plan]
+dose_mg = 750.0
+interval_h = 24.0
+route = "infusion"
+infusion_h = 2.0
+"#;
+        let w = warnings_of("vancomycin", text);
+        assert!(
+            w.iter()
+                .any(|x| x.starts_with("the plan's steady-state trough")
+                    && x.contains("below Vancomycin's range of 15–20 mg/L")),
+            "{w:?}"
+        );
+    }
+}

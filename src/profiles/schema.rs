@@ -60,6 +60,10 @@ pub struct Profile {
     /// Tablet or capsule strengths, mg: suggested doses are made of them.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub dose_forms_mg: Option<SourcedList>,
+    /// A level above this (profile unit) is beyond any clinical value for the drug: a
+    /// plausibility flag (a unit or typing slip).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub max_plausible_level: Option<Sourced>,
     /// Whether and how a loading dose is used; absent: none is suggested.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub loading: Option<Loading>,
@@ -378,6 +382,7 @@ impl Profile {
             ),
             ("max_single_dose_mg", &self.max_single_dose_mg),
             ("max_daily_dose_mg", &self.max_daily_dose_mg),
+            ("max_plausible_level", &self.max_plausible_level),
         ] {
             if let Some(x) = x {
                 out.push((name.into(), &x.source));
@@ -487,6 +492,7 @@ impl Profile {
             ),
             ("max_single_dose_mg", &self.max_single_dose_mg),
             ("max_daily_dose_mg", &self.max_daily_dose_mg),
+            ("max_plausible_level", &self.max_plausible_level),
         ] {
             if let Some(x) = x {
                 positive(x.value, name)?;

@@ -145,7 +145,7 @@ pub fn warnings(profile: &Profile, case: &Case, report: &Report) -> Vec<Warning>
 
     let t_half = report.fit.half_life_h;
     let typical = &profile.half_life_h;
-    if !typical.contains(t_half) {
+    if clearly_outside(t_half, typical.low, typical.high) {
         out.push(Warning::new(Code::HalfLifeImplausible, format!(
             "the fitted half-life {} h is outside {name}'s typical adult range with normal organ function ({}–{} h {}): a plausibility flag, not an error; check the sample and dose times, and renal or hepatic function",
             num(t_half),
@@ -154,5 +154,100 @@ pub fn warnings(profile: &Profile, case: &Case, report: &Report) -> Vec<Warning>
             typical.source
         )));
     }
+    plausibility(profile, case, report, &mut out);
     out
+}
+
+/// Whether `x` lies clearly outside `[low, high]`: by more than 10 % of the nearer end (a
+/// half-life of 3.0 h against 2-3 h is inside; 3.4 h is outside).
+pub fn clearly_outside(x: f64, low: f64, high: f64) -> bool {
+    x < low * 0.9 || x > high * 1.1
+}
+
+/// Plausibility flags: a fitted volume far from the profile's L/kg range (a unit slip of
+/// x1000 gives a volume a thousand times off), a level beyond any clinical value for the drug,
+/// and a projection that leaves the strategy's therapeutic range.
+fn plausibility(profile: &Profile, case: &Case, report: &Report, out: &mut Vec<Warning>) {
+    let name = &profile.display_name;
+    let per_kg = &profile.volume.l_per_kg;
+    if let Some(v) = report.fit.volume_l {
+        // Per kg of the recorded weight; without one, any adult from 30 to 200 kg.
+        let (lo, hi, per) = match case.patient.weight_kg {
+            Some(w) => (per_kg.low * w, per_kg.high * w, format!("{} kg", num(w))),
+            None => (
+                per_kg.low * 30.0,
+                per_kg.high * 200.0,
+                "30-200 kg".to_string(),
+            ),
+        };
+        if v < lo / 2.0 || v > hi * 2.0 {
+            out.push(Warning::new(Code::VolumeImplausible, format!(
+                "the fitted volume {} L is far outside {name}'s {}–{} L/kg {} for {per}: check the level unit (a slip of x1000 moves the volume as much), the dose amounts and the times",
+                num(v),
+                num(per_kg.low),
+                num(per_kg.high),
+                per_kg.source
+            )));
+        }
+    }
+    if let Some(max) = &profile.max_plausible_level {
+        if let Some(f) = unit_factor(profile, case.drug.scale.unit, case.drug.molar_mass_g_mol) {
+            let limit = max.value * f;
+            for l in case.levels.iter().filter(|l| l.value > limit) {
+                out.push(Warning::about_level(Code::LevelImplausible, l.row, format!(
+                    "level {} ({} {}) is above {} {}, beyond any clinical value for {name} {}: check the unit and the value",
+                    l.row,
+                    num(l.value),
+                    case.drug.scale.unit.as_str(),
+                    num(limit),
+                    case.drug.scale.unit.as_str(),
+                    max.source
+                )));
+            }
+        }
+    }
+    // The strategy's therapeutic range (shown, not a target) against the projection, for
+    // strategies whose targets do not already check the peak or AUC24.
+    let strategy = case
+        .regimen
+        .strategy
+        .as_deref()
+        .and_then(|n| profile.strategy(n))
+        .or_else(|| profile.default_strategy());
+    let (Some(s), Some(plan)) = (strategy, &report.plan) else {
+        return;
+    };
+    let Some(range) = s
+        .range
+        .as_ref()
+        .filter(|_| s.peak.is_none() && s.auc24.is_none())
+    else {
+        return;
+    };
+    let Some(f) = unit_factor(profile, case.drug.scale.unit, case.drug.molar_mass_g_mol) else {
+        return;
+    };
+    let (low, high) = (range.low * f, range.high * f);
+    let u = case.drug.scale.unit.as_str();
+    if let Some(t) = plan.trough_ss.filter(|t| *t < low * 0.9) {
+        out.push(Warning::new(Code::OutsideRange, format!(
+            "the plan's steady-state trough {} {u} is below {name}'s range of {}–{} {u} {}: the level may fall below it before each dose",
+            num(t),
+            num(low),
+            num(high),
+            range.source
+        )));
+    }
+    if let Some(p) = plan.peak_ss.filter(|p| *p > high * 1.1) {
+        out.push(Warning::new(
+            Code::OutsideRange,
+            format!(
+                "the plan's steady-state peak {} {u} is above {name}'s range of {}–{} {u} {}",
+                num(p),
+                num(low),
+                num(high),
+                range.source
+            ),
+        ));
+    }
 }

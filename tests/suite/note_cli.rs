@@ -92,7 +92,16 @@ fn the_note_carries_the_profile_warnings_and_is_private() {
     use std::os::unix::fs::PermissionsExt;
     let tmp = tempfile::tempdir().unwrap();
     let d = tmp.path();
-    let case = demo_file(d);
+    // The demo with its later levels on a 4-h half-life, clearly outside the gentamicin
+    // profile's 2-3 h.
+    let case = d.join("bed7.toml");
+    std::fs::write(
+        &case,
+        ebb::demo::DEMO_CASE
+            .replace("value = 2.0\n", "value = 2.67\n")
+            .replace("value = 1.4\n", "value = 2.01\n"),
+    )
+    .unwrap();
     let out_path = d.join("bed7.note.txt");
     let out = ebb()
         .arg("note")
@@ -108,9 +117,9 @@ fn the_note_carries_the_profile_warnings_and_is_private() {
         String::from_utf8_lossy(&out.stderr)
     );
     let text = std::fs::read_to_string(&out_path).unwrap();
-    // The demo names the gentamicin profile, whose typical half-life range flags 3.006 h;
+    // The case names the gentamicin profile, whose typical half-life range flags it;
     // `ebb report` shows the same warning, so the note must too.
-    let report = ebb().args(["report", "--demo"]).output().unwrap();
+    let report = ebb().arg("report").arg(&case).output().unwrap();
     let report = String::from_utf8(report.stdout).unwrap();
     let flag = "outside Gentamicin's typical adult range";
     assert!(report.contains(flag));
