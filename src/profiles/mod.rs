@@ -671,7 +671,7 @@ mod plausibility_tests {
         let case = file.validate_with(&defaults_for_file(p, &file)).unwrap();
         let mut r = report::build(&case).unwrap();
         apply(p, &case, &mut r);
-        r.warnings
+        r.warnings.iter().map(|w| w.text().to_string()).collect()
     }
 
     #[test]
