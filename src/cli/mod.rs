@@ -99,7 +99,9 @@ pub fn write_report(out: &mut dyn Write, a: &Analysis, name: &str, as_json: bool
                 writeln!(out, "{}", json::to_json(r))
             } else {
                 report::write_text(out, case, r).and_then(|()| match profile {
-                    Some(e) => profiles::write_profile_note(out, e),
+                    Some(e) => {
+                        profiles::write_profile_note(out, e, case.regimen.strategy.as_deref())
+                    }
                     None => Ok(()),
                 })
             };

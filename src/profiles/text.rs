@@ -195,18 +195,31 @@ pub fn write_show(w: &mut dyn Write, e: &Entry) -> io::Result<()> {
 ///
 /// # Errors
 /// Only the writer's errors.
-pub fn write_profile_note(w: &mut dyn Write, e: &Entry) -> io::Result<()> {
+pub fn write_profile_note(w: &mut dyn Write, e: &Entry, strategy: Option<&str>) -> io::Result<()> {
     let p = &e.profile;
     writeln!(w)?;
-    writeln!(
-        w,
-        "Drug profile: {} ({}, {}); default targets from strategy \"{}\" unless the case has [targets]",
-        p.display_name,
-        e.name,
-        e.origin.words(),
-        p.default_strategy
-    )?;
-    if let Some(s) = p.default_strategy() {
+    let chosen = strategy
+        .and_then(|n| p.strategy(n))
+        .filter(|s| s.name != p.default_strategy);
+    match chosen {
+        Some(s) => writeln!(
+            w,
+            "Drug profile: {} ({}, {}); strategy \"{}\" chosen by the case (drug.strategy); its targets unless the case has [targets]",
+            p.display_name,
+            e.name,
+            e.origin.words(),
+            s.name
+        )?,
+        None => writeln!(
+            w,
+            "Drug profile: {} ({}, {}); default targets from strategy \"{}\" unless the case has [targets]",
+            p.display_name,
+            e.name,
+            e.origin.words(),
+            p.default_strategy
+        )?,
+    }
+    if let Some(s) = chosen.or_else(|| p.default_strategy()) {
         writeln!(w, "  sampling: {}", s.sampling)?;
         if let Some(r) = &s.range {
             writeln!(w, "  range: {}", range(r, &format!(" {}", p.level_unit)))?;
