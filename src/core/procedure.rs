@@ -320,6 +320,31 @@ value = 10.0
     }
 
     #[test]
+    fn a_plan_above_the_single_or_daily_maximum_is_flagged() {
+        // Rule (common practice): a plan that breaks a published size limit is flagged. The
+        // limits here are set by hand (no profile in this case): 300 mg a dose, 600 mg a day.
+        let text = format!(
+            "{BOLUSES}[plan]\ndose_mg = 400.0\ninterval_h = 12.0\nroute = \"bolus\"\n[targets]\npeak = [5.0, 30.0]\n"
+        );
+        let mut case = CaseFile::parse(&text).unwrap().validate().unwrap();
+        case.regimen.max_single_dose_mg = Some(300.0);
+        case.regimen.max_daily_dose_mg = Some(600.0);
+        let r = report::build(&case).unwrap();
+        let w: Vec<&str> = r.warnings.iter().map(|w| w.text()).collect();
+        assert!(w
+            .iter()
+            .any(|x| x.contains("above the profile's largest single dose of 300 mg")));
+        assert!(w
+            .iter()
+            .any(|x| x.contains("800 mg a day, above the profile's largest daily dose of 600 mg")));
+        // No suggestion breaks them either.
+        assert!(!r.advice.suggestions.is_empty());
+        for s in &r.advice.suggestions {
+            assert!(s.dose_mg <= 300.0 && s.dose_mg * 24.0 / s.interval_h <= 600.0 + 1e-9);
+        }
+    }
+
+    #[test]
     fn one_crossing_time_has_one_range_for_threshold_and_switch() {
         // Rule (common practice): the same event (the level falling to one value) gets one
         // answer. A dose-history fit (k and V together, with a joint spread) and a switch at
