@@ -520,6 +520,14 @@ proptest! {
         // Where a zoned case is accepted, the hours between its rows are the real hours
         // that passed (UTC), not the wall clock's.
         let (Some(z), false) = (zone, t.with_offsets) else { return Ok(()) };
+        // chrono-tz, the reference here, has no clock change in far years: in 2100 it keeps New
+        // York on standard time all year, where the zone's rule (second Sunday of March) puts
+        // EDT from 02:00 on 14 March 2100, as Python's zoneinfo and the system database (read by
+        // ebb) agree. Its tables list changes up to 2037 (the TZif convention, from memory), so
+        // the hours are compared up to then.
+        if t.year > 2037 {
+            return Ok(());
+        }
         let Ok(case) = ebb::core::casefile::CaseFile::parse(&text).and_then(|f| f.validate())
         else {
             return Ok(());
