@@ -152,8 +152,17 @@ pub fn fit(case: &Case) -> Result<Fit> {
         .map(|&i| (case.levels[i].t, case.levels[i].mg_l))
         .collect();
     let sol = estimate_points(&given, &points, &pop).map_err(|_| {
-        Error::Fit(
-            "the Bayesian estimate could not be found from these levels and priors; check the times, the values and the dose record".into(),
+        let names: Vec<String> = used.iter().map(|&i| case.level_name(i)).collect();
+        let (place, which) = if names.is_empty() {
+            ("dose".to_string(), "the dose record".to_string())
+        } else {
+            ("level".to_string(), names.join(", "))
+        };
+        Error::invalid(
+            place,
+            format!(
+                "{which}: no Bayesian estimate can be found from these and the population priors; check the times, the values and the dose record"
+            ),
         )
     })?;
     if used.is_empty() {
