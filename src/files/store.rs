@@ -393,9 +393,10 @@ pub fn remove_stale_temporaries(dir: &Path, name: &str) -> usize {
     removed
 }
 
-/// Give the new file the old one's mode and group (a new file stays owner-only). Setting the
-/// group is allowed only to a group the user belongs to; where it is not, the file keeps the
-/// user's group and the mode is still kept.
+/// Give the new file the old one's permission bits and group (a new file stays owner-only;
+/// set-id and sticky bits are not copied). Setting the group is allowed only to a group the
+/// user belongs to; where it is not, the file keeps the user's group and the mode is still
+/// kept.
 fn keep_mode_and_group(tmp: &Path, old: Option<&fs::Metadata>) -> std::io::Result<()> {
     let Some(_old) = old else {
         return Ok(());
@@ -404,7 +405,7 @@ fn keep_mode_and_group(tmp: &Path, old: Option<&fs::Metadata>) -> std::io::Resul
     {
         use std::os::unix::fs::{MetadataExt, PermissionsExt};
         let _ = std::os::unix::fs::chown(tmp, None, Some(_old.gid()));
-        fs::set_permissions(tmp, fs::Permissions::from_mode(_old.mode() & 0o7777))?;
+        fs::set_permissions(tmp, fs::Permissions::from_mode(_old.mode() & 0o777))?;
     }
     Ok(())
 }

@@ -410,6 +410,50 @@ fn n_asks_before_replacing_a_note_ebb_did_not_write_or_that_was_edited() {
 
 #[cfg(unix)]
 #[test]
+fn n_refuses_a_read_only_note_with_a_clear_message() {
+    if root() {
+        println!("note: running as root, which writes read-only files; skipped");
+        return;
+    }
+    let dir = scratch("note-ro");
+    let path = case_in(&dir);
+    let note = dir.join("bed4.note.txt");
+    let mut app = App::open_in(&path, Profiles::load(None));
+    key(&mut app, KeyCode::Char('n'));
+    let written = fs::read_to_string(&note).unwrap();
+    set_mode(&note, 0o444);
+    key(&mut app, KeyCode::Char('n'));
+    assert_eq!(app.mode, Mode::Normal);
+    let said = app.message.as_ref().unwrap();
+    assert!(
+        said.is_error && said.text.contains("is read-only"),
+        "{said:?}"
+    );
+    assert_eq!(fs::read_to_string(&note).unwrap(), written);
+    assert_eq!(mode(&note), 0o444);
+}
+
+#[test]
+fn saving_a_new_case_over_an_existing_file_asks_and_says_it_exists() {
+    let dir = scratch("exists");
+    let other = dir.join("someone-elses.toml");
+    fs::write(&other, "[drug]\nlevel_unit = \"mg/L\"\n").unwrap();
+    let mut app = App::demo_in(Profiles::load(None));
+    ctrl_s(&mut app);
+    type_text(&mut app, &other.display().to_string());
+    key(&mut app, KeyCode::Enter);
+    assert_eq!(app.mode, Mode::Confirm(Confirm::Overwrite));
+    assert!(app.pending_exists);
+    assert_eq!(
+        fs::read_to_string(&other).unwrap(),
+        "[drug]\nlevel_unit = \"mg/L\"\n"
+    );
+    key(&mut app, KeyCode::Char('y'));
+    assert!(fs::read_to_string(&other).unwrap().contains("[[level]]"));
+}
+
+#[cfg(unix)]
+#[test]
 fn n_never_writes_the_note_over_the_case_through_a_link() {
     let dir = scratch("note-link");
     let path = case_in(&dir);
