@@ -134,7 +134,7 @@ pub enum SaveError {
 /// # Errors
 /// The operating system's error.
 pub fn read_with_fingerprint(path: &Path) -> std::io::Result<(String, Fingerprint)> {
-    let mut f = File::open(path)?;
+    let mut f = open_regular(path)?;
     let modified = f.metadata()?.modified().ok();
     let mut bytes = Vec::new();
     std::io::Read::read_to_end(&mut f, &mut bytes)?;
@@ -144,12 +144,33 @@ pub fn read_with_fingerprint(path: &Path) -> std::io::Result<(String, Fingerprin
     Ok((text, print))
 }
 
+/// Open a regular file for reading; anything else (a FIFO, which would block with no
+/// writer, a device, a folder) is an `InvalidInput` error naming what it is.
+fn open_regular(path: &Path) -> std::io::Result<File> {
+    let not_regular = |m: &fs::Metadata| {
+        special_kind(m).map(|kind| {
+            std::io::Error::new(
+                std::io::ErrorKind::InvalidInput,
+                format!("is {kind}, not a regular file"),
+            )
+        })
+    };
+    if let Some(e) = not_regular(&fs::metadata(path)?) {
+        return Err(e);
+    }
+    let f = File::open(path)?;
+    match not_regular(&f.metadata()?) {
+        Some(e) => Err(e),
+        None => Ok(f),
+    }
+}
+
 /// The fingerprint of the file at `path` now; `None` when there is no file.
 ///
 /// # Errors
 /// The file exists but cannot be read.
 pub fn fingerprint(path: &Path) -> std::io::Result<Option<Fingerprint>> {
-    match File::open(path) {
+    match open_regular(path) {
         Ok(mut f) => {
             let modified = f.metadata()?.modified().ok();
             let mut bytes = Vec::new();

@@ -297,25 +297,21 @@ impl App {
     pub fn open_in(path: &Path, profiles: Profiles) -> Self {
         // Taken before reading: a change in between makes the save ask (the safe side).
         let on_disk = store::expect_at_open(path);
-        let read = store::read_with_fingerprint(path)
-            .map_err(|e| crate::core::error::Error::Read {
-                path: path.to_path_buf(),
-                reason: e.to_string(),
-            })
-            .and_then(|(text, _)| {
-                CaseFile::parse(&text)
-                    .map(|f| (f, text))
-                    .map_err(|e| e.in_file(path.display().to_string()))
-            });
-        match read {
-            Ok((file, text)) => {
+        // The case through the core's reader (its checks on what may be read), then the
+        // same text again for its comments, kept only if it is the same case.
+        match crate::core::casefile::read(path) {
+            Ok(file) => {
+                let text = store::read_with_fingerprint(path)
+                    .ok()
+                    .map(|(t, _)| t)
+                    .filter(|t| CaseFile::parse(t).ok().as_ref() == Some(&file));
                 let mut app = App::with_file(file, path.display().to_string(), profiles);
                 app.path = Some(path.to_path_buf());
                 app.on_disk = on_disk;
-                if toml_keep::has_comments(&text) {
+                if text.as_deref().is_some_and(toml_keep::has_comments) {
                     app.say(strings::COMMENTS_KEPT);
                 }
-                app.source_text = Some(text);
+                app.source_text = text;
                 app.offer_recovery()
             }
             Err(e) => {

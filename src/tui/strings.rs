@@ -336,7 +336,7 @@ pub const CONFIRM_RECOVER_TITLE: &str = "Unsaved changes found";
 /// The recovery question.
 pub fn confirm_recover(path: &str) -> String {
     format!(
-        "ebb was stopped with unsaved changes to this case;\nthey were written to {path}.\ny: load them (then Ctrl-S saves them)   n or Esc: keep the saved case"
+        "ebb was stopped with unsaved changes to this case;\nthey were kept in {path}.\ny: load them (then Ctrl-S saves them)\nn or Esc: keep the case as saved"
     )
 }
 /// After loading a recovery file.
