@@ -670,3 +670,47 @@ fn sigterm_restores_the_terminal_and_keeps_unsaved_changes_for_the_next_open() {
     let app = App::open_in(&path, Profiles::load(None));
     assert_eq!(app.mode, Mode::Confirm(Confirm::Recover));
 }
+
+#[test]
+fn the_file_questions_fit_the_smallest_screen() {
+    let draw = |app: &App| {
+        let mut t = ratatui::Terminal::new(ratatui::backend::TestBackend::new(80, 24)).unwrap();
+        t.draw(|f| ebb::tui::view::draw(app, f)).unwrap();
+        t.backend().to_string()
+    };
+    let mut app = App::demo_in(Profiles::load(None));
+    app.recovery = Some((PathBuf::from("bed4.toml.recover"), app.file.clone()));
+    app.mode = Mode::Confirm(Confirm::Recover);
+    let text = draw(&app);
+    for line in [
+        "Unsaved changes found",
+        "ebb was stopped with unsaved changes to this case;",
+        "they were kept in bed4.toml.recover.",
+        "y: load them (then Ctrl-S saves them)",
+        "n or Esc: keep the case as saved",
+    ] {
+        assert!(text.contains(line), "{line:?} in\n{text}");
+    }
+    app.pending_note = Some(PathBuf::from("bed4.note.txt"));
+    app.pending_exists = true;
+    app.mode = Mode::Confirm(Confirm::ReplaceNote);
+    let text = draw(&app);
+    for line in [
+        "Replace the note?",
+        "was not written by ebb.",
+        "y: replace it with the new note   n or Esc: keep it",
+    ] {
+        assert!(text.contains(line), "{line:?} in\n{text}");
+    }
+    app.pending_overwrite = Some(PathBuf::from("bed4.toml"));
+    app.mode = Mode::Confirm(Confirm::Overwrite);
+    let text = draw(&app);
+    for line in [
+        "File exists",
+        "bed4.toml already exists and is not the file",
+        "this case was opened from.",
+        "y: replace it with this case   n or Esc: keep it",
+    ] {
+        assert!(text.contains(line), "{line:?} in\n{text}");
+    }
+}
