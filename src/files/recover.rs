@@ -48,8 +48,12 @@ pub fn find(case: Option<&Path>) -> Option<(PathBuf, String)> {
 
 /// Remove the recovery file of `case`, if any (after a save: the saved file is newer).
 pub fn remove(case: Option<&Path>) {
-    let path = path_for(case);
-    if fs::symlink_metadata(&path).is_ok_and(|m| m.file_type().is_file()) {
+    remove_file(&path_for(case));
+}
+
+/// Remove the recovery file at `path`, if it is a regular file.
+pub fn remove_file(path: &Path) {
+    if fs::symlink_metadata(path).is_ok_and(|m| m.file_type().is_file()) {
         let _ = fs::remove_file(path);
     }
 }

@@ -204,6 +204,8 @@ pub struct App {
     pub pending_note: Option<PathBuf>,
     /// The recovery file offered at open, and the case it holds.
     pub recovery: Option<(PathBuf, CaseFile)>,
+    /// The recovery file whose changes were loaded: the next save removes it.
+    pub recovered_from: Option<PathBuf>,
     /// Effects asked for by the change being applied, handed to the run loop by `update`.
     pub effects: Vec<Effect>,
     /// The drug profiles on offer (built-in and the override directory).
@@ -237,6 +239,7 @@ impl App {
             pending_exists: false,
             pending_note: None,
             recovery: None,
+            recovered_from: None,
             effects: Vec::new(),
             profiles,
             on_disk: store::Expect::Unchanged(None),

@@ -32,9 +32,8 @@ pub enum Effect {
         /// Replace a file ebb did not write (or that was edited since).
         force: bool,
     },
-    /// Remove the recovery file of the case at this path (the case was saved, or the user
-    /// chose the saved file over it).
-    DropRecovery(Option<PathBuf>),
+    /// Remove this recovery file (the case it holds was saved since).
+    DropRecovery(PathBuf),
 }
 
 /// What came of an effect.
@@ -78,8 +77,8 @@ pub fn carry_out(app: &App, effect: Effect) -> Outcome {
             source,
             force,
         } => write_note(app, path, source, force),
-        Effect::DropRecovery(case) => {
-            recover::remove(case.as_deref());
+        Effect::DropRecovery(file) => {
+            recover::remove_file(&file);
             Outcome::Done
         }
     }

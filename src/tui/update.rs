@@ -6,6 +6,7 @@ use std::path::{Path, PathBuf};
 use crate::core::casefile::{CaseFile, DoseFile, FitFile, LevelFile, PlanFile, TargetsFile};
 use crate::core::fit::CHOICES;
 use crate::files::guard::OutputError;
+use crate::files::recover;
 use crate::files::store::{self, SaveError};
 use crate::tui::action::Action;
 use crate::tui::app::{App, Confirm, Editor, Mode, NewRow, Screen, Target};
@@ -122,6 +123,7 @@ fn confirm(app: &mut App, c: Confirm, action: Action) {
                     Ok(())
                 });
                 report(app, r, strings::recovered(&at.display().to_string()));
+                app.recovered_from = Some(at);
                 clamp_cursor(app);
             }
         }
@@ -778,11 +780,18 @@ fn saved(app: &mut App, path: PathBuf, print: store::Fingerprint, text: String) 
     app.load_error = None;
     app.title = path.display().to_string();
     app.say(strings::saved_to(&app.title));
-    // The recovery file of the case opened (and of the new path) is older than this save.
-    app.effects.push(Effect::DropRecovery(app.path.clone()));
-    if app.path.as_ref() != Some(&path) {
-        app.effects.push(Effect::DropRecovery(Some(path.clone())));
-    }
+    // The recovery files of this case's old and new file, and the one loaded, are older
+    // than this save; another unsaved case's is left alone.
+    let mut stale: Vec<PathBuf> = app
+        .path
+        .iter()
+        .chain(std::iter::once(&path))
+        .map(|p| recover::path_for(Some(p)))
+        .chain(app.recovered_from.take())
+        .collect();
+    stale.dedup();
+    app.effects
+        .extend(stale.into_iter().map(Effect::DropRecovery));
     app.path = Some(path);
     if app.quit_after_save {
         app.mode = Mode::Quitting;
