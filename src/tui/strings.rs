@@ -24,7 +24,7 @@ pub const LOAD_FAILED: &str =
     "The file did not load (the error is shown); it is never saved over. Ctrl-S saves this case under another name.";
 /// The title of a case whose file did not load.
 pub fn did_not_load_title(path: &str) -> String {
-    format!("{path} (did not load: read-only)")
+    format!("{path} (did not load; never saved over)")
 }
 
 /// The name of a screen on the tab line.
