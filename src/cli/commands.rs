@@ -10,6 +10,7 @@ use crate::core::note::NoteFormat;
 use crate::files::guard;
 use crate::files::mark::Style;
 use crate::files::store;
+use crate::files::toml_keep;
 
 fn fail(message: impl std::fmt::Display) -> ExitCode {
     eprintln!("{message}");
@@ -158,6 +159,16 @@ pub fn tidy(file: &Path) -> ExitCode {
         Ok(c) => c,
         Err(e) => return fail(e.in_file(name.as_str())),
     };
+    // Tidying is optional: a file whose comments cannot be carried over is left alone.
+    match toml_keep::render_checked(&case, Some(&text)) {
+        Ok((_, true)) => {
+            return fail(format!(
+                "{name}: its comments could not be carried into the canonical form; not rewritten"
+            ))
+        }
+        Ok(_) => {}
+        Err(e) => return fail(format!("{name}: {e}")),
+    }
     match store::save_case(
         &case,
         Some(&text),

@@ -18,22 +18,32 @@ pub const ORPHANS_HEADING: &str =
 /// # Errors
 /// A value TOML cannot write (a NaN or an infinity), in words.
 pub fn render(file: &CaseFile, original: Option<&str>) -> Result<String, String> {
+    render_checked(file, original).map(|(text, _)| text)
+}
+
+/// As `render`, and whether comments of `original` could not be kept (the text with them did
+/// not read back as the same case, so the canonical text without them is returned).
+///
+/// # Errors
+/// A value TOML cannot write (a NaN or an infinity), in words.
+pub fn render_checked(file: &CaseFile, original: Option<&str>) -> Result<(String, bool), String> {
     let canonical = file.to_toml().map_err(|e| e.to_string())?;
-    let mut text = match original.and_then(|o| o.parse::<DocumentMut>().ok().map(|d| (o, d))) {
-        None => canonical,
-        Some((raw, old)) => {
-            let kept = keep_comments(raw, &old, &canonical);
-            // The comments must not change the case: read it back, or fall back.
-            match kept {
-                Some(t) if CaseFile::parse(&t).ok().as_ref() == Some(file) => t,
-                _ => canonical,
+    let (mut text, lost) =
+        match original.and_then(|o| o.parse::<DocumentMut>().ok().map(|d| (o, d))) {
+            None => (canonical, false),
+            Some((raw, old)) => {
+                let kept = keep_comments(raw, &old, &canonical);
+                // The comments must not change the case: read it back, or fall back.
+                match kept {
+                    Some(t) if CaseFile::parse(&t).ok().as_ref() == Some(file) => (t, false),
+                    _ => (canonical, has_comments(raw)),
+                }
             }
-        }
-    };
+        };
     if !text.ends_with('\n') {
         text.push('\n');
     }
-    Ok(text)
+    Ok((text, lost))
 }
 
 /// Whether `text` holds a TOML comment (outside strings).

@@ -47,6 +47,8 @@ pub enum Outcome {
         print: Fingerprint,
         /// The text written (the comments of the next save come from it).
         text: String,
+        /// The file's comments could not be kept (see `toml_keep::render_checked`).
+        comments_lost: bool,
     },
     /// The save did not happen; the old file is whole.
     NotSaved {
@@ -93,20 +95,26 @@ fn save(app: &App, path: PathBuf, expect: &Expect) -> Outcome {
             };
         }
     }
-    let text = match toml_keep::render(&app.file, app.source_text.as_deref()) {
-        Ok(t) => t,
-        Err(reason) => {
-            return Outcome::NotSaved {
-                error: SaveError::Toml {
-                    path: path.clone(),
-                    reason,
-                },
-                path,
+    let (text, comments_lost) =
+        match toml_keep::render_checked(&app.file, app.source_text.as_deref()) {
+            Ok(t) => t,
+            Err(reason) => {
+                return Outcome::NotSaved {
+                    error: SaveError::Toml {
+                        path: path.clone(),
+                        reason,
+                    },
+                    path,
+                }
             }
-        }
-    };
+        };
     match store::save_bytes(&path, text.as_bytes(), expect) {
-        Ok(print) => Outcome::Saved { path, print, text },
+        Ok(print) => Outcome::Saved {
+            path,
+            print,
+            text,
+            comments_lost,
+        },
         Err(error) => Outcome::NotSaved { path, error },
     }
 }

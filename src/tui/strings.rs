@@ -275,6 +275,10 @@ pub fn level_use_now(row: usize, used: bool) -> String {
 pub fn saved_to(path: &str) -> String {
     format!("Saved to {path}.")
 }
+/// A save that could not keep the file's comments (they would have changed the case).
+pub fn saved_without_comments(path: &str) -> String {
+    format!("Saved to {path}, but its # comments could not be kept: check the file.")
+}
 /// Said on opening a file that holds comments.
 pub const COMMENTS_KEPT: &str =
     "This file has # comments: saving from here keeps them (fields are written in ebb's order).";

@@ -54,7 +54,17 @@ pub fn update(app: &mut App, action: Action) -> Vec<Effect> {
 /// Apply what came of an effect; may ask for more.
 pub fn settle(app: &mut App, outcome: Outcome) -> Vec<Effect> {
     match outcome {
-        Outcome::Saved { path, print, text } => saved(app, path, print, text),
+        Outcome::Saved {
+            path,
+            print,
+            text,
+            comments_lost,
+        } => {
+            saved(app, path, print, text);
+            if comments_lost {
+                app.complain(strings::saved_without_comments(&app.title));
+            }
+        }
         Outcome::NotSaved { path, error } => not_saved(app, path, error),
         Outcome::NoteWritten(path) => app.say(strings::note_written(&path.display().to_string())),
         Outcome::NoteNotWritten { path, error } => note_not_written(app, path, error),
