@@ -714,3 +714,57 @@ fn the_file_questions_fit_the_smallest_screen() {
         assert!(text.contains(line), "{line:?} in\n{text}");
     }
 }
+
+#[test]
+fn settle_turns_each_refusal_into_the_right_question_without_a_disk() {
+    use ebb::files::guard::OutputError;
+    use ebb::files::store::SaveError;
+    use ebb::tui::effect::Outcome;
+    use ebb::tui::update::settle;
+    let mut app = App::demo_in(Profiles::load(None));
+    let path = PathBuf::from("/ward/bed4.toml");
+    let more = settle(
+        &mut app,
+        Outcome::NotSaved {
+            path: path.clone(),
+            error: SaveError::ReadOnlyFolder {
+                path: path.clone(),
+                dir: PathBuf::from("/ward"),
+            },
+        },
+    );
+    assert!(more.is_empty());
+    assert!(matches!(&app.mode, Mode::Editing(e) if e.target == Target::SavePath));
+    assert!(app
+        .message
+        .as_ref()
+        .unwrap()
+        .text
+        .contains("/ward is read-only"));
+    let mut app = App::demo_in(Profiles::load(None));
+    settle(
+        &mut app,
+        Outcome::NotSaved {
+            path: path.clone(),
+            error: SaveError::Exists { path: path.clone() },
+        },
+    );
+    assert_eq!(app.mode, Mode::Confirm(Confirm::Overwrite));
+    assert!(app.pending_exists);
+    let note = PathBuf::from("/ward/bed4.note.txt");
+    settle(
+        &mut app,
+        Outcome::NoteNotWritten {
+            path: note.clone(),
+            error: OutputError::Edited { out: note.clone() },
+        },
+    );
+    assert_eq!(app.mode, Mode::Confirm(Confirm::ReplaceNote));
+    assert!(!app.pending_exists);
+    // A yes asks the run loop to write it, replacing the edited note.
+    let effects = ebb::tui::update::update(&mut app, Action::Yes);
+    assert!(
+        matches!(&effects[..], [Effect::WriteNote { path: p, force: true, .. }] if p == &note),
+        "{effects:?}"
+    );
+}
