@@ -600,6 +600,33 @@ mod tests {
 
     #[cfg(unix)]
     #[test]
+    fn a_replaced_file_keeps_its_group_where_the_user_may_set_it() {
+        use std::os::unix::fs::MetadataExt;
+        let dir = scratch("group");
+        let path = dir.join("shared.toml");
+        fs::write(&path, "old").unwrap();
+        let mine = fs::metadata(&path).unwrap().gid();
+        // Another group this user belongs to, if any.
+        let out = std::process::Command::new("id").arg("-G").output().unwrap();
+        let groups = String::from_utf8_lossy(&out.stdout).into_owned();
+        let root = groups.split_whitespace().next() == Some("0") && mine == 0;
+        let other = groups
+            .split_whitespace()
+            .filter_map(|g| g.parse::<u32>().ok())
+            .find(|g| *g != mine)
+            // Root may give a file any group.
+            .or(root.then_some(1));
+        let Some(other) = other else {
+            println!("note: this user is in one group only; the group test is skipped");
+            return;
+        };
+        std::os::unix::fs::chown(&path, None, Some(other)).unwrap();
+        save_bytes(&path, b"new", &Expect::Overwrite).unwrap();
+        assert_eq!(fs::metadata(&path).unwrap().gid(), other);
+    }
+
+    #[cfg(unix)]
+    #[test]
     fn a_fifo_a_folder_and_a_read_only_file_are_not_replaced() {
         use std::os::unix::fs::{FileTypeExt, PermissionsExt};
         let dir = scratch("special");
