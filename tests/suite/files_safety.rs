@@ -595,7 +595,7 @@ fn sigterm_restores_the_terminal_and_keeps_unsaved_changes_for_the_next_open() {
     let tmux = Tmux {
         socket: format!("ebb-files-signal-{}", std::process::id()),
     };
-    let script = format!("{EBB} bed4.toml; echo EXIT=$?; stty -a; sleep 30");
+    let script = format!("{EBB} bed4.toml; echo EXIT=$?; stty -a; echo SETTINGS-SHOWN; sleep 30");
     let started = Command::new("tmux")
         .args([
             "-L",
@@ -618,7 +618,7 @@ fn sigterm_restores_the_terminal_and_keeps_unsaved_changes_for_the_next_open() {
     tmux.run(&["send-keys", "-t", "files", "3"]);
     tmux.wait_for("Plan");
     tmux.run(&["send-keys", "-t", "files", "+"]);
-    std::thread::sleep(std::time::Duration::from_millis(500));
+    tmux.wait_for("Plan dose ");
     // The pane runs sh; ebb is its one child.
     let sh = tmux.run(&["display", "-p", "-t", "files", "#{pane_pid}"]);
     let sh = sh.trim();
@@ -630,7 +630,7 @@ fn sigterm_restores_the_terminal_and_keeps_unsaved_changes_for_the_next_open() {
         .to_string();
     let killed = Command::new("kill").args(["-TERM", &pid]).status().unwrap();
     assert!(killed.success());
-    let after = tmux.wait_for("EXIT=");
+    let after = tmux.wait_for("SETTINGS-SHOWN");
     assert!(after.contains("EXIT=143"), "{after}");
     // The terminal is back to normal: out of the alternate screen, line editing and echo on.
     assert!(
