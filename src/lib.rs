@@ -11,6 +11,8 @@ pub mod analysis;
 pub mod cli;
 pub mod core;
 pub mod demo;
+#[cfg(feature = "app")]
+pub mod files;
 pub mod profiles;
 #[cfg(feature = "app")]
 pub mod tui;

@@ -12,9 +12,9 @@ use crate::core::{json, report};
 use crate::demo::{DEMO_CASE, DEMO_NAME};
 use crate::profiles::{self, Catalog};
 
+pub mod commands;
 pub mod note;
 pub mod plot;
-pub mod store;
 
 /// Run the analysis of a parsed case file, with the drug profile it names looked up once
 /// among the built-ins and those of `profiles_dir`.

@@ -1,8 +1,6 @@
-//! `ebb note` and `ebb plot` as library calls: load a case, build the note or the plot, and
-//! write it to a file or to any writer.
+//! `ebb note` as a library call: load a case, build the note, write it to any writer.
 
 use std::io::Write;
-use std::path::Path;
 
 use crate::analysis::Analysis;
 use crate::core::case::Case;
@@ -12,11 +10,7 @@ use crate::core::report::Report;
 
 /// The note's metadata for a case file named `source`, made now.
 pub fn meta_now(source: &str) -> NoteMeta {
-    NoteMeta {
-        made_at: chrono::Local::now().format("%Y-%m-%d %H:%M").to_string(),
-        version: env!("CARGO_PKG_VERSION").to_string(),
-        source: source.to_string(),
-    }
+    crate::files::note_meta_now(source)
 }
 
 /// Build the note of an analysis and write it to `out`.
@@ -48,16 +42,4 @@ pub fn finished<'a>(a: &'a Analysis, name: &str) -> Result<(&'a Case, &'a Report
         (Some(c), Some(r)) => Ok((c, r)),
         _ => Err(Error::Fit("the analysis did not finish".into()).in_file(name)),
     }
-}
-
-/// Write `text` to `path`, creating or replacing it the safe way (a temporary file beside
-/// it, synced, then renamed over) and readable by its owner only: notes and plots hold
-/// patient data.
-///
-/// # Errors
-/// A step of the save failed; the message names the path.
-pub fn write_file(path: &Path, text: &str) -> Result<()> {
-    crate::cli::store::save_bytes(path, text.as_bytes(), &crate::cli::store::Expect::Overwrite)
-        .map(|_| ())
-        .map_err(|e| Error::invalid("output", e.to_string()))
 }

@@ -31,6 +31,24 @@ pub const LEGEND: [&str; 6] = [
     "threshold",
 ];
 
+/// The height of the caution at the foot of the drawing, in SVG pixels.
+const CAUTION_HEIGHT: u32 = 40;
+
+/// The caution in two lines that fit the width: "CAUTION:" and its first sentences, then
+/// the rest.
+pub fn caution_lines() -> [String; 2] {
+    let text = format!("CAUTION: {}", crate::core::report::CAUTION);
+    let half = text.len() / 2;
+    // Break after the sentence end nearest the middle.
+    let cut = text
+        .match_indices(". ")
+        .map(|(i, _)| i + 1)
+        .min_by_key(|i| i.abs_diff(half))
+        .unwrap_or(text.len());
+    let (a, b) = text.split_at(cut);
+    [a.trim().to_string(), b.trim().to_string()]
+}
+
 fn draw_err(e: impl std::fmt::Display) -> Error {
     Error::invalid("plot", format!("cannot draw: {e}"))
 }
@@ -155,8 +173,19 @@ pub fn plot_svg_from(case: &Case, fit: &Fit, r: &Report) -> Result<String> {
 
     let mut svg = String::new();
     {
-        let root = SVGBackend::with_string(&mut svg, SIZE).into_drawing_area();
-        root.fill(&WHITE).map_err(draw_err)?;
+        let whole = SVGBackend::with_string(&mut svg, SIZE).into_drawing_area();
+        whole.fill(&WHITE).map_err(draw_err)?;
+        // The caution goes with the drawing wherever it is copied: two lines at the foot.
+        let (root, foot) = whole.split_vertically(SIZE.1 - CAUTION_HEIGHT);
+        let style = ("sans-serif", 13).into_font().color(&BLACK);
+        for (i, line) in caution_lines().iter().enumerate() {
+            foot.draw(&Text::new(
+                line.clone(),
+                (14, 4 + 16 * i as i32),
+                style.clone(),
+            ))
+            .map_err(draw_err)?;
+        }
         let title = match (&case.patient.label, case.drug.name.as_str()) {
             (Some(l), "") => l.clone(),
             (Some(l), d) => format!("{l}: {d}"),
@@ -247,7 +276,7 @@ pub fn plot_svg_from(case: &Case, fit: &Fit, r: &Report) -> Result<String> {
             .border_style(BLACK)
             .draw()
             .map_err(draw_err)?;
-        root.present().map_err(draw_err)?;
+        whole.present().map_err(draw_err)?;
     }
     Ok(svg)
 }

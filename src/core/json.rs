@@ -8,6 +8,8 @@ use crate::core::report::Report;
 /// The whole report on the wire.
 #[derive(Debug, Serialize)]
 pub struct JsonReport {
+    /// Addition: the caution every report carries, so it travels with the figures.
+    caution: &'static str,
     fit: JsonFit,
     plan: Option<JsonPlan>,
     threshold: Option<JsonThreshold>,
@@ -156,6 +158,7 @@ struct JsonWashout {
 impl From<&Report> for JsonReport {
     fn from(r: &Report) -> Self {
         JsonReport {
+            caution: crate::core::report::CAUTION,
             fit: JsonFit {
                 method: r.fit.method,
                 levels_used: r.fit.level_rows.len(),

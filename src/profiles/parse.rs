@@ -101,90 +101,31 @@ fn steps(field: &str) -> Vec<Step<'_>> {
     out
 }
 
-/// The header a line opens (`[a]` gives `(a, false)`, `[[a]]` gives `(a, true)`).
-fn header(line: &str) -> Option<(&str, bool)> {
-    let t = line.trim();
-    if let Some(inner) = t.strip_prefix("[[") {
-        let end = inner.find("]]")?;
-        return Some((inner[..end].trim(), true));
-    }
-    if let Some(inner) = t.strip_prefix('[') {
-        let end = inner.find(']')?;
-        return Some((inner[..end].trim(), false));
-    }
-    None
-}
-
-fn assigns(line: &str, key: &str) -> bool {
-    let t = line.trim_start();
-    t.strip_prefix(key)
-        .map(|rest| rest.trim_start().starts_with('='))
-        .unwrap_or(false)
-}
-
-/// Best effort: the line of a field in a profile laid out as the shipped ones are (top-level
-/// keys, `[table]` headers, `[[strategy]]` items, inline tables). `None` when not found.
+/// The line of a field in a profile's text, found through the TOML parser's spans
+/// (`toml_edit`): the line of its key, or of its table's header when the table is there
+/// and the key is not. `None` when the table or row is not there either.
 fn locate(text: &str, field: &str) -> Option<usize> {
-    let st = steps(field);
-    let lines: Vec<&str> = text.lines().collect();
-    let first = match st.first() {
-        Some(Step::Key(k)) => *k,
-        _ => return None,
-    };
-    // Where the section of the first key starts, and which key to look for inside it.
-    let (start, key): (usize, Option<&str>) = match st.get(1) {
-        Some(Step::Item(n)) => {
-            let mut seen = 0;
-            let mut found = None;
-            for (i, l) in lines.iter().enumerate() {
-                if header(l) == Some((first, true)) {
-                    seen += 1;
-                    if seen == *n {
-                        found = Some(i);
-                        break;
-                    }
-                }
+    let doc = toml_edit::Document::parse(text).ok()?;
+    let line = |span: Option<std::ops::Range<usize>>| span.map(|s| line_of_span(text, Some(s)));
+    let mut item = doc.as_item();
+    let mut at: Option<usize> = None;
+    for (i, step) in steps(field).into_iter().enumerate() {
+        match step {
+            Step::Key(k) => {
+                let Some((key, next)) = item.as_table_like().and_then(|t| t.get_key_value(k))
+                else {
+                    return if i == 0 { None } else { at };
+                };
+                at = line(key.span()).or(at);
+                item = next;
             }
-            let key = match st.get(2) {
-                Some(Step::Key(k)) => Some(*k),
-                _ => None,
-            };
-            (found?, key)
-        }
-        other => match lines.iter().position(|l| header(l) == Some((first, false))) {
-            Some(i) => (
-                i,
-                match other {
-                    Some(Step::Key(k)) => Some(*k),
-                    _ => None,
-                },
-            ),
-            None => {
-                // A top-level key: before the first header.
-                for (i, l) in lines.iter().enumerate() {
-                    if header(l).is_some() {
-                        break;
-                    }
-                    if assigns(l, first) {
-                        return Some(i + 1);
-                    }
-                }
-                return None;
+            Step::Item(n) => {
+                item = item.get(n.checked_sub(1)?)?;
+                at = line(item.as_table().and_then(toml_edit::Table::span)).or(at);
             }
-        },
-    };
-    let Some(key) = key else {
-        return Some(start + 1);
-    };
-    for (i, l) in lines.iter().enumerate().skip(start + 1) {
-        if header(l).is_some() {
-            break;
-        }
-        if assigns(l, key) {
-            return Some(i + 1);
         }
     }
-    Some(start + 1)
+    at
 }
 
 #[cfg(test)]

@@ -3,12 +3,14 @@
 
 use std::path::{Path, PathBuf};
 
-use crate::core::casefile::{self, CaseFile, DrugFile};
+use crate::core::casefile::{CaseFile, DrugFile};
 use crate::demo::DEMO_CASE;
+use crate::files::store;
+use crate::files::{recover, toml_keep};
 use crate::tui::catalog::Profiles;
+use crate::tui::effect::Effect;
 use crate::tui::fields::Field;
 use crate::tui::figures::Figures;
-use crate::tui::store;
 use crate::tui::strings;
 
 /// The five screens, in tab order.
@@ -130,8 +132,13 @@ pub enum Confirm {
     /// Delete a level row (0-based).
     DeleteLevel(usize),
     /// Overwrite the file at `App::pending_overwrite`, which changed on disk since it was
-    /// opened (or appeared where there was none).
+    /// opened (or, with `App::pending_exists`, was there when the case was started).
     Overwrite,
+    /// Replace the file at `App::pending_note`, which ebb did not write or which was edited
+    /// since ebb wrote it.
+    ReplaceNote,
+    /// Load the unsaved changes of `App::recovery`, written when ebb was stopped.
+    Recover,
 }
 
 /// The line under the screen: what just happened.
@@ -187,8 +194,20 @@ pub struct App {
     pub figures: Figures,
     /// Quit as soon as the pending save succeeds.
     pub quit_after_save: bool,
-    /// The file the case came from holds `#` comments, which a save does not keep.
-    pub had_comments: bool,
+    /// The text the case was read from or last saved as: a save keeps its comments.
+    pub source_text: Option<String>,
+    /// A file that did not load: the case is never saved over it.
+    pub never_save_over: Option<PathBuf>,
+    /// The file a save found already there (rather than changed since it was opened).
+    pub pending_exists: bool,
+    /// The note file the user is asked about replacing.
+    pub pending_note: Option<PathBuf>,
+    /// The recovery file offered at open, and the case it holds.
+    pub recovery: Option<(PathBuf, CaseFile)>,
+    /// The recovery file whose changes were loaded: the next save removes it.
+    pub recovered_from: Option<PathBuf>,
+    /// Effects asked for by the change being applied, handed to the run loop by `update`.
+    pub effects: Vec<Effect>,
     /// The drug profiles on offer (built-in and the override directory).
     pub profiles: Profiles,
     /// What the file at `path` held when opened or last saved: a save over anything else
@@ -215,7 +234,13 @@ impl App {
             message: None,
             figures,
             quit_after_save: false,
-            had_comments: false,
+            source_text: None,
+            never_save_over: None,
+            pending_exists: false,
+            pending_note: None,
+            recovery: None,
+            recovered_from: None,
+            effects: Vec::new(),
             profiles,
             on_disk: store::Expect::Unchanged(None),
             pending_overwrite: None,
@@ -264,34 +289,38 @@ impl App {
     }
 
     /// Open a case file (profiles of `EBB_PROFILES` when set). A file that cannot be read
-    /// or parsed opens as an empty case that shows the error; saving then asks for a file
-    /// name (offering this one).
+    /// or parsed opens as an empty case that shows the error and is never saved over that
+    /// file (saving asks for another name).
     pub fn open(path: &Path) -> Self {
         App::open_in(path, Profiles::from_env())
     }
 
-    /// Open a case file, offering `profiles`.
+    /// Open a case file, offering `profiles`; a recovery file left by a stopped session is
+    /// offered first.
     pub fn open_in(path: &Path, profiles: Profiles) -> Self {
         // Taken before reading: a change in between makes the save ask (the safe side).
         let on_disk = store::expect_at_open(path);
-        match casefile::read(path) {
+        // The case through the core's reader (its checks on what may be read), then the
+        // same text again for its comments, kept only if it is the same case.
+        match crate::core::casefile::read(path) {
             Ok(file) => {
+                let text = store::read_with_fingerprint(path)
+                    .ok()
+                    .map(|(t, _)| t)
+                    .filter(|t| CaseFile::parse(t).ok().as_ref() == Some(&file));
                 let mut app = App::with_file(file, path.display().to_string(), profiles);
                 app.path = Some(path.to_path_buf());
                 app.on_disk = on_disk;
-                app.had_comments = std::fs::read_to_string(path)
-                    .ok()
-                    .and_then(|t| crate::cli::store::first_comment_line(&t))
-                    .is_some();
-                if app.had_comments {
-                    app.say(strings::COMMENTS_NOT_KEPT);
+                if text.as_deref().is_some_and(toml_keep::has_comments) {
+                    app.say(strings::COMMENTS_KEPT);
                 }
-                app
+                app.source_text = text;
+                app.offer_recovery()
             }
             Err(e) => {
                 let mut app = App::new_case_in(profiles);
-                app.title = path.display().to_string();
-                app.suggested_path = Some(path.to_path_buf());
+                app.title = strings::did_not_load_title(&path.display().to_string());
+                app.never_save_over = Some(path.to_path_buf());
                 app.load_error = Some(e.to_string());
                 app.message = Some(Message {
                     text: strings::LOAD_FAILED.into(),
@@ -300,6 +329,22 @@ impl App {
                 app
             }
         }
+    }
+
+    /// Offer the recovery file of this case (or of an unsaved case), if there is one that
+    /// holds a case different from this one.
+    pub fn offer_recovery(mut self) -> Self {
+        let Some((at, text)) = recover::find(self.path.as_deref()) else {
+            return self;
+        };
+        match CaseFile::parse(&text) {
+            Ok(f) if f != self.file => {
+                self.recovery = Some((at, f));
+                self.mode = Mode::Confirm(Confirm::Recover);
+            }
+            _ => {}
+        }
+        self
     }
 
     /// Change the case: `change` works on a copy, which replaces the case only when it

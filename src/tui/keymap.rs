@@ -9,14 +9,15 @@ use crate::tui::strings;
 use crate::tui::update::update;
 
 impl App {
-    /// Handle one key: map it to an intent and apply it. Only presses count (not repeats
-    /// or releases).
+    /// Handle one key: map it to an intent, apply it, and carry out the effects it asks
+    /// for (saving, writing the note). Only presses count (not repeats or releases).
     pub fn handle_key(&mut self, key: KeyEvent) {
         if key.kind != KeyEventKind::Press {
             return;
         }
         if let Some(action) = action_for(self, key) {
-            update(self, action);
+            let effects = update(self, action);
+            crate::tui::effect::carry_out_all(self, effects);
         }
     }
 }

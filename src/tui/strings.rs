@@ -21,7 +21,11 @@ pub const NEW_CASE_HINT: &str =
     "New case: a adds a dose (time, then amount), then the levels below. ? lists keys.";
 /// Shown when a file could not be opened.
 pub const LOAD_FAILED: &str =
-    "The file could not be opened; Ctrl-S saves this case under a name you choose.";
+    "The file did not load (the error is shown); it is never saved over. Ctrl-S saves this case under another name.";
+/// The title of a case whose file did not load.
+pub fn did_not_load_title(path: &str) -> String {
+    format!("{path} (did not load; never saved over)")
+}
 
 /// The name of a screen on the tab line.
 pub fn screen_name(s: Screen) -> &'static str {
@@ -271,23 +275,86 @@ pub fn level_use_now(row: usize, used: bool) -> String {
 pub fn saved_to(path: &str) -> String {
     format!("Saved to {path}.")
 }
-/// A save that dropped the file's `#` comments.
+/// A save that could not keep the file's comments (they would have changed the case).
 pub fn saved_without_comments(path: &str) -> String {
-    format!("Saved to {path}; the # comments the file had were not kept.")
+    format!("Saved to {path}, but its # comments could not be kept: check the file.")
 }
 /// Said on opening a file that holds comments.
-pub const COMMENTS_NOT_KEPT: &str =
-    "This file has # comments: saving from here rewrites it without them (keep a copy if they matter).";
+pub const COMMENTS_KEPT: &str =
+    "This file has # comments: saving from here keeps them (fields are written in ebb's order).";
+/// The case's file did not load: not saved over it.
+pub fn save_blocked(path: &str) -> String {
+    format!("{path} did not load when opened, so ebb will not save over it: type another name (save as).")
+}
+/// The case's file is read-only.
+pub fn save_read_only(path: &str) -> String {
+    format!("{path} is read-only, so it was not replaced: type another name (save as), or make it writable first.")
+}
+/// The folder is read-only.
+pub fn save_folder_read_only(dir: &str) -> String {
+    format!("The folder {dir} is read-only; nothing was written: type a name in a folder you can write (save as).")
+}
+/// The path is not a regular file.
+pub fn save_not_regular(path: &str, kind: &str) -> String {
+    format!(
+        "{path} is {kind}, not a regular file; nothing was written: type another name (save as)."
+    )
+}
 /// A failed save.
 pub fn save_failed(path: &str, why: &str) -> String {
     format!("Not saved to {path}: {why}")
 }
 /// Title of the overwrite question.
 pub const CONFIRM_OVERWRITE_TITLE: &str = "Changed on disk";
-/// The overwrite question: the file changed since the case was opened (or appeared).
+/// Title of the question about a file already there.
+pub const CONFIRM_EXISTS_TITLE: &str = "File exists";
+/// The question about a file already there, not the one the case came from.
+pub fn confirm_exists(path: &str) -> String {
+    format!(
+        "{path} already exists and is not the file\nthis case was opened from.\ny: replace it with this case   n or Esc: keep it"
+    )
+}
+/// Title of the question about replacing a note.
+pub const CONFIRM_NOTE_TITLE: &str = "Replace the note?";
+/// The question about replacing a note ebb did not write (`foreign`) or that was edited.
+pub fn confirm_replace_note(path: &str, foreign: bool) -> String {
+    let what = if foreign {
+        "was not written by ebb"
+    } else {
+        "was edited since ebb wrote it"
+    };
+    format!("{path}\n{what}.\ny: replace it with the new note   n or Esc: keep it")
+}
+/// The answer to keep the note on disk.
+pub fn note_not_replaced(path: &str) -> String {
+    format!("Note not written: {path} is kept as it is; give the note another name to keep both.")
+}
+/// The note's folder is read-only.
+pub fn note_folder_read_only(dir: &str) -> String {
+    format!(
+        "The folder {dir} is read-only; no note written: type a name in a folder you can write."
+    )
+}
+/// Title of the recovery question.
+pub const CONFIRM_RECOVER_TITLE: &str = "Unsaved changes found";
+/// The recovery question.
+pub fn confirm_recover(path: &str) -> String {
+    format!(
+        "ebb was stopped with unsaved changes to this case;\nthey were kept in {path}.\ny: load them (then Ctrl-S saves them)\nn or Esc: keep the case as saved"
+    )
+}
+/// After loading a recovery file.
+pub fn recovered(path: &str) -> String {
+    format!("Loaded the unsaved changes from {path}; Ctrl-S saves them (and removes that file).")
+}
+/// After declining a recovery file.
+pub fn recovery_left(path: &str) -> String {
+    format!("{path} is left as it is; the next save of this case removes it.")
+}
+/// The overwrite question: the file changed since the case was opened.
 pub fn confirm_overwrite(path: &str) -> String {
     format!(
-        "{path} changed on disk since the case was opened\n(or a file appeared there).\ny: overwrite it with this case   n or Esc: keep it"
+        "{path} changed on disk since the case was opened.\ny: overwrite it with this case   n or Esc: keep it"
     )
 }
 /// The answer to keep the file on disk.

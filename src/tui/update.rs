@@ -3,17 +3,18 @@
 
 use std::path::{Path, PathBuf};
 
-use crate::cli::store as safe;
 use crate::core::casefile::{CaseFile, DoseFile, FitFile, LevelFile, PlanFile, TargetsFile};
 use crate::core::fit::CHOICES;
-use crate::core::note::{note_text, NoteFormat};
+use crate::files::guard::OutputError;
+use crate::files::recover;
+use crate::files::store::{self, SaveError};
 use crate::tui::action::Action;
 use crate::tui::app::{App, Confirm, Editor, Mode, NewRow, Screen, Target};
 use crate::tui::catalog;
+use crate::tui::effect::{Effect, Outcome};
 use crate::tui::entry;
 use crate::tui::fields::{self, Field, Kind};
 use crate::tui::screens::{self, CaseLine, PLAN_FIELDS, THRESHOLD_FIELDS};
-use crate::tui::store;
 use crate::tui::strings;
 
 /// The usual dosing intervals `[` and `]` step through, in hours.
@@ -25,8 +26,9 @@ pub const INFUSION_STEP_H: f64 = 0.25;
 /// The gap a new level gets after the previous one, in hours.
 const NEW_LEVEL_GAP_H: f64 = 1.0;
 
-/// Apply one intent.
-pub fn update(app: &mut App, action: Action) {
+/// Apply one intent. Returns what the outside world must do (save, write the note); the
+/// run loop carries it out and hands the outcome to `settle`.
+pub fn update(app: &mut App, action: Action) -> Vec<Effect> {
     match app.mode.clone() {
         Mode::Quitting => {}
         Mode::Help => {
@@ -46,6 +48,29 @@ pub fn update(app: &mut App, action: Action) {
     // The suggestions change with the case: keep the plan cursor on a line that exists.
     let lines = PLAN_FIELDS.len() + screens::suggestions(app).len();
     app.cursors.plan = app.cursors.plan.min(lines - 1);
+    std::mem::take(&mut app.effects)
+}
+
+/// Apply what came of an effect; may ask for more.
+pub fn settle(app: &mut App, outcome: Outcome) -> Vec<Effect> {
+    match outcome {
+        Outcome::Saved {
+            path,
+            print,
+            text,
+            comments_lost,
+        } => {
+            saved(app, path, print, text);
+            if comments_lost {
+                app.complain(strings::saved_without_comments(&app.title));
+            }
+        }
+        Outcome::NotSaved { path, error } => not_saved(app, path, error),
+        Outcome::NoteWritten(path) => app.say(strings::note_written(&path.display().to_string())),
+        Outcome::NoteNotWritten { path, error } => note_not_written(app, path, error),
+        Outcome::Done => {}
+    }
+    std::mem::take(&mut app.effects)
 }
 
 fn quit(app: &mut App) {
@@ -77,7 +102,45 @@ fn confirm(app: &mut App, c: Confirm, action: Action) {
         (Confirm::Overwrite, Action::Yes) => {
             app.mode = Mode::Normal;
             if let Some(path) = app.pending_overwrite.take() {
-                save_expecting(app, path, store::Expect::Overwrite);
+                app.effects.push(Effect::Save {
+                    path,
+                    expect: store::Expect::Overwrite,
+                });
+            }
+        }
+        (Confirm::ReplaceNote, Action::Yes) => {
+            app.mode = Mode::Normal;
+            if let Some(path) = app.pending_note.take() {
+                let source = note_source(app);
+                app.effects.push(Effect::WriteNote {
+                    path,
+                    source,
+                    force: true,
+                });
+            }
+        }
+        (Confirm::ReplaceNote, Action::No | Action::Cancel | Action::Quit) => {
+            app.mode = Mode::Normal;
+            if let Some(path) = app.pending_note.take() {
+                app.complain(strings::note_not_replaced(&path.display().to_string()));
+            }
+        }
+        (Confirm::Recover, Action::Yes) => {
+            app.mode = Mode::Normal;
+            if let Some((at, file)) = app.recovery.take() {
+                let r = app.change(|f| {
+                    *f = file;
+                    Ok(())
+                });
+                report(app, r, strings::recovered(&at.display().to_string()));
+                app.recovered_from = Some(at);
+                clamp_cursor(app);
+            }
+        }
+        (Confirm::Recover, Action::No | Action::Cancel | Action::Quit) => {
+            app.mode = Mode::Normal;
+            if let Some((at, _)) = app.recovery.take() {
+                app.say(strings::recovery_left(&at.display().to_string()));
             }
         }
         (Confirm::Overwrite, Action::No | Action::Cancel | Action::Quit) => {
@@ -698,44 +761,75 @@ fn save(app: &mut App) {
 }
 
 fn save_to(app: &mut App, path: PathBuf) {
+    if app.never_save_over.as_ref() == Some(&path) {
+        return save_as(app, strings::save_blocked(&path.display().to_string()));
+    }
     // The file the case came from must be as it was then; any other must not exist yet.
     let expect = if app.path.as_ref() == Some(&path) {
         app.on_disk.clone()
     } else {
         store::Expect::Unchanged(None)
     };
-    save_expecting(app, path, expect);
+    app.effects.push(Effect::Save { path, expect });
 }
 
-fn save_expecting(app: &mut App, path: PathBuf, expect: store::Expect) {
-    match store::save_checked(&app.file, &path, &expect) {
-        Err(store::SaveError::ChangedOnDisk { .. }) => {
+/// Say why the case cannot be saved where it was going, and ask for another name.
+fn save_as(app: &mut App, why: String) {
+    app.quit_after_save = false;
+    let mut ed = Editor::new(Target::SavePath, String::new());
+    check(app, &mut ed);
+    app.mode = Mode::Editing(ed);
+    app.complain(why);
+}
+
+fn saved(app: &mut App, path: PathBuf, print: store::Fingerprint, text: String) {
+    app.on_disk = store::Expect::Unchanged(Some(print));
+    app.source_text = Some(text);
+    app.dirty = false;
+    app.saved = app.file.clone();
+    app.load_error = None;
+    app.title = path.display().to_string();
+    app.say(strings::saved_to(&app.title));
+    // The recovery files of this case's old and new file, and the one loaded, are older
+    // than this save; another unsaved case's is left alone.
+    let mut stale: Vec<PathBuf> = app
+        .path
+        .iter()
+        .chain(std::iter::once(&path))
+        .map(|p| recover::path_for(Some(p)))
+        .chain(app.recovered_from.take())
+        .collect();
+    stale.dedup();
+    app.effects
+        .extend(stale.into_iter().map(Effect::DropRecovery));
+    app.path = Some(path);
+    if app.quit_after_save {
+        app.mode = Mode::Quitting;
+    }
+}
+
+fn not_saved(app: &mut App, path: PathBuf, error: SaveError) {
+    let shown = path.display().to_string();
+    match error {
+        SaveError::ChangedOnDisk { .. } | SaveError::Exists { .. } => {
+            app.pending_exists = matches!(error, SaveError::Exists { .. });
             app.pending_overwrite = Some(path);
             app.mode = Mode::Confirm(Confirm::Overwrite);
         }
-        Ok(now) => {
-            app.on_disk = store::Expect::Unchanged(Some(now));
-            app.dirty = false;
-            app.saved = app.file.clone();
-            app.load_error = None;
-            app.title = path.display().to_string();
-            if std::mem::take(&mut app.had_comments) {
-                app.say(strings::saved_without_comments(&app.title));
-            } else {
-                app.say(strings::saved_to(&app.title));
-            }
-            app.path = Some(path);
-            if app.quit_after_save {
-                app.mode = Mode::Quitting;
-            }
-        }
-        Err(e) => {
+        SaveError::ReadOnlyFile { .. } => save_as(app, strings::save_read_only(&shown)),
+        SaveError::ReadOnlyFolder { dir, .. } => save_as(
+            app,
+            strings::save_folder_read_only(&dir.display().to_string()),
+        ),
+        SaveError::NotRegular { kind, .. } => save_as(app, strings::save_not_regular(&shown, kind)),
+        SaveError::DidNotLoad { .. } => save_as(app, strings::save_blocked(&shown)),
+        e => {
             app.quit_after_save = false;
             let why = match &e {
-                store::SaveError::Io { step, reason, .. } => format!("{step}: {reason}"),
+                SaveError::Io { step, reason, .. } => format!("{step}: {reason}"),
                 other => other.to_string(),
             };
-            app.complain(strings::save_failed(&path.display().to_string(), &why));
+            app.complain(strings::save_failed(&shown, &why));
         }
     }
 }
@@ -998,30 +1092,49 @@ fn write_note(app: &mut App) {
     }
 }
 
-fn note_to(app: &mut App, path: PathBuf) {
-    let (Some(case), Some(report)) = (&app.figures.case, &app.figures.report) else {
-        let why = app.figures.problem.as_ref().map(|p| p.text.clone());
-        return app.complain(strings::no_note(why.as_deref()));
-    };
-    if let Some(e) = note_path_problem(app, &path.display().to_string()) {
-        return app.complain(e);
-    }
+/// The case file a note names: the file, marked when the case has unsaved changes.
+fn note_source(app: &App) -> String {
     let source = match &app.path {
         Some(p) => p.display().to_string(),
         None => strings::NOTE_SOURCE_UNSAVED.to_string(),
     };
-    let source = if app.dirty && app.path.is_some() {
+    if app.dirty && app.path.is_some() {
         strings::note_source_with_changes(&source)
     } else {
         source
-    };
-    let meta = crate::cli::note::meta_now(&source);
-    let text = note_text(case, report, &meta, NoteFormat::for_path(&path));
-    // The same safe write as a case (temporary file, flush, rename, owner-only); a note is
-    // made from the case, so an older one is replaced.
-    match safe::save_bytes(&path, text.as_bytes(), &safe::Expect::Overwrite) {
-        Ok(_) => app.say(strings::note_written(&path.display().to_string())),
-        Err(e) => app.complain(strings::note_failed(&e.to_string())),
+    }
+}
+
+fn note_to(app: &mut App, path: PathBuf) {
+    if app.figures.case.is_none() || app.figures.report.is_none() {
+        let why = app.figures.problem.as_ref().map(|p| p.text.clone());
+        return app.complain(strings::no_note(why.as_deref()));
+    }
+    if let Some(e) = note_path_problem(app, &path.display().to_string()) {
+        return app.complain(e);
+    }
+    let source = note_source(app);
+    app.effects.push(Effect::WriteNote {
+        path,
+        source,
+        force: false,
+    });
+}
+
+fn note_not_written(app: &mut App, path: PathBuf, error: OutputError) {
+    match error {
+        OutputError::NotOurs { .. } | OutputError::Edited { .. } => {
+            app.pending_exists = matches!(error, OutputError::NotOurs { .. });
+            app.pending_note = Some(path);
+            app.mode = Mode::Confirm(Confirm::ReplaceNote);
+        }
+        OutputError::Save(SaveError::ReadOnlyFolder { dir, .. }) => {
+            let mut ed = Editor::new(Target::NotePath, String::new());
+            check(app, &mut ed);
+            app.mode = Mode::Editing(ed);
+            app.complain(strings::note_folder_read_only(&dir.display().to_string()));
+        }
+        e => app.complain(strings::note_failed(&e.to_string())),
     }
 }
 

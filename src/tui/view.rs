@@ -189,14 +189,21 @@ fn overlay(app: &App, body: Rect, buf: &mut ratatui::buffer::Buffer) {
                     strings::CONFIRM_DELETE_TITLE,
                     strings::confirm_delete_level(i + 1),
                 ),
+                Confirm::Overwrite if app.pending_exists => (
+                    strings::CONFIRM_EXISTS_TITLE,
+                    strings::confirm_exists(&shown(&app.pending_overwrite)),
+                ),
                 Confirm::Overwrite => (
                     strings::CONFIRM_OVERWRITE_TITLE,
-                    strings::confirm_overwrite(
-                        &app.pending_overwrite
-                            .as_ref()
-                            .map(|p| p.display().to_string())
-                            .unwrap_or_default(),
-                    ),
+                    strings::confirm_overwrite(&shown(&app.pending_overwrite)),
+                ),
+                Confirm::ReplaceNote => (
+                    strings::CONFIRM_NOTE_TITLE,
+                    strings::confirm_replace_note(&shown(&app.pending_note), app.pending_exists),
+                ),
+                Confirm::Recover => (
+                    strings::CONFIRM_RECOVER_TITLE,
+                    strings::confirm_recover(&shown(&app.recovery.as_ref().map(|r| r.0.clone()))),
                 ),
             };
             let lines: Vec<Line> = text.lines().map(|l| Line::raw(l.to_string())).collect();
@@ -237,4 +244,11 @@ fn overlay(app: &App, body: Rect, buf: &mut ratatui::buffer::Buffer) {
 /// A paragraph of wrapped text (for screens that show a reason instead of figures).
 pub fn note(text: &str, style: Style) -> Paragraph<'_> {
     Paragraph::new(Line::styled(text, style)).wrap(Wrap { trim: true })
+}
+
+/// A path for a question, or nothing.
+fn shown(path: &Option<std::path::PathBuf>) -> String {
+    path.as_ref()
+        .map(|p| p.display().to_string())
+        .unwrap_or_default()
 }

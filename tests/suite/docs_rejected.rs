@@ -126,7 +126,7 @@ fn scratch() -> tempfile::TempDir {
         CASE.replace("value = 10.0", "value = 29.99999999"),
     )
     .unwrap();
-    fs::write(dir.join("bed9.toml"), format!("# seen\n{CASE}")).unwrap();
+    fs::write(dir.join("bed9.txt"), "the ward's own notes\n").unwrap();
     tmp
 }
 
@@ -141,9 +141,11 @@ fn the_classes_without_a_fixture_say_what_the_doc_says() {
         run(dir, &["report", "bed5.toml"]).1,
         run(dir, &["report", "--profiles", "profiles", "bed7.toml"]).1,
         run(dir, &["report", "bed8.toml"]).1,
-        run(dir, &["tidy", "bed9.toml"]).1,
+        run(dir, &["note", "bed4.toml", "-o", "bed4.toml"]).1,
+        run(dir, &["note", "bed4.toml", "-o", "bed9.txt"]).1,
+        run(dir, &["plot", "bed4.toml", "-o", "bed4.png"]).1,
         run(dir, &["open", "bed4.toml"]).1,
-        ebb::cli::store::SaveError::ChangedOnDisk {
+        ebb::files::store::SaveError::ChangedOnDisk {
             path: "bed4.toml".into(),
         }
         .to_string(),

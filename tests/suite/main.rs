@@ -17,6 +17,7 @@ mod core_ode;
 mod core_props;
 mod core_time_zone;
 mod docs_rejected;
+mod files_safety;
 mod history_cases;
 mod history_recovery;
 mod layout;

@@ -1,14 +1,15 @@
 //! Safe saving, end to end through `ebb tidy`: a save killed between writing the temporary
-//! file and the rename leaves the old file byte for byte; a finished save is owner-only; a
-//! file with comments or one that does not parse is left alone.
+//! file and the rename leaves the old file byte for byte, and the next save removes the
+//! temporary file it left; a change made during the save is not lost; a finished save keeps
+//! the file's mode; comments are kept; a file that does not parse is left alone.
 
 use std::fs;
 use std::io::{BufRead, BufReader};
 use std::path::Path;
 use std::process::{Command, Stdio};
 
-use ebb::cli::store::PAUSE_ENV;
 use ebb::core::casefile::CaseFile;
+use ebb::files::store::PAUSE_ENV;
 
 const EBB: &str = env!("CARGO_BIN_EXE_ebb");
 
@@ -78,11 +79,16 @@ fn a_save_killed_before_the_rename_leaves_the_old_file_whole() {
 }
 
 #[test]
-fn a_finished_tidy_writes_the_canonical_form_owner_only() {
+fn a_finished_tidy_writes_the_canonical_form_keeping_the_mode() {
     let scratch = tempfile::tempdir().unwrap();
     let dir = scratch.path();
     let path = dir.join("case.toml");
     fs::write(&path, CASE).unwrap();
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::PermissionsExt;
+        fs::set_permissions(&path, fs::Permissions::from_mode(0o640)).unwrap();
+    }
     let out = Command::new(EBB).arg("tidy").arg(&path).output().unwrap();
     assert!(
         out.status.success(),
@@ -107,12 +113,12 @@ fn a_finished_tidy_writes_the_canonical_form_owner_only() {
     {
         use std::os::unix::fs::PermissionsExt;
         let mode = fs::metadata(&path).unwrap().permissions().mode() & 0o777;
-        assert_eq!(mode, 0o600);
+        assert_eq!(mode, 0o640);
     }
 }
 
 #[test]
-fn tidy_leaves_files_with_comments_or_errors_alone() {
+fn tidy_keeps_comments_and_leaves_a_broken_file_alone() {
     let scratch = tempfile::tempdir().unwrap();
     let dir = scratch.path();
     let commented = dir.join("commented.toml");
@@ -123,22 +129,28 @@ fn tidy_leaves_files_with_comments_or_errors_alone() {
         .arg(&commented)
         .output()
         .unwrap();
-    assert_eq!(out.status.code(), Some(2));
-    assert_eq!(
-        String::from_utf8_lossy(&out.stderr).trim(),
-        format!(
-            "{}: line 17: has a comment, which tidying would drop; remove the comments or pass --drop-comments",
-            commented.display()
-        )
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
     );
-    assert_eq!(fs::read_to_string(&commented).unwrap(), text);
+    let now = fs::read_to_string(&commented).unwrap();
+    assert!(now.contains("# checked by the ward round\n"), "{now}");
+    assert!(now.ends_with('\n'));
+    assert_eq!(
+        CaseFile::parse(&now).unwrap(),
+        CaseFile::parse(CASE).unwrap()
+    );
+    // The flag of old is still accepted (comments are kept either way).
     let out = Command::new(EBB)
         .args(["tidy", "--drop-comments"])
         .arg(&commented)
         .output()
         .unwrap();
     assert!(out.status.success());
-    assert!(!fs::read_to_string(&commented).unwrap().contains('#'));
+    assert!(fs::read_to_string(&commented)
+        .unwrap()
+        .contains("# checked by the ward round"));
 
     let broken = dir.join("broken.toml");
     fs::write(&broken, "[drug\n").unwrap();
@@ -148,4 +160,67 @@ fn tidy_leaves_files_with_comments_or_errors_alone() {
         String::from_utf8_lossy(&out.stderr).starts_with(&format!("{}: line 1:", broken.display()))
     );
     assert_eq!(fs::read_to_string(&broken).unwrap(), "[drug\n");
+}
+
+#[test]
+fn a_change_made_while_the_save_writes_is_kept_and_the_save_refused() {
+    let scratch = tempfile::tempdir().unwrap();
+    let dir = scratch.path();
+    let path = dir.join("case.toml");
+    fs::write(&path, CASE).unwrap();
+    let mut child = Command::new(EBB)
+        .arg("tidy")
+        .arg(&path)
+        .env(PAUSE_ENV, "1500")
+        .stderr(Stdio::piped())
+        .stdout(Stdio::null())
+        .spawn()
+        .unwrap();
+    let mut err = BufReader::new(child.stderr.take().unwrap());
+    let mut line = String::new();
+    err.read_line(&mut line).unwrap();
+    assert!(line.contains("pausing"), "{line}");
+    // Another program saves the case while ebb holds the new text in its temporary file.
+    let theirs = CASE.replace("value = 2.0", "value = 2.5");
+    fs::write(&path, &theirs).unwrap();
+    let status = child.wait().unwrap();
+    let mut rest = String::new();
+    std::io::Read::read_to_string(&mut err, &mut rest).unwrap();
+    assert_eq!(status.code(), Some(2), "{rest}");
+    assert!(
+        rest.contains("changed on disk since it was opened"),
+        "{rest}"
+    );
+    assert_eq!(fs::read_to_string(&path).unwrap(), theirs);
+    assert!(temporaries(dir).is_empty());
+}
+
+#[test]
+fn the_next_save_removes_the_temporary_file_a_killed_save_left() {
+    let scratch = tempfile::tempdir().unwrap();
+    let dir = scratch.path();
+    let path = dir.join("case.toml");
+    fs::write(&path, CASE).unwrap();
+    let mut child = Command::new(EBB)
+        .arg("tidy")
+        .arg(&path)
+        .env(PAUSE_ENV, "60000")
+        .stderr(Stdio::piped())
+        .stdout(Stdio::null())
+        .spawn()
+        .unwrap();
+    let mut line = String::new();
+    BufReader::new(child.stderr.take().unwrap())
+        .read_line(&mut line)
+        .unwrap();
+    child.kill().unwrap();
+    child.wait().unwrap();
+    assert_eq!(temporaries(dir).len(), 1);
+    let out = Command::new(EBB).arg("tidy").arg(&path).output().unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    assert!(temporaries(dir).is_empty(), "{:?}", temporaries(dir));
 }
