@@ -18,6 +18,9 @@ pub const SIZE: (u32, u32) = (960, 600);
 /// The longest span drawn after the first dose, hours (five weeks).
 const MAX_SPAN_H: f64 = 840.0;
 
+/// The highest value the level axis can reach (any unit); above it `plot_svg` refuses.
+pub const MAX_LEVEL_DRAWN: f64 = 1e300;
+
 /// Samples along the time axis for each curve.
 const SAMPLES: usize = 800;
 
@@ -131,6 +134,17 @@ pub fn plot_svg_from(case: &Case, fit: &Fit, r: &Report) -> Result<String> {
     if top <= 0.0 {
         return Err(Error::invalid("plot", "no level above zero to draw"));
     }
+    // The axis runs to 4 x the top; near the largest float that overflows and the drawing
+    // would never finish. No real level comes near the bound.
+    if top > MAX_LEVEL_DRAWN {
+        return Err(Error::invalid(
+            "plot",
+            format!(
+                "the highest value to draw (a level, the threshold or the model) is {} {u}; levels above {MAX_LEVEL_DRAWN:e} cannot be drawn, check the values",
+                num(top)
+            ),
+        ));
+    }
     let data_low = case
         .levels
         .iter()
@@ -162,6 +176,9 @@ pub fn plot_svg_from(case: &Case, fit: &Fit, r: &Report) -> Result<String> {
             (Some(l), d) => format!("{l}: {d}"),
             (None, d) => d.to_string(),
         };
+        // The SVG writer escapes markup; control characters, which XML does not allow at
+        // all, are made visible here.
+        let title = crate::core::text::printable(&title).into_owned();
         let mut chart = ChartBuilder::on(&root)
             .caption(title, ("sans-serif", 20))
             .margin(12)

@@ -24,6 +24,7 @@ pub mod renal;
 pub mod report;
 pub mod spread;
 pub mod switch;
+pub mod text;
 pub mod uncertainty;
 pub mod units;
 pub mod warning;

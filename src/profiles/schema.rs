@@ -668,6 +668,15 @@ fn range(r: &SourcedRange, field: &str) -> Result<(), FieldProblem> {
             format!("the low end {} is above the high end {}", r.low, r.high),
         ));
     }
+    if r.high <= 0.0 {
+        return Err(problem(
+            field,
+            format!(
+                "a range of {} to {} holds no value above 0; give the high end above 0",
+                r.low, r.high
+            ),
+        ));
+    }
     Ok(())
 }
 
