@@ -1044,6 +1044,54 @@ fn profile_targets(t: &Targets, unit: LevelUnit) -> Result<Targets> {
     }
 }
 
+/// The warning for a case written in local clock times with no `time_zone` whose doses and
+/// levels span a change of `offset_at` (the UTC offset a zone has at a wall-clock time, e.g.
+/// a daylight-saving change): such times are counted as wall-clock hours, so an interval
+/// across the change may be off by an hour, and k with it. `None` when the case names a
+/// zone, uses offset times, or the offset is the same at every dose and level.
+pub fn clock_change_warning(
+    case: &Case,
+    offset_at: impl Fn(NaiveDateTime) -> Option<FixedOffset>,
+) -> Option<String> {
+    use crate::core::clock::Stamp;
+    if case.clock.zone().is_some() {
+        return None;
+    }
+    let mut rows: Vec<(String, NaiveDateTime)> = Vec::new();
+    for d in &case.doses {
+        if let Stamp::Local(t) = d.time {
+            rows.push((format!("dose {}", d.row), t));
+        }
+    }
+    for l in &case.levels {
+        if let Stamp::Local(t) = l.time {
+            rows.push((format!("level {}", l.row), t));
+        }
+    }
+    rows.sort_by_key(|(_, t)| *t);
+    let (first_row, first_t) = rows.first()?;
+    let first = offset_at(*first_t)?;
+    let (row, _, off) = rows
+        .iter()
+        .filter_map(|(r, t)| offset_at(*t).map(|o| (r, t, o)))
+        .find(|(_, _, o)| *o != first)?;
+    Some(format!(
+        "the times have no time zone, and this computer's clock changes between {first_row} (UTC{first}) and {row} (UTC{off}), as at a daylight-saving change: hours across it may be off by one, and k with them; if the times were written in that zone, give time_zone (for example time_zone = \"Europe/Paris\") so the hours count as they passed"
+    ))
+}
+
+/// [`clock_change_warning`] in this computer's own time zone (the `TZ` variable, else the
+/// system's setting).
+pub fn machine_clock_warning(case: &Case) -> Option<String> {
+    use chrono::{Local, Offset, TimeZone};
+    clock_change_warning(case, |t| {
+        Local
+            .offset_from_local_datetime(&t)
+            .earliest()
+            .map(|o| o.fix())
+    })
+}
+
 /// The first year a case's date may be in.
 pub const FIRST_YEAR: u16 = 1900;
 /// The last year a case's date may be in.
