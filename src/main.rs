@@ -90,10 +90,32 @@ enum ProfilesAction {
     },
 }
 
+/// One line on standard error, made printable; see `ebb::cli::out::say`.
+macro_rules! say {
+    ($($arg:tt)*) => { ebb::cli::out::say(format_args!($($arg)*)) };
+}
+
 fn main() -> ExitCode {
-    let cli = Cli::parse();
+    let cli = match Cli::try_parse() {
+        Ok(cli) => cli,
+        // Help, version and usage errors: clap's text, and exit status 2 when it cannot
+        // be written.
+        Err(e) => {
+            let written = e
+                .print()
+                .and_then(|()| std::io::stdout().flush())
+                .and_then(|()| std::io::stderr().flush());
+            return match written {
+                Ok(()) => ExitCode::from(u8::try_from(e.exit_code()).unwrap_or(2)),
+                Err(err) => {
+                    say!("standard output: cannot write: {err}");
+                    ExitCode::from(2)
+                }
+            };
+        }
+    };
     if let (Some(case), Some(_)) = (&cli.case, &cli.command) {
-        eprintln!(
+        say!(
             "ebb: give a case file or a command, not both (got {} before the command)",
             case.display()
         );
@@ -133,13 +155,13 @@ fn ui(dir: Option<&Path>) -> ebb::tui::catalog::Profiles {
 fn screen(app: impl FnOnce() -> ebb::tui::App) -> ExitCode {
     use std::io::IsTerminal;
     if !std::io::stdout().is_terminal() {
-        eprintln!("ebb: the bedside screen needs a terminal; for printed figures use `ebb report CASE.toml` or `ebb report --demo`");
+        say!("ebb: the bedside screen needs a terminal; for printed figures use `ebb report CASE.toml` or `ebb report --demo`");
         return ExitCode::from(2);
     }
     match ebb::tui::run(app()) {
         Ok(()) => ExitCode::SUCCESS,
         Err(e) => {
-            eprintln!("ebb: the terminal failed: {e}");
+            say!("ebb: the terminal failed: {e}");
             ExitCode::from(2)
         }
     }
@@ -149,7 +171,7 @@ fn profiles(action: Option<ProfilesAction>, dir: Option<&Path>) -> ExitCode {
     let catalog = match ebb::profiles::Catalog::load(dir) {
         Ok(c) => c,
         Err(e) => {
-            eprintln!("{e}");
+            say!("{e}");
             return ExitCode::from(2);
         }
     };
@@ -160,22 +182,24 @@ fn profiles(action: Option<ProfilesAction>, dir: Option<&Path>) -> ExitCode {
             Ok(entry) if toml => buf.write_all(entry.text.as_bytes()),
             Ok(entry) => ebb::profiles::write_show(&mut buf, entry),
             Err(e) => {
-                eprintln!("ebb profiles show: {e}");
+                say!("ebb profiles show: {e}");
                 return ExitCode::from(2);
             }
         },
     };
-    match written.and_then(|()| std::io::stdout().lock().write_all(&buf)) {
+    let printed = written
+        .map_err(|e| ebb::core::Error::invalid("standard output", e.to_string()))
+        .and_then(|()| ebb::cli::out::stdout(&buf));
+    match printed {
         Ok(()) => ExitCode::SUCCESS,
         Err(e) => {
-            eprintln!("ebb profiles: {e}");
+            say!("ebb profiles: {e}");
             ExitCode::from(2)
         }
     }
 }
 
 fn report(files: &[PathBuf], json: bool, demo: bool, dir: Option<&Path>) -> ExitCode {
-    let stdout = std::io::stdout();
     let mut failed = false;
     if demo {
         let mut buf = Vec::new();
@@ -183,16 +207,19 @@ fn report(files: &[PathBuf], json: bool, demo: bool, dir: Option<&Path>) -> Exit
             .and_then(|a| ebb::cli::write_report(&mut buf, &a, "demo", json));
         match r {
             Ok(()) => {
-                let _ = stdout.lock().write_all(&buf);
+                if let Err(e) = ebb::cli::out::stdout(&buf) {
+                    say!("{e}");
+                    return ExitCode::from(2);
+                }
             }
             Err(e) => {
-                eprintln!("{e}");
+                say!("{e}");
                 failed = true;
             }
         }
     }
     if files.is_empty() && !demo {
-        eprintln!("ebb report: give one or more case files, or --demo");
+        say!("ebb report: give one or more case files, or --demo");
         return ExitCode::from(2);
     }
     for (i, path) in files.iter().enumerate() {
@@ -200,16 +227,23 @@ fn report(files: &[PathBuf], json: bool, demo: bool, dir: Option<&Path>) -> Exit
         let name = path.display().to_string();
         let r = ebb::cli::analyse_file(path, dir)
             .and_then(|a| ebb::cli::write_report(&mut buf, &a, &name, json));
+        let separator: &[u8] = if !json && i > 0 {
+            b"\n----------------------------------------\n\n"
+        } else {
+            b""
+        };
         match r {
             Ok(()) => {
-                let mut out = stdout.lock();
-                if !json && i > 0 {
-                    let _ = writeln!(out, "\n----------------------------------------\n");
+                // Standard output failing fails every file after it: stop at once.
+                let printed =
+                    ebb::cli::out::stdout(separator).and_then(|()| ebb::cli::out::stdout(&buf));
+                if let Err(e) = printed {
+                    say!("{e}");
+                    return ExitCode::from(2);
                 }
-                let _ = out.write_all(&buf);
             }
             Err(e) => {
-                eprintln!("{e}");
+                say!("{e}");
                 failed = true;
             }
         }
@@ -236,15 +270,12 @@ fn note(file: &Path, output: Option<&Path>, markdown: bool, dir: Option<&Path>) 
         .and_then(|a| ebb::cli::note::write_note(&mut buf, &a, &name, format, &meta))
         .and_then(|()| match output {
             Some(o) => ebb::cli::note::write_file(o, &String::from_utf8_lossy(&buf)),
-            None => std::io::stdout()
-                .lock()
-                .write_all(&buf)
-                .map_err(|e| ebb::core::Error::invalid("output", e.to_string())),
+            None => ebb::cli::out::stdout(&buf),
         });
     match r {
         Ok(()) => ExitCode::SUCCESS,
         Err(e) => {
-            eprintln!("{e}");
+            say!("{e}");
             ExitCode::from(2)
         }
     }
@@ -259,7 +290,7 @@ fn plot(file: &Path, output: &Path, dir: Option<&Path>) -> ExitCode {
     match r {
         Ok(()) => ExitCode::SUCCESS,
         Err(e) => {
-            eprintln!("{e}");
+            say!("{e}");
             ExitCode::from(2)
         }
     }
@@ -273,19 +304,19 @@ fn tidy(file: &Path, drop_comments: bool) -> ExitCode {
     let (text, print) = match store::read_with_fingerprint(file) {
         Ok(x) => x,
         Err(e) => {
-            eprintln!("{name}: cannot read the file: {e}");
+            say!("{name}: cannot read the file: {e}");
             return ExitCode::from(2);
         }
     };
     let case = match ebb::core::casefile::CaseFile::parse(&text) {
         Ok(c) => c,
         Err(e) => {
-            eprintln!("{}", e.in_file(name.as_str()));
+            say!("{}", e.in_file(name.as_str()));
             return ExitCode::from(2);
         }
     };
     if let (false, Some(line)) = (drop_comments, store::first_comment_line(&text)) {
-        eprintln!(
+        say!(
             "{name}: line {line}: has a comment, which tidying would drop; remove the comments or pass --drop-comments"
         );
         return ExitCode::from(2);
@@ -293,7 +324,7 @@ fn tidy(file: &Path, drop_comments: bool) -> ExitCode {
     match store::save_case(&case, file, &store::Expect::Unchanged(Some(print))) {
         Ok(_) => ExitCode::SUCCESS,
         Err(e) => {
-            eprintln!("{e}");
+            say!("{e}");
             ExitCode::from(2)
         }
     }

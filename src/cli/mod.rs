@@ -13,6 +13,7 @@ use crate::demo::{DEMO_CASE, DEMO_NAME};
 use crate::profiles::{self, Catalog};
 
 pub mod note;
+pub mod out;
 pub mod plot;
 pub mod store;
 

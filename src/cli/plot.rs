@@ -268,3 +268,23 @@ pub fn plot_svg_from(case: &Case, fit: &Fit, r: &Report) -> Result<String> {
     }
     Ok(svg)
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn control_characters_in_the_title_leave_valid_xml() {
+        let mut case = crate::core::casefile::CaseFile::parse(crate::demo::DEMO_CASE)
+            .unwrap()
+            .validate()
+            .unwrap();
+        // Built by a program, not loaded: loading refuses such a label.
+        case.patient.label = Some("Bed\u{1b}[2J\u{1} <4> & \"x\"".into());
+        let svg = plot_svg(&case).unwrap();
+        let doc = roxmltree::Document::parse(&svg).unwrap();
+        assert!(doc.descendants().any(
+            |n| n.text().map(str::trim) == Some("Bed\\u{1b}[2J\\u{1} <4> & \"x\": gentamicin")
+        ));
+    }
+}

@@ -94,10 +94,7 @@ pub enum SaveError {
 /// # Errors
 /// The operating system's error.
 pub fn read_with_fingerprint(path: &Path) -> std::io::Result<(String, Fingerprint)> {
-    let mut f = File::open(path)?;
-    let modified = f.metadata()?.modified().ok();
-    let mut bytes = Vec::new();
-    std::io::Read::read_to_end(&mut f, &mut bytes)?;
+    let (bytes, modified) = read_limited(path)?;
     let print = Fingerprint::of(&bytes, modified);
     let text = String::from_utf8(bytes)
         .map_err(|e| std::io::Error::new(std::io::ErrorKind::InvalidData, e))?;
@@ -109,16 +106,22 @@ pub fn read_with_fingerprint(path: &Path) -> std::io::Result<(String, Fingerprin
 /// # Errors
 /// The file exists but cannot be read.
 pub fn fingerprint(path: &Path) -> std::io::Result<Option<Fingerprint>> {
-    match File::open(path) {
-        Ok(mut f) => {
-            let modified = f.metadata()?.modified().ok();
-            let mut bytes = Vec::new();
-            std::io::Read::read_to_end(&mut f, &mut bytes)?;
+    match fs::metadata(path) {
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => Ok(None),
+        _ => {
+            let (bytes, modified) = read_limited(path)?;
             Ok(Some(Fingerprint::of(&bytes, modified)))
         }
-        Err(e) if e.kind() == std::io::ErrorKind::NotFound => Ok(None),
-        Err(e) => Err(e),
     }
+}
+
+/// The bytes of a regular file of at most `casefile::MAX_CASE_BYTES` and its modification
+/// time: a FIFO, a device or a huge file is an error, never a wait or a memory blow-up.
+fn read_limited(path: &Path) -> std::io::Result<(Vec<u8>, Option<std::time::SystemTime>)> {
+    use crate::core::casefile::{read_regular, MAX_CASE_BYTES};
+    let modified = fs::metadata(path)?.modified().ok();
+    let bytes = read_regular(path, MAX_CASE_BYTES).map_err(std::io::Error::other)?;
+    Ok((bytes, modified))
 }
 
 /// Save a case as TOML to `path` safely (see `save_bytes`).

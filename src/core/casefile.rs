@@ -1034,13 +1034,19 @@ fn profile_targets(t: &Targets, unit: LevelUnit) -> Result<Targets> {
     }
     match values.iter().find(|(_, x)| !(x.is_finite() && *x > 0.0)) {
         None => Ok(t.clone()),
-        Some((name, x)) => Err(Error::invalid(
-            "drug.profile",
-            format!(
-                "the profile's {name} target becomes {x} {} in the case's unit, which cannot be checked; correct the profile or give [targets] in the case",
-                unit.as_str()
-            ),
-        )),
+        Some((name, x)) => {
+            let what = if x.is_infinite() {
+                format!("is too large to convert to {}", unit.as_str())
+            } else {
+                format!("becomes {x} {}, not a level above 0", unit.as_str())
+            };
+            Err(Error::invalid(
+                "drug.profile",
+                format!(
+                    "the profile's {name} target {what}; correct the profile or give [targets] in the case"
+                ),
+            ))
+        }
     }
 }
 
