@@ -1,7 +1,6 @@
 //! Hostile input through the binary: free text that would forge output, special files,
 //! sizes, values that overflow, write errors, and clocks that change.
 
-#[allow(dead_code)]
 mod common;
 
 use std::fs;

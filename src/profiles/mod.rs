@@ -53,10 +53,15 @@ impl Origin {
     pub fn words(&self) -> String {
         match self {
             Origin::BuiltIn => "built-in".into(),
-            Origin::Replaces(p) => format!("{} (replaces the built-in)", p.display()),
-            Origin::Local(p) => format!("{} (local)", p.display()),
+            Origin::Replaces(p) => format!("{} (replaces the built-in)", shown(p)),
+            Origin::Local(p) => format!("{} (local)", shown(p)),
         }
     }
+}
+
+/// A path as listings print it: its control characters made visible.
+fn shown(p: &Path) -> String {
+    crate::core::text::printable(&p.display().to_string()).into_owned()
 }
 
 /// One profile with its name (file stem) and origin.
