@@ -281,7 +281,9 @@ mod tests {
             .unwrap();
         // Built by a program, not loaded: loading refuses such a label.
         case.patient.label = Some("Bed\u{1b}[2J\u{1} <4> & \"x\"".into());
-        let svg = plot_svg(&case).unwrap();
+        let fit = crate::core::fit::fit(&case).unwrap();
+        let r = crate::core::report::build_from_fit(&case, &fit).unwrap();
+        let svg = plot_svg_from(&case, &fit, &r).unwrap();
         let doc = roxmltree::Document::parse(&svg).unwrap();
         assert!(doc.descendants().any(
             |n| n.text().map(str::trim) == Some("Bed\\u{1b}[2J\\u{1} <4> & \"x\": gentamicin")
