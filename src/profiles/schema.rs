@@ -5,6 +5,7 @@
 //! source cannot be written at all; `validate` then checks that each source names a key of the
 //! profile's `[sources]` table or says "from memory, unverified".
 
+use crate::core::text::quoted;
 use std::collections::BTreeMap;
 
 use serde::{Deserialize, Serialize};
@@ -336,8 +337,8 @@ impl Profile {
             problem(
                 "level_unit",
                 format!(
-                    "unknown unit \"{}\"; use one of mg/L, ug/mL, ng/mL, ug/L, mmol/L, umol/L",
-                    self.level_unit
+                    "unknown unit {}; use one of mg/L, ug/mL, ng/mL, ug/L, mmol/L, umol/L",
+                    quoted(&self.level_unit)
                 ),
             )
         })
@@ -529,15 +530,15 @@ impl Profile {
                 return Err(problem(
                     at("name"),
                     format!(
-                        "use lower-case letters, digits and hyphens, got \"{}\"",
-                        s.name
+                        "use lower-case letters, digits and hyphens, got {}",
+                        quoted(&s.name)
                     ),
                 ));
             }
             if self.strategies[..i].iter().any(|o| o.name == s.name) {
                 return Err(problem(
                     at("name"),
-                    format!("\"{}\" is used by an earlier strategy", s.name),
+                    format!("{} is used by an earlier strategy", quoted(&s.name)),
                 ));
             }
             if let Some(p) = &s.peak {
@@ -579,8 +580,8 @@ impl Profile {
             return Err(problem(
                 "default_strategy",
                 format!(
-                    "no strategy named \"{}\"; the file has {}",
-                    self.default_strategy,
+                    "no strategy named {}; the file has {}",
+                    quoted(&self.default_strategy),
                     names.join(", ")
                 ),
             ));
@@ -618,7 +619,8 @@ impl Profile {
             return Err(problem(
                 field,
                 format!(
-                    "the source must cite a [Key] from [sources] or say \"{FROM_MEMORY}\", got \"{text}\""
+                    "the source must cite a [Key] from [sources] or say \"{FROM_MEMORY}\", got {}",
+                    quoted(text)
                 ),
             ));
         }
