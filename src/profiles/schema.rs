@@ -5,11 +5,11 @@
 //! source cannot be written at all; `validate` then checks that each source names a key of the
 //! profile's `[sources]` table or says "from memory, unverified".
 
-use crate::core::text::quoted;
 use std::collections::BTreeMap;
 
 use serde::{Deserialize, Serialize};
 
+use crate::core::text::quoted;
 use crate::core::units::LevelUnit;
 
 /// The words that mark a value nobody could trace to a source.
