@@ -217,6 +217,17 @@ mod tests {
         );
     }
 
+    proptest::proptest! {
+        #[test]
+        fn escaped_text_never_carries_a_refused_character(s in "\\PC*|[\\x00-\\x{a0}\\x{2028}-\\x{206f}a-z]*") {
+            proptest::prop_assert!(printable(&s).chars().all(|c| refused(c).is_none()));
+            proptest::prop_assert!(markdown(&s).chars().all(|c| refused(c).is_none()));
+            proptest::prop_assert_eq!(problem(&s).is_none(), printable(&s) == s.as_str());
+            proptest::prop_assert!(quoted(&s).chars().count() <= ECHO_CHARS + 3);
+            proptest::prop_assert!(one_line(&s).chars().all(|c| refused(c).is_none()));
+        }
+    }
+
     #[test]
     fn markdown_cannot_open_markup() {
         assert_eq!(
