@@ -19,6 +19,7 @@ mod core_time_zone;
 mod docs_rejected;
 mod history_cases;
 mod history_recovery;
+mod hostile_cli;
 mod layout;
 mod note_cli;
 mod note_figures;

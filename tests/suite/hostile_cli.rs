@@ -1,7 +1,7 @@
 //! Hostile input through the binary: free text that would forge output, special files,
 //! sizes, values that overflow, write errors, and clocks that change.
 
-mod common;
+use crate::common;
 
 use std::fs;
 use std::path::{Path, PathBuf};
@@ -18,11 +18,8 @@ fn run(args: &[&str], dir: &Path) -> Output {
     ebb().args(args).current_dir(dir).output().unwrap()
 }
 
-fn scratch(test: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("ebb-hostile-{test}-{}", std::process::id()));
-    let _ = fs::remove_dir_all(&d);
-    fs::create_dir_all(&d).unwrap();
-    d
+fn scratch() -> tempfile::TempDir {
+    tempfile::tempdir().unwrap()
 }
 
 fn stderr(o: &Output) -> String {
@@ -64,7 +61,8 @@ fn one_line_error(o: &Output) -> String {
 
 #[test]
 fn a_line_break_in_the_label_cannot_print_a_fake_line_in_the_note() {
-    let d = scratch("label");
+    let tmp = scratch();
+    let d = tmp.path();
     let forged = case("[patient]\nlabel = \"Bed 4\\n  Plan: all targets met\"", "");
     fs::write(d.join("c.toml"), forged).unwrap();
     for cmd in [
@@ -84,7 +82,8 @@ fn a_line_break_in_the_label_cannot_print_a_fake_line_in_the_note() {
 
 #[test]
 fn control_characters_are_refused_in_every_free_text_field() {
-    let d = scratch("fields");
+    let tmp = scratch();
+    let d = tmp.path();
     let esc = "\\u001b]0;owned\\u0007";
     let cases = [
         (
@@ -120,7 +119,8 @@ fn control_characters_are_refused_in_every_free_text_field() {
 
 #[test]
 fn a_markdown_note_escapes_markup_from_the_file() {
-    let d = scratch("markdown");
+    let tmp = scratch();
+    let d = tmp.path();
     let text = case(
         "[patient]\nlabel = \"<script>x</script> # *bold* [link](http://x) | cell\"",
         "note = \"```\"\n",
@@ -148,7 +148,8 @@ fn a_markdown_note_escapes_markup_from_the_file() {
 
 #[test]
 fn backticks_in_the_report_body_cannot_close_the_notes_code_block() {
-    let d = scratch("fence");
+    let tmp = scratch();
+    let d = tmp.path();
     let text = case("[patient]\nlabel = \"```` then # Heading\"", "");
     fs::write(d.join("c.toml"), text).unwrap();
     let o = run(&["note", "--markdown", "c.toml"], &d);
@@ -161,7 +162,8 @@ fn backticks_in_the_report_body_cannot_close_the_notes_code_block() {
 
 #[test]
 fn the_svg_stays_valid_xml_with_markup_in_the_label() {
-    let d = scratch("svg");
+    let tmp = scratch();
+    let d = tmp.path();
     fs::write(
         d.join("c.toml"),
         case("[patient]\nlabel = \"Bed <4> & \\\"5\\\" 'x'\"", ""),
@@ -178,7 +180,8 @@ fn the_svg_stays_valid_xml_with_markup_in_the_label() {
 
 #[test]
 fn a_huge_value_in_an_enum_field_is_cut_in_the_error() {
-    let d = scratch("enum");
+    let tmp = scratch();
+    let d = tmp.path();
     let long = "x".repeat(10 * 1024 * 1024);
     fs::write(
         d.join("c.toml"),
@@ -198,7 +201,8 @@ fn a_huge_value_in_an_enum_field_is_cut_in_the_error() {
 #[cfg(unix)]
 #[test]
 fn a_fifo_with_no_writer_and_dev_zero_are_refused_at_once() {
-    let d = scratch("fifo");
+    let tmp = scratch();
+    let d = tmp.path();
     let fifo = d.join("case.toml");
     let made = Command::new("mkfifo").arg(&fifo).status().unwrap();
     assert!(made.success());
@@ -227,7 +231,8 @@ fn a_fifo_with_no_writer_and_dev_zero_are_refused_at_once() {
 
 #[test]
 fn a_case_file_over_16_mib_is_refused_unread() {
-    let d = scratch("size");
+    let tmp = scratch();
+    let d = tmp.path();
     let mut text = case("", "");
     text.push_str(&"\n".repeat(16 * 1024 * 1024));
     fs::write(d.join("big.toml"), text).unwrap();
@@ -239,7 +244,8 @@ fn a_case_file_over_16_mib_is_refused_unread() {
 
 #[test]
 fn more_than_100000_doses_are_refused_with_the_limit() {
-    let d = scratch("rows");
+    let tmp = scratch();
+    let d = tmp.path();
     // Inline tables keep the file under the size limit.
     let mut text = String::from("dose = [\n");
     for i in 0..100_001u32 {
@@ -258,7 +264,8 @@ fn more_than_100000_doses_are_refused_with_the_limit() {
 
 #[test]
 fn a_level_too_high_to_draw_is_refused_not_drawn_forever() {
-    let d = scratch("plot");
+    let tmp = scratch();
+    let d = tmp.path();
     for (field, text) in [
         (
             "level",
@@ -286,7 +293,8 @@ fn a_level_too_high_to_draw_is_refused_not_drawn_forever() {
 #[cfg(target_os = "linux")]
 #[test]
 fn every_write_error_exits_2_with_one_line() {
-    let d = scratch("full");
+    let tmp = scratch();
+    let d = tmp.path();
     fs::write(d.join("c.toml"), case("", "")).unwrap();
     let full = || Stdio::from(fs::File::create("/dev/full").unwrap());
     for args in [
@@ -326,7 +334,8 @@ fn every_write_error_exits_2_with_one_line() {
 
 #[test]
 fn an_error_never_carries_raw_control_characters_to_the_terminal() {
-    let d = scratch("stderr");
+    let tmp = scratch();
+    let d = tmp.path();
     let name = "bed\u{1b}[2J\u{202e}.toml";
     let o = run(&["report", name], &d);
     assert_eq!(
@@ -349,7 +358,8 @@ fn profile_dir(d: &Path, display: &str, line: &str) -> PathBuf {
 
 #[test]
 fn local_profile_text_is_checked_like_case_text() {
-    let d = scratch("profile-text");
+    let tmp = scratch();
+    let d = tmp.path();
     profile_dir(
         &d,
         "Genta\\u001b[31m",
@@ -391,7 +401,8 @@ fn local_profile_text_is_checked_like_case_text() {
 
 #[test]
 fn profile_ranges_of_zero_and_targets_that_overflow_are_refused() {
-    let d = scratch("profile-values");
+    let tmp = scratch();
+    let d = tmp.path();
     profile_dir(
         &d,
         "Genta",
@@ -419,7 +430,8 @@ fn profile_ranges_of_zero_and_targets_that_overflow_are_refused() {
 #[cfg(unix)]
 #[test]
 fn a_profile_link_to_a_special_file_is_reported_not_skipped() {
-    let d = scratch("profile-link");
+    let tmp = scratch();
+    let d = tmp.path();
     let p = d.join("profiles");
     fs::create_dir_all(&p).unwrap();
     std::os::unix::fs::symlink("/dev/null", p.join("gentamicin.toml")).unwrap();
@@ -450,7 +462,8 @@ const ACROSS_THE_CHANGE: &str = "[drug]\nlevel_unit = \"mg/L\"\n\n[[dose]]\ntime
 
 #[test]
 fn unzoned_times_across_a_clock_change_warn_in_the_machines_zone() {
-    let d = scratch("dst");
+    let tmp = scratch();
+    let d = tmp.path();
     fs::write(d.join("c.toml"), ACROSS_THE_CHANGE).unwrap();
     let warn = "the times have no time zone, and this computer's clock changes between dose 1 (UTC+01:00) and level 2 (UTC+02:00), as at a daylight-saving change: hours across it may be off by one, and k with them; if the times were written in that zone, give time_zone (for example time_zone = \"Europe/Paris\") so the hours count as they passed";
     // The zone as a POSIX rule, so the test needs no time-zone database on the machine.
@@ -491,7 +504,8 @@ fn unzoned_times_across_a_clock_change_warn_in_the_machines_zone() {
 
 #[test]
 fn a_half_life_of_one_second_gets_a_plausibility_warning() {
-    let d = scratch("half-life");
+    let tmp = scratch();
+    let d = tmp.path();
     let text = case("", "").replace("2027-03-02T16:00:00", "2027-03-02T10:00:01");
     fs::write(d.join("c.toml"), text).unwrap();
     let o = run(&["report", "c.toml"], &d);
