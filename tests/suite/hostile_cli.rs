@@ -70,7 +70,7 @@ fn a_line_break_in_the_label_cannot_print_a_fake_line_in_the_note() {
         &["report", "c.toml"],
         &["plot", "c.toml", "-o", "c.svg"],
     ] {
-        let o = run(cmd, &d);
+        let o = run(cmd, d);
         assert_eq!(
             one_line_error(&o),
             "c.toml: patient.label: contains a line break (U+000A) at character 6; free text must be on one line"
@@ -111,7 +111,7 @@ fn control_characters_are_refused_in_every_free_text_field() {
     ];
     for (text, field) in cases {
         fs::write(d.join("c.toml"), &text).unwrap();
-        let e = one_line_error(&run(&["report", "c.toml"], &d));
+        let e = one_line_error(&run(&["report", "c.toml"], d));
         assert!(e.starts_with(&format!("c.toml: {field}: contains ")), "{e}");
         assert!(!e.chars().any(|c| c.is_control()), "{e:?}");
     }
@@ -126,7 +126,7 @@ fn a_markdown_note_escapes_markup_from_the_file() {
         "note = \"```\"\n",
     );
     fs::write(d.join("c.toml"), text).unwrap();
-    let o = run(&["note", "--markdown", "c.toml"], &d);
+    let o = run(&["note", "--markdown", "c.toml"], d);
     assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
     let md = String::from_utf8(o.stdout).unwrap();
     assert!(
@@ -152,7 +152,7 @@ fn backticks_in_the_report_body_cannot_close_the_notes_code_block() {
     let d = tmp.path();
     let text = case("[patient]\nlabel = \"```` then # Heading\"", "");
     fs::write(d.join("c.toml"), text).unwrap();
-    let o = run(&["note", "--markdown", "c.toml"], &d);
+    let o = run(&["note", "--markdown", "c.toml"], d);
     assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
     let md = String::from_utf8(o.stdout).unwrap();
     // The report inside repeats the label; the fence must be longer than its 4 backticks.
@@ -169,7 +169,7 @@ fn the_svg_stays_valid_xml_with_markup_in_the_label() {
         case("[patient]\nlabel = \"Bed <4> & \\\"5\\\" 'x'\"", ""),
     )
     .unwrap();
-    let o = run(&["plot", "c.toml", "-o", "c.svg"], &d);
+    let o = run(&["plot", "c.toml", "-o", "c.svg"], d);
     assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
     let svg = fs::read_to_string(d.join("c.svg")).unwrap();
     let doc = roxmltree::Document::parse(&svg).unwrap();
@@ -188,7 +188,7 @@ fn a_huge_value_in_an_enum_field_is_cut_in_the_error() {
         case(&format!("[patient]\nsex = \"{long}\""), ""),
     )
     .unwrap();
-    let e = one_line_error(&run(&["report", "c.toml"], &d));
+    let e = one_line_error(&run(&["report", "c.toml"], d));
     assert_eq!(
         e,
         format!(
@@ -213,7 +213,7 @@ fn a_fifo_with_no_writer_and_dev_zero_are_refused_at_once() {
         &["tidy", "case.toml"],
     ] {
         let mut c = ebb();
-        c.args(args).current_dir(&d);
+        c.args(args).current_dir(d);
         let e = one_line_error(&finishes(c, 20));
         assert!(
             e.contains("it is a FIFO (named pipe), not a regular file"),
@@ -222,7 +222,7 @@ fn a_fifo_with_no_writer_and_dev_zero_are_refused_at_once() {
     }
     std::os::unix::fs::symlink("/dev/zero", d.join("zero.toml")).unwrap();
     let mut c = ebb();
-    c.args(["report", "zero.toml"]).current_dir(&d);
+    c.args(["report", "zero.toml"]).current_dir(d);
     assert_eq!(
         one_line_error(&finishes(c, 20)),
         "zero.toml: cannot read the file: it is a device, not a regular file"
@@ -237,7 +237,7 @@ fn a_case_file_over_16_mib_is_refused_unread() {
     text.push_str(&"\n".repeat(16 * 1024 * 1024));
     fs::write(d.join("big.toml"), text).unwrap();
     assert_eq!(
-        one_line_error(&run(&["report", "big.toml"], &d)),
+        one_line_error(&run(&["report", "big.toml"], d)),
         "big.toml: cannot read the file: it is 16.0 MiB, more than the 16 MiB a file may be here; is it the right file?"
     );
 }
@@ -257,7 +257,7 @@ fn more_than_100000_doses_are_refused_with_the_limit() {
     text.push_str("]\n[drug]\nlevel_unit = \"mg/L\"\n");
     fs::write(d.join("rows.toml"), text).unwrap();
     assert_eq!(
-        one_line_error(&run(&["report", "rows.toml"], &d)),
+        one_line_error(&run(&["report", "rows.toml"], d)),
         "rows.toml: dose: the case has 100001 [[dose]] rows; ebb reads at most 100000"
     );
 }
@@ -275,7 +275,7 @@ fn a_level_too_high_to_draw_is_refused_not_drawn_forever() {
     ] {
         fs::write(d.join("c.toml"), text).unwrap();
         let mut c = ebb();
-        c.args(["plot", "c.toml", "-o", "c.svg"]).current_dir(&d);
+        c.args(["plot", "c.toml", "-o", "c.svg"]).current_dir(d);
         let e = one_line_error(&finishes(c, 60));
         assert!(
             e.starts_with(
@@ -312,7 +312,7 @@ fn every_write_error_exits_2_with_one_line() {
     ] {
         let o = ebb()
             .args(args)
-            .current_dir(&d)
+            .current_dir(d)
             .stdout(full())
             .output()
             .unwrap();
@@ -325,7 +325,7 @@ fn every_write_error_exits_2_with_one_line() {
     // With standard error full too: still status 2, not a panic.
     let o = ebb()
         .args(["report", "missing.toml"])
-        .current_dir(&d)
+        .current_dir(d)
         .stderr(full())
         .output()
         .unwrap();
@@ -337,7 +337,7 @@ fn an_error_never_carries_raw_control_characters_to_the_terminal() {
     let tmp = scratch();
     let d = tmp.path();
     let name = "bed\u{1b}[2J\u{202e}.toml";
-    let o = run(&["report", name], &d);
+    let o = run(&["report", name], d);
     assert_eq!(
         one_line_error(&o),
         "bed\\u{1b}[2J\\u{202e}.toml: cannot read the file: No such file or directory (os error 2)"
@@ -361,18 +361,18 @@ fn local_profile_text_is_checked_like_case_text() {
     let tmp = scratch();
     let d = tmp.path();
     profile_dir(
-        &d,
+        d,
         "Genta\\u001b[31m",
         "trough_max = { value = 1.5, source = \"[Local]\" }",
     );
-    let o = run(&["--profiles", "profiles", "profiles"], &d);
+    let o = run(&["--profiles", "profiles", "profiles"], d);
     assert_eq!(
         one_line_error(&o),
         "profiles/gentamicin.toml: line 2: field display_name: contains an escape character (U+001B) at character 6; free text must be plain printable text"
     );
     // Raw bidirectional controls in a comment would reach `profiles show --toml`.
     let p = profile_dir(
-        &d,
+        d,
         "Genta",
         "trough_max = { value = 1.5, source = \"[Local]\" }",
     );
@@ -391,7 +391,7 @@ fn local_profile_text_is_checked_like_case_text() {
             "gentamicin",
             "--toml",
         ],
-        &d,
+        d,
     );
     assert_eq!(
         one_line_error(&o),
@@ -404,23 +404,23 @@ fn profile_ranges_of_zero_and_targets_that_overflow_are_refused() {
     let tmp = scratch();
     let d = tmp.path();
     profile_dir(
-        &d,
+        d,
         "Genta",
         "peak = { low = 0.0, high = 0.0, source = \"[Local]\" }",
     );
-    let e = one_line_error(&run(&["--profiles", "profiles", "profiles"], &d));
+    let e = one_line_error(&run(&["--profiles", "profiles", "profiles"], d));
     assert_eq!(
         e,
         "profiles/gentamicin.toml: line 22: field strategy[1].peak: a range of 0 to 0 holds no value above 0; give the high end above 0"
     );
     profile_dir(
-        &d,
+        d,
         "Genta",
         "trough_max = { value = 1e308, source = \"[Local]\" }",
     );
     let text = case("", "").replace("mg/L\"\n", "ng/mL\"\nprofile = \"gentamicin\"\n");
     fs::write(d.join("c.toml"), text).unwrap();
-    let e = one_line_error(&run(&["--profiles", "profiles", "report", "c.toml"], &d));
+    let e = one_line_error(&run(&["--profiles", "profiles", "report", "c.toml"], d));
     assert_eq!(
         e,
         "c.toml: drug.profile: the profile's trough_max target is too large to convert to ng/mL; correct the profile or give [targets] in the case"
@@ -435,7 +435,7 @@ fn a_profile_link_to_a_special_file_is_reported_not_skipped() {
     let p = d.join("profiles");
     fs::create_dir_all(&p).unwrap();
     std::os::unix::fs::symlink("/dev/null", p.join("gentamicin.toml")).unwrap();
-    let e = one_line_error(&run(&["--profiles", "profiles", "profiles"], &d));
+    let e = one_line_error(&run(&["--profiles", "profiles", "profiles"], d));
     assert_eq!(
         e,
         "profiles/gentamicin.toml: cannot read the file: it is a device, not a regular file"
@@ -448,7 +448,7 @@ fn a_profile_link_to_a_special_file_is_reported_not_skipped() {
         .success());
     let mut c = ebb();
     c.args(["--profiles", "profiles", "profiles"])
-        .current_dir(&d);
+        .current_dir(d);
     let e = one_line_error(&finishes(c, 20));
     assert!(
         e.ends_with("it is a FIFO (named pipe), not a regular file"),
@@ -470,7 +470,7 @@ fn unzoned_times_across_a_clock_change_warn_in_the_machines_zone() {
     for tz in ["CET-1CEST,M3.5.0,M10.5.0/3", "Europe/Paris"] {
         let o = ebb()
             .args(["report", "--json", "c.toml"])
-            .current_dir(&d)
+            .current_dir(d)
             .env("TZ", tz)
             .output()
             .unwrap();
@@ -485,7 +485,7 @@ fn unzoned_times_across_a_clock_change_warn_in_the_machines_zone() {
         assert!(warnings.contains(&warn), "{tz}: {warnings:?}");
     }
     // No warning in a zone without the change, nor once the case names its zone.
-    let o = run(&["report", "--json", "c.toml"], &d);
+    let o = run(&["report", "--json", "c.toml"], d);
     assert!(!String::from_utf8_lossy(&o.stdout).contains("no time zone"));
     fs::write(
         d.join("z.toml"),
@@ -494,7 +494,7 @@ fn unzoned_times_across_a_clock_change_warn_in_the_machines_zone() {
     .unwrap();
     let o = ebb()
         .args(["report", "--json", "z.toml"])
-        .current_dir(&d)
+        .current_dir(d)
         .env("TZ", "CET-1CEST,M3.5.0,M10.5.0/3")
         .output()
         .unwrap();
@@ -508,7 +508,7 @@ fn a_half_life_of_one_second_gets_a_plausibility_warning() {
     let d = tmp.path();
     let text = case("", "").replace("2027-03-02T16:00:00", "2027-03-02T10:00:01");
     fs::write(d.join("c.toml"), text).unwrap();
-    let o = run(&["report", "c.toml"], &d);
+    let o = run(&["report", "c.toml"], d);
     assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
     let out = String::from_utf8(o.stdout).unwrap();
     assert!(
@@ -517,6 +517,6 @@ fn a_half_life_of_one_second_gets_a_plausibility_warning() {
     );
     // A half-life of hours gets no such warning.
     fs::write(d.join("ok.toml"), case("", "")).unwrap();
-    let out = String::from_utf8(run(&["report", "ok.toml"], &d).stdout).unwrap();
+    let out = String::from_utf8(run(&["report", "ok.toml"], d).stdout).unwrap();
     assert!(!out.contains("far below any drug"), "{out}");
 }
