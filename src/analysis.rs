@@ -13,6 +13,7 @@ use crate::core::casefile::CaseFile;
 use crate::core::error::{Error, Result};
 use crate::core::fit::{self, Fit};
 use crate::core::report::{self, Report};
+use crate::core::warning::{Code, Warning};
 use crate::profiles::{self, Catalog, Entry};
 
 /// Where drug profiles are looked up by name.
@@ -180,6 +181,9 @@ pub fn analyse(file: &CaseFile, profiles: &dyn ProfileSource) -> Analysis {
     };
     if let Some(e) = &profile {
         profiles::apply(&e.profile, &case, &mut report);
+    }
+    if let Some(text) = crate::core::casefile::machine_clock_warning(&case) {
+        report.warnings.push(Warning::new(Code::ClockChange, text));
     }
     Analysis {
         profile,

@@ -1,5 +1,6 @@
 //! The `ebb` binary: parse the command line, dispatch, map errors to exit codes.
 
+use std::io::Write;
 use std::path::PathBuf;
 use std::process::ExitCode;
 
@@ -94,11 +95,33 @@ enum ProfilesAction {
     },
 }
 
+/// One line on standard error, made printable; see `ebb::cli::out::say`.
+macro_rules! say {
+    ($($arg:tt)*) => { ebb::cli::out::say(format_args!($($arg)*)) };
+}
+
 fn main() -> ExitCode {
     use ebb::cli::commands;
-    let cli = Cli::parse();
+    let cli = match Cli::try_parse() {
+        Ok(cli) => cli,
+        // Help, version and usage errors: clap's text, and exit status 2 when it cannot
+        // be written.
+        Err(e) => {
+            let written = e
+                .print()
+                .and_then(|()| std::io::stdout().flush())
+                .and_then(|()| std::io::stderr().flush());
+            return match written {
+                Ok(()) => ExitCode::from(u8::try_from(e.exit_code()).unwrap_or(2)),
+                Err(err) => {
+                    say!("standard output: cannot write: {err}");
+                    ExitCode::from(2)
+                }
+            };
+        }
+    };
     if let (Some(case), Some(_)) = (&cli.case, &cli.command) {
-        eprintln!(
+        say!(
             "ebb: give a case file or a command, not both (got {} before the command)",
             case.display()
         );

@@ -6,6 +6,7 @@ use std::io::Write;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
+use crate::cli::out::{say, stdout};
 use crate::core::note::NoteFormat;
 use crate::files::guard;
 use crate::files::mark::Style;
@@ -13,7 +14,7 @@ use crate::files::store;
 use crate::files::toml_keep;
 
 fn fail(message: impl std::fmt::Display) -> ExitCode {
-    eprintln!("{message}");
+    say(message);
     ExitCode::from(2)
 }
 
@@ -23,7 +24,6 @@ pub fn report(files: &[PathBuf], json: bool, demo: bool, dir: Option<&Path>) -> 
     if files.is_empty() && !demo {
         return fail("ebb report: give one or more case files, or --demo");
     }
-    let stdout = std::io::stdout();
     let mut failed = false;
     if demo {
         let mut buf = Vec::new();
@@ -31,10 +31,12 @@ pub fn report(files: &[PathBuf], json: bool, demo: bool, dir: Option<&Path>) -> 
             .and_then(|a| crate::cli::write_report(&mut buf, &a, "demo", json));
         match r {
             Ok(()) => {
-                let _ = stdout.lock().write_all(&buf);
+                if let Err(e) = stdout(&buf) {
+                    return fail(e);
+                }
             }
             Err(e) => {
-                eprintln!("{e}");
+                say(e);
                 failed = true;
             }
         }
@@ -44,16 +46,20 @@ pub fn report(files: &[PathBuf], json: bool, demo: bool, dir: Option<&Path>) -> 
         let name = path.display().to_string();
         let r = crate::cli::analyse_file(path, dir)
             .and_then(|a| crate::cli::write_report(&mut buf, &a, &name, json));
+        let separator: &[u8] = if !json && i > 0 {
+            b"\n----------------------------------------\n\n"
+        } else {
+            b""
+        };
         match r {
             Ok(()) => {
-                let mut out = stdout.lock();
-                if !json && i > 0 {
-                    let _ = writeln!(out, "\n----------------------------------------\n");
+                // Standard output failing fails every file after it: stop at once.
+                if let Err(e) = stdout(separator).and_then(|()| stdout(&buf)) {
+                    return fail(e);
                 }
-                let _ = out.write_all(&buf);
             }
             Err(e) => {
-                eprintln!("{e}");
+                say(e);
                 failed = true;
             }
         }
@@ -103,11 +109,7 @@ pub fn note(
             guard::write_output(o, &text, style, &[file], force)
                 .map_err(|e| format!("ebb note: {e}"))
         }
-        None => std::io::stdout()
-            .lock()
-            .write_all(&buf)
-            .and_then(|()| std::io::stdout().lock().flush())
-            .map_err(|e| format!("ebb note: output: {e}")),
+        None => stdout(&buf).map_err(|e| e.to_string()),
     };
     match written {
         Ok(()) => ExitCode::SUCCESS,
@@ -195,7 +197,10 @@ pub fn profiles(show: Option<(&str, bool)>, dir: Option<&Path>) -> ExitCode {
             Err(e) => return fail(format!("ebb profiles show: {e}")),
         },
     };
-    match written.and_then(|()| std::io::stdout().lock().write_all(&buf)) {
+    let printed = written
+        .map_err(|e| crate::core::Error::invalid("standard output", e.to_string()))
+        .and_then(|()| stdout(&buf));
+    match printed {
         Ok(()) => ExitCode::SUCCESS,
         Err(e) => fail(format!("ebb profiles: {e}")),
     }

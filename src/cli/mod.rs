@@ -14,6 +14,7 @@ use crate::profiles::{self, Catalog};
 
 pub mod commands;
 pub mod note;
+pub mod out;
 pub mod plot;
 
 /// Run the analysis of a parsed case file, with the drug profile it names looked up once

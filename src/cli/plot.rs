@@ -18,6 +18,9 @@ pub const SIZE: (u32, u32) = (960, 600);
 /// The longest span drawn after the first dose, hours (five weeks).
 const MAX_SPAN_H: f64 = 840.0;
 
+/// The highest value the level axis can reach (any unit); above it `plot_svg` refuses.
+pub const MAX_LEVEL_DRAWN: f64 = 1e300;
+
 /// Samples along the time axis for each curve.
 const SAMPLES: usize = 800;
 
@@ -149,6 +152,17 @@ pub fn plot_svg_from(case: &Case, fit: &Fit, r: &Report) -> Result<String> {
     if top <= 0.0 {
         return Err(Error::invalid("plot", "no level above zero to draw"));
     }
+    // The axis runs to 4 x the top; near the largest float that overflows and the drawing
+    // would never finish. No real level comes near the bound.
+    if top > MAX_LEVEL_DRAWN {
+        return Err(Error::invalid(
+            "plot",
+            format!(
+                "the highest value to draw (a level, the threshold or the model) is {} {u}; levels above {MAX_LEVEL_DRAWN:e} cannot be drawn, check the values",
+                num(top)
+            ),
+        ));
+    }
     let data_low = case
         .levels
         .iter()
@@ -191,6 +205,9 @@ pub fn plot_svg_from(case: &Case, fit: &Fit, r: &Report) -> Result<String> {
             (Some(l), d) => format!("{l}: {d}"),
             (None, d) => d.to_string(),
         };
+        // The SVG writer escapes markup; control characters, which XML does not allow at
+        // all, are made visible here.
+        let title = crate::core::text::printable(&title).into_owned();
         let mut chart = ChartBuilder::on(&root)
             .caption(title, ("sans-serif", 20))
             .margin(12)
@@ -279,4 +296,26 @@ pub fn plot_svg_from(case: &Case, fit: &Fit, r: &Report) -> Result<String> {
         whole.present().map_err(draw_err)?;
     }
     Ok(svg)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn control_characters_in_the_title_leave_valid_xml() {
+        let mut case = crate::core::casefile::CaseFile::parse(crate::demo::DEMO_CASE)
+            .unwrap()
+            .validate()
+            .unwrap();
+        // Built by a program, not loaded: loading refuses such a label.
+        case.patient.label = Some("Bed\u{1b}[2J\u{1} <4> & \"x\"".into());
+        let fit = crate::core::fit::fit(&case).unwrap();
+        let r = crate::core::report::build_from_fit(&case, &fit).unwrap();
+        let svg = plot_svg_from(&case, &fit, &r).unwrap();
+        let doc = roxmltree::Document::parse(&svg).unwrap();
+        assert!(doc.descendants().any(
+            |n| n.text().map(str::trim) == Some("Bed\\u{1b}[2J\\u{1} <4> & \"x\": gentamicin")
+        ));
+    }
 }

@@ -14,6 +14,7 @@ use crate::core::clock::{Clock, Stamp};
 use crate::core::error::{Error, Result};
 use crate::core::model::Route;
 use crate::core::prior::Prior;
+use crate::core::text;
 use crate::core::units::{LevelUnit, Scale};
 
 /// The case file as written: every field as the user typed it, before validation.
@@ -245,6 +246,8 @@ impl CaseFile {
     /// # Errors
     /// The first impossible value, naming its field or row.
     pub fn validate_with(&self, defaults: &Defaults) -> Result<Case> {
+        self.check_text()?;
+        self.check_rows()?;
         if let Some(s) = self.schema {
             if s != 1 {
                 return Err(Error::invalid(
@@ -299,7 +302,10 @@ impl CaseFile {
             Some(name) => Some(name.parse::<crate::core::clock::Zone>().map_err(|_| {
                 Error::invalid(
                     "time_zone",
-                    format!("unknown time zone \"{name}\"; use an IANA name such as Europe/Paris"),
+                    format!(
+                        "unknown time zone {}; use an IANA name such as Europe/Paris",
+                        text::quoted(name)
+                    ),
                 )
             })?),
         };
@@ -505,7 +511,7 @@ impl CaseFile {
 
         let targets = match &self.targets {
             Some(t) => validate_targets(t)?,
-            None => defaults.targets.clone(),
+            None => profile_targets(&defaults.targets, scale.unit)?,
         };
 
         let threshold = match &self.threshold {
@@ -529,7 +535,8 @@ impl CaseFile {
                 Error::invalid(
                     "fit.method",
                     format!(
-                        "unknown method \"{m}\"; use \"log-linear\", \"dose-history\" or \"bayesian\""
+                        "unknown method {}; use \"log-linear\", \"dose-history\" or \"bayesian\"",
+                        text::quoted(m)
                     ),
                 )
             })?),
@@ -551,6 +558,83 @@ impl CaseFile {
             fit_method,
             prior: defaults.prior.clone(),
         })
+    }
+}
+
+/// The most `[[dose]]` rows a case may hold: far above any real record (a dose every hour
+/// for eleven years), low enough that a bad file cannot take the machine's memory.
+pub const MAX_DOSES: usize = 100_000;
+/// The most `[[level]]` rows a case may hold (as `MAX_DOSES`).
+pub const MAX_LEVELS: usize = 100_000;
+/// The largest case file read, in bytes (16 MiB; a real case is a few kilobytes).
+pub const MAX_CASE_BYTES: u64 = 16 * 1024 * 1024;
+
+impl CaseFile {
+    /// Every free-text and named field, by the name messages give it.
+    fn text_fields(&self) -> Vec<(String, &str)> {
+        let mut out: Vec<(String, &str)> = Vec::new();
+        fn push<'a>(out: &mut Vec<(String, &'a str)>, place: String, v: Option<&'a String>) {
+            if let Some(v) = v {
+                out.push((place, v.as_str()));
+            }
+        }
+        push(&mut out, "time_zone".into(), self.time_zone.as_ref());
+        push(
+            &mut out,
+            "patient.label".into(),
+            self.patient.label.as_ref(),
+        );
+        push(&mut out, "patient.sex".into(), self.patient.sex.as_ref());
+        push(&mut out, "drug.name".into(), self.drug.name.as_ref());
+        push(&mut out, "drug.profile".into(), self.drug.profile.as_ref());
+        push(
+            &mut out,
+            "drug.level_unit".into(),
+            self.drug.level_unit.as_ref(),
+        );
+        for (i, d) in self.doses.iter().enumerate() {
+            push(&mut out, format!("dose {}: route", i + 1), Some(&d.route));
+        }
+        for (i, l) in self.levels.iter().enumerate() {
+            push(&mut out, format!("level {}: note", i + 1), l.note.as_ref());
+        }
+        if let Some(p) = &self.plan {
+            push(&mut out, "plan.route".into(), Some(&p.route));
+        }
+        if let Some(sw) = &self.switch {
+            push(&mut out, "switch.to".into(), sw.to.as_ref());
+        }
+        if let Some(f) = &self.fit {
+            push(&mut out, "fit.method".into(), f.method.as_ref());
+        }
+        out
+    }
+
+    /// Free text is data: a control character, a line break, a tab or a bidirectional
+    /// control in any text field is refused, naming the field or row (see `core::text`).
+    fn check_text(&self) -> Result<()> {
+        for (place, value) in self.text_fields() {
+            if let Some(why) = text::problem(value) {
+                return Err(Error::invalid(place, why));
+            }
+        }
+        Ok(())
+    }
+
+    /// At most `MAX_DOSES` doses and `MAX_LEVELS` levels.
+    fn check_rows(&self) -> Result<()> {
+        for (n, max, what) in [
+            (self.doses.len(), MAX_DOSES, "dose"),
+            (self.levels.len(), MAX_LEVELS, "level"),
+        ] {
+            if n > max {
+                return Err(Error::invalid(
+                    what,
+                    format!("the case has {n} [[{what}]] rows; ebb reads at most {max}"),
+                ));
+            }
+        }
+        Ok(())
     }
 }
 
@@ -638,11 +722,93 @@ fn validate_switch(s: &SwitchFile) -> Result<Switch> {
 /// # Errors
 /// A missing or unreadable file, or a TOML error, with the file name in front.
 pub fn read(path: &Path) -> Result<CaseFile> {
-    let text = std::fs::read_to_string(path).map_err(|e| Error::Read {
+    let text = read_text(path, MAX_CASE_BYTES).map_err(|reason| Error::Read {
         path: path.to_path_buf(),
-        reason: e.to_string(),
+        reason,
     })?;
     CaseFile::parse(&text).map_err(|e| e.in_file(path.display().to_string()))
+}
+
+/// Read a regular file (a link is followed) of at most `max` bytes as UTF-8 text.
+///
+/// The type is checked before the file is opened, so a FIFO with no writer, a device such
+/// as `/dev/zero` or a folder is refused at once instead of blocking or filling memory; at
+/// most `max + 1` bytes are ever read, so a file that grows meanwhile is refused too.
+///
+/// # Errors
+/// The reason in words: the operating system's error, not a regular file, too large, or
+/// not UTF-8 text.
+pub fn read_text(path: &Path, max: u64) -> std::result::Result<String, String> {
+    let bytes = read_regular(path, max)?;
+    String::from_utf8(bytes).map_err(|e| {
+        format!(
+            "not UTF-8 text (byte {} is not valid); save it as UTF-8",
+            e.utf8_error().valid_up_to() + 1
+        )
+    })
+}
+
+/// Read the bytes of a regular file of at most `max` bytes (see [`read_text`]).
+///
+/// # Errors
+/// As [`read_text`], but bytes need not be UTF-8.
+pub fn read_regular(path: &Path, max: u64) -> std::result::Result<Vec<u8>, String> {
+    use std::io::Read;
+    let kind = |meta: &std::fs::Metadata| -> std::result::Result<(), String> {
+        match special_kind(meta) {
+            None => Ok(()),
+            Some(what) => Err(format!("it is {what}, not a regular file")),
+        }
+    };
+    let meta = std::fs::metadata(path).map_err(|e| e.to_string())?;
+    kind(&meta)?;
+    if meta.len() > max {
+        return Err(too_large(meta.len(), max));
+    }
+    let file = std::fs::File::open(path).map_err(|e| e.to_string())?;
+    kind(&file.metadata().map_err(|e| e.to_string())?)?;
+    let mut bytes = Vec::with_capacity(usize::try_from(meta.len()).unwrap_or(0));
+    file.take(max.saturating_add(1))
+        .read_to_end(&mut bytes)
+        .map_err(|e| e.to_string())?;
+    if bytes.len() as u64 > max {
+        return Err(too_large(bytes.len() as u64, max));
+    }
+    Ok(bytes)
+}
+
+fn too_large(len: u64, max: u64) -> String {
+    let mib = |b: u64| b as f64 / (1024.0 * 1024.0);
+    format!(
+        "it is {:.1} MiB, more than the {} MiB a file may be here; is it the right file?",
+        mib(len),
+        mib(max)
+    )
+}
+
+/// What a file is, in words, when it is not a regular file.
+fn special_kind(meta: &std::fs::Metadata) -> Option<&'static str> {
+    let t = meta.file_type();
+    if t.is_file() {
+        return None;
+    }
+    if t.is_dir() {
+        return Some("a folder");
+    }
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::FileTypeExt;
+        if t.is_fifo() {
+            return Some("a FIFO (named pipe)");
+        }
+        if t.is_char_device() || t.is_block_device() {
+            return Some("a device");
+        }
+        if t.is_socket() {
+            return Some("a socket");
+        }
+    }
+    Some("a special file")
 }
 
 /// Read, parse and validate a case file without profile defaults.
@@ -660,7 +826,7 @@ fn syntax_error(text: &str, e: &toml::de::Error) -> Error {
         .span()
         .map(|s| text[..s.start.min(text.len())].matches('\n').count() + 1)
         .unwrap_or(1);
-    let message = e.message().trim().replace('\n', "; ");
+    let message = text::one_line(e.message());
     Error::Syntax { line, message }
 }
 
@@ -696,7 +862,10 @@ fn validate_patient(p: &PatientFile) -> Result<Patient> {
         Some(other) => {
             return Err(Error::invalid(
                 "patient.sex",
-                format!("must be \"female\" or \"male\", got \"{other}\""),
+                format!(
+                    "must be \"female\" or \"male\", got {}",
+                    text::quoted(other)
+                ),
             ))
         }
     };
@@ -766,13 +935,19 @@ fn validate_route(
     if bioavailability.is_some() && route != "oral" {
         return Err(Error::invalid(
             format!("{place}: bioavailability"),
-            format!("only an oral dose has a bioavailability; this one is \"{route}\""),
+            format!(
+                "only an oral dose has a bioavailability; this one is {}",
+                text::quoted(route)
+            ),
         ));
     }
     if infusion_h.is_some() && route != "infusion" {
         return Err(Error::invalid(
             format!("{place}: infusion_h"),
-            format!("only an infusion has infusion_h; this one is \"{route}\""),
+            format!(
+                "only an infusion has infusion_h; this one is {}",
+                text::quoted(route)
+            ),
         ));
     }
     match route {
@@ -799,7 +974,10 @@ fn validate_route(
         }
         other => Err(Error::invalid(
             format!("{place}: route"),
-            format!("unknown route \"{other}\"; use \"bolus\", \"infusion\" or \"oral\""),
+            format!(
+                "unknown route {}; use \"bolus\", \"infusion\" or \"oral\"",
+                text::quoted(other)
+            ),
         )),
     }
 }
@@ -837,6 +1015,86 @@ fn validate_targets(t: &TargetsFile) -> Result<Targets> {
         peak,
         trough_max: t.trough_max,
         auc24,
+    })
+}
+
+/// A profile's targets as converted to the case's unit: a value that is no longer a finite
+/// number above 0 (a huge profile value times the unit factor) is refused, naming the
+/// profile, rather than met and missed at once.
+fn profile_targets(t: &Targets, unit: LevelUnit) -> Result<Targets> {
+    let mut values: Vec<(&str, f64)> = Vec::new();
+    if let Some([a, b]) = t.peak {
+        values.extend([("peak", a), ("peak", b)]);
+    }
+    if let Some(m) = t.trough_max {
+        values.push(("trough_max", m));
+    }
+    if let Some([a, b]) = t.auc24 {
+        values.extend([("auc24", a), ("auc24", b)]);
+    }
+    match values.iter().find(|(_, x)| !(x.is_finite() && *x > 0.0)) {
+        None => Ok(t.clone()),
+        Some((name, x)) => {
+            let what = if x.is_infinite() {
+                format!("is too large to convert to {}", unit.as_str())
+            } else {
+                format!("becomes {x} {}, not a level above 0", unit.as_str())
+            };
+            Err(Error::invalid(
+                "drug.profile",
+                format!(
+                    "the profile's {name} target {what}; correct the profile or give [targets] in the case"
+                ),
+            ))
+        }
+    }
+}
+
+/// The warning for a case written in local clock times with no `time_zone` whose doses and
+/// levels span a change of `offset_at` (the UTC offset a zone has at a wall-clock time, e.g.
+/// a daylight-saving change): such times are counted as wall-clock hours, so an interval
+/// across the change may be off by an hour, and k with it. `None` when the case names a
+/// zone, uses offset times, or the offset is the same at every dose and level.
+pub fn clock_change_warning(
+    case: &Case,
+    offset_at: impl Fn(NaiveDateTime) -> Option<FixedOffset>,
+) -> Option<String> {
+    use crate::core::clock::Stamp;
+    if case.clock.zone().is_some() {
+        return None;
+    }
+    let mut rows: Vec<(String, NaiveDateTime)> = Vec::new();
+    for d in &case.doses {
+        if let Stamp::Local(t) = d.time {
+            rows.push((format!("dose {}", d.row), t));
+        }
+    }
+    for l in &case.levels {
+        if let Stamp::Local(t) = l.time {
+            rows.push((format!("level {}", l.row), t));
+        }
+    }
+    rows.sort_by_key(|(_, t)| *t);
+    let (first_row, first_t) = rows.first()?;
+    let first = offset_at(*first_t)?;
+    let (row, _, off) = rows
+        .iter()
+        .filter_map(|(r, t)| offset_at(*t).map(|o| (r, t, o)))
+        .find(|(_, _, o)| *o != first)?;
+    Some(format!(
+        "the times have no time zone, and this computer's clock changes between {first_row} (UTC{first}) and {row} (UTC{off}), as at a daylight-saving change: hours across it may be off by one, and k with them; if the times were written in that zone, give time_zone (for example time_zone = \"Europe/Paris\") so the hours count as they passed"
+    ))
+}
+
+/// [`clock_change_warning`] in this computer's own time zone (the `TZ` variable, else the
+/// system's setting).
+pub fn machine_clock_warning(case: &Case) -> Option<String> {
+    use chrono::{Local, Offset, TimeZone};
+    clock_change_warning(case, |t| {
+        Local
+            .offset_from_local_datetime(&t)
+            .earliest()
+            .map(|o| o.fix())
     })
 }
 

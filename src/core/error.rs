@@ -2,11 +2,17 @@
 
 use std::path::PathBuf;
 
+/// Text from a file or the system, safe to print: no control character reaches a terminal
+/// through an error message (see `core::text::printable`).
+fn safe(text: &impl std::fmt::Display) -> String {
+    crate::core::text::printable(&text.to_string()).into_owned()
+}
+
 /// Everything that can go wrong between reading a case and writing its report.
 #[derive(Debug, Clone, thiserror::Error)]
 pub enum Error {
     /// The case file could not be read from disk.
-    #[error("{path}: cannot read the file: {reason}")]
+    #[error("{}: cannot read the file: {}", safe(&.path.display()), safe(.reason))]
     Read {
         /// The file that was asked for.
         path: PathBuf,
@@ -14,7 +20,7 @@ pub enum Error {
         reason: String,
     },
     /// The TOML did not parse, or a field is unknown or of the wrong type.
-    #[error("line {line}: {message}")]
+    #[error("line {line}: {}", safe(.message))]
     Syntax {
         /// Line of the problem, counting from 1.
         line: usize,
@@ -22,7 +28,7 @@ pub enum Error {
         message: String,
     },
     /// A field or row holds a value the model cannot accept.
-    #[error("{place}: {message}")]
+    #[error("{}: {}", safe(.place), safe(.message))]
     Invalid {
         /// The field or row, for example `level 3` or `plan.interval_h`.
         place: String,
@@ -30,10 +36,10 @@ pub enum Error {
         message: String,
     },
     /// The levels cannot give an elimination rate.
-    #[error("{0}")]
+    #[error("{}", safe(.0))]
     Fit(String),
     /// An error with the file it came from in front.
-    #[error("{path}: {source}")]
+    #[error("{}: {source}", safe(.path))]
     InFile {
         /// The file.
         path: String,

@@ -24,6 +24,7 @@ pub mod renal;
 pub mod report;
 pub mod spread;
 pub mod switch;
+pub mod text;
 pub mod uncertainty;
 pub mod units;
 pub mod warning;
@@ -36,7 +37,8 @@ mod layering {
     //! is no cycle); nothing in the core reaches the shells or a terminal crate.
 
     /// Every core module, bottom to top: a module may use only modules listed before it.
-    const ORDER: [&str; 27] = [
+    const ORDER: [&str; 28] = [
+        "text",
         "error",
         "units",
         "clock",

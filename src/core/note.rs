@@ -5,6 +5,7 @@ use std::io::{self, Write};
 
 use crate::core::case::{Case, Sex};
 use crate::core::report::{self, num, Report, CAUTION};
+use crate::core::text;
 
 /// How the note is laid out.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -113,10 +114,19 @@ pub fn write_note(
             )
         }
     };
+    // Free text from the file is data: escaped for Markdown, or made printable for plain
+    // text, so it can neither start a line nor become markup.
+    let free = |s: &str| -> String {
+        if md {
+            text::markdown(s)
+        } else {
+            text::printable(s).into_owned()
+        }
+    };
     let drug = if case.drug.name.is_empty() {
-        "drug not named"
+        "drug not named".to_string()
     } else {
-        case.drug.name.as_str()
+        free(&case.drug.name)
     };
     if md {
         writeln!(w, "# Drug level note: {drug}\n")?;
@@ -129,11 +139,13 @@ pub fn write_note(
     writeln!(
         w,
         "{item}Made {} with ebb {} from {}",
-        meta.made_at, meta.version, meta.source
+        free(&meta.made_at),
+        free(&meta.version),
+        free(&meta.source)
     )?;
     let p = &case.patient;
     if let Some(l) = &p.label {
-        writeln!(w, "{item}Patient: {l}")?;
+        writeln!(w, "{item}Patient: {}", free(l))?;
     }
     let mut facts = Vec::new();
     if let Some(x) = p.weight_kg {
@@ -155,7 +167,7 @@ pub fn write_note(
         writeln!(w, "{item}{}", facts.join(", "))?;
     }
     if let Some(pr) = &case.drug.profile {
-        writeln!(w, "{item}Drug profile: {pr}")?;
+        writeln!(w, "{item}Drug profile: {}", free(pr))?;
     }
     writeln!(w, "{item}Levels in {u}")?;
     writeln!(w)?;
@@ -195,7 +207,7 @@ pub fn write_note(
     }
     for (i, l) in case.levels.iter().enumerate() {
         let why = level_use(case, r, i);
-        let note = l.note.as_deref().unwrap_or("");
+        let note = free(l.note.as_deref().unwrap_or(""));
         if md {
             writeln!(
                 w,
@@ -258,7 +270,7 @@ pub fn write_note(
         writeln!(w, "{item}Targets: {}", parts.join(", "))?;
     }
     if let Some(sw) = &case.switch {
-        writeln!(w, "{item}Switch planned to {}", sw.to)?;
+        writeln!(w, "{item}Switch planned to {}", free(&sw.to))?;
     }
     writeln!(w)?;
 
@@ -273,9 +285,18 @@ pub fn write_note(
         .map_or(body.as_ref(), |(_, rest)| rest)
         .trim_end();
     if md {
-        writeln!(w, "```text\n{body}\n```")?;
+        // A fence longer than any run of backticks in the body, so no text inside can
+        // close it (CommonMark, fenced code blocks).
+        let run = body.split(|c| c != '`').map(str::len).max().unwrap_or(0);
+        let fence = "`".repeat(run.max(2) + 1);
+        writeln!(w, "{fence}text")?;
+        for line in body.lines() {
+            writeln!(w, "{}", text::printable(line))?;
+        }
+        writeln!(w, "{fence}")?;
     } else {
         for line in body.lines() {
+            let line = text::printable(line);
             if line.is_empty() {
                 writeln!(w)?;
             } else {

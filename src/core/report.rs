@@ -421,6 +421,11 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
     Ok(report)
 }
 
+/// A fitted half-life below this (5 minutes, in hours) is flagged as implausible: the
+/// drugs managed by levels have half-lives of an hour or more even with the fastest
+/// clearance (common practice), so such a fit comes from a slip in the times.
+pub const MIN_PLAUSIBLE_HALF_LIFE_H: f64 = 5.0 / 60.0;
+
 /// Warnings read off the shape of the data: timing, route and curvature.
 fn shape_warnings(case: &Case, fit: &Fit, warnings: &mut Vec<Warning>) {
     if case
@@ -434,6 +439,20 @@ fn shape_warnings(case: &Case, fit: &Fit, warnings: &mut Vec<Warning>) {
     {
         warnings.push(Warning::new(Code::OralAbsorption,
             "oral doses are modelled as an instant dose of F x amount (absorption is not modelled): measured peaks will be lower and later than projected",
+        ));
+    }
+    if fit.half_life_h.is_finite() && fit.half_life_h < MIN_PLAUSIBLE_HALF_LIFE_H {
+        let seconds = fit.half_life_h * 3600.0;
+        let shown = if seconds < 60.0 {
+            format!("{} s", num(seconds))
+        } else {
+            format!("{} min", num(seconds / 60.0))
+        };
+        warnings.push(Warning::new(
+            Code::HalfLifeImplausible,
+            format!(
+                "the fitted half-life is {shown}, far below any drug managed by levels (under 5 minutes): check the dates and times of the levels and doses before using any figure here"
+            ),
         ));
     }
     if matches!(fit.method, fit::Method::DoseHistory | fit::Method::Bayesian) {

@@ -42,7 +42,8 @@ impl LevelUnit {
                 Error::invalid(
                     place,
                     format!(
-                        "unknown unit \"{text}\"; use one of mg/L, ug/mL, ng/mL, ug/L, mmol/L, umol/L"
+                        "unknown unit {}; use one of mg/L, ug/mL, ng/mL, ug/L, mmol/L, umol/L",
+                        crate::core::text::quoted(text)
                     ),
                 )
             })

@@ -74,11 +74,13 @@ pub enum Code {
     LevelImplausible,
     /// A projection leaves the strategy's therapeutic range.
     OutsideRange,
+    /// Local clock times with no time zone span a change of the machine's UTC offset.
+    ClockChange,
 }
 
 impl Code {
     /// Every code, in declaration order.
-    pub const ALL: [Code; 33] = [
+    pub const ALL: [Code; 34] = [
         Code::OutsideWindow,
         Code::DistributionPhase,
         Code::RisingLevels,
@@ -112,6 +114,7 @@ impl Code {
         Code::VolumeImplausible,
         Code::LevelImplausible,
         Code::OutsideRange,
+        Code::ClockChange,
     ];
 
     /// The code as the JSON report spells it.
@@ -150,6 +153,7 @@ impl Code {
             Code::VolumeImplausible => "volume-implausible",
             Code::LevelImplausible => "level-implausible",
             Code::OutsideRange => "outside-range",
+            Code::ClockChange => "clock-change",
         }
     }
 }

@@ -134,10 +134,7 @@ pub enum SaveError {
 /// # Errors
 /// The operating system's error.
 pub fn read_with_fingerprint(path: &Path) -> std::io::Result<(String, Fingerprint)> {
-    let mut f = open_regular(path)?;
-    let modified = f.metadata()?.modified().ok();
-    let mut bytes = Vec::new();
-    std::io::Read::read_to_end(&mut f, &mut bytes)?;
+    let (bytes, modified) = read_limited(path)?;
     let print = Fingerprint::of(&bytes, modified);
     let text = String::from_utf8(bytes)
         .map_err(|e| std::io::Error::new(std::io::ErrorKind::InvalidData, e))?;
@@ -170,16 +167,32 @@ fn open_regular(path: &Path) -> std::io::Result<File> {
 /// # Errors
 /// The file exists but cannot be read.
 pub fn fingerprint(path: &Path) -> std::io::Result<Option<Fingerprint>> {
-    match open_regular(path) {
-        Ok(mut f) => {
-            let modified = f.metadata()?.modified().ok();
-            let mut bytes = Vec::new();
-            std::io::Read::read_to_end(&mut f, &mut bytes)?;
-            Ok(Some(Fingerprint::of(&bytes, modified)))
-        }
+    match read_limited(path) {
+        Ok((bytes, modified)) => Ok(Some(Fingerprint::of(&bytes, modified))),
         Err(e) if e.kind() == std::io::ErrorKind::NotFound => Ok(None),
         Err(e) => Err(e),
     }
+}
+
+/// The bytes of a regular file of at most `casefile::MAX_CASE_BYTES`, and its modification
+/// time: a FIFO, a device or a huge file is an error, never a wait or a memory blow-up.
+fn read_limited(path: &Path) -> std::io::Result<(Vec<u8>, Option<std::time::SystemTime>)> {
+    use crate::core::casefile::MAX_CASE_BYTES;
+    use std::io::Read;
+    let f = open_regular(path)?;
+    let modified = f.metadata()?.modified().ok();
+    let mut bytes = Vec::new();
+    f.take(MAX_CASE_BYTES + 1).read_to_end(&mut bytes)?;
+    if bytes.len() as u64 > MAX_CASE_BYTES {
+        return Err(std::io::Error::new(
+            std::io::ErrorKind::InvalidData,
+            format!(
+                "is larger than {} MiB, the most a case file may be",
+                MAX_CASE_BYTES / (1024 * 1024)
+            ),
+        ));
+    }
+    Ok((bytes, modified))
 }
 
 /// What a path is, in words, when it is not a regular file; `None` for a regular file.

@@ -31,6 +31,9 @@ pub use schema::{FirstOrder, Profile, Strategy};
 pub use text::{write_list, write_profile_note, write_refusal, write_show};
 pub use warn::{apply, refusal, warnings};
 
+/// The largest profile file read, in bytes (1 MiB; a shipped profile is a few kilobytes).
+pub const MAX_PROFILE_BYTES: u64 = 1024 * 1024;
+
 /// The environment variable naming an override directory (used when `--profiles` is not given).
 pub const ENV_VAR: &str = "EBB_PROFILES";
 
@@ -50,10 +53,15 @@ impl Origin {
     pub fn words(&self) -> String {
         match self {
             Origin::BuiltIn => "built-in".into(),
-            Origin::Replaces(p) => format!("{} (replaces the built-in)", p.display()),
-            Origin::Local(p) => format!("{} (local)", p.display()),
+            Origin::Replaces(p) => format!("{} (replaces the built-in)", shown(p)),
+            Origin::Local(p) => format!("{} (local)", shown(p)),
         }
     }
+}
+
+/// A path as listings print it: its control characters made visible.
+fn shown(p: &Path) -> String {
+    crate::core::text::printable(&p.display().to_string()).into_owned()
 }
 
 /// One profile with its name (file stem) and origin.
@@ -214,19 +222,32 @@ impl Catalog {
         let mut files: Vec<PathBuf> = Vec::new();
         for item in std::fs::read_dir(dir).map_err(|e| read_err(e.to_string()))? {
             let path = item.map_err(|e| read_err(e.to_string()))?.path();
-            if path.is_file() && path.extension().is_some_and(|x| x == "toml") {
+            // Every `*.toml` entry is a profile, whatever it is or links to: a link to a
+            // device, a FIFO or a folder is reported below (by the read), never skipped.
+            if path.extension().is_some_and(|x| x == "toml") {
                 files.push(path);
             }
         }
         files.sort();
         for path in files {
-            let Some(name) = path.file_stem().and_then(|s| s.to_str()) else {
-                continue;
+            let name = match path.file_stem().and_then(|s| s.to_str()) {
+                Some(n) if crate::core::text::problem(n).is_none() => n,
+                _ => {
+                    return Err(Error::Read {
+                        path: PathBuf::from(
+                            crate::core::text::printable(&path.to_string_lossy()).into_owned(),
+                        ),
+                        reason: "the file name is not plain printable text, so no case could name this profile; rename it".into(),
+                    })
+                }
             };
-            let text = std::fs::read_to_string(&path).map_err(|e| Error::Read {
-                path: path.clone(),
-                reason: e.to_string(),
-            })?;
+            let text =
+                crate::core::casefile::read_text(&path, MAX_PROFILE_BYTES).map_err(|reason| {
+                    Error::Read {
+                        path: path.clone(),
+                        reason,
+                    }
+                })?;
             let profile = parse_profile(&text, &path.display().to_string())?;
             let entry = |origin| Entry {
                 name: name.to_string(),
@@ -267,7 +288,8 @@ impl Catalog {
             Error::invalid(
                 field,
                 format!(
-                    "no drug profile named \"{name}\"; known: {} (see `ebb profiles`)",
+                    "no drug profile named {}; known: {} (see `ebb profiles`)",
+                    crate::core::text::quoted(name),
                     self.names().join(", ")
                 ),
             )

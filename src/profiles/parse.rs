@@ -27,14 +27,71 @@ pub fn parse_profile(text: &str, file: &str) -> Result<Profile, Error> {
         };
         Error::Syntax { line, message }.in_file(file)
     })?;
+    if let Some(e) = text_problem(text) {
+        return Err(e.in_file(file));
+    }
     profile
         .validate()
         .map_err(|p| problem_error(text, &p).in_file(file))?;
     Ok(profile)
 }
 
+/// The first text in a profile that could change how other text is shown (see
+/// `core::text`): in any key or string value, named by its field; or, outside strings (a
+/// comment, shown by `ebb profiles show NAME --toml`), named by its line.
+fn text_problem(text: &str) -> Option<Error> {
+    fn walk(value: &toml::Value, field: &str) -> Option<FieldProblem> {
+        let at = |f: String, why: String| {
+            Some(FieldProblem {
+                field: f,
+                message: why,
+            })
+        };
+        match value {
+            toml::Value::String(s) => {
+                crate::core::text::problem(s).and_then(|w| at(field.into(), w))
+            }
+            toml::Value::Array(items) => items
+                .iter()
+                .enumerate()
+                .find_map(|(i, v)| walk(v, &format!("{field}[{}]", i + 1))),
+            toml::Value::Table(t) => t.iter().find_map(|(k, v)| {
+                let f = if field.is_empty() {
+                    k.clone()
+                } else {
+                    format!("{field}.{k}")
+                };
+                match crate::core::text::problem(k) {
+                    Some(w) => at(
+                        crate::core::text::printable(&f).into_owned(),
+                        format!("the key {w}"),
+                    ),
+                    None => walk(v, &f),
+                }
+            }),
+            _ => None,
+        }
+    }
+    if let Ok(table) = toml::from_str::<toml::Table>(text) {
+        if let Some(p) = walk(&toml::Value::Table(table), "") {
+            return Some(problem_error(text, &p));
+        }
+    }
+    let ok = |c: char| c == '\n' || c == '\t' || c == '\r';
+    text.lines().enumerate().find_map(|(i, line)| {
+        let bad = line.trim_end_matches('\r').chars().find(|&c| !ok(c) && crate::core::text::refused(c).is_some())?;
+        Some(Error::Syntax {
+            line: i + 1,
+            message: format!(
+                "holds U+{:04X}, which could change how other text is shown; a profile must be plain text",
+                u32::from(bad)
+            ),
+        })
+    })
+}
+
 fn one_line(s: &str) -> String {
-    s.trim().replace('\n', "; ")
+    crate::core::text::one_line(s)
 }
 
 fn line_of_span(text: &str, span: Option<std::ops::Range<usize>>) -> usize {

@@ -9,6 +9,7 @@ use std::collections::BTreeMap;
 
 use serde::{Deserialize, Serialize};
 
+use crate::core::text::quoted;
 use crate::core::units::LevelUnit;
 
 /// The words that mark a value nobody could trace to a source.
@@ -336,8 +337,8 @@ impl Profile {
             problem(
                 "level_unit",
                 format!(
-                    "unknown unit \"{}\"; use one of mg/L, ug/mL, ng/mL, ug/L, mmol/L, umol/L",
-                    self.level_unit
+                    "unknown unit {}; use one of mg/L, ug/mL, ng/mL, ug/L, mmol/L, umol/L",
+                    quoted(&self.level_unit)
                 ),
             )
         })
@@ -529,15 +530,15 @@ impl Profile {
                 return Err(problem(
                     at("name"),
                     format!(
-                        "use lower-case letters, digits and hyphens, got \"{}\"",
-                        s.name
+                        "use lower-case letters, digits and hyphens, got {}",
+                        quoted(&s.name)
                     ),
                 ));
             }
             if self.strategies[..i].iter().any(|o| o.name == s.name) {
                 return Err(problem(
                     at("name"),
-                    format!("\"{}\" is used by an earlier strategy", s.name),
+                    format!("{} is used by an earlier strategy", quoted(&s.name)),
                 ));
             }
             if let Some(p) = &s.peak {
@@ -579,8 +580,8 @@ impl Profile {
             return Err(problem(
                 "default_strategy",
                 format!(
-                    "no strategy named \"{}\"; the file has {}",
-                    self.default_strategy,
+                    "no strategy named {}; the file has {}",
+                    quoted(&self.default_strategy),
                     names.join(", ")
                 ),
             ));
@@ -618,7 +619,8 @@ impl Profile {
             return Err(problem(
                 field,
                 format!(
-                    "the source must cite a [Key] from [sources] or say \"{FROM_MEMORY}\", got \"{text}\""
+                    "the source must cite a [Key] from [sources] or say \"{FROM_MEMORY}\", got {}",
+                    quoted(text)
                 ),
             ));
         }
@@ -666,6 +668,15 @@ fn range(r: &SourcedRange, field: &str) -> Result<(), FieldProblem> {
         return Err(problem(
             field,
             format!("the low end {} is above the high end {}", r.low, r.high),
+        ));
+    }
+    if r.high <= 0.0 {
+        return Err(problem(
+            field,
+            format!(
+                "a range of {} to {} holds no value above 0; give the high end above 0",
+                r.low, r.high
+            ),
         ));
     }
     Ok(())

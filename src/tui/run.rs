@@ -96,31 +96,42 @@ pub fn keep_unsaved(app: &App) -> Option<Result<PathBuf, String>> {
     Some(text.and_then(|t| recover::write(app.path.as_deref(), &t).map_err(|e| e.to_string())))
 }
 
+
+/// One line on standard error, every control character made visible; a failure to write
+/// there is ignored (there is nowhere left to say it; the exit status still tells).
+macro_rules! say {
+    ($($arg:tt)*) => {{
+        use std::io::Write as _;
+        let line = crate::core::text::printable(&format!($($arg)*)).to_string();
+        let _ = writeln!(std::io::stderr().lock(), "{line}");
+    }};
+}
+
 /// Run the bedside screen and turn how it ended into the exit status, or say in one line
 /// why it cannot run (no terminal).
 pub fn screen(app: impl FnOnce() -> App) -> ExitCode {
     use std::io::IsTerminal;
     if !io::stdout().is_terminal() {
-        eprintln!("ebb: the bedside screen needs a terminal; for printed figures use `ebb report CASE.toml` or `ebb report --demo`");
+        say!("ebb: the bedside screen needs a terminal; for printed figures use `ebb report CASE.toml` or `ebb report --demo`");
         return ExitCode::from(2);
     }
     match run(app()) {
         Ok(Ended::Quit) => ExitCode::SUCCESS,
         Ok(Ended::Signal { signal, recovery }) => {
             match recovery {
-                None => eprintln!("ebb: stopped by signal {signal}; nothing was unsaved"),
-                Some(Ok(p)) => eprintln!(
+                None => say!("ebb: stopped by signal {signal}; nothing was unsaved"),
+                Some(Ok(p)) => say!(
                     "ebb: stopped by signal {signal}; the unsaved changes are in {} (offered when the case is next opened)",
                     p.display()
                 ),
                 Some(Err(e)) => {
-                    eprintln!("ebb: stopped by signal {signal}; the unsaved changes could not be kept: {e}")
+                    say!("ebb: stopped by signal {signal}; the unsaved changes could not be kept: {e}")
                 }
             }
             ExitCode::from(128u8.saturating_add(u8::try_from(signal).unwrap_or(0)))
         }
         Err(e) => {
-            eprintln!("ebb: the terminal failed: {e}");
+            say!("ebb: the terminal failed: {e}");
             ExitCode::from(2)
         }
     }

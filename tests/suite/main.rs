@@ -20,6 +20,7 @@ mod docs_rejected;
 mod files_safety;
 mod history_cases;
 mod history_recovery;
+mod hostile_cli;
 mod layout;
 mod note_cli;
 mod note_figures;
