@@ -1,5 +1,5 @@
 //! The bedside terminal UI: state (`app`), intents (`action`), keys (`keymap`), changes
-//! (`update`), the drug profiles on offer (`catalog`), figures from the core (`figures`),
+//! (`update`), entering rows and undoing (`rows`), the drug profiles on offer (`catalog`), figures from the core (`figures`),
 //! drawing (`view`, `screens`, `widgets`), words (`strings`), saving (`store`) and the run
 //! loop (`run`).
 
@@ -10,6 +10,7 @@ pub mod entry;
 pub mod fields;
 pub mod figures;
 pub mod keymap;
+pub mod rows;
 pub mod run;
 pub mod screens;
 pub mod store;

@@ -23,6 +23,9 @@ pub fn run(app: App) -> io::Result<()> {
 
 fn run_loop(mut terminal: DefaultTerminal, mut app: App) -> io::Result<()> {
     while !app.should_quit() {
+        // The keys look at the size too: nothing acts on a screen that is not drawn.
+        let size = terminal.size()?;
+        app.window = Some((size.width, size.height));
         terminal.draw(|frame| view::draw(&app, frame))?;
         match event::read()? {
             Event::Key(key) if key.kind == KeyEventKind::Press => app.handle_key(key),

@@ -61,6 +61,11 @@ pub fn hint(s: Screen) -> &'static str {
 pub const HINT_EDITING: &str = "Enter accept  Esc cancel  ←→ Home End move  Backspace Delete erase";
 /// The key hint line while the help is shown.
 pub const HINT_HELP: &str = "? or Esc closes the key list";
+/// The key hint line while a new row waits.
+pub const HINT_ROW_DONE: &str =
+    "Row done: Enter or ↑↓ go on  Ctrl-Z removes it  (letters do nothing here)";
+/// Under the request for a larger window.
+pub const KEYS_WAIT: &str = "Keys do nothing until then, except q or Ctrl-C to quit.";
 /// The key hint line while a question waits.
 pub const HINT_CONFIRM: &str = "y yes  n or Esc no";
 /// The key hint line while the profile list is open.
@@ -73,76 +78,19 @@ pub fn help_title(s: Screen) -> String {
     format!("Keys: {} screen", screen_name(s))
 }
 
-/// Keys of the case screen.
-pub const KEYS_CASE: &[(&str, &str)] = &[
-    ("↑ ↓", "move between fields and rows"),
-    ("← →", "move between the columns of a row"),
-    ("Enter", "edit the field (a choice steps to its next value)"),
-    ("Space", "step a choice; on a level row, toggle use in fit"),
-    ("a", "add a dose or a level (in the table the cursor is in)"),
-    ("x", "delete the dose or level row (asks first)"),
-    ("u", "toggle use in fit of the level row"),
-    ("Delete", "clear an optional field"),
-    ("p", "choose the drug profile from a list"),
-    ("i", "the profile's targets, sampling advice, cautions"),
-];
-/// Keys of the fit screen.
-pub const KEYS_FIT: &[(&str, &str)] = &[
-    ("↑ ↓", "select a level"),
-    ("Space, u", "toggle use in fit of the selected level"),
-    ("m", "fit method: auto, log-linear, dose-history, Bayesian"),
-];
-/// Keys of the plan screen.
-pub const KEYS_PLAN: &[(&str, &str)] = &[
-    ("+ -", "raise or lower the dose by about 5 %"),
-    ("] [", "next longer or shorter usual interval"),
-    ("} {", "infusion time 0.25 h longer or shorter"),
-    ("r", "next route (bolus, infusion, oral)"),
-    ("↑ ↓", "select a field, or below them a suggestion"),
-    ("Enter", "type a value (targets as low-high, e.g. 5-10)"),
-    ("Delete", "clear an optional field"),
-    (
-        "t, Enter",
-        "copy the selected (or first) suggestion to the plan",
-    ),
-    ("i", "the profile's targets, sampling advice, cautions"),
-];
-/// Keys of the threshold screen.
-pub const KEYS_THRESHOLD: &[(&str, &str)] = &[
-    ("↑ ↓", "select the threshold or the procedure time"),
-    ("Enter", "type a value (time as 2027-03-02 08:00)"),
-    ("Delete", "clear it (clearing the threshold removes both)"),
-];
-/// Keys of the washout screen.
-pub const KEYS_WASHOUT: &[(&str, &str)] = &[];
-/// Keys while a field is edited.
-pub const KEYS_EDITING: &[(&str, &str)] =
-    &[("Enter / Esc", "in a field: accept / cancel the typing")];
-/// Keys that work on every screen.
-pub const KEYS_GLOBAL: &[(&str, &str)] = &[
-    (
-        "1 … 5, Tab",
-        "Case, Fit, Plan, Threshold, Washout; Shift-Tab back",
-    ),
-    ("n", "write the record note beside the case (CASE.note.txt)"),
-    (
-        "Ctrl-S",
-        "save the case (asks for a file name the first time)",
-    ),
-    ("?", "show or hide this list"),
-    (
-        "q, Ctrl-C",
-        "quit (asks first when there are unsaved changes)",
-    ),
-];
-
 // ---- popups ------------------------------------------------------------------------------
 
 /// Title of the quit question.
 pub const CONFIRM_QUIT_TITLE: &str = "Unsaved changes";
 /// The quit question.
 pub const CONFIRM_QUIT: &str =
-    "The case has changes that are not saved.\ny: quit without saving   s: save, then quit\nn or Esc: stay";
+    "The case has changes that are not saved.\ny: quit without saving   s: save, then quit\nn, Esc or Ctrl-C: stay";
+/// The quit question while a field is being typed into.
+pub fn confirm_quit_typing(field: &str, typed: &str) -> String {
+    format!(
+        "You are typing into {field} (\"{typed}\"), not yet accepted.\ny: quit; the typing and any unsaved change are lost\ns: save the case without the typing, then quit\nn, Esc or Ctrl-C: back to the typing"
+    )
+}
 /// Title of the delete question.
 pub const CONFIRM_DELETE_TITLE: &str = "Delete a row";
 /// The delete question for a dose.
@@ -253,19 +201,76 @@ pub fn not_accepted(name: &str, why: &str) -> String {
 }
 /// After deleting a dose.
 pub fn dose_deleted(row: usize) -> String {
-    format!("Dose {row} deleted.")
+    format!("Dose {row} deleted (Ctrl-Z undoes).")
 }
 /// After deleting a level.
 pub fn level_deleted(row: usize) -> String {
-    format!("Level {row} deleted.")
+    format!("Level {row} deleted (Ctrl-Z undoes).")
 }
 /// After toggling a level's use.
 pub fn level_use_now(row: usize, used: bool) -> String {
     if used {
-        format!("Level {row} is used in the fit.")
+        format!("Level {row} is used in the fit (Ctrl-Z undoes).")
     } else {
-        format!("Level {row} is left out of the fit (kept on record).")
+        format!("Level {row} is LEFT OUT of the fit, kept on record (Ctrl-Z undoes).")
     }
+}
+/// After the last field of a new dose.
+pub fn dose_added(row: usize, what: &str) -> String {
+    format!("Dose {row} added: {what}.")
+}
+/// After the last field of a new level.
+pub fn level_added(row: usize, what: &str) -> String {
+    format!("Level {row} added: {what}.")
+}
+/// A new dose with no amount typed.
+pub const NO_AMOUNT: &str = "amount not given";
+/// What the keys do once a new row is done.
+pub const ROW_DONE_KEYS: &str = "Enter goes on; Ctrl-Z removes the row.";
+/// A letter typed once a new row is done.
+pub fn stray_key(ch: char) -> String {
+    let shown = if ch == ' ' {
+        "Space".to_string()
+    } else {
+        format!("\"{ch}\"")
+    };
+    format!("{shown} did nothing: the new row is done. Enter goes on; Ctrl-Z removes the row.")
+}
+/// After Enter on a finished row.
+pub const ROW_KEPT: &str = "Row kept. a adds another; ↓ moves on.";
+/// A row whose time moved it.
+pub fn row_renumbered(dose: bool, row: usize) -> String {
+    let what = if dose { "dose" } else { "level" };
+    format!("Rows are kept in time order: it is now {what} {row}.")
+}
+/// Ctrl-Z with nothing to undo.
+pub const NOTHING_TO_UNDO: &str = "Nothing to undo.";
+/// After Ctrl-Z.
+pub fn undone(what: &str, left: usize) -> String {
+    let what = what.trim_end_matches('.');
+    let what = match what.split_once(" (Ctrl-Z undoes)") {
+        Some((head, tail)) => format!("{head}{tail}"),
+        None => what.to_string(),
+    };
+    match left {
+        0 => format!("Undone: {what}."),
+        _ => format!("Undone: {what}. Ctrl-Z again undoes the change before."),
+    }
+}
+/// The unit cannot be converted without a molar mass.
+pub const UNIT_NEEDS_MASS_FIRST: &str =
+    "Give the molar mass first: the values must be converted, and a molar unit needs it.";
+/// After stepping the unit with values converted.
+pub fn unit_converted(from: &str, to: &str, factor: &str) -> String {
+    format!("Level unit now {to}: every level, target and threshold converted from {from} (x {factor}); Ctrl-Z undoes.")
+}
+/// After stepping the unit with nothing to convert.
+pub fn unit_now(to: &str) -> String {
+    format!("Level unit now {to} (nothing to convert).")
+}
+/// A dose far below the others (the rule is `rows::DOSE_FAR_BELOW_FRACTION`).
+pub fn dose_far_below(row: usize, amount: &str, median: &str) -> String {
+    format!("Check dose {row}: {amount} mg is under a quarter of the other doses (median {median} mg) - is it a level typed as a dose? Ctrl-Z undoes.")
 }
 /// After saving.
 pub fn saved_to(path: &str) -> String {
@@ -400,6 +405,8 @@ pub fn levels_heading(unit: &str) -> String {
 pub const DOSE_COLUMNS: [&str; 6] = ["#", "time", "amount", "route", "infusion", "F"];
 /// Level table columns.
 pub const LEVEL_COLUMNS: [&str; 5] = ["#", "time", "value", "use", "note"];
+/// Beside a dose far below the others (`rows::DOSE_FAR_BELOW_FRACTION`).
+pub const DOSE_FAR_BELOW_MARK: &str = "⚠ far below the other doses";
 /// The add-a-dose line.
 pub const ADD_DOSE: &str = "+ add a dose (a)";
 /// The add-a-level line.
@@ -712,8 +719,10 @@ pub const NO_PROFILE_CHOSEN: &str = "No drug profile: the case's own targets onl
 /// After choosing a profile.
 pub fn profile_chosen(display: &str, unit_now: Option<&str>) -> String {
     match unit_now {
-        Some(u) => format!("Profile {display} chosen; levels now in {u} (i shows its details)."),
-        None => format!("Profile {display} chosen (i shows its targets, sampling and cautions)."),
+        Some(u) => format!(
+            "Profile {display} chosen; levels now in {u} (i shows its details; Ctrl-Z undoes)."
+        ),
+        None => format!("Profile {display} chosen (i shows its details; Ctrl-Z undoes)."),
     }
 }
 /// `i` without a profile.

@@ -77,7 +77,11 @@ fn too_small(area: Rect, buf: &mut ratatui::buffer::Buffer) {
     }
     lines.push(Line::raw(""));
     for l in widgets::wrap(
-        &strings::enlarge(MIN_WIDTH, MIN_HEIGHT, area.width, area.height),
+        &format!(
+            "{} {}",
+            strings::enlarge(MIN_WIDTH, MIN_HEIGHT, area.width, area.height),
+            strings::KEYS_WAIT
+        ),
         w,
     ) {
         lines.push(Line::raw(l));
@@ -142,6 +146,7 @@ fn hint_line(app: &App, area: Rect, buf: &mut ratatui::buffer::Buffer) {
         Mode::Editing(_) => strings::HINT_EDITING,
         Mode::Help => strings::HINT_HELP,
         Mode::Confirm(_) => strings::HINT_CONFIRM,
+        Mode::RowDone(_) => strings::HINT_ROW_DONE,
         Mode::ChooseProfile(_) => strings::HINT_CHOOSER,
         Mode::ProfileInfo(_) => strings::HINT_INFO,
         _ => strings::hint(app.screen),
@@ -179,7 +184,17 @@ fn overlay(app: &App, body: Rect, buf: &mut ratatui::buffer::Buffer) {
             let (title, text) = match c {
                 Confirm::Quit => (
                     strings::CONFIRM_QUIT_TITLE,
-                    strings::CONFIRM_QUIT.to_string(),
+                    match &app.held_editor {
+                        Some(ed) => strings::confirm_quit_typing(
+                            &match ed.target {
+                                Target::Field(f) => f.name(),
+                                Target::SavePath => strings::SAVE_AS_TITLE.to_lowercase(),
+                                Target::NotePath => strings::NOTE_AS_TITLE.to_lowercase(),
+                            },
+                            &ed.buffer,
+                        ),
+                        None => strings::CONFIRM_QUIT.to_string(),
+                    },
                 ),
                 Confirm::DeleteDose(i) => (
                     strings::CONFIRM_DELETE_TITLE,

@@ -592,7 +592,7 @@ fn the_help_lists_the_new_keys_and_fits_80x24() {
     for (s, keys) in [
         ('1', &["p ", "i ", "n "][..]),
         ('2', &["m "][..]),
-        ('3', &["t, Enter", "i "][..]),
+        ('3', &["t ", "Enter", "i ", "+ -, =", "Space"][..]),
         ('5', &["n "][..]),
     ] {
         let mut app = App::demo();

@@ -9,6 +9,7 @@ use ratatui::widgets::{Paragraph, Widget};
 use crate::core::report::num;
 use crate::tui::app::App;
 use crate::tui::fields::{self, Field};
+use crate::tui::rows;
 use crate::tui::screens::{self, profile, CaseLine, DRUG_FIELDS, PATIENT_FIELDS};
 use crate::tui::strings;
 use crate::tui::widgets::{self, field_line, heading, or_dash, problem_style, quiet};
@@ -148,6 +149,8 @@ fn table_rows(app: &App, lines: &[CaseLine], selected: CaseLine) -> Vec<Row> {
         }
         if let Some(p) = row_problem(app, &cols) {
             spans.push(Span::styled(format!("✗ {p}"), problem_style()));
+        } else if rows::dose_far_below(&app.file, i).is_some() {
+            spans.push(Span::styled(strings::DOSE_FAR_BELOW_MARK, problem_style()));
         }
         out.push((Line::from(spans), index_of(lines, line)));
     }
