@@ -34,7 +34,8 @@ pub enum On {
 }
 
 impl On {
-    fn covers(self, screen: Screen) -> bool {
+    /// Whether the binding works on `screen`.
+    pub fn covers(self, screen: Screen) -> bool {
         match self {
             On::Everywhere => true,
             On::Only(s) => s.contains(&screen),
@@ -96,9 +97,21 @@ const fn b(
 /// the ones that work everywhere.
 pub const NORMAL: &[Binding] = &[
     // Case screen.
-    b(&[k(KeyCode::Up)], CASE, Action::Up, "↑ ↓", "move between fields and rows"),
+    b(
+        &[k(KeyCode::Up)],
+        CASE,
+        Action::Up,
+        "↑ ↓",
+        "move between fields and rows",
+    ),
     b(&[k(KeyCode::Down)], CASE, Action::Down, "", ""),
-    b(&[k(KeyCode::Left)], CASE, Action::Left, "← →", "move between the columns of a row"),
+    b(
+        &[k(KeyCode::Left)],
+        CASE,
+        Action::Left,
+        "← →",
+        "move between the columns of a row",
+    ),
     b(&[k(KeyCode::Right)], CASE, Action::Right, "", ""),
     b(
         &[k(KeyCode::Enter)],
@@ -121,10 +134,34 @@ pub const NORMAL: &[Binding] = &[
         "a",
         "add a dose or a level (walks its fields in order)",
     ),
-    b(&[c('x')], CASE, Action::DeleteRow, "x", "delete the dose or level row (asks first)"),
-    b(&[c('u')], CASE, Action::ToggleUse, "u", "toggle use in fit of the level row"),
-    b(&[k(KeyCode::Delete)], CASE, Action::Clear, "Delete", "clear an optional field"),
-    b(&[c('p')], CASE, Action::ChooseProfile, "p", "choose the drug profile from a list"),
+    b(
+        &[c('x')],
+        CASE,
+        Action::DeleteRow,
+        "x",
+        "delete the dose or level row (asks first)",
+    ),
+    b(
+        &[c('u')],
+        CASE,
+        Action::ToggleUse,
+        "u",
+        "toggle use in fit of the level row",
+    ),
+    b(
+        &[k(KeyCode::Delete)],
+        CASE,
+        Action::Clear,
+        "Delete",
+        "clear an optional field",
+    ),
+    b(
+        &[c('p')],
+        CASE,
+        Action::ChooseProfile,
+        "p",
+        "choose the drug profile from a list",
+    ),
     // Fit screen.
     b(&[k(KeyCode::Up)], FIT, Action::Up, "↑ ↓", "select a level"),
     b(&[k(KeyCode::Down)], FIT, Action::Down, "", ""),
@@ -167,7 +204,13 @@ pub const NORMAL: &[Binding] = &[
         "infusion time 0.25 h longer or shorter",
     ),
     b(&[c('{')], PLAN, Action::PlanInfusion(false), "", ""),
-    b(&[c('r')], PLAN, Action::PlanRoute, "r", "next route (bolus, infusion, oral)"),
+    b(
+        &[c('r')],
+        PLAN,
+        Action::PlanRoute,
+        "r",
+        "next route (bolus, infusion, oral)",
+    ),
     b(
         &[k(KeyCode::Up)],
         PLAN,
@@ -183,8 +226,20 @@ pub const NORMAL: &[Binding] = &[
         "Enter",
         "type a value (targets as 5-10), or take a suggestion",
     ),
-    b(&[c(' ')], PLAN, Action::Step, "Space", "step the route on the Route line"),
-    b(&[k(KeyCode::Delete)], PLAN, Action::Clear, "Delete", "clear an optional field"),
+    b(
+        &[c(' ')],
+        PLAN,
+        Action::Step,
+        "Space",
+        "step the route on the Route line",
+    ),
+    b(
+        &[k(KeyCode::Delete)],
+        PLAN,
+        Action::Clear,
+        "Delete",
+        "clear an optional field",
+    ),
     b(
         &[c('t')],
         PLAN,
@@ -200,7 +255,13 @@ pub const NORMAL: &[Binding] = &[
         "the profile's targets, sampling advice, cautions",
     ),
     // Threshold screen.
-    b(&[k(KeyCode::Up)], THRESHOLD, Action::Up, "↑ ↓", "select a field"),
+    b(
+        &[k(KeyCode::Up)],
+        THRESHOLD,
+        Action::Up,
+        "↑ ↓",
+        "select a field",
+    ),
     b(&[k(KeyCode::Down)], THRESHOLD, Action::Down, "", ""),
     b(
         &[k(KeyCode::Enter)],
@@ -224,8 +285,20 @@ pub const NORMAL: &[Binding] = &[
         "1 … 5, Tab",
         "Case, Fit, Plan, Threshold, Washout; Shift-Tab back",
     ),
-    b(&[k(KeyCode::Tab)], On::Everywhere, Action::NextScreen(false), "", ""),
-    b(&[k(KeyCode::BackTab)], On::Everywhere, Action::NextScreen(true), "", ""),
+    b(
+        &[k(KeyCode::Tab)],
+        On::Everywhere,
+        Action::NextScreen(false),
+        "",
+        "",
+    ),
+    b(
+        &[k(KeyCode::BackTab)],
+        On::Everywhere,
+        Action::NextScreen(true),
+        "",
+        "",
+    ),
     b(
         &[ctrl('z')],
         On::Everywhere,
@@ -247,7 +320,13 @@ pub const NORMAL: &[Binding] = &[
         "Ctrl-S",
         "save the case (asks for a file name the first time)",
     ),
-    b(&[c('?')], On::Everywhere, Action::Help, "?", "show or hide this list"),
+    b(
+        &[c('?')],
+        On::Everywhere,
+        Action::Help,
+        "?",
+        "show or hide this list",
+    ),
     b(&[k(KeyCode::Esc)], On::Everywhere, Action::Cancel, "", ""),
     b(
         &[c('q'), ctrl('c'), ctrl('q')],
@@ -268,13 +347,55 @@ pub const EDITING: &[Binding] = &[
         "in a field: accept / cancel the typing",
     ),
     b(&[k(KeyCode::Esc)], On::Everywhere, Action::Cancel, "", ""),
-    b(&[k(KeyCode::Backspace)], On::Everywhere, Action::Backspace, "", ""),
-    b(&[k(KeyCode::Delete)], On::Everywhere, Action::DeleteForward, "", ""),
-    b(&[k(KeyCode::Left)], On::Everywhere, Action::CursorLeft, "", ""),
-    b(&[k(KeyCode::Right)], On::Everywhere, Action::CursorRight, "", ""),
-    b(&[k(KeyCode::Home)], On::Everywhere, Action::CursorHome, "", ""),
-    b(&[k(KeyCode::End)], On::Everywhere, Action::CursorEnd, "", ""),
-    b(&[ctrl('c'), ctrl('q')], On::Everywhere, Action::Quit, "", ""),
+    b(
+        &[k(KeyCode::Backspace)],
+        On::Everywhere,
+        Action::Backspace,
+        "",
+        "",
+    ),
+    b(
+        &[k(KeyCode::Delete)],
+        On::Everywhere,
+        Action::DeleteForward,
+        "",
+        "",
+    ),
+    b(
+        &[k(KeyCode::Left)],
+        On::Everywhere,
+        Action::CursorLeft,
+        "",
+        "",
+    ),
+    b(
+        &[k(KeyCode::Right)],
+        On::Everywhere,
+        Action::CursorRight,
+        "",
+        "",
+    ),
+    b(
+        &[k(KeyCode::Home)],
+        On::Everywhere,
+        Action::CursorHome,
+        "",
+        "",
+    ),
+    b(
+        &[k(KeyCode::End)],
+        On::Everywhere,
+        Action::CursorEnd,
+        "",
+        "",
+    ),
+    b(
+        &[ctrl('c'), ctrl('q')],
+        On::Everywhere,
+        Action::Quit,
+        "",
+        "",
+    ),
 ];
 
 fn find(table: &[Binding], screen: Screen, key: Key) -> Option<Action> {
@@ -313,10 +434,11 @@ pub fn action_for(app: &App, key: KeyEvent) -> Option<Action> {
             }
             _ => None,
         },
+        // Only arrows and Enter: letters typed by mistake never move or choose.
         Mode::ChooseProfile(_) if !held => match code {
-            KeyCode::Up | KeyCode::Char('k') => Some(Action::Up),
-            KeyCode::Down | KeyCode::Char('j') => Some(Action::Down),
-            KeyCode::Enter | KeyCode::Char(' ') => Some(Action::Accept),
+            KeyCode::Up => Some(Action::Up),
+            KeyCode::Down => Some(Action::Down),
+            KeyCode::Enter => Some(Action::Accept),
             KeyCode::Esc | KeyCode::Char('q') => Some(Action::Cancel),
             _ => None,
         },

@@ -118,7 +118,11 @@ fn add_level(app: &mut App) {
     start_walk(
         app,
         CaseLine::Level(i),
-        vec![Field::LevelTime(i), Field::LevelValue(i), Field::LevelNote(i)],
+        vec![
+            Field::LevelTime(i),
+            Field::LevelValue(i),
+            Field::LevelNote(i),
+        ],
         NewRow::Level(i),
         mark,
         strings::NEW_LEVEL_HINT,
@@ -312,7 +316,11 @@ pub fn time_changed(app: &mut App, field: Field) {
         _ => return,
     };
     let mark = app.undo.len().saturating_sub(1);
-    let said = app.message.as_ref().map(|m| m.text.clone()).unwrap_or_default();
+    let said = app
+        .message
+        .as_ref()
+        .map(|m| m.text.clone())
+        .unwrap_or_default();
     let now = sort_rows(app, row);
     if now != row {
         app.merge_undo_since(mark, &said);
@@ -404,7 +412,12 @@ pub fn step_unit(app: &mut App) {
 
 fn profile_molar_mass(app: &App) -> Option<f64> {
     let name = app.file.drug.profile.as_deref()?;
-    app.profiles.get(name)?.profile.molar_mass_g_mol.as_ref().map(|m| m.value)
+    app.profiles
+        .get(name)?
+        .profile
+        .molar_mass_g_mol
+        .as_ref()
+        .map(|m| m.value)
 }
 
 /// Whether anything in the case is written in the level unit.
@@ -478,5 +491,6 @@ pub fn dose_far_below(f: &CaseFile, i: usize) -> Option<String> {
     } else {
         (others[n / 2 - 1] + others[n / 2]) / 2.0
     };
-    (a < DOSE_FAR_BELOW_FRACTION * median).then(|| strings::dose_far_below(i + 1, &num(a), &num(median)))
+    (a < DOSE_FAR_BELOW_FRACTION * median)
+        .then(|| strings::dose_far_below(i + 1, &num(a), &num(median)))
 }

@@ -10,8 +10,8 @@ use crate::core::note::{note_text, NoteFormat};
 use crate::tui::action::Action;
 use crate::tui::app::{App, Confirm, Editor, Mode, NewRow, Screen, Target};
 use crate::tui::catalog;
-use crate::tui::rows;
 use crate::tui::fields::{self, Field, Kind};
+use crate::tui::rows;
 use crate::tui::screens::{self, CaseLine, PLAN_FIELDS, THRESHOLD_FIELDS};
 use crate::tui::store;
 use crate::tui::strings;
@@ -415,7 +415,11 @@ fn after_accept(app: &mut App, field: Field, ed: &Editor) {
     }
     if let Field::DoseAmount(i) = field {
         if let Some(w) = rows::dose_far_below(&app.file, i) {
-            let said = app.message.as_ref().map(|m| m.text.clone()).unwrap_or_default();
+            let said = app
+                .message
+                .as_ref()
+                .map(|m| m.text.clone())
+                .unwrap_or_default();
             app.complain(format!("{said} {w}"));
         }
     }

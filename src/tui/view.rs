@@ -214,7 +214,12 @@ fn overlay(app: &App, body: Rect, buf: &mut ratatui::buffer::Buffer) {
                     ),
                 ),
             };
-            let lines: Vec<Line> = text.lines().map(|l| Line::raw(l.to_string())).collect();
+            // Wrapped here, so the box is as tall as the question.
+            let lines: Vec<Line> = text
+                .lines()
+                .flat_map(|l| widgets::wrap(l, 60 - 2))
+                .map(Line::raw)
+                .collect();
             let area = widgets::centered(body, 60, lines.len() as u16 + 2);
             popup(area, buf, title, lines);
         }

@@ -1,0 +1,390 @@
+//! Bedside entry that a tired user cannot get wrong: key sequences on the demo case (an
+//! invented patient) checking that typed text never becomes a command, that new rows walk
+//! their fields in order and start empty, that changes can be undone, that rows stay in
+//! time order, that unit changes convert, and that no key acts on a screen not drawn.
+
+use crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
+use ebb::tui::app::{App, Confirm, Mode, NewRow, Screen};
+use ebb::tui::screens::{self, CaseLine};
+use ebb::tui::view;
+use ratatui::backend::TestBackend;
+use ratatui::Terminal;
+
+fn key(app: &mut App, code: KeyCode) {
+    app.handle_key(KeyEvent::new(code, KeyModifiers::NONE));
+}
+
+fn ctrl(app: &mut App, c: char) {
+    app.handle_key(KeyEvent::new(KeyCode::Char(c), KeyModifiers::CONTROL));
+}
+
+fn typed(app: &mut App, text: &str) {
+    for c in text.chars() {
+        key(app, KeyCode::Char(c));
+    }
+}
+
+fn clear_field(app: &mut App) {
+    key(app, KeyCode::End);
+    for _ in 0..40 {
+        key(app, KeyCode::Backspace);
+    }
+}
+
+fn text(app: &App, w: u16, h: u16) -> String {
+    let mut t = Terminal::new(TestBackend::new(w, h)).unwrap();
+    t.draw(|f| view::draw(app, f)).unwrap();
+    t.backend().to_string()
+}
+
+fn message(app: &App) -> String {
+    app.message
+        .as_ref()
+        .map(|m| m.text.clone())
+        .unwrap_or_default()
+}
+
+/// Move the case screen's cursor to `line`.
+fn go_to(app: &mut App, line: CaseLine) {
+    key(app, KeyCode::Char('1'));
+    for _ in 0..50 {
+        key(app, KeyCode::Up);
+    }
+    for _ in 0..100 {
+        if screens::selected_case_line(app) == line {
+            return;
+        }
+        key(app, KeyCode::Down);
+    }
+    panic!("no line {line:?}");
+}
+
+/// Add a level at `time` with `value` (and no note) through the keys.
+fn add_level(app: &mut App, time: &str, value: &str) {
+    go_to(app, CaseLine::AddLevel);
+    key(app, KeyCode::Char('a'));
+    clear_field(app);
+    typed(app, time);
+    key(app, KeyCode::Enter);
+    typed(app, value);
+    key(app, KeyCode::Enter);
+    // The note.
+    key(app, KeyCode::Enter);
+}
+
+#[test]
+fn a_new_level_value_starts_empty_so_typing_does_not_append() {
+    let mut app = App::demo();
+    add_level(&mut app, "2027-03-03 15:30", "13");
+    // Before: the value started at the previous level's 1.4 and "13" became "1.413".
+    assert_eq!(app.file.levels[4].value, 13.0);
+}
+
+#[test]
+fn a_new_level_walks_time_value_note_and_stray_letters_are_not_commands() {
+    let mut app = App::demo();
+    let profile = app.file.drug.profile.clone();
+    go_to(&mut app, CaseLine::AddLevel);
+    key(&mut app, KeyCode::Char('a'));
+    clear_field(&mut app);
+    typed(&mut app, "2027-03-03 15:30");
+    key(&mut app, KeyCode::Enter);
+    typed(&mut app, "0.95");
+    key(&mut app, KeyCode::Enter);
+    // The walk goes on to the note: the words land there.
+    typed(&mut app, "random level");
+    key(&mut app, KeyCode::Enter);
+    assert_eq!(app.mode, Mode::RowDone(NewRow::Level(4)));
+    // Stray typing after the row is done: no profile chooser, no use toggle, nothing.
+    let before = app.file.clone();
+    typed(&mut app, "peak level u x p");
+    key(&mut app, KeyCode::Char(' '));
+    assert_eq!(app.file, before);
+    assert_eq!(app.file.drug.profile, profile);
+    assert!(message(&app).contains("did nothing"), "{}", message(&app));
+    assert_eq!(app.file.levels[4].note.as_deref(), Some("random level"));
+    assert_eq!(app.file.levels[4].use_in_fit, None);
+    key(&mut app, KeyCode::Enter);
+    assert_eq!(app.mode, Mode::Normal);
+}
+
+#[test]
+fn the_scenario_of_the_report_changes_nothing_unseen() {
+    // "Right Right Enter" then "peak level" after adding a level.
+    let mut app = App::demo();
+    add_level(&mut app, "2027-03-03 15:30", "0.95");
+    let before = app.file.clone();
+    key(&mut app, KeyCode::Right);
+    key(&mut app, KeyCode::Right);
+    typed(&mut app, "peak level");
+    // The arrows ended the row; the cursor waits on "+ add a level", where no letter of
+    // "peak level" changes the case except `p`, which opens the chooser (visible), and
+    // the chooser takes none of the other letters as a choice.
+    assert_eq!(app.file.levels, before.levels);
+    assert_eq!(app.file.drug.profile, before.drug.profile);
+}
+
+#[test]
+fn a_use_toggle_a_delete_and_a_profile_change_are_said_and_undone() {
+    let mut app = App::demo();
+    let start = app.file.clone();
+    go_to(&mut app, CaseLine::Level(1));
+    key(&mut app, KeyCode::Char('u'));
+    assert_eq!(app.file.levels[1].use_in_fit, Some(false));
+    assert!(message(&app).contains("LEFT OUT"), "{}", message(&app));
+    ctrl(&mut app, 'z');
+    assert_eq!(app.file, start);
+    assert!(
+        message(&app).starts_with("Undone: Level 2"),
+        "{}",
+        message(&app)
+    );
+
+    key(&mut app, KeyCode::Char('x'));
+    key(&mut app, KeyCode::Char('y'));
+    assert_eq!(app.file.levels.len(), 3);
+    assert!(
+        message(&app).contains("Level 2 deleted"),
+        "{}",
+        message(&app)
+    );
+    ctrl(&mut app, 'z');
+    assert_eq!(app.file, start);
+
+    key(&mut app, KeyCode::Char('p'));
+    key(&mut app, KeyCode::Down);
+    key(&mut app, KeyCode::Enter);
+    assert_ne!(app.file.drug.profile, start.drug.profile);
+    key(&mut app, KeyCode::Esc);
+    assert!(message(&app).contains("chosen"), "{}", message(&app));
+    ctrl(&mut app, 'z');
+    assert_eq!(app.file, start);
+    assert!(!app.dirty);
+    ctrl(&mut app, 'z');
+    assert_eq!(message(&app), "Nothing to undo.");
+}
+
+#[test]
+fn a_whole_new_row_is_one_undo_step_and_a_dropped_row_leaves_none() {
+    let mut app = App::demo();
+    let start = app.file.clone();
+    add_level(&mut app, "2027-03-03 15:30", "0.95");
+    assert_eq!(app.file.levels.len(), 5);
+    ctrl(&mut app, 'z');
+    assert_eq!(app.file, start);
+    // Esc half-way drops the row, and there is nothing of it to undo.
+    go_to(&mut app, CaseLine::AddLevel);
+    key(&mut app, KeyCode::Char('a'));
+    key(&mut app, KeyCode::Enter);
+    key(&mut app, KeyCode::Esc);
+    assert_eq!(app.file, start);
+    assert!(app.undo.is_empty(), "{:?}", app.undo);
+}
+
+#[test]
+fn after_adding_a_dose_one_down_reaches_the_levels() {
+    let mut app = App::demo();
+    go_to(&mut app, CaseLine::AddDose);
+    key(&mut app, KeyCode::Char('a'));
+    clear_field(&mut app);
+    typed(&mut app, "2027-03-03 14:00");
+    key(&mut app, KeyCode::Enter);
+    typed(&mut app, "140");
+    key(&mut app, KeyCode::Enter);
+    // The infusion time comes next, empty: Enter alone is refused.
+    key(&mut app, KeyCode::Enter);
+    assert!(matches!(app.mode, Mode::Editing(_)));
+    typed(&mut app, "0.5");
+    key(&mut app, KeyCode::Enter);
+    assert_eq!(app.file.doses.len(), 5);
+    assert_eq!(app.file.doses[4].amount_mg, Some(140.0));
+    // One Down (which also ends the row) then `a` adds a level, not a dose.
+    key(&mut app, KeyCode::Down);
+    key(&mut app, KeyCode::Char('a'));
+    assert_eq!(
+        app.file.levels.len(),
+        5,
+        "{:?}",
+        screens::selected_case_line(&app)
+    );
+    assert_eq!(app.file.doses.len(), 5);
+}
+
+#[test]
+fn a_dose_far_below_the_others_is_flagged() {
+    let mut app = App::demo();
+    go_to(&mut app, CaseLine::AddDose);
+    key(&mut app, KeyCode::Char('a'));
+    clear_field(&mut app);
+    typed(&mut app, "2027-03-03 14:00");
+    key(&mut app, KeyCode::Enter);
+    typed(&mut app, "14.8");
+    key(&mut app, KeyCode::Enter);
+    typed(&mut app, "0.5");
+    key(&mut app, KeyCode::Enter);
+    let m = app.message.clone().unwrap();
+    assert!(m.is_error);
+    // 14.8 mg against a median of 140 mg (the demo's doses and its 160 mg plan).
+    assert!(
+        m.text.contains(
+            "Check dose 5: 14.8 mg is under a quarter of the other doses (median 140 mg)"
+        ),
+        "{}",
+        m.text
+    );
+    key(&mut app, KeyCode::Enter);
+    assert!(text(&app, 80, 24).contains("⚠ far below"));
+    // A usual dose is not flagged.
+    let mut app = App::demo();
+    go_to(&mut app, CaseLine::Dose(3));
+    key(&mut app, KeyCode::Right);
+    key(&mut app, KeyCode::Enter);
+    clear_field(&mut app);
+    typed(&mut app, "120");
+    key(&mut app, KeyCode::Enter);
+    assert!(!app.message.clone().unwrap().is_error, "{:?}", app.message);
+}
+
+#[test]
+fn rows_are_kept_in_time_order() {
+    let mut app = App::demo();
+    // A dose added last but given first becomes dose 1.
+    go_to(&mut app, CaseLine::AddDose);
+    key(&mut app, KeyCode::Char('a'));
+    clear_field(&mut app);
+    typed(&mut app, "2027-03-01 22:00");
+    key(&mut app, KeyCode::Enter);
+    typed(&mut app, "140");
+    key(&mut app, KeyCode::Enter);
+    typed(&mut app, "0.5");
+    key(&mut app, KeyCode::Enter);
+    assert!(
+        message(&app).starts_with("Dose 1 added"),
+        "{}",
+        message(&app)
+    );
+    key(&mut app, KeyCode::Enter);
+    let times: Vec<String> = app.file.doses.iter().map(|d| d.time.to_string()).collect();
+    let mut sorted = times.clone();
+    sorted.sort();
+    assert_eq!(times, sorted);
+    assert_eq!(times[0], "2027-03-01T22:00:00");
+    // A level whose time is edited to before another moves, and the cursor follows it.
+    go_to(&mut app, CaseLine::Level(3));
+    key(&mut app, KeyCode::Enter);
+    clear_field(&mut app);
+    typed(&mut app, "2027-03-03 07:00");
+    key(&mut app, KeyCode::Enter);
+    assert_eq!(app.file.levels[1].time.to_string(), "2027-03-03T07:00:00");
+    assert_eq!(app.file.levels[1].value, 1.4);
+    assert_eq!(screens::selected_case_line(&app), CaseLine::Level(1));
+    assert!(message(&app).contains("now level 2"), "{}", message(&app));
+}
+
+#[test]
+fn no_key_acts_while_the_window_asks_to_be_enlarged() {
+    let mut app = App::demo();
+    app.window = Some((60, 12));
+    go_to(&mut app, CaseLine::Dose(0));
+    key(&mut app, KeyCode::Char('x'));
+    key(&mut app, KeyCode::Char('y'));
+    assert_eq!(app.file.doses.len(), 4);
+    assert_eq!(app.mode, Mode::Normal);
+    key(&mut app, KeyCode::Char('q'));
+    assert!(app.should_quit());
+}
+
+#[test]
+fn changing_the_level_unit_converts_the_values() {
+    let mut app = App::demo();
+    go_to(&mut app, CaseLine::Field(ebb::tui::fields::Field::Unit));
+    key(&mut app, KeyCode::Enter); // ug/mL: the same numbers
+    assert_eq!(app.file.drug.level_unit.as_deref(), Some("ug/mL"));
+    assert_eq!(app.file.levels[1].value, 6.1);
+    key(&mut app, KeyCode::Enter); // ng/mL: x 1000
+    assert_eq!(app.file.drug.level_unit.as_deref(), Some("ng/mL"));
+    assert_eq!(app.file.levels[1].value, 6100.0);
+    let t = app.file.targets.clone().unwrap();
+    assert_eq!(t.peak, Some(vec![5000.0, 10000.0]));
+    assert_eq!(t.trough_max, Some(2000.0));
+    assert_eq!(app.file.threshold.as_ref().unwrap().below, 1000.0);
+    // The fit is the same in mg/L.
+    let k = app.figures.report.as_ref().unwrap().fit.k_per_h;
+    let k0 = App::demo().figures.report.unwrap().fit.k_per_h;
+    assert!((k - k0).abs() < 1e-12);
+    assert!(
+        message(&app).contains("converted from ug/mL"),
+        "{}",
+        message(&app)
+    );
+    ctrl(&mut app, 'z');
+    assert_eq!(app.file.levels[1].value, 6.1);
+}
+
+#[test]
+fn ctrl_c_while_typing_asks_and_keeps_the_typing() {
+    let mut app = App::demo();
+    go_to(&mut app, CaseLine::Level(0));
+    key(&mut app, KeyCode::Right);
+    key(&mut app, KeyCode::Enter);
+    clear_field(&mut app);
+    typed(&mut app, "1.3");
+    ctrl(&mut app, 'c');
+    assert_eq!(app.mode, Mode::Confirm(Confirm::Quit));
+    let shown = text(&app, 80, 24);
+    assert!(shown.contains("typing into Level 1 value"), "{shown}");
+    assert!(shown.contains("(\"1.3\")"), "{shown}");
+    assert!(shown.contains("n, Esc or Ctrl-C"), "{shown}");
+    key(&mut app, KeyCode::Esc);
+    match &app.mode {
+        Mode::Editing(ed) => assert_eq!(ed.buffer, "1.3"),
+        m => panic!("{m:?}"),
+    }
+    key(&mut app, KeyCode::Enter);
+    assert_eq!(app.file.levels[0].value, 1.3);
+}
+
+#[test]
+fn the_quit_question_lists_every_key_it_takes() {
+    let mut app = App::demo();
+    go_to(&mut app, CaseLine::Level(0));
+    key(&mut app, KeyCode::Char('u'));
+    key(&mut app, KeyCode::Char('q'));
+    let shown = text(&app, 80, 24);
+    for k in ["y:", "s:", "n, Esc or Ctrl-C"] {
+        assert!(shown.contains(k), "{k}:\n{shown}");
+    }
+    ctrl(&mut app, 'c');
+    assert_eq!(app.mode, Mode::Normal);
+}
+
+#[test]
+fn the_save_question_shows_no_error_before_typing() {
+    let mut app = App::new_case();
+    ctrl(&mut app, 's');
+    let shown = text(&app, 80, 24);
+    assert!(!shown.contains("✗"), "{shown}");
+    key(&mut app, KeyCode::Enter);
+    assert!(text(&app, 80, 24).contains("✗ type a file name"));
+}
+
+#[test]
+fn the_help_lists_every_key_the_screen_takes() {
+    use ebb::tui::keymap::{self, NORMAL};
+    for s in Screen::ALL {
+        let help = keymap::help(s);
+        for (i, b) in NORMAL.iter().enumerate() {
+            if !b.on.covers(s) {
+                continue;
+            }
+            // A binding without a label is listed with the labelled one before it.
+            let listed = NORMAL[..=i]
+                .iter()
+                .rev()
+                .find(|x| !x.label.is_empty())
+                .map(|x| x.label)
+                .unwrap();
+            assert!(help.iter().any(|(l, _)| *l == listed), "{s:?}: {listed}");
+        }
+    }
+}
