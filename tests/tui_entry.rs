@@ -388,3 +388,70 @@ fn the_help_lists_every_key_the_screen_takes() {
         }
     }
 }
+
+// ---- inputs the trade uses (through the binary) ------------------------------------------
+
+fn ebb_json(dir: &std::path::Path, name: &str, toml: &str) -> serde_json::Value {
+    let path = dir.join(name);
+    std::fs::write(&path, toml).unwrap();
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_ebb"))
+        .args(["report", "--json"])
+        .arg(&path)
+        .output()
+        .unwrap();
+    assert_eq!(
+        o.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    serde_json::from_slice(&o.stdout).unwrap()
+}
+
+const DIGOXIN: &str = r#"
+[drug]
+name = "digoxin"
+profile = "digoxin"
+level_unit = "UNIT"
+
+[[dose]]
+time = 2027-03-01T08:00:00
+amount_mg = 0.25
+route = "oral"
+
+[[dose]]
+time = 2027-03-02T08:00:00
+amount_mg = 0.25
+route = "oral"
+
+[[level]]
+time = 2027-03-02T20:00:00
+value = A
+
+[[level]]
+time = 2027-03-03T06:00:00
+value = B
+"#;
+
+#[test]
+fn digoxin_in_nmol_per_litre_fits_as_in_ng_per_ml() {
+    let dir = std::env::temp_dir().join(format!("ebb-entry-nmol-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    // 1 ng/mL = 1000 / 780.9 nmol/L with the profile's molar mass (definition of the units).
+    let f = 1000.0 / 780.9;
+    let ng = DIGOXIN
+        .replace("UNIT", "ng/mL")
+        .replace("value = A", "value = 1.25")
+        .replace("value = B", "value = 1.0");
+    let nmol = DIGOXIN
+        .replace("UNIT", "nmol/L")
+        .replace("value = A", &format!("value = {}", 1.25 * f))
+        .replace("value = B", &format!("value = {}", 1.0 * f));
+    let a = ebb_json(&dir, "ng.toml", &ng);
+    let b = ebb_json(&dir, "nmol.toml", &nmol);
+    let k = |v: &serde_json::Value| v["fit"]["k_per_h"].as_f64().unwrap();
+    assert!((k(&a) - k(&b)).abs() < 1e-9, "{} {}", k(&a), k(&b));
+    let w = |v: &serde_json::Value| v["washout"][0]["level"].as_f64().unwrap();
+    assert!((w(&b) / w(&a) - f).abs() < 1e-9, "{} {}", w(&a), w(&b));
+    std::fs::remove_dir_all(&dir).unwrap();
+}

@@ -608,7 +608,49 @@ fn syntax_error(text: &str, e: &toml::de::Error) -> Error {
         .map(|s| text[..s.start.min(text.len())].matches('\n').count() + 1)
         .unwrap_or(1);
     let message = e.message().trim().replace('\n', "; ");
-    Error::Syntax { line, message }
+    match place_on_line(text, line) {
+        // A wrong type or an impossible date names its row and field like every other
+        // error, with the line as well.
+        Some(place) => Error::invalid(place, format!("{message} (line {line})")),
+        None => Error::Syntax { line, message },
+    }
+}
+
+/// The row and field a line of a case file sets, as validation names them (`level 2:
+/// time`, `plan.dose_mg`, `time_zone`); `None` for a header, a blank or a continued line.
+fn place_on_line(text: &str, line: usize) -> Option<String> {
+    let mut table: Option<(String, bool)> = None;
+    let mut counts: std::collections::HashMap<String, usize> = std::collections::HashMap::new();
+    for (i, raw) in text.lines().enumerate() {
+        let l = raw.trim();
+        if i + 1 == line {
+            if l.starts_with('[') || l.starts_with('#') {
+                return None;
+            }
+            let (key, _) = l.split_once('=')?;
+            let key = key.trim().trim_matches('"');
+            if key.is_empty() {
+                return None;
+            }
+            return Some(match &table {
+                None => key.to_string(),
+                Some((name, true)) => {
+                    let n = counts.get(name).copied().unwrap_or(0);
+                    format!("{name} {n}: {key}")
+                }
+                Some((name, false)) => format!("{name}.{key}"),
+            });
+        }
+        if let Some(rest) = l.strip_prefix("[[") {
+            let name = rest.split("]]").next().unwrap_or("").trim().to_string();
+            *counts.entry(name.clone()).or_insert(0) += 1;
+            table = Some((name, true));
+        } else if let Some(rest) = l.strip_prefix('[') {
+            let name = rest.split(']').next().unwrap_or("").trim().to_string();
+            table = Some((name, false));
+        }
+    }
+    None
 }
 
 fn positive(x: f64, place: &str) -> Result<()> {
@@ -678,7 +720,10 @@ fn validate_drug(d: &DrugFile, defaults: &Defaults) -> Result<Drug> {
     let unit_text = d.level_unit.as_deref().ok_or_else(|| {
         Error::invalid(
             "drug.level_unit",
-            "missing; say which unit the levels are in (mg/L, ug/mL, ng/mL, ug/L, mmol/L, umol/L)",
+            format!(
+                "missing; say which unit the levels are in ({})",
+                LevelUnit::names()
+            ),
         )
     })?;
     let unit = LevelUnit::parse(unit_text, "drug.level_unit")?;

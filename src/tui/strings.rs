@@ -343,7 +343,7 @@ pub fn field_label(f: Field) -> (&'static str, &'static str) {
         Field::CreatinineUmolL => ("Creatinine", "umol/L (or mg/dL, not both)"),
         Field::DrugName => ("Name", ""),
         Field::Unit => ("Level unit", "(Enter steps)"),
-        Field::MolarMass => ("Molar mass", "g/mol (mmol/L, umol/L)"),
+        Field::MolarMass => ("Molar mass", "g/mol (molar units)"),
         Field::DrugProfile => ("Profile", "(p chooses, i shows)"),
         Field::DoseTime(_) => ("Time", ""),
         Field::DoseAmount(_) => ("Amount", "mg"),
