@@ -455,3 +455,22 @@ fn digoxin_in_nmol_per_litre_fits_as_in_ng_per_ml() {
     assert!((w(&b) / w(&a) - f).abs() < 1e-9, "{} {}", w(&a), w(&b));
     std::fs::remove_dir_all(&dir).unwrap();
 }
+
+#[test]
+fn drawing_code_does_not_call_update_code() {
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("src/tui");
+    let mut files = vec![root.join("view.rs"), root.join("widgets/chart.rs")];
+    for dir in ["screens", "widgets"] {
+        for e in std::fs::read_dir(root.join(dir)).unwrap() {
+            files.push(e.unwrap().path());
+        }
+    }
+    for f in files {
+        let text = std::fs::read_to_string(&f).unwrap();
+        assert!(
+            !text.contains("update::") && !text.contains("tui::update"),
+            "{} calls update code",
+            f.display()
+        );
+    }
+}

@@ -4,15 +4,16 @@
 use std::path::{Path, PathBuf};
 
 use crate::cli::store as safe;
-use crate::core::casefile::{CaseFile, FitFile, PlanFile, TargetsFile};
+use crate::core::casefile::{CaseFile, FitFile, PlanFile};
 use crate::core::fit::CHOICES;
 use crate::core::note::{note_text, NoteFormat};
 use crate::tui::action::Action;
 use crate::tui::app::{App, Confirm, Editor, Mode, NewRow, Screen, Target};
-use crate::tui::catalog;
 use crate::tui::fields::{self, Field, Kind};
 use crate::tui::rows;
-use crate::tui::screens::{self, CaseLine, PLAN_FIELDS, THRESHOLD_FIELDS};
+use crate::tui::screens::{
+    self, is_target, profile_targets, seed_targets, CaseLine, PLAN_FIELDS, THRESHOLD_FIELDS,
+};
 use crate::tui::store;
 use crate::tui::strings;
 
@@ -689,40 +690,6 @@ fn save_expecting(app: &mut App, path: PathBuf, expect: store::Expect) {
 
 // ---- drug profiles -------------------------------------------------------------------------
 
-fn is_target(field: Field) -> bool {
-    matches!(
-        field,
-        Field::TargetPeak | Field::TargetTrough | Field::TargetAuc
-    )
-}
-
-/// The targets the case's drug profile gives, in the case's unit, when it gives any.
-pub fn profile_targets(app: &App) -> Option<crate::core::case::Targets> {
-    let name = app.file.drug.profile.as_deref()?;
-    let entry = app.profiles.get(name)?;
-    let t = catalog::profile_targets(
-        entry,
-        app.file.drug.level_unit.as_deref(),
-        app.file.drug.molar_mass_g_mol,
-    );
-    (!t.is_empty()).then_some(t)
-}
-
-/// Before the first edit of a target in a case that takes its targets from the profile,
-/// copy the profile's targets into the case, so the ones not edited stay as they were.
-fn seed_targets(app: &App, field: Field, f: &mut CaseFile) {
-    if !is_target(field) || f.targets.is_some() {
-        return;
-    }
-    if let Some(t) = profile_targets(app) {
-        f.targets = Some(TargetsFile {
-            peak: t.peak.map(Vec::from),
-            trough_max: t.trough_max,
-            auc24: t.auc24.map(Vec::from),
-        });
-    }
-}
-
 /// The list line of the case's profile (0 is "no profile").
 fn profile_line(app: &App) -> usize {
     let Some(name) = app.file.drug.profile.as_deref() else {
@@ -970,15 +937,4 @@ fn note_to(app: &mut App, path: PathBuf) {
         Ok(_) => app.say(strings::note_written(&path.display().to_string())),
         Err(e) => app.complain(strings::note_failed(&e.to_string())),
     }
-}
-
-/// The case file with the profile's targets written in, when the case has no `[targets]`
-/// and its profile gives some (what the plan screen shows, marked as the profile's).
-pub fn file_with_profile_targets(app: &App) -> Option<CaseFile> {
-    if app.file.targets.is_some() {
-        return None;
-    }
-    let mut f = app.file.clone();
-    seed_targets(app, Field::TargetPeak, &mut f);
-    f.targets.is_some().then_some(f)
 }

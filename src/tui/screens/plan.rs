@@ -11,9 +11,9 @@ use crate::core::clock::span_words;
 use crate::core::report::{num, TargetCheck};
 use crate::tui::app::App;
 use crate::tui::fields::Field;
-use crate::tui::screens::{suggestions, PLAN_FIELDS};
+use crate::tui::screens::{self, suggestions, PLAN_FIELDS};
 use crate::tui::strings;
-use crate::tui::update;
+
 use crate::tui::view::note;
 use crate::tui::widgets::chart::SemiLogChart;
 use crate::tui::widgets::{self, field_line, heading, or_dash, problem_style, quiet};
@@ -26,7 +26,7 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
     let unit = app.file.drug.level_unit.clone().unwrap_or_default();
     let mut lines = vec![Line::styled(strings::REGIMEN, heading())];
     let plan_part = app.figures.report.as_ref().and_then(|r| r.plan.as_ref());
-    let from_profile = update::file_with_profile_targets(app);
+    let from_profile = screens::file_with_profile_targets(app);
     for (i, f) in PLAN_FIELDS.iter().enumerate() {
         let (label, u) = strings::field_label(*f);
         let mut u = if matches!(f, Field::TargetPeak | Field::TargetTrough) {
