@@ -474,3 +474,113 @@ fn drawing_code_does_not_call_update_code() {
         );
     }
 }
+
+// ---- what the case file can say, the screen can too ----------------------------------------
+
+#[test]
+fn time_zone_switch_and_resume_are_typed_on_the_screens() {
+    use ebb::tui::fields::Field;
+    let mut app = App::demo();
+    go_to(&mut app, CaseLine::Field(Field::TimeZone));
+    key(&mut app, KeyCode::Enter);
+    typed(&mut app, "Europe/Paris");
+    key(&mut app, KeyCode::Enter);
+    assert_eq!(app.file.time_zone.as_deref(), Some("Europe/Paris"));
+    assert!(app.figures.report.is_some());
+    // An unknown zone is refused while typing, naming what is wrong.
+    key(&mut app, KeyCode::Enter);
+    clear_field(&mut app);
+    typed(&mut app, "Europe/Atlantis");
+    match &app.mode {
+        Mode::Editing(ed) => assert!(
+            ed.error
+                .as_deref()
+                .unwrap_or("")
+                .contains("unknown time zone"),
+            "{:?}",
+            ed.error
+        ),
+        m => panic!("{m:?}"),
+    }
+    key(&mut app, KeyCode::Esc);
+
+    go_to(&mut app, CaseLine::Field(Field::SwitchTo));
+    key(&mut app, KeyCode::Enter);
+    typed(&mut app, "tobramycin");
+    key(&mut app, KeyCode::Enter);
+    key(&mut app, KeyCode::Down);
+    key(&mut app, KeyCode::Enter);
+    typed(&mut app, "0.5");
+    key(&mut app, KeyCode::Enter);
+    let sw = app.file.switch.clone().unwrap();
+    assert_eq!(sw.to.as_deref(), Some("tobramycin"));
+    assert_eq!(sw.start_below, Some(0.5));
+    assert!(app.figures.report.as_ref().unwrap().advice.switch.is_some());
+    key(&mut app, KeyCode::Char('5'));
+    assert!(text(&app, 80, 24).contains("Switch to tobramycin"));
+
+    // Resume after the procedure, on screen 4, with its result there.
+    key(&mut app, KeyCode::Char('4'));
+    key(&mut app, KeyCode::Down);
+    key(&mut app, KeyCode::Down);
+    key(&mut app, KeyCode::Down);
+    key(&mut app, KeyCode::Enter);
+    typed(&mut app, "12");
+    key(&mut app, KeyCode::Enter);
+    assert_eq!(
+        app.file.threshold.as_ref().unwrap().resume_after_h,
+        Some(12.0)
+    );
+    let t = app
+        .figures
+        .report
+        .as_ref()
+        .unwrap()
+        .threshold
+        .clone()
+        .unwrap();
+    assert!(t.resume_at.is_some());
+    let shown = text(&app, 80, 24);
+    assert!(shown.contains("may resume from"), "{shown}");
+    assert!(shown.contains("Resume after"), "{shown}");
+}
+
+#[test]
+#[ignore = "prints screens for reading by eye"]
+fn print_screens() {
+    let mut app = App::demo();
+    app.file.threshold.as_mut().unwrap().resume_after_h = Some(12.0);
+    let _ = app.change(|_| Ok(()));
+    app.figures = ebb::tui::figures::Figures::compute(&app.file, &app.profiles);
+    for s in ['1', '4', '5'] {
+        key(&mut app, KeyCode::Char(s));
+        println!("{}", text(&app, 80, 24));
+    }
+    go_to(
+        &mut app,
+        CaseLine::Field(ebb::tui::fields::Field::SwitchHalfLives),
+    );
+    println!("{}", text(&app, 80, 24));
+}
+
+#[test]
+fn creatinine_is_shown_in_the_unit_it_was_entered_in() {
+    let dir = std::env::temp_dir().join(format!("ebb-entry-crea-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let case = DIGOXIN
+        .replace("UNIT", "ng/mL")
+        .replace("value = A", "value = 1.25")
+        .replace("value = B", "value = 1.0")
+        .replace("[drug]", "[patient]\ncreatinine_umol_l = 97\n\n[drug]");
+    let path = dir.join("c.toml");
+    std::fs::write(&path, case).unwrap();
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_ebb"))
+        .arg("note")
+        .arg(&path)
+        .output()
+        .unwrap();
+    let note = String::from_utf8(o.stdout).unwrap();
+    assert!(note.contains("creatinine 97 umol/L"), "{note}");
+    assert!(!note.contains("mg/dL"), "{note}");
+    std::fs::remove_dir_all(&dir).unwrap();
+}

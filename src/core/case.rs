@@ -21,6 +21,8 @@ pub struct Patient {
     pub sex: Option<Sex>,
     /// Serum creatinine in mg/dL (converted from umol/L when given that way).
     pub creatinine_mg_dl: Option<f64>,
+    /// Serum creatinine as entered, when it was entered in umol/L (shown that way).
+    pub creatinine_umol_l: Option<f64>,
 }
 
 /// Sex as used by creatinine-clearance equations.

@@ -713,6 +713,7 @@ fn validate_patient(p: &PatientFile) -> Result<Patient> {
         age_years: p.age_years,
         sex,
         creatinine_mg_dl: creatinine,
+        creatinine_umol_l: p.creatinine_umol_l,
     })
 }
 

@@ -148,8 +148,11 @@ pub fn write_note(
             Sex::Male => "male".to_string(),
         });
     }
-    if let Some(x) = p.creatinine_mg_dl {
-        facts.push(format!("creatinine {} mg/dL", num(x)));
+    // In the unit it was entered in, as the laboratory reported it.
+    match (p.creatinine_umol_l, p.creatinine_mg_dl) {
+        (Some(x), _) => facts.push(format!("creatinine {} umol/L", num(x))),
+        (None, Some(x)) => facts.push(format!("creatinine {} mg/dL", num(x))),
+        (None, None) => {}
     }
     if !facts.is_empty() {
         writeln!(w, "{item}{}", facts.join(", "))?;

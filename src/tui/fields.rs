@@ -1,7 +1,9 @@
 //! Every editable field of a case: how it reads from the `CaseFile`, how typed text or a
 //! choice is written back, and which validation places belong to it.
 
-use crate::core::casefile::{CaseFile, DoseFile, LevelFile, PlanFile, TargetsFile, ThresholdFile};
+use crate::core::casefile::{
+    CaseFile, DoseFile, LevelFile, PlanFile, SwitchFile, TargetsFile, ThresholdFile,
+};
 use crate::core::units::LevelUnit;
 use crate::tui::entry;
 use crate::tui::strings;
@@ -40,6 +42,12 @@ pub enum Field {
     TargetAuc,
     ThresholdBelow,
     ThresholdProcedure,
+    ResumeBelow,
+    ResumeAfter,
+    TimeZone,
+    SwitchTo,
+    SwitchBelow,
+    SwitchHalfLives,
 }
 
 /// How a field is changed.
@@ -164,6 +172,16 @@ impl Field {
                 .and_then(|t| t.procedure.as_ref())
                 .map(entry::show_datetime)
                 .unwrap_or_default(),
+            Field::ResumeBelow => num(f.threshold.as_ref().and_then(|t| t.resume_below)),
+            Field::ResumeAfter => num(f.threshold.as_ref().and_then(|t| t.resume_after_h)),
+            Field::TimeZone => f.time_zone.clone().unwrap_or_default(),
+            Field::SwitchTo => f
+                .switch
+                .as_ref()
+                .and_then(|s| s.to.clone())
+                .unwrap_or_default(),
+            Field::SwitchBelow => num(f.switch.as_ref().and_then(|s| s.start_below)),
+            Field::SwitchHalfLives => num(f.switch.as_ref().and_then(|s| s.after_half_lives)),
         }
     }
 
@@ -277,11 +295,29 @@ impl Field {
                     None => return Err(strings::THRESHOLD_FIRST.into()),
                 }
             }
+            Field::ResumeBelow | Field::ResumeAfter => {
+                let v = entry::optional_number(text)?;
+                match f.threshold.as_mut() {
+                    Some(t) if self == Field::ResumeBelow => t.resume_below = v,
+                    Some(t) => t.resume_after_h = v,
+                    None if v.is_none() => {}
+                    None => return Err(strings::THRESHOLD_FIRST.into()),
+                }
+            }
+            Field::TimeZone => f.time_zone = text_opt(),
+            Field::SwitchTo => switch_mut(f).to = text_opt(),
+            Field::SwitchBelow => switch_mut(f).start_below = entry::optional_number(text)?,
+            Field::SwitchHalfLives => {
+                switch_mut(f).after_half_lives = entry::optional_number(text)?
+            }
             Field::Sex
             | Field::Unit
             | Field::DoseRoute(_)
             | Field::LevelUse(_)
             | Field::PlanRoute => return Err(strings::CHOICE_NOT_TYPED.into()),
+        }
+        if f.switch.as_ref() == Some(&SwitchFile::default()) {
+            f.switch = None;
         }
         Ok(())
     }
@@ -366,6 +402,12 @@ impl Field {
             Field::TargetAuc => place == "targets.auc24",
             Field::ThresholdBelow => place == "threshold.below",
             Field::ThresholdProcedure => place == "threshold.procedure",
+            Field::ResumeBelow => place == "threshold.resume_below",
+            Field::ResumeAfter => place == "threshold.resume_after_h",
+            Field::TimeZone => place == "time_zone",
+            Field::SwitchTo => place == "switch.to",
+            Field::SwitchBelow => place == "switch.start_below",
+            Field::SwitchHalfLives => place == "switch.after_half_lives",
         }
     }
 }
@@ -398,6 +440,10 @@ fn level_mut(f: &mut CaseFile, i: usize) -> Result<&mut LevelFile, String> {
     f.levels
         .get_mut(i)
         .ok_or_else(|| strings::NO_SUCH_ROW.into())
+}
+
+fn switch_mut(f: &mut CaseFile) -> &mut SwitchFile {
+    f.switch.get_or_insert_with(SwitchFile::default)
 }
 
 fn targets_mut(f: &mut CaseFile) -> &mut TargetsFile {

@@ -365,6 +365,12 @@ pub fn field_label(f: Field) -> (&'static str, &'static str) {
         Field::TargetAuc => ("AUC24 target", ""),
         Field::ThresholdBelow => ("Below", ""),
         Field::ThresholdProcedure => ("Procedure", ""),
+        Field::ResumeBelow => ("Resume below", ""),
+        Field::ResumeAfter => ("Resume after", "h after the procedure"),
+        Field::TimeZone => ("Time zone", "(IANA name, e.g. Europe/Paris)"),
+        Field::SwitchTo => ("Next agent", "(free text)"),
+        Field::SwitchBelow => ("Start below", ""),
+        Field::SwitchHalfLives => ("or after", "half-lives (one of the two)"),
     }
 }
 
@@ -385,6 +391,11 @@ pub fn field_name(f: Field) -> String {
         }
         Field::ThresholdBelow => "Threshold".into(),
         Field::ThresholdProcedure => "Procedure time".into(),
+        Field::ResumeBelow => "Resume below".into(),
+        Field::ResumeAfter => "Resume after".into(),
+        Field::SwitchTo => "Next agent".into(),
+        Field::SwitchBelow => "Next agent: start below".into(),
+        Field::SwitchHalfLives => "Next agent: start after".into(),
         _ => label.to_string(),
     }
 }
@@ -395,6 +406,10 @@ pub fn field_name(f: Field) -> String {
 pub const PATIENT: &str = "Patient";
 /// Heading.
 pub const DRUG: &str = "Drug";
+/// Heading of the case's clock.
+pub const CLOCK: &str = "Clock";
+/// Heading of the switch to another agent.
+pub const SWITCH: &str = "Switch to another agent (results on screen 5)";
 /// Heading.
 pub const DOSES: &str = "Doses given";
 /// Heading of the levels table.
@@ -626,6 +641,13 @@ pub fn hold_every_dose(level: &str, unit: &str) -> String {
 /// Not below even holding.
 pub fn not_below_even_holding(level: &str, unit: &str) -> String {
     format!("✗ NOT below at the procedure even with every plan dose held ({level} {unit} then).")
+}
+/// When the regimen may resume after the procedure.
+pub fn resume_from(when: &str, level: Option<&str>, unit: &str) -> String {
+    match level {
+        Some(l) => format!("The regimen may resume from {when} (level then {l} {unit})."),
+        None => format!("The regimen may resume from {when}."),
+    }
 }
 /// Level at the procedure, no plan.
 pub fn level_at_procedure(level: &str, unit: &str, below: bool) -> String {

@@ -49,6 +49,12 @@ pub const DRUG_FIELDS: [Field; 4] = [
     Field::MolarMass,
 ];
 
+/// The case's clock fields.
+pub const CLOCK_FIELDS: [Field; 1] = [Field::TimeZone];
+
+/// The switch to another agent, in screen order.
+pub const SWITCH_FIELDS: [Field; 3] = [Field::SwitchTo, Field::SwitchBelow, Field::SwitchHalfLives];
+
 /// The plan screen's fields, in screen order.
 pub const PLAN_FIELDS: [Field; 9] = [
     Field::PlanDose,
@@ -63,7 +69,12 @@ pub const PLAN_FIELDS: [Field; 9] = [
 ];
 
 /// The threshold screen's fields, in screen order.
-pub const THRESHOLD_FIELDS: [Field; 2] = [Field::ThresholdBelow, Field::ThresholdProcedure];
+pub const THRESHOLD_FIELDS: [Field; 4] = [
+    Field::ThresholdBelow,
+    Field::ThresholdProcedure,
+    Field::ResumeBelow,
+    Field::ResumeAfter,
+];
 
 /// Every selectable line of the case screen, in cursor order: the dose and level tables
 /// first (the bedside work), then the patient and drug fields.
@@ -76,6 +87,8 @@ pub fn case_lines(file: &CaseFile) -> Vec<CaseLine> {
         PATIENT_FIELDS
             .iter()
             .chain(DRUG_FIELDS.iter())
+            .chain(CLOCK_FIELDS.iter())
+            .chain(SWITCH_FIELDS.iter())
             .map(|f| CaseLine::Field(*f)),
     );
     out
