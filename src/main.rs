@@ -156,7 +156,8 @@ fn profiles(action: Option<ProfilesAction>, dir: Option<&Path>) -> ExitCode {
     let mut buf = Vec::new();
     let written = match action {
         None => ebb::profiles::write_list(&mut buf, &catalog),
-        Some(ProfilesAction::Show { name, toml }) => match catalog.lookup(&name, "profile") {
+        Some(ProfilesAction::Show { name, toml }) => match catalog.lookup_loosely(&name, "profile")
+        {
             Ok(entry) if toml => buf.write_all(entry.text.as_bytes()),
             Ok(entry) => ebb::profiles::write_show(&mut buf, entry),
             Err(e) => {

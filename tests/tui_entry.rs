@@ -584,3 +584,45 @@ fn creatinine_is_shown_in_the_unit_it_was_entered_in() {
     assert!(!note.contains("mg/dL"), "{note}");
     std::fs::remove_dir_all(&dir).unwrap();
 }
+
+// ---- words and numbers ---------------------------------------------------------------------
+
+#[test]
+fn numbers_are_written_out_as_a_pharmacist_writes_them() {
+    use ebb::core::report::num;
+    assert_eq!(num(5.265e-5), "0.00005265");
+    assert_eq!(num(0.0001321), "0.0001321");
+    assert_eq!(num(21304.0), "21304");
+    assert_eq!(num(12_345_678_901.0), "12345678901");
+}
+
+#[test]
+fn one_spelling_of_bayesian_and_of_the_auc_unit() {
+    use ebb::core::report::method_word;
+    assert_eq!(method_word("bayesian"), "Bayesian");
+    assert_eq!(method_word("dose-history"), "dose-history");
+    let app = App::demo();
+    let mut app = app;
+    key(&mut app, KeyCode::Char('3'));
+    let shown = text(&app, 80, 24);
+    assert!(shown.contains("mg·h/L"), "{shown}");
+    assert!(!shown.contains("mg/L·h"), "{shown}");
+}
+
+#[test]
+fn profiles_show_ignores_case() {
+    for name in ["Vancomycin", "VANCOMYCIN", "vancomycin"] {
+        let o = std::process::Command::new(env!("CARGO_BIN_EXE_ebb"))
+            .args(["profiles", "show", name])
+            .output()
+            .unwrap();
+        assert_eq!(o.status.code(), Some(0), "{name}");
+        let out = String::from_utf8(o.stdout).unwrap();
+        assert!(out.starts_with("Vancomycin (vancomycin"), "{out}");
+    }
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_ebb"))
+        .args(["profiles", "show", "valproic acid"])
+        .output()
+        .unwrap();
+    assert_eq!(o.status.code(), Some(0));
+}

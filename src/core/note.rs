@@ -5,6 +5,7 @@ use std::io::{self, Write};
 
 use crate::core::case::{Case, Sex};
 use crate::core::report::{self, num, Report, CAUTION};
+use crate::core::units::auc_unit;
 
 /// How the note is laid out.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -256,7 +257,7 @@ pub fn write_note(
             parts.push(format!("trough <= {} {u}", num(m)));
         }
         if let Some([a, b]) = t.auc24 {
-            parts.push(format!("AUC24 {}–{} {u}·h", num(a), num(b)));
+            parts.push(format!("AUC24 {}–{} {}", num(a), num(b), auc_unit(u)));
         }
         writeln!(w, "{item}Targets: {}", parts.join(", "))?;
     }

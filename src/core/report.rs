@@ -1,7 +1,7 @@
 //! The report as plain data: every figure of contract v1 in the case's unit and clock times,
 //! plus the readable text form. The JSON wire form lives in `json`.
 
-pub use crate::core::format::{num, when};
+pub use crate::core::format::{method_word, num, when};
 use crate::core::warning::{Code, Warning};
 use std::io::{self, Write};
 
@@ -13,6 +13,7 @@ use crate::core::fitted;
 use crate::core::population::Summary;
 use crate::core::project::{self, Patient};
 use crate::core::uncertainty;
+use crate::core::units::auc_unit;
 use crate::core::units::LevelUnit;
 
 /// The caution shown first in every report, note and screen.
@@ -550,7 +551,7 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
         writeln!(
             w,
             "Fit: {} over {} levels (level {}) after dose {}",
-            f.method,
+            method_word(f.method),
             f.level_rows.len(),
             rows.join(", "),
             f.window_dose_row
@@ -559,13 +560,13 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
         writeln!(
             w,
             "Fit: {} from population priors alone (no level)",
-            f.method
+            method_word(f.method)
         )?;
     } else {
         writeln!(
             w,
             "Fit: {} over {} level{} (level {}) against the whole dose record",
-            f.method,
+            method_word(f.method),
             rows.len(),
             if rows.len() == 1 { "" } else { "s" },
             rows.join(", ")
@@ -690,7 +691,7 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
         };
         line(w, "peak", p.peak_ss, p.peak_ss_ci95, u)?;
         line(w, "trough", p.trough_ss, p.trough_ss_ci95, u)?;
-        line(w, "AUC24", p.auc24_ss, p.auc24_ss_ci95, &format!("{u}·h"))?;
+        line(w, "AUC24", p.auc24_ss, p.auc24_ss_ci95, &auc_unit(u))?;
         writeln!(w, "  accumulation factor   {}", num(p.accumulation_factor))?;
         writeln!(
             w,

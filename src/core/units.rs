@@ -92,6 +92,15 @@ impl LevelUnit {
     }
 }
 
+/// The unit of an area under the curve for levels in `level_unit`, written one way
+/// everywhere: `mg·h/L` for mg/L, `nmol·h/L` for nmol/L, `ug·h/mL` for ug/mL.
+pub fn auc_unit(level_unit: &str) -> String {
+    match level_unit.split_once('/') {
+        Some((amount, volume)) => format!("{amount}·h/{volume}"),
+        None => format!("{level_unit}·h"),
+    }
+}
+
 /// Converts between mg/L (the model's unit) and the case's level unit.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Scale {
@@ -137,6 +146,13 @@ mod tests {
         assert!((0.001 * f - 1.2806).abs() < 1e-4, "{f}");
         assert_eq!(u.per_mg_l(None), None);
         assert!(u.is_molar());
+    }
+
+    #[test]
+    fn areas_are_written_amount_hour_per_volume() {
+        assert_eq!(auc_unit("mg/L"), "mg·h/L");
+        assert_eq!(auc_unit("nmol/L"), "nmol·h/L");
+        assert_eq!(auc_unit("ug/mL"), "ug·h/mL");
     }
 
     #[test]

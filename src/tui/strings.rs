@@ -1,7 +1,8 @@
 //! Every word the bedside UI shows, in one place.
 
 use crate::core::fit::VolumeMethod;
-use crate::core::report::{num, Report};
+use crate::core::report::{method_word, num, Report};
+use crate::core::units::auc_unit;
 use crate::tui::app::{App, Screen};
 use crate::tui::fields::Field;
 use crate::tui::figures::ThresholdFrom;
@@ -445,7 +446,7 @@ pub fn fit_summary(r: &Report) -> String {
             .map(|x| x.to_string())
             .collect::<Vec<_>>()
             .join(", "),
-        f.method
+        method_word(f.method)
     )
 }
 
@@ -453,7 +454,7 @@ pub fn fit_summary(r: &Report) -> String {
 
 /// The fit heading.
 pub fn fit_heading(method: &str, rows: &str, dose: usize) -> String {
-    format!("{method} fit, levels {rows} (dose {dose})")
+    format!("{} fit, levels {rows} (dose {dose})", method_word(method))
 }
 /// Label.
 pub const K: &str = "k";
@@ -726,7 +727,7 @@ pub fn target_trough(v: &str, unit: &str) -> String {
 }
 /// An AUC24 target.
 pub fn target_auc(lo: &str, hi: &str, unit: &str) -> String {
-    format!("AUC24 {lo}–{hi} {unit}·h")
+    format!("AUC24 {lo}–{hi} {}", auc_unit(unit))
 }
 /// A therapeutic range (shown, not checked).
 pub fn target_range(lo: &str, hi: &str, unit: &str) -> String {
@@ -765,9 +766,9 @@ pub const AUTO: &str = "auto";
 /// The method line of the fit screen.
 pub fn method_line(chosen: Option<&str>, used: Option<&str>) -> String {
     match (chosen, used) {
-        (None, Some(u)) => format!("auto: {u}"),
+        (None, Some(u)) => format!("auto: {}", method_word(u)),
         (None, None) => "auto".into(),
-        (Some(c), _) => format!("{c} (chosen)"),
+        (Some(c), _) => format!("{} (chosen)", method_word(c)),
     }
 }
 /// The key for the method, after the method line.
@@ -778,17 +779,20 @@ pub const METHOD: &str = "method";
 pub fn fit_method_now(chosen: Option<&str>, used: &str) -> String {
     match chosen {
         None if used.is_empty() => "Fit method: automatic choice.".into(),
-        None => format!("Fit method: automatic choice ({used})."),
-        Some(c) => format!("Fit method: {c} (m steps on)."),
+        None => format!("Fit method: automatic choice ({}).", method_word(used)),
+        Some(c) => format!("Fit method: {} (m steps on).", method_word(c)),
     }
 }
 /// A method that cannot be used on this case.
 pub fn fit_method_failed(chosen: Option<&str>, why: &str) -> String {
-    format!("Fit method {}: {why} (m switches)", chosen.unwrap_or(AUTO))
+    format!(
+        "Fit method {}: {why} (m switches)",
+        method_word(chosen.unwrap_or(AUTO))
+    )
 }
 /// The fit spans the dose record.
 pub fn fit_heading_record(method: &str, rows: &str) -> String {
-    format!("{method}: levels {rows}, all doses")
+    format!("{}: levels {rows}, all doses", method_word(method))
 }
 /// r² of a fit that is not a straight line.
 pub const NOT_FOR_METHOD: &str = "— (straight-line fits only)";

@@ -9,6 +9,7 @@ use ratatui::widgets::{Paragraph, Widget};
 
 use crate::core::clock::span_words;
 use crate::core::report::{num, TargetCheck};
+use crate::core::units::auc_unit;
 use crate::tui::app::App;
 use crate::tui::fields::Field;
 use crate::tui::screens::{self, suggestions, PLAN_FIELDS};
@@ -32,7 +33,7 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
         let mut u = if matches!(f, Field::TargetPeak | Field::TargetTrough) {
             unit.clone()
         } else if *f == Field::TargetAuc {
-            format!("{unit}·h")
+            auc_unit(&unit)
         } else {
             u.to_string()
         };
@@ -72,7 +73,7 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
             lines.push(figure(
                 strings::AUC24,
                 p.auc24_ss,
-                &format!("{unit}·h"),
+                &auc_unit(&unit),
                 check("AUC24"),
             ));
             lines.push(Line::from(vec![
