@@ -626,3 +626,88 @@ fn profiles_show_ignores_case() {
         .unwrap();
     assert_eq!(o.status.code(), Some(0));
 }
+
+// ---- levels below the assay's limit --------------------------------------------------------
+
+const BELOW_LIMIT: &str = r#"
+[drug]
+level_unit = "mg/L"
+
+[[dose]]
+time = 2027-03-02T08:00:00
+amount_mg = 400.0
+route = "infusion"
+infusion_h = 0.5
+
+[[level]]
+time = 2027-03-02T10:00:00
+value = 20.0
+
+[[level]]
+time = 2027-03-02T16:00:00
+value = 10.0
+
+[[level]]
+time = 2027-03-03T07:30:00
+value = "<0.5"
+"#;
+
+#[test]
+fn a_level_below_the_assay_limit_is_kept_out_of_the_fit_and_checked_as_a_bound() {
+    let dir = std::env::temp_dir().join(format!("ebb-entry-blq-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let j = ebb_json(&dir, "blq.toml", BELOW_LIMIT);
+    // The two measured levels halve in 6 h: k = ln 2 / 6 (self-consistency), whatever the
+    // third says.
+    assert_eq!(j["fit"]["levels_used"], 2);
+    let k = j["fit"]["k_per_h"].as_f64().unwrap();
+    assert!((k - std::f64::consts::LN_2 / 6.0).abs() < 1e-9, "{k}");
+    let codes: Vec<String> = j["warning_codes"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|c| c.as_str().unwrap().to_string())
+        .collect();
+    assert!(codes.contains(&"below-limit".to_string()), "{codes:?}");
+    // 20 mg/L x 0.5^(21.5 h / 6 h) = 1.669 mg/L at the third level's time: above the limit,
+    // so the warning says the fit and the laboratory disagree.
+    let warning = j["warnings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|w| w.as_str().unwrap())
+        .find(|w| w.contains("below the assay's limit"))
+        .unwrap()
+        .to_string();
+    assert!(warning.contains("1.669 mg/L then, ABOVE"), "{warning}");
+    std::fs::remove_dir_all(&dir).unwrap();
+}
+
+#[test]
+fn a_level_below_the_limit_is_typed_shown_and_saved_as_written() {
+    let file = ebb::core::casefile::CaseFile::parse(BELOW_LIMIT).unwrap();
+    let l = &file.levels[2];
+    assert!(l.below_limit);
+    assert_eq!(l.value, 0.5);
+    assert!(file.to_toml().unwrap().contains("value = \"<0.5\""));
+    // Typed on the screen.
+    let mut app = App::demo();
+    go_to(&mut app, CaseLine::Level(3));
+    key(&mut app, KeyCode::Right);
+    key(&mut app, KeyCode::Enter);
+    clear_field(&mut app);
+    typed(&mut app, "<0.3");
+    key(&mut app, KeyCode::Enter);
+    assert!(app.file.levels[3].below_limit);
+    assert_eq!(app.file.levels[3].value, 0.3);
+    let r = app.figures.report.as_ref().unwrap();
+    assert!(!r.fit.level_rows.contains(&4), "{:?}", r.fit.level_rows);
+    let shown = text(&app, 80, 24);
+    assert!(shown.contains("<0.3"), "{shown}");
+    // Back to a number.
+    key(&mut app, KeyCode::Enter);
+    clear_field(&mut app);
+    typed(&mut app, "1.4");
+    key(&mut app, KeyCode::Enter);
+    assert!(!app.file.levels[3].below_limit);
+}

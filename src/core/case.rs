@@ -82,10 +82,23 @@ pub struct Level {
     pub value: f64,
     /// The value in mg/L.
     pub mg_l: f64,
-    /// Whether the user lets it into the fit.
+    /// Whether the user lets it into the fit (never for a level below the assay's limit).
     pub use_in_fit: bool,
+    /// Reported below the assay's limit (`value = "<0.5"`): `value` is the limit.
+    pub below_limit: bool,
     /// Free text.
     pub note: Option<String>,
+}
+
+impl Level {
+    /// The value as written: `<0.5` for a level below the assay's limit of 0.5.
+    pub fn value_words(&self) -> String {
+        if self.below_limit {
+            format!("<{}", crate::core::format::num(self.value))
+        } else {
+            crate::core::format::num(self.value)
+        }
+    }
 }
 
 /// The regimen to project.

@@ -74,6 +74,8 @@ fn level_use(case: &Case, r: &Report, i: usize) -> String {
         "in the fit".into()
     } else if r.fit.pre_dose_row == Some(l.row) {
         "pre-dose level, used for the volume".into()
+    } else if l.below_limit {
+        "below the assay's limit: left out of the fit".into()
     } else if !l.use_in_fit {
         "left out by the user (use = false)".into()
     } else {
@@ -206,7 +208,7 @@ pub fn write_note(
                 "| {} | {} | {} {u} | {why} | {note} |",
                 l.row,
                 l.time.readable(true),
-                num(l.value)
+                l.value_words()
             )?;
         } else {
             let tail = if note.is_empty() {
@@ -219,7 +221,7 @@ pub fn write_note(
                 "  level {}  {}  {} {u}  {why}{tail}",
                 l.row,
                 l.time.readable(true),
-                num(l.value)
+                l.value_words()
             )?;
         }
     }

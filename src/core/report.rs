@@ -381,8 +381,40 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
     Ok(report)
 }
 
+/// Levels reported below the assay's limit: none is in any fit (no method here treats a
+/// censored value), but each bounds the level at its time from above, so the fitted
+/// course is checked against it.
+fn below_limit_warnings(case: &Case, fit: &Fit, warnings: &mut Vec<Warning>) {
+    let patient = Patient::new(case, fit);
+    let u = case.drug.scale.unit.as_str();
+    for l in case.levels.iter().filter(|l| l.below_limit) {
+        let model = case.drug.scale.to_level(patient.level_mg_l(l.t));
+        let check = if model.is_finite() && model > l.value {
+            format!(
+                "the fitted course gives {} {u} then, ABOVE that limit: the fit and the laboratory disagree; check the times, the doses and the fit",
+                num(model)
+            )
+        } else {
+            format!(
+                "the fitted course gives {} {u} then, below the limit, as it should",
+                num(model)
+            )
+        };
+        warnings.push(Warning::about_level(
+            Code::BelowLimit,
+            l.row,
+            format!(
+                "level {} was reported below the assay's limit ({} {u}): it is left out of every fit and only bounds the level at that time; {check}",
+                l.row,
+                l.value_words()
+            ),
+        ));
+    }
+}
+
 /// Warnings read off the shape of the data: timing, route and curvature.
 fn shape_warnings(case: &Case, fit: &Fit, warnings: &mut Vec<Warning>) {
+    below_limit_warnings(case, fit, warnings);
     if case
         .doses
         .iter()

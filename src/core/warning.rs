@@ -60,11 +60,13 @@ pub enum Code {
     ProfileRoute,
     /// The fitted half-life is outside the drug's typical range.
     HalfLifeImplausible,
+    /// A level was reported below the assay's limit: out of the fit, checked as a bound.
+    BelowLimit,
 }
 
 impl Code {
     /// Every code, in declaration order.
-    pub const ALL: [Code; 26] = [
+    pub const ALL: [Code; 27] = [
         Code::OutsideWindow,
         Code::DistributionPhase,
         Code::RisingLevels,
@@ -91,6 +93,7 @@ impl Code {
         Code::ProfileKinetics,
         Code::ProfileRoute,
         Code::HalfLifeImplausible,
+        Code::BelowLimit,
     ];
 
     /// The code as the JSON report spells it.
@@ -122,6 +125,7 @@ impl Code {
             Code::ProfileKinetics => "profile-kinetics",
             Code::ProfileRoute => "profile-route",
             Code::HalfLifeImplausible => "half-life-implausible",
+            Code::BelowLimit => "below-limit",
         }
     }
 }

@@ -146,9 +146,17 @@ impl Field {
             Field::LevelTime(i) => level(i)
                 .map(|l| entry::show_datetime(&l.time))
                 .unwrap_or_default(),
-            Field::LevelValue(i) => level(i).map(|l| l.value.to_string()).unwrap_or_default(),
+            Field::LevelValue(i) => level(i)
+                .map(|l| {
+                    if l.below_limit {
+                        format!("<{}", l.value)
+                    } else {
+                        l.value.to_string()
+                    }
+                })
+                .unwrap_or_default(),
             Field::LevelUse(i) => match level(i) {
-                Some(l) if l.use_in_fit == Some(false) => strings::NO.into(),
+                Some(l) if l.use_in_fit == Some(false) || l.below_limit => strings::NO.into(),
                 Some(_) => strings::YES.into(),
                 None => String::new(),
             },
@@ -225,8 +233,17 @@ impl Field {
                 level_mut(f, i)?.time = v;
             }
             Field::LevelValue(i) => {
-                let v = entry::number(text)?;
-                level_mut(f, i)?.value = v;
+                // "<0.5": reported below the assay's limit of 0.5.
+                let (v, below) = match crate::core::casefile::parse_below_limit(text) {
+                    Some(x) => (x, true),
+                    None if text.trim().starts_with('<') => {
+                        return Err(strings::BELOW_LIMIT_FORM.into())
+                    }
+                    None => (entry::number(text)?, false),
+                };
+                let l = level_mut(f, i)?;
+                l.value = v;
+                l.below_limit = below;
             }
             Field::LevelNote(i) => {
                 let v = text_opt();

@@ -108,6 +108,7 @@ fn add_level(app: &mut App) {
         f.levels.push(LevelFile {
             time,
             value,
+            below_limit: false,
             use_in_fit: None,
             note: None,
         });

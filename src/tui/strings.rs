@@ -120,6 +120,9 @@ pub const ENTER_A_NUMBER: &str = "enter a number";
 pub fn not_a_number(t: &str) -> String {
     format!("\"{t}\" is not a number")
 }
+/// A below-the-limit value written wrongly.
+pub const BELOW_LIMIT_FORM: &str =
+    "write a level below the assay's limit as <0.5 (the limit after <)";
 /// Text that is not a range.
 pub const NOT_A_RANGE: &str = "write a range as low-high, for example 5-10";
 /// Text that is not a date-time.

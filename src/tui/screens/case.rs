@@ -199,7 +199,11 @@ fn table_rows(app: &App, lines: &[CaseLine], selected: CaseLine) -> Vec<Row> {
         let l = &app.file.levels[i];
         let texts = [
             Field::LevelTime(i).text(&app.file),
-            num(l.value),
+            if l.below_limit {
+                format!("<{}", num(l.value))
+            } else {
+                num(l.value)
+            },
             Field::LevelUse(i).text(&app.file),
             l.note.clone().unwrap_or_default(),
         ];

@@ -135,7 +135,7 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
             _ => strings::LEFT_OUT,
         };
         let when = l.time.weekday_time();
-        let text = format!("{:<2} {when}  {:>7} ", l.row, num(l.value),);
+        let text = format!("{:<2} {when}  {:>7} ", l.row, l.value_words());
         let resid = kind.1.map(|x| format!("{x:+.3}")).unwrap_or_default();
         let body = Style::new();
         lines.push(Line::from(vec![
