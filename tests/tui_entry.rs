@@ -711,3 +711,79 @@ fn a_level_below_the_limit_is_typed_shown_and_saved_as_written() {
     key(&mut app, KeyCode::Enter);
     assert!(!app.file.levels[3].below_limit);
 }
+
+// ---- nothing cut at 80x24 without a way to see it ------------------------------------------
+
+#[test]
+fn fit_warnings_that_do_not_fit_scroll_into_view() {
+    let mut app = App::demo();
+    key(&mut app, KeyCode::Char('2'));
+    // Some method of the demo gives more figures and warnings than 80x24 holds.
+    let mut cut = false;
+    for _ in 0..4 {
+        if text(&app, 80, 24).contains("more lines: PgDn") {
+            cut = true;
+            break;
+        }
+        key(&mut app, KeyCode::Char('m'));
+    }
+    assert!(cut, "{}", text(&app, 80, 24));
+    let r = app.figures.report.as_ref().unwrap();
+    let last = r.warnings.last().unwrap().text().to_string();
+    let tail: String = last.split_whitespace().last().unwrap().to_string();
+    for _ in 0..10 {
+        key(&mut app, KeyCode::PageDown);
+    }
+    let shown = text(&app, 80, 24);
+    assert!(shown.contains(&tail), "{tail}:\n{shown}");
+    assert!(!shown.contains("more lines: PgDn"), "{shown}");
+}
+
+#[test]
+fn a_long_message_wraps_instead_of_being_cut() {
+    let mut app = App::demo();
+    app.complain(
+        "A message long enough to need two lines at eighty columns, which must end with these words: the end.",
+    );
+    let shown = text(&app, 80, 24);
+    assert!(shown.contains("the end."), "{shown}");
+}
+
+#[test]
+fn the_auc24_column_shows_when_auc24_is_a_target() {
+    let mut app = App::demo();
+    let _ = app.change(|f| {
+        f.targets = Some(ebb::core::casefile::TargetsFile {
+            peak: None,
+            trough_max: Some(2.0),
+            auc24: Some(vec![60.0, 120.0]),
+        });
+        Ok(())
+    });
+    key(&mut app, KeyCode::Char('3'));
+    assert!(!ebb::tui::screens::suggestions(&app).is_empty());
+    let shown = text(&app, 80, 24);
+    let head = shown
+        .lines()
+        .find(|l| l.contains("dose") && l.contains("every"))
+        .unwrap_or_else(|| panic!("{shown}"));
+    assert!(head.contains("AUC24"), "{shown}");
+}
+
+#[test]
+fn the_washout_table_keeps_every_column_in_nmol_per_litre() {
+    let mut app = App::demo();
+    let _ = app.change(|f| {
+        f.drug.molar_mass_g_mol = Some(477.6);
+        Ok(())
+    });
+    go_to(&mut app, CaseLine::Field(ebb::tui::fields::Field::Unit));
+    while app.file.drug.level_unit.as_deref() != Some("nmol/L") {
+        key(&mut app, KeyCode::Enter);
+    }
+    key(&mut app, KeyCode::Char('5'));
+    let shown = text(&app, 80, 24);
+    for pct in ["50 %", "25 %", "12.5 %", "6.25 %", "3.125 %"] {
+        assert!(shown.contains(pct), "{pct}:\n{shown}");
+    }
+}

@@ -175,6 +175,8 @@ pub struct Cursors {
     pub plan: usize,
     /// Selected field on the threshold screen.
     pub threshold: usize,
+    /// Lines the fit screen's figures and warnings are scrolled by.
+    pub fit_scroll: u16,
 }
 
 /// The whole UI state.

@@ -173,6 +173,14 @@ pub const NORMAL: &[Binding] = &[
         "toggle use in fit of the selected level",
     ),
     b(
+        &[k(KeyCode::PageDown)],
+        FIT,
+        Action::Scroll(true),
+        "PgDn PgUp",
+        "scroll the figures and warnings",
+    ),
+    b(&[k(KeyCode::PageUp)], FIT, Action::Scroll(false), "", ""),
+    b(
         &[c('m')],
         FIT,
         Action::FitMethod,

@@ -257,7 +257,7 @@ fn row_words(app: &App, row: NewRow) -> String {
 
 /// Keys while a finished row waits: Enter or Esc goes on, arrows go on and move, Ctrl-Z
 /// removes the row; letters are said, not done.
-pub fn row_done(app: &mut App, row: NewRow, action: Action) {
+pub fn row_done(app: &mut App, action: Action) {
     match action {
         Action::Stray(ch) => app.complain(strings::stray_key(ch)),
         Action::Undo => {
@@ -266,7 +266,6 @@ pub fn row_done(app: &mut App, row: NewRow, action: Action) {
         }
         Action::Accept | Action::Cancel => {
             app.mode = Mode::Normal;
-            let _ = row;
             app.say(strings::ROW_KEPT);
         }
         Action::Quit => app.mode = Mode::Normal,

@@ -46,9 +46,7 @@ pub fn hint(s: Screen) -> &'static str {
         Screen::Case => {
             "↑↓←→ move  Enter edit  a add  x delete  u use  p profile  n note  ? keys  q quit"
         }
-        Screen::Fit => {
-            "↑↓ level  Space/u use in fit  m method  n note  ? keys  Ctrl-S save  q quit"
-        }
+        Screen::Fit => "↑↓ level  Space/u use in fit  m method  PgDn warnings  ? keys  q quit",
         Screen::Plan => {
             "+/- dose  [ ] interval  { } infusion  r route  t take suggestion  ? keys  q quit"
         }
@@ -501,6 +499,12 @@ pub const LEFT_OUT: &str = "left out";
 pub const PRE_DOSE: &str = "pre-dose V";
 /// Heading.
 pub const WARNINGS: &str = "Warnings";
+/// The last line of a cut panel.
+pub fn more_lines(n: usize) -> String {
+    format!(" ↓ {n} more lines: PgDn ")
+}
+/// The first line of a panel scrolled down.
+pub const MORE_ABOVE: &str = " ↑ more above: PgUp ";
 /// No warnings.
 pub const NO_WARNINGS: &str = "none";
 /// The reason a screen has no figures.
@@ -669,7 +673,7 @@ pub fn washout_heading(from: &str, half_life: &str) -> String {
     format!("From {from}, each half-life ({half_life})")
 }
 /// Table heading.
-pub const WASHOUT_COLUMNS: &str = " n  when            level        left";
+pub const WASHOUT_COLUMNS: [&str; 4] = ["n", "when", "level", "left"];
 /// No threshold.
 pub const WASHOUT_NO_THRESHOLD: &str =
     "Set a threshold on screen 4 to see when a following agent may start.";

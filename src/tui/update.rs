@@ -21,6 +21,8 @@ use crate::tui::strings;
 pub const INTERVALS_H: [f64; 15] = [
     1.0, 2.0, 3.0, 4.0, 6.0, 8.0, 12.0, 18.0, 24.0, 36.0, 48.0, 72.0, 96.0, 120.0, 168.0,
 ];
+/// How many lines PgDn and PgUp scroll the fit screen's figures and warnings.
+const FIT_SCROLL_STEP: u16 = 5;
 /// How much `{` and `}` change the infusion time, in hours.
 pub const INFUSION_STEP_H: f64 = 0.25;
 
@@ -40,7 +42,7 @@ pub fn update(app: &mut App, action: Action) {
         Mode::ChooseProfile(i) => choose_profile(app, i, action),
         Mode::ProfileInfo(top) => profile_info(app, top, action),
         Mode::Editing(ed) => edit(app, ed, action),
-        Mode::RowDone(row) => match action {
+        Mode::RowDone(_) => match action {
             Action::Up | Action::Down | Action::Left | Action::Right | Action::NextScreen(_) => {
                 app.mode = Mode::Normal;
                 normal(app, action);
@@ -49,7 +51,7 @@ pub fn update(app: &mut App, action: Action) {
                 app.mode = Mode::Normal;
                 quit(app);
             }
-            other => rows::row_done(app, row, other),
+            other => rows::row_done(app, other),
         },
         Mode::Normal => normal(app, action),
     }
@@ -161,6 +163,14 @@ fn normal(app: &mut App, action: Action) {
         Action::Step => activate(app, true),
         Action::AddRow => rows::add_row(app),
         Action::Undo => rows::undo(app),
+        Action::Scroll(down) => {
+            let s = app.cursors.fit_scroll;
+            app.cursors.fit_scroll = if down {
+                s.saturating_add(FIT_SCROLL_STEP)
+            } else {
+                s.saturating_sub(FIT_SCROLL_STEP)
+            };
+        }
         Action::DeleteRow => delete_row(app),
         Action::ToggleUse => toggle_use(app),
         Action::Clear => clear(app),

@@ -26,11 +26,15 @@ pub fn draw(app: &App, frame: &mut Frame) {
         return too_small(area, buf);
     }
     let banner_h = caution_lines(area.width).len() as u16;
+    // A long message wraps (up to three lines) rather than being cut.
+    let message_h = message_text(app)
+        .map(|(t, _)| widgets::wrap(&t, usize::from(area.width)).len().clamp(1, 3))
+        .unwrap_or(1) as u16;
     let [banner, tabs, body, message, hints] = Layout::vertical([
         Constraint::Length(banner_h),
         Constraint::Length(1),
         Constraint::Min(1),
-        Constraint::Length(1),
+        Constraint::Length(message_h),
         Constraint::Length(1),
     ])
     .areas(area);
@@ -125,20 +129,33 @@ fn tab_line(app: &App, area: Rect, buf: &mut ratatui::buffer::Buffer) {
     Paragraph::new(Line::from(spans)).render(area, buf);
 }
 
-fn message_line(app: &App, area: Rect, buf: &mut ratatui::buffer::Buffer) {
+/// The message line's text and whether it reports a problem: the editor's error, else
+/// the message, else the load error.
+fn message_text(app: &App) -> Option<(String, bool)> {
     if let Some(err) = app.editor().and_then(|e| e.error.as_ref()) {
-        let line = Line::from(Span::styled(format!("✗ {err}"), problem_style()));
-        return Paragraph::new(line).render(area, buf);
+        return Some((format!("✗ {err}"), true));
     }
-    let line = match &app.message {
-        Some(m) if m.is_error => Line::from(Span::styled(format!("✗ {}", m.text), problem_style())),
-        Some(m) => Line::from(Span::raw(format!("· {}", m.text))),
-        None => match &app.load_error {
-            Some(e) => Line::from(Span::styled(format!("✗ {e}"), problem_style())),
-            None => Line::raw(""),
-        },
+    match &app.message {
+        Some(m) if m.is_error => Some((format!("✗ {}", m.text), true)),
+        Some(m) => Some((format!("· {}", m.text), false)),
+        None => app.load_error.as_ref().map(|e| (format!("✗ {e}"), true)),
+    }
+}
+
+fn message_line(app: &App, area: Rect, buf: &mut ratatui::buffer::Buffer) {
+    let Some((text, is_error)) = message_text(app) else {
+        return;
     };
-    Paragraph::new(line).render(area, buf);
+    let style = if is_error {
+        problem_style()
+    } else {
+        Style::new()
+    };
+    let lines: Vec<Line> = widgets::wrap(&text, usize::from(area.width))
+        .into_iter()
+        .map(|l| Line::styled(l, style))
+        .collect();
+    Paragraph::new(lines).render(area, buf);
 }
 
 fn hint_line(app: &App, area: Rect, buf: &mut ratatui::buffer::Buffer) {

@@ -182,10 +182,19 @@ fn suggestion_lines(app: &App, wide: bool, unit: &str, rows: usize) -> Vec<Line<
         heading(),
     )];
     let [c_dose, c_every, c_route, c_peak, c_trough, c_auc] = strings::SUGGESTION_COLUMNS;
+    // Narrow, the AUC24 column replaces the route when AUC24 is a target (and the peak too
+    // when the peak is not one), so every figure the targets judge stays in view.
+    let targets = app.figures.case.as_ref().map(|c| c.targets.clone());
+    let auc_target = targets.as_ref().is_some_and(|t| t.auc24.is_some());
+    let peak_target = targets.as_ref().is_some_and(|t| t.peak.is_some());
     let row =
         |n: &str, dose: &str, every: &str, route: &str, peak: &str, trough: &str, auc: &str| {
             if wide {
                 format!("{n:<2} {dose:<8} {every:<6} {route:<11} {peak:<9} {trough:<10} {auc}")
+            } else if auc_target && peak_target {
+                format!("{n:<2} {dose:<7} {every:<5} {peak:<6} {trough:<6} {auc}")
+            } else if auc_target {
+                format!("{n:<2} {dose:<8} {every:<6} {trough:<8} {auc}")
             } else {
                 format!("{n:<2} {dose:<8} {every:<6} {peak:<8} {trough}")
             }
