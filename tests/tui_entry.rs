@@ -787,3 +787,15 @@ fn the_washout_table_keeps_every_column_in_nmol_per_litre() {
         assert!(shown.contains(pct), "{pct}:\n{shown}");
     }
 }
+
+#[test]
+fn the_plan_screen_says_how_to_start_a_plan_in_full() {
+    let mut app = App::demo();
+    let _ = app.change(|f| {
+        f.plan = None;
+        Ok(())
+    });
+    key(&mut app, KeyCode::Char('3'));
+    let shown = text(&app, 80, 24);
+    assert!(shown.contains("from the last dose."), "{shown}");
+}

@@ -217,6 +217,15 @@ pub fn level_use_now(row: usize, used: bool) -> String {
         format!("Level {row} is LEFT OUT of the fit, kept on record (Ctrl-Z undoes).")
     }
 }
+/// After a field of a new row, the one typed next.
+pub fn next_in_row(said: &str, next: &str, unit: &str) -> String {
+    let unit = if unit.is_empty() {
+        String::new()
+    } else {
+        format!(" ({unit})")
+    };
+    format!("{said} Now type {next}{unit}; Esc drops the row.")
+}
 /// After the last field of a new dose.
 pub fn dose_added(row: usize, what: &str) -> String {
     format!("Dose {row} added: {what}.")

@@ -418,6 +418,15 @@ fn accept(app: &mut App, mut ed: Editor) {
 /// far below the others is said; a changed time puts the rows back in time order.
 fn after_accept(app: &mut App, field: Field, ed: &Editor) {
     if let Some(next) = rows::next_in_walk(app, ed) {
+        if let Target::Field(f) = next.target {
+            let said = app
+                .message
+                .as_ref()
+                .map(|m| m.text.clone())
+                .unwrap_or_default();
+            let (_, unit) = strings::field_label(f);
+            app.say(strings::next_in_row(&said, &f.name(), unit));
+        }
         app.mode = Mode::Editing(next);
         return;
     }

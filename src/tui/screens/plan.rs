@@ -65,7 +65,11 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
     }
     lines.push(Line::styled(strings::AT_STEADY_STATE, heading()));
     match (&app.file.plan, plan_part, &app.figures.problem) {
-        (None, _, _) => lines.push(Line::styled(strings::NO_PLAN, quiet())),
+        (None, _, _) => {
+            for l in widgets::wrap(strings::NO_PLAN, usize::from(left_w)) {
+                lines.push(Line::styled(l, quiet()));
+            }
+        }
         (Some(_), Some(p), _) => {
             let check = |name: &str| p.checks.iter().find(|c| c.name == name);
             lines.push(figure(strings::PEAK, p.peak_ss, &unit, check("peak")));
@@ -87,10 +91,11 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
                 ]));
             }
         }
-        (Some(_), None, Some(problem)) => lines.push(Line::styled(
-            strings::no_figures(&problem.text),
-            problem_style(),
-        )),
+        (Some(_), None, Some(problem)) => {
+            for l in widgets::wrap(&strings::no_figures(&problem.text), usize::from(left_w)) {
+                lines.push(Line::styled(l, problem_style()));
+            }
+        }
         (Some(_), None, None) => lines.push(Line::styled(strings::NO_FIGURES_PLAIN, quiet())),
     }
     let wide = area.width >= 120;
