@@ -135,7 +135,7 @@ fn a_use_toggle_a_delete_and_a_profile_change_are_said_and_undone() {
     ctrl(&mut app, 'z');
     assert_eq!(app.file, start);
     assert!(
-        message(&app).starts_with("Undone: Level 2"),
+        message(&app).starts_with("Undone, the case is as it was before: \"Level 2"),
         "{}",
         message(&app)
     );
@@ -798,4 +798,20 @@ fn the_plan_screen_says_how_to_start_a_plan_in_full() {
     key(&mut app, KeyCode::Char('3'));
     let shown = text(&app, 80, 24);
     assert!(shown.contains("from the last dose."), "{shown}");
+}
+
+#[test]
+fn every_help_list_fits_whole_at_80x24() {
+    for s in ['1', '2', '3', '4', '5'] {
+        let mut app = App::demo();
+        key(&mut app, KeyCode::Char(s));
+        key(&mut app, KeyCode::Char('?'));
+        let shown = text(&app, 80, 24);
+        let quit = shown
+            .lines()
+            .position(|l| l.contains("│ q, Ctrl-C"))
+            .unwrap_or_else(|| panic!("{s}:\n{shown}"));
+        let bottom = shown.lines().position(|l| l.contains('└')).unwrap();
+        assert_eq!(bottom, quit + 1, "{s}:\n{shown}");
+    }
 }

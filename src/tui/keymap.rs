@@ -283,7 +283,7 @@ pub const NORMAL: &[Binding] = &[
         THRESHOLD,
         Action::Clear,
         "Delete",
-        "clear it (clearing the threshold clears the procedure too)",
+        "clear it (clearing Below clears the rest)",
     ),
     // Every screen.
     b(

@@ -83,7 +83,7 @@ pub fn help_title(s: Screen) -> String {
 pub const CONFIRM_QUIT_TITLE: &str = "Unsaved changes";
 /// The quit question.
 pub const CONFIRM_QUIT: &str =
-    "The case has changes that are not saved.\ny: quit without saving   s: save, then quit\nn, Esc or Ctrl-C: stay";
+    "The case has changes that are not saved.\ny: quit without saving\ns: save, then quit\nn, Esc or Ctrl-C: stay";
 /// The quit question while a field is being typed into.
 pub fn confirm_quit_typing(field: &str, typed: &str) -> String {
     format!(
@@ -264,8 +264,10 @@ pub fn undone(what: &str, left: usize) -> String {
         None => what.to_string(),
     };
     match left {
-        0 => format!("Undone: {what}."),
-        _ => format!("Undone: {what}. Ctrl-Z again undoes the change before."),
+        0 => format!("Undone, the case is as it was before: \"{what}\"."),
+        _ => format!(
+            "Undone, the case is as it was before: \"{what}\". Ctrl-Z again undoes the change before."
+        ),
     }
 }
 /// The unit cannot be converted without a molar mass.
