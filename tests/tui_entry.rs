@@ -815,3 +815,19 @@ fn every_help_list_fits_whole_at_80x24() {
         assert_eq!(bottom, quit + 1, "{s}:\n{shown}");
     }
 }
+
+#[test]
+fn the_dosing_strategy_is_typed_on_the_case_screen() {
+    use ebb::tui::fields::Field;
+    let mut app = App::demo();
+    go_to(&mut app, CaseLine::Field(Field::Strategy));
+    key(&mut app, KeyCode::Enter);
+    typed(&mut app, "extended-interval");
+    key(&mut app, KeyCode::Enter);
+    assert_eq!(app.file.drug.strategy.as_deref(), Some("extended-interval"));
+    assert!(app
+        .file
+        .to_toml()
+        .unwrap()
+        .contains("strategy = \"extended-interval\""));
+}

@@ -97,6 +97,10 @@ pub struct DrugFile {
     pub level_unit: Option<String>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub molar_mass_g_mol: Option<f64>,
+    /// Addition: the profile's dosing strategy (targets, usual intervals, sampling rules);
+    /// default: the profile's `default_strategy`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub strategy: Option<String>,
 }
 
 /// One `[[dose]]` as written.

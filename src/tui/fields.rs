@@ -48,6 +48,7 @@ pub enum Field {
     SwitchTo,
     SwitchBelow,
     SwitchHalfLives,
+    Strategy,
 }
 
 /// How a field is changed.
@@ -190,6 +191,7 @@ impl Field {
                 .unwrap_or_default(),
             Field::SwitchBelow => num(f.switch.as_ref().and_then(|s| s.start_below)),
             Field::SwitchHalfLives => num(f.switch.as_ref().and_then(|s| s.after_half_lives)),
+            Field::Strategy => f.drug.strategy.clone().unwrap_or_default(),
         }
     }
 
@@ -322,6 +324,7 @@ impl Field {
                 }
             }
             Field::TimeZone => f.time_zone = text_opt(),
+            Field::Strategy => f.drug.strategy = text_opt(),
             Field::SwitchTo => switch_mut(f).to = text_opt(),
             Field::SwitchBelow => switch_mut(f).start_below = entry::optional_number(text)?,
             Field::SwitchHalfLives => {
@@ -425,6 +428,7 @@ impl Field {
             Field::SwitchTo => place == "switch.to",
             Field::SwitchBelow => place == "switch.start_below",
             Field::SwitchHalfLives => place == "switch.after_half_lives",
+            Field::Strategy => place == "drug.strategy",
         }
     }
 }

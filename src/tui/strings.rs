@@ -384,6 +384,7 @@ pub fn field_label(f: Field) -> (&'static str, &'static str) {
         Field::SwitchTo => ("Next agent", "(free text)"),
         Field::SwitchBelow => ("Start below", ""),
         Field::SwitchHalfLives => ("or after", "half-lives (one of the two)"),
+        Field::Strategy => ("Strategy", "(empty: the profile's default)"),
     }
 }
 

@@ -42,9 +42,10 @@ pub const PATIENT_FIELDS: [Field; 6] = [
 ];
 
 /// The drug's fields, in screen order.
-pub const DRUG_FIELDS: [Field; 4] = [
+pub const DRUG_FIELDS: [Field; 5] = [
     Field::DrugName,
     Field::DrugProfile,
+    Field::Strategy,
     Field::Unit,
     Field::MolarMass,
 ];
