@@ -474,7 +474,8 @@ pub fn action_for(app: &App, key: KeyEvent) -> Option<Action> {
             _ => find(EDITING, app.screen, pressed),
         },
         Mode::RowDone(_) => match code {
-            _ if held => find(NORMAL, app.screen, pressed).filter(|a| *a == Action::Undo),
+            _ if held => find(NORMAL, app.screen, pressed)
+                .filter(|a| matches!(a, Action::Undo | Action::Save)),
             KeyCode::Enter => Some(Action::Accept),
             KeyCode::Esc => Some(Action::Cancel),
             KeyCode::Up => Some(Action::Up),

@@ -315,15 +315,14 @@ pub fn time_changed(app: &mut App, field: Field) {
         Field::LevelTime(i) => NewRow::Level(i),
         _ => return,
     };
-    let mark = app.undo.len().saturating_sub(1);
     let said = app
         .message
         .as_ref()
         .map(|m| m.text.clone())
         .unwrap_or_default();
+    // The reordering is its own undo step, described by the message below.
     let now = sort_rows(app, row);
     if now != row {
-        app.merge_undo_since(mark, &said);
         let (line, n, dose) = match now {
             NewRow::Dose(i) => (CaseLine::Dose(i), i + 1, true),
             NewRow::Level(i) => (CaseLine::Level(i), i + 1, false),

@@ -43,7 +43,12 @@ pub fn update(app: &mut App, action: Action) {
         Mode::ProfileInfo(top) => profile_info(app, top, action),
         Mode::Editing(ed) => edit(app, ed, action),
         Mode::RowDone(_) => match action {
-            Action::Up | Action::Down | Action::Left | Action::Right | Action::NextScreen(_) => {
+            Action::Up
+            | Action::Down
+            | Action::Left
+            | Action::Right
+            | Action::NextScreen(_)
+            | Action::Save => {
                 app.mode = Mode::Normal;
                 normal(app, action);
             }
