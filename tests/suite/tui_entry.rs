@@ -546,24 +546,6 @@ fn time_zone_switch_and_resume_are_typed_on_the_screens() {
 }
 
 #[test]
-#[ignore = "prints screens for reading by eye"]
-fn print_screens() {
-    let mut app = App::demo();
-    app.file.threshold.as_mut().unwrap().resume_after_h = Some(12.0);
-    let _ = app.change(|_| Ok(()));
-    app.figures = ebb::tui::figures::Figures::compute(&app.file, &app.profiles);
-    for s in ['1', '4', '5'] {
-        key(&mut app, KeyCode::Char(s));
-        println!("{}", text(&app, 80, 24));
-    }
-    go_to(
-        &mut app,
-        CaseLine::Field(ebb::tui::fields::Field::SwitchHalfLives),
-    );
-    println!("{}", text(&app, 80, 24));
-}
-
-#[test]
 fn creatinine_is_shown_in_the_unit_it_was_entered_in() {
     let dir = std::env::temp_dir().join(format!("ebb-entry-crea-{}", std::process::id()));
     std::fs::create_dir_all(&dir).unwrap();
