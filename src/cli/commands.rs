@@ -191,7 +191,7 @@ pub fn profiles(show: Option<(&str, bool)>, dir: Option<&Path>) -> ExitCode {
     let mut buf = Vec::new();
     let written = match show {
         None => crate::profiles::write_list(&mut buf, &catalog),
-        Some((name, toml)) => match catalog.lookup(name, "profile") {
+        Some((name, toml)) => match catalog.lookup_loosely(name, "profile") {
             Ok(entry) if toml => buf.write_all(entry.text.as_bytes()),
             Ok(entry) => crate::profiles::write_show(&mut buf, entry),
             Err(e) => return fail(format!("ebb profiles show: {e}")),

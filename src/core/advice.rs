@@ -15,6 +15,7 @@ use crate::core::model::Route;
 use crate::core::project::Patient;
 use crate::core::regimen::{self, Advice};
 use crate::core::switch::{self, SwitchRule};
+use crate::core::units::auc_unit;
 
 /// The published name of the two-level AUC method.
 pub const TRAPEZOID_METHOD: &str = "linear-up/log-down trapezoid (Chiou 1978)";
@@ -369,14 +370,15 @@ pub fn write_regimen_text(w: &mut dyn Write, a: &AdvicePart, u: &str) -> io::Res
             }
             writeln!(
                 w,
-                "  {}. {} mg {} every {} h: peak {} {u}{sampled}, trough {} {u}, AUC24 {} {u}·h{tail}",
+                "  {}. {} mg {} every {} h: peak {} {u}{sampled}, trough {} {u}, AUC24 {} {}{tail}",
                 i + 1,
                 num(s.dose_mg),
                 suggestion_route(s),
                 num(s.interval_h),
                 num(s.peak_ss),
                 num(s.trough_ss),
-                num(s.auc24_ss)
+                num(s.auc24_ss),
+                auc_unit(u)
             )?;
         }
     }
@@ -395,7 +397,7 @@ pub fn write_regimen_text(w: &mut dyn Write, a: &AdvicePart, u: &str) -> io::Res
         let unit = if q.basis == "peak" {
             u.to_string()
         } else {
-            format!("{u}·h")
+            auc_unit(u)
         };
         write!(
             w,
@@ -438,14 +440,20 @@ pub fn write_regimen_text(w: &mut dyn Write, a: &AdvicePart, u: &str) -> io::Res
         )?;
         writeln!(
             w,
-            "  from levels {} and {} by the {}: {} {u}·h",
+            "  from levels {} and {} by the {}: {} {}",
             x.level_rows[0],
             x.level_rows[1],
             x.method,
-            num(x.by_levels)
+            num(x.by_levels),
+            auc_unit(u)
         )?;
         match x.by_k_and_v {
-            Some(v) => writeln!(w, "  from k and V (dose / clearance): {} {u}·h", num(v))?,
+            Some(v) => writeln!(
+                w,
+                "  from k and V (dose / clearance): {} {}",
+                num(v),
+                auc_unit(u)
+            )?,
             None => writeln!(w, "  from k and V: not known (no volume)")?,
         }
         writeln!(w)?;

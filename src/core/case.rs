@@ -21,6 +21,8 @@ pub struct Patient {
     pub sex: Option<Sex>,
     /// Serum creatinine in mg/dL (converted from umol/L when given that way).
     pub creatinine_mg_dl: Option<f64>,
+    /// Serum creatinine as entered, when it was entered in umol/L (shown that way).
+    pub creatinine_umol_l: Option<f64>,
 }
 
 /// Sex as used by creatinine-clearance equations.
@@ -80,10 +82,23 @@ pub struct Level {
     pub value: f64,
     /// The value in mg/L.
     pub mg_l: f64,
-    /// Whether the user lets it into the fit.
+    /// Whether the user lets it into the fit (never for a level below the assay's limit).
     pub use_in_fit: bool,
+    /// Reported below the assay's limit (`value = "<0.5"`): `value` is the limit.
+    pub below_limit: bool,
     /// Free text.
     pub note: Option<String>,
+}
+
+impl Level {
+    /// The value as written: `<0.5` for a level below the assay's limit of 0.5.
+    pub fn value_words(&self) -> String {
+        if self.below_limit {
+            format!("<{}", crate::core::format::num(self.value))
+        } else {
+            crate::core::format::num(self.value)
+        }
+    }
 }
 
 /// The regimen to project.

@@ -119,17 +119,116 @@ pub struct DoseFile {
     pub bioavailability: Option<f64>,
 }
 
-/// One `[[level]]` as written.
+/// One `[[level]]` as written. A value written `"<0.5"` (addition) is a level the
+/// laboratory reported below its assay's limit: `value` holds the limit and `below_limit`
+/// is set.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-#[serde(deny_unknown_fields)]
+#[serde(from = "LevelRaw", into = "LevelRaw")]
 #[allow(missing_docs)]
 pub struct LevelFile {
     pub time: Datetime,
     pub value: f64,
-    #[serde(default, rename = "use", skip_serializing_if = "Option::is_none")]
+    pub below_limit: bool,
     pub use_in_fit: Option<bool>,
-    #[serde(default, skip_serializing_if = "Option::is_none")]
     pub note: Option<String>,
+}
+
+/// `[[level]]` as the TOML spells it.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct LevelRaw {
+    time: Datetime,
+    value: LevelValue,
+    #[serde(default, rename = "use", skip_serializing_if = "Option::is_none")]
+    use_in_fit: Option<bool>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    note: Option<String>,
+}
+
+impl From<LevelRaw> for LevelFile {
+    fn from(r: LevelRaw) -> Self {
+        LevelFile {
+            time: r.time,
+            value: r.value.value,
+            below_limit: r.value.below_limit,
+            use_in_fit: r.use_in_fit,
+            note: r.note,
+        }
+    }
+}
+
+impl From<LevelFile> for LevelRaw {
+    fn from(l: LevelFile) -> Self {
+        LevelRaw {
+            time: l.time,
+            value: LevelValue {
+                value: l.value,
+                below_limit: l.below_limit,
+            },
+            use_in_fit: l.use_in_fit,
+            note: l.note,
+        }
+    }
+}
+
+/// A level's value: a number, or `"<limit"` for a level below the assay's limit.
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct LevelValue {
+    value: f64,
+    below_limit: bool,
+}
+
+impl Serialize for LevelValue {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> std::result::Result<S::Ok, S::Error> {
+        if self.below_limit {
+            s.serialize_str(&format!("<{}", self.value))
+        } else {
+            s.serialize_f64(self.value)
+        }
+    }
+}
+
+impl<'de> Deserialize<'de> for LevelValue {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> std::result::Result<Self, D::Error> {
+        struct V;
+        impl serde::de::Visitor<'_> for V {
+            type Value = LevelValue;
+            fn expecting(&self, f: &mut std::fmt::Formatter) -> std::fmt::Result {
+                f.write_str("a number, or \"<0.5\" for a level below the assay's limit")
+            }
+            fn visit_f64<E: serde::de::Error>(self, v: f64) -> std::result::Result<LevelValue, E> {
+                Ok(LevelValue {
+                    value: v,
+                    below_limit: false,
+                })
+            }
+            fn visit_i64<E: serde::de::Error>(self, v: i64) -> std::result::Result<LevelValue, E> {
+                self.visit_f64(v as f64)
+            }
+            fn visit_u64<E: serde::de::Error>(self, v: u64) -> std::result::Result<LevelValue, E> {
+                self.visit_f64(v as f64)
+            }
+            fn visit_str<E: serde::de::Error>(self, v: &str) -> std::result::Result<LevelValue, E> {
+                parse_below_limit(v)
+                    .map(|x| LevelValue {
+                        value: x,
+                        below_limit: true,
+                    })
+                    .ok_or_else(|| {
+                        E::custom(format!(
+                            "write a number, or \"<0.5\" for a level below the assay's limit; got \"{v}\""
+                        ))
+                    })
+            }
+        }
+        d.deserialize_any(V)
+    }
+}
+
+/// The limit of a value written `<0.5` (spaces allowed after `<`), when it is one.
+pub fn parse_below_limit(text: &str) -> Option<f64> {
+    let rest = text.trim().strip_prefix('<')?;
+    rest.trim().replace(',', ".").parse::<f64>().ok()
 }
 
 /// `[plan]` as written.
@@ -430,7 +529,10 @@ impl CaseFile {
                 t,
                 value: l.value,
                 mg_l,
-                use_in_fit: l.use_in_fit.unwrap_or(true),
+                // A level below the assay's limit is not a measurement a fit can use: it
+                // bounds the level from above (see the report's warning).
+                use_in_fit: l.use_in_fit.unwrap_or(true) && !l.below_limit,
+                below_limit: l.below_limit,
                 note: l.note.clone(),
             });
         }
@@ -827,7 +929,49 @@ fn syntax_error(text: &str, e: &toml::de::Error) -> Error {
         .map(|s| text[..s.start.min(text.len())].matches('\n').count() + 1)
         .unwrap_or(1);
     let message = text::one_line(e.message());
-    Error::Syntax { line, message }
+    match place_on_line(text, line) {
+        // A wrong type or an impossible date names its row and field like every other
+        // error, with the line as well.
+        Some(place) => Error::invalid(place, format!("{message} (line {line})")),
+        None => Error::Syntax { line, message },
+    }
+}
+
+/// The row and field a line of a case file sets, as validation names them (`level 2:
+/// time`, `plan.dose_mg`, `time_zone`); `None` for a header, a blank or a continued line.
+fn place_on_line(text: &str, line: usize) -> Option<String> {
+    let mut table: Option<(String, bool)> = None;
+    let mut counts: std::collections::HashMap<String, usize> = std::collections::HashMap::new();
+    for (i, raw) in text.lines().enumerate() {
+        let l = raw.trim();
+        if i + 1 == line {
+            if l.starts_with('[') || l.starts_with('#') {
+                return None;
+            }
+            let (key, _) = l.split_once('=')?;
+            let key = key.trim().trim_matches('"');
+            if key.is_empty() {
+                return None;
+            }
+            return Some(match &table {
+                None => key.to_string(),
+                Some((name, true)) => {
+                    let n = counts.get(name).copied().unwrap_or(0);
+                    format!("{name} {n}: {key}")
+                }
+                Some((name, false)) => format!("{name}.{key}"),
+            });
+        }
+        if let Some(rest) = l.strip_prefix("[[") {
+            let name = rest.split("]]").next().unwrap_or("").trim().to_string();
+            *counts.entry(name.clone()).or_insert(0) += 1;
+            table = Some((name, true));
+        } else if let Some(rest) = l.strip_prefix('[') {
+            let name = rest.split(']').next().unwrap_or("").trim().to_string();
+            table = Some((name, false));
+        }
+    }
+    None
 }
 
 fn positive(x: f64, place: &str) -> Result<()> {
@@ -893,6 +1037,7 @@ fn validate_patient(p: &PatientFile) -> Result<Patient> {
         age_years: p.age_years,
         sex,
         creatinine_mg_dl: creatinine,
+        creatinine_umol_l: p.creatinine_umol_l,
     })
 }
 
@@ -900,7 +1045,10 @@ fn validate_drug(d: &DrugFile, defaults: &Defaults) -> Result<Drug> {
     let unit_text = d.level_unit.as_deref().ok_or_else(|| {
         Error::invalid(
             "drug.level_unit",
-            "missing; say which unit the levels are in (mg/L, ug/mL, ng/mL, ug/L, mmol/L, umol/L)",
+            format!(
+                "missing; say which unit the levels are in ({})",
+                LevelUnit::names()
+            ),
         )
     })?;
     let unit = LevelUnit::parse(unit_text, "drug.level_unit")?;

@@ -2,7 +2,17 @@
 
 use crate::core::clock::Stamp;
 
-/// A number for people: four significant figures, trailing zeros trimmed.
+/// A fit method's name in running text: the case-file spelling, with Bayesian capitalised
+/// (the JSON keeps the case-file spelling).
+pub fn method_word(method: &str) -> &str {
+    match method {
+        "bayesian" => "Bayesian",
+        other => other,
+    }
+}
+
+/// A number for people: four significant figures, trailing zeros trimmed, never in
+/// exponent form for values from 1e-12 to 1e15.
 pub fn num(x: f64) -> String {
     if !x.is_finite() {
         return "—".into();
@@ -12,7 +22,9 @@ pub fn num(x: f64) -> String {
     }
     let digits = 4i32;
     let mag = x.abs().log10().floor() as i32;
-    if !(-4..=9).contains(&mag) {
+    // Written out as a pharmacist writes it (0.00005265, not 5.265e-5); only figures no
+    // bedside value reaches fall back to the exponent form.
+    if !(-12..=15).contains(&mag) {
         return format!("{x:.3e}");
     }
     let decimals = (digits - 1 - mag).max(0) as usize;

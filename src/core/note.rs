@@ -6,6 +6,7 @@ use std::io::{self, Write};
 use crate::core::case::{Case, Sex};
 use crate::core::report::{self, num, Report, CAUTION};
 use crate::core::text;
+use crate::core::units::auc_unit;
 
 /// How the note is laid out.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -74,6 +75,8 @@ fn level_use(case: &Case, r: &Report, i: usize) -> String {
         "in the fit".into()
     } else if r.fit.pre_dose_row == Some(l.row) {
         "pre-dose level, used for the volume".into()
+    } else if l.below_limit {
+        "below the assay's limit: left out of the fit".into()
     } else if !l.use_in_fit {
         "left out by the user (use = false)".into()
     } else {
@@ -160,8 +163,11 @@ pub fn write_note(
             Sex::Male => "male".to_string(),
         });
     }
-    if let Some(x) = p.creatinine_mg_dl {
-        facts.push(format!("creatinine {} mg/dL", num(x)));
+    // In the unit it was entered in, as the laboratory reported it.
+    match (p.creatinine_umol_l, p.creatinine_mg_dl) {
+        (Some(x), _) => facts.push(format!("creatinine {} umol/L", num(x))),
+        (None, Some(x)) => facts.push(format!("creatinine {} mg/dL", num(x))),
+        (None, None) => {}
     }
     if !facts.is_empty() {
         writeln!(w, "{item}{}", facts.join(", "))?;
@@ -214,7 +220,7 @@ pub fn write_note(
                 "| {} | {} | {} {u} | {why} | {note} |",
                 l.row,
                 l.time.readable(true),
-                num(l.value)
+                l.value_words()
             )?;
         } else {
             let tail = if note.is_empty() {
@@ -227,7 +233,7 @@ pub fn write_note(
                 "  level {}  {}  {} {u}  {why}{tail}",
                 l.row,
                 l.time.readable(true),
-                num(l.value)
+                l.value_words()
             )?;
         }
     }
@@ -265,7 +271,7 @@ pub fn write_note(
             parts.push(format!("trough <= {} {u}", num(m)));
         }
         if let Some([a, b]) = t.auc24 {
-            parts.push(format!("AUC24 {}–{} {u}·h", num(a), num(b)));
+            parts.push(format!("AUC24 {}–{} {}", num(a), num(b), auc_unit(u)));
         }
         writeln!(w, "{item}Targets: {}", parts.join(", "))?;
     }

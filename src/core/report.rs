@@ -1,7 +1,7 @@
 //! The report as plain data: every figure of contract v1 in the case's unit and clock times,
 //! plus the readable text form. The JSON wire form lives in `json`.
 
-pub use crate::core::format::{num, when};
+pub use crate::core::format::{method_word, num, when};
 use crate::core::warning::{Code, Warning};
 use std::io::{self, Write};
 
@@ -13,6 +13,7 @@ use crate::core::fitted;
 use crate::core::population::Summary;
 use crate::core::project::{self, Patient};
 use crate::core::uncertainty;
+use crate::core::units::auc_unit;
 use crate::core::units::LevelUnit;
 
 /// The caution shown first in every report, note and screen.
@@ -425,9 +426,40 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
 /// drugs managed by levels have half-lives of an hour or more even with the fastest
 /// clearance (common practice), so such a fit comes from a slip in the times.
 pub const MIN_PLAUSIBLE_HALF_LIFE_H: f64 = 5.0 / 60.0;
+/// Levels reported below the assay's limit: none is in any fit (no method here treats a
+/// censored value), but each bounds the level at its time from above, so the fitted
+/// course is checked against it.
+fn below_limit_warnings(case: &Case, fit: &Fit, warnings: &mut Vec<Warning>) {
+    let patient = Patient::new(case, fit);
+    let u = case.drug.scale.unit.as_str();
+    for l in case.levels.iter().filter(|l| l.below_limit) {
+        let model = case.drug.scale.to_level(patient.level_mg_l(l.t));
+        let check = if model.is_finite() && model > l.value {
+            format!(
+                "the fitted course gives {} {u} then, ABOVE that limit: the fit and the laboratory disagree; check the times, the doses and the fit",
+                num(model)
+            )
+        } else {
+            format!(
+                "the fitted course gives {} {u} then, below the limit, as it should",
+                num(model)
+            )
+        };
+        warnings.push(Warning::about_level(
+            Code::BelowLimit,
+            l.row,
+            format!(
+                "level {} was reported below the assay's limit ({} {u}): it is left out of every fit and only bounds the level at that time; {check}",
+                l.row,
+                l.value_words()
+            ),
+        ));
+    }
+}
 
 /// Warnings read off the shape of the data: timing, route and curvature.
 fn shape_warnings(case: &Case, fit: &Fit, warnings: &mut Vec<Warning>) {
+    below_limit_warnings(case, fit, warnings);
     if case
         .doses
         .iter()
@@ -691,7 +723,7 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
         writeln!(
             w,
             "Fit: {} over {} levels (level {}) after dose {}",
-            f.method,
+            method_word(f.method),
             f.level_rows.len(),
             rows.join(", "),
             f.window_dose_row
@@ -700,13 +732,13 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
         writeln!(
             w,
             "Fit: {} from population priors alone (no level)",
-            f.method
+            method_word(f.method)
         )?;
     } else {
         writeln!(
             w,
             "Fit: {} over {} level{} (level {}) against the whole dose record",
-            f.method,
+            method_word(f.method),
             rows.len(),
             if rows.len() == 1 { "" } else { "s" },
             rows.join(", ")
@@ -851,7 +883,7 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
             None => line(w, "peak", p.peak_ss, p.peak_ss_ci95, u)?,
         }
         line(w, "trough", p.trough_ss, p.trough_ss_ci95, u)?;
-        line(w, "AUC24", p.auc24_ss, p.auc24_ss_ci95, &format!("{u}·h"))?;
+        line(w, "AUC24", p.auc24_ss, p.auc24_ss_ci95, &auc_unit(u))?;
         if let Some(h) = p.drug_free_h {
             writeln!(
                 w,

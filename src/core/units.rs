@@ -17,18 +17,30 @@ pub enum LevelUnit {
     MmolPerL,
     /// micromoles per litre (needs a molar mass)
     UmolPerL,
+    /// nanomoles per litre (needs a molar mass; addition to contract v1, used for digoxin)
+    NmolPerL,
 }
 
 impl LevelUnit {
     /// Every unit, in the order shown to users.
-    pub const ALL: [LevelUnit; 6] = [
+    pub const ALL: [LevelUnit; 7] = [
         LevelUnit::MgPerL,
         LevelUnit::UgPerMl,
         LevelUnit::NgPerMl,
         LevelUnit::UgPerL,
         LevelUnit::MmolPerL,
         LevelUnit::UmolPerL,
+        LevelUnit::NmolPerL,
     ];
+
+    /// Every spelling, comma-separated, for messages.
+    pub fn names() -> String {
+        LevelUnit::ALL
+            .iter()
+            .map(|u| u.as_str())
+            .collect::<Vec<_>>()
+            .join(", ")
+    }
 
     /// Parse the spelling used in case files.
     ///
@@ -42,8 +54,9 @@ impl LevelUnit {
                 Error::invalid(
                     place,
                     format!(
-                        "unknown unit {}; use one of mg/L, ug/mL, ng/mL, ug/L, mmol/L, umol/L",
-                        crate::core::text::quoted(text)
+                        "unknown unit {}; use one of {}",
+                        crate::core::text::quoted(text),
+                        LevelUnit::names()
                     ),
                 )
             })
@@ -58,12 +71,16 @@ impl LevelUnit {
             LevelUnit::UgPerL => "ug/L",
             LevelUnit::MmolPerL => "mmol/L",
             LevelUnit::UmolPerL => "umol/L",
+            LevelUnit::NmolPerL => "nmol/L",
         }
     }
 
     /// Whether the unit counts molecules and so needs a molar mass.
     pub fn is_molar(self) -> bool {
-        matches!(self, LevelUnit::MmolPerL | LevelUnit::UmolPerL)
+        matches!(
+            self,
+            LevelUnit::MmolPerL | LevelUnit::UmolPerL | LevelUnit::NmolPerL
+        )
     }
 
     /// How many of this unit make 1 mg/L, given the molar mass (g/mol) for molar units.
@@ -74,7 +91,17 @@ impl LevelUnit {
             LevelUnit::NgPerMl | LevelUnit::UgPerL => Some(1000.0),
             LevelUnit::MmolPerL => molar_mass_g_mol.map(|m| 1.0 / m),
             LevelUnit::UmolPerL => molar_mass_g_mol.map(|m| 1000.0 / m),
+            LevelUnit::NmolPerL => molar_mass_g_mol.map(|m| 1.0e6 / m),
         }
+    }
+}
+
+/// The unit of an area under the curve for levels in `level_unit`, written one way
+/// everywhere: `mg·h/L` for mg/L, `nmol·h/L` for nmol/L, `ug·h/mL` for ug/mL.
+pub fn auc_unit(level_unit: &str) -> String {
+    match level_unit.split_once('/') {
+        Some((amount, volume)) => format!("{amount}·h/{volume}"),
+        None => format!("{level_unit}·h"),
     }
 }
 
@@ -111,6 +138,25 @@ mod tests {
         // Phenytoin 10 mg/L = 39.64 umol/L with MW 252.27 (drug-facts.md, [AccessPharm-Conv]).
         let f = LevelUnit::UmolPerL.per_mg_l(Some(252.27)).unwrap();
         assert!((10.0 * f - 39.64).abs() < 0.005);
+    }
+
+    #[test]
+    fn nanomoles_per_litre_use_the_molar_mass() {
+        // nmol/L = mg/L x 1e6 / molar mass (definition of the units). Digoxin 1 ng/mL is
+        // about 1.28 nmol/L with a molar mass of 780.9 g/mol (hand-worked, 1000 / 780.9;
+        // the conversion factor 1.28 is common practice on laboratory reports).
+        let u = LevelUnit::parse("nmol/L", "drug.level_unit").unwrap();
+        let f = u.per_mg_l(Some(780.9)).unwrap();
+        assert!((0.001 * f - 1.2806).abs() < 1e-4, "{f}");
+        assert_eq!(u.per_mg_l(None), None);
+        assert!(u.is_molar());
+    }
+
+    #[test]
+    fn areas_are_written_amount_hour_per_volume() {
+        assert_eq!(auc_unit("mg/L"), "mg·h/L");
+        assert_eq!(auc_unit("nmol/L"), "nmol·h/L");
+        assert_eq!(auc_unit("ug/mL"), "ug·h/mL");
     }
 
     #[test]

@@ -76,11 +76,13 @@ pub enum Code {
     OutsideRange,
     /// Local clock times with no time zone span a change of the machine's UTC offset.
     ClockChange,
+    /// A level was reported below the assay's limit: out of the fit, checked as a bound.
+    BelowLimit,
 }
 
 impl Code {
     /// Every code, in declaration order.
-    pub const ALL: [Code; 34] = [
+    pub const ALL: [Code; 35] = [
         Code::OutsideWindow,
         Code::DistributionPhase,
         Code::RisingLevels,
@@ -115,6 +117,7 @@ impl Code {
         Code::LevelImplausible,
         Code::OutsideRange,
         Code::ClockChange,
+        Code::BelowLimit,
     ];
 
     /// The code as the JSON report spells it.
@@ -154,6 +157,7 @@ impl Code {
             Code::LevelImplausible => "level-implausible",
             Code::OutsideRange => "outside-range",
             Code::ClockChange => "clock-change",
+            Code::BelowLimit => "below-limit",
         }
     }
 }

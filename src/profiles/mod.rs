@@ -296,6 +296,21 @@ impl Catalog {
         })
     }
 
+    /// As `lookup`, but a name typed in other capitals (`Vancomycin`) or spaced like the
+    /// display name (`valproic acid`) finds its profile too: for people typing commands,
+    /// not for case files.
+    ///
+    /// # Errors
+    /// No profile of that name in any capitals.
+    pub fn lookup_loosely(&self, name: &str, field: &str) -> Result<&Entry> {
+        let loose = |s: &str| s.trim().to_lowercase().replace(' ', "-");
+        let want = loose(name);
+        match self.entries.iter().find(|e| loose(&e.name) == want) {
+            Some(e) => Ok(e),
+            None => self.lookup(name, field),
+        }
+    }
+
     /// Name, display name, unit, origin and cautions of every profile (for a chooser list).
     pub fn summaries(&self) -> Vec<Summary> {
         self.entries

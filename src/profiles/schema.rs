@@ -337,8 +337,9 @@ impl Profile {
             problem(
                 "level_unit",
                 format!(
-                    "unknown unit {}; use one of mg/L, ug/mL, ng/mL, ug/L, mmol/L, umol/L",
-                    quoted(&self.level_unit)
+                    "unknown unit {}; use one of {}",
+                    quoted(&self.level_unit),
+                    LevelUnit::names()
                 ),
             )
         })

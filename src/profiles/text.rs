@@ -6,6 +6,7 @@ use std::io::{self, Write};
 use crate::core::case::Case;
 use crate::core::clock::span_words;
 use crate::core::report::{num, CAUTION};
+use crate::core::units::auc_unit;
 use crate::profiles::schema::{Estimate, FirstOrder, Sourced, SourcedRange};
 use crate::profiles::{refusal, Catalog, Entry};
 
@@ -158,7 +159,7 @@ pub fn write_show(w: &mut dyn Write, e: &Entry) -> io::Result<()> {
             writeln!(w, "    trough max  {}", one(t, &u))?;
         }
         if let Some(a) = &s.auc24 {
-            writeln!(w, "    AUC24       {}", range(a, &format!("{u}·h")))?;
+            writeln!(w, "    AUC24       {}", range(a, &auc_unit(&u)))?;
         }
         if let Some(r) = &s.range {
             writeln!(w, "    range       {} (shown, not checked)", range(r, &u))?;

@@ -77,4 +77,10 @@ pub enum Action {
     No,
     /// Save, then quit.
     SaveThenQuit,
+    /// Put the case back as it was before the last change.
+    Undo,
+    /// Scroll the fit screen's figures and warnings down (true) or up.
+    Scroll(bool),
+    /// A character typed where it is not a command (just after a new row): said, not done.
+    Stray(char),
 }

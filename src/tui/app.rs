@@ -62,6 +62,9 @@ pub enum Mode {
     Help,
     /// A question waits for yes or no.
     Confirm(Confirm),
+    /// A new row has just been filled in: letters and Space do nothing (they are not
+    /// commands until Enter, Esc or an arrow key says the row is done).
+    RowDone(NewRow),
     /// The drug-profile list is open; the number is the highlighted line (0: no profile).
     ChooseProfile(usize),
     /// The chosen profile's targets, sampling advice and cautions are shown, scrolled down
@@ -93,10 +96,13 @@ pub struct Editor {
     pub cursor: usize,
     /// Why the text would not be accepted as it stands (checked on every key).
     pub error: Option<String>,
-    /// The field to edit next when this one is accepted (for new rows).
-    pub then: Option<Field>,
+    /// The fields to edit next, in order, when this one is accepted (for new rows).
+    pub then: Vec<Field>,
     /// The row this editor is filling in for the first time: cancelling removes it.
     pub new_row: Option<NewRow>,
+    /// The length of the undo list before the new row was added (a finished row is one
+    /// undo step; a dropped one leaves none).
+    pub undo_mark: Option<usize>,
 }
 
 /// A row being added.
@@ -116,11 +122,24 @@ impl Editor {
             buffer: text,
             target,
             error: None,
-            then: None,
+            then: Vec::new(),
             new_row: None,
+            undo_mark: None,
         }
     }
 }
+
+/// A change that can be undone: the case as it was before, and what the change was.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Undo {
+    /// The case before the change.
+    pub file: CaseFile,
+    /// What the message line said about the change (empty until it says something).
+    pub what: String,
+}
+
+/// How many changes can be undone.
+pub const UNDO_DEPTH: usize = 200;
 
 /// A question that needs a yes or no.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -163,6 +182,8 @@ pub struct Cursors {
     pub plan: usize,
     /// Selected field on the threshold screen.
     pub threshold: usize,
+    /// Lines the fit screen's figures and warnings are scrolled by.
+    pub fit_scroll: u16,
 }
 
 /// The whole UI state.
@@ -215,6 +236,15 @@ pub struct App {
     pub on_disk: store::Expect,
     /// The file a save found changed on disk, while the user is asked about overwriting it.
     pub pending_overwrite: Option<PathBuf>,
+    /// The window size in cells, when known (the run loop sets it): below the smallest
+    /// size the screen is not drawn and no key but quit acts.
+    pub window: Option<(u16, u16)>,
+    /// The changes that can be undone, oldest first.
+    pub undo: Vec<Undo>,
+    /// Whether the last undo entry still waits for the message that describes it.
+    pub undo_unlabelled: bool,
+    /// The editor a quit question interrupted (given back when the user stays).
+    pub held_editor: Option<Editor>,
 }
 
 impl App {
@@ -244,6 +274,10 @@ impl App {
             profiles,
             on_disk: store::Expect::Unchanged(None),
             pending_overwrite: None,
+            window: None,
+            undo: Vec::new(),
+            undo_unlabelled: false,
+            held_editor: None,
         }
     }
 
@@ -359,7 +393,15 @@ impl App {
         let mut next = self.file.clone();
         change(&mut next)?;
         if next != self.file {
-            self.file = next;
+            let before = std::mem::replace(&mut self.file, next);
+            self.undo.push(Undo {
+                file: before,
+                what: String::new(),
+            });
+            if self.undo.len() > UNDO_DEPTH {
+                self.undo.remove(0);
+            }
+            self.undo_unlabelled = true;
             self.dirty = self.file != self.saved;
             self.figures = Figures::compute(&self.file, &self.profiles);
         }
@@ -368,18 +410,67 @@ impl App {
 
     /// Show a message on the message line.
     pub fn say(&mut self, text: impl Into<String>) {
+        let text = text.into();
+        self.label_undo(&text);
         self.message = Some(Message {
-            text: text.into(),
+            text,
             is_error: false,
         });
     }
 
     /// Show a problem on the message line.
     pub fn complain(&mut self, text: impl Into<String>) {
+        let text = text.into();
+        self.label_undo(&text);
         self.message = Some(Message {
-            text: text.into(),
+            text,
             is_error: true,
         });
+    }
+
+    /// The first message after a change describes it in the undo list.
+    fn label_undo(&mut self, text: &str) {
+        if std::mem::take(&mut self.undo_unlabelled) {
+            if let Some(u) = self.undo.last_mut() {
+                u.what = text.to_string();
+            }
+        }
+    }
+
+    /// Put the case back as it was before the last change; `None` when there is nothing
+    /// to undo, else what was undone.
+    pub fn undo_last(&mut self) -> Option<String> {
+        let u = self.undo.pop()?;
+        self.undo_unlabelled = false;
+        self.file = u.file;
+        self.dirty = self.file != self.saved;
+        self.figures = Figures::compute(&self.file, &self.profiles);
+        Some(u.what)
+    }
+
+    /// Make every change since the undo list had `mark` entries one undo step, described
+    /// by `what`.
+    pub fn merge_undo_since(&mut self, mark: usize, what: &str) {
+        if self.undo.len() > mark {
+            self.undo.truncate(mark + 1);
+            if let Some(u) = self.undo.last_mut() {
+                u.what = what.to_string();
+            }
+            self.undo_unlabelled = false;
+        }
+    }
+
+    /// Forget the changes since the undo list had `mark` entries (a row that was dropped).
+    pub fn drop_undo_since(&mut self, mark: usize) {
+        self.undo.truncate(mark);
+        self.undo_unlabelled = false;
+    }
+
+    /// Whether the window is known to be smaller than the screens are laid out for.
+    pub fn window_too_small(&self) -> bool {
+        self.window.is_some_and(|(w, h)| {
+            w < crate::tui::view::MIN_WIDTH || h < crate::tui::view::MIN_HEIGHT
+        })
     }
 
     /// Whether the run loop should end.

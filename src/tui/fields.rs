@@ -1,7 +1,9 @@
 //! Every editable field of a case: how it reads from the `CaseFile`, how typed text or a
 //! choice is written back, and which validation places belong to it.
 
-use crate::core::casefile::{CaseFile, DoseFile, LevelFile, PlanFile, TargetsFile, ThresholdFile};
+use crate::core::casefile::{
+    CaseFile, DoseFile, LevelFile, PlanFile, SwitchFile, TargetsFile, ThresholdFile,
+};
 use crate::core::units::LevelUnit;
 use crate::tui::entry;
 use crate::tui::strings;
@@ -40,6 +42,13 @@ pub enum Field {
     TargetAuc,
     ThresholdBelow,
     ThresholdProcedure,
+    ResumeBelow,
+    ResumeAfter,
+    TimeZone,
+    SwitchTo,
+    SwitchBelow,
+    SwitchHalfLives,
+    Strategy,
 }
 
 /// How a field is changed.
@@ -138,9 +147,17 @@ impl Field {
             Field::LevelTime(i) => level(i)
                 .map(|l| entry::show_datetime(&l.time))
                 .unwrap_or_default(),
-            Field::LevelValue(i) => level(i).map(|l| l.value.to_string()).unwrap_or_default(),
+            Field::LevelValue(i) => level(i)
+                .map(|l| {
+                    if l.below_limit {
+                        format!("<{}", l.value)
+                    } else {
+                        l.value.to_string()
+                    }
+                })
+                .unwrap_or_default(),
             Field::LevelUse(i) => match level(i) {
-                Some(l) if l.use_in_fit == Some(false) => strings::NO.into(),
+                Some(l) if l.use_in_fit == Some(false) || l.below_limit => strings::NO.into(),
                 Some(_) => strings::YES.into(),
                 None => String::new(),
             },
@@ -164,6 +181,17 @@ impl Field {
                 .and_then(|t| t.procedure.as_ref())
                 .map(entry::show_datetime)
                 .unwrap_or_default(),
+            Field::ResumeBelow => num(f.threshold.as_ref().and_then(|t| t.resume_below)),
+            Field::ResumeAfter => num(f.threshold.as_ref().and_then(|t| t.resume_after_h)),
+            Field::TimeZone => f.time_zone.clone().unwrap_or_default(),
+            Field::SwitchTo => f
+                .switch
+                .as_ref()
+                .and_then(|s| s.to.clone())
+                .unwrap_or_default(),
+            Field::SwitchBelow => num(f.switch.as_ref().and_then(|s| s.start_below)),
+            Field::SwitchHalfLives => num(f.switch.as_ref().and_then(|s| s.after_half_lives)),
+            Field::Strategy => f.drug.strategy.clone().unwrap_or_default(),
         }
     }
 
@@ -207,8 +235,17 @@ impl Field {
                 level_mut(f, i)?.time = v;
             }
             Field::LevelValue(i) => {
-                let v = entry::number(text)?;
-                level_mut(f, i)?.value = v;
+                // "<0.5": reported below the assay's limit of 0.5.
+                let (v, below) = match crate::core::casefile::parse_below_limit(text) {
+                    Some(x) => (x, true),
+                    None if text.trim().starts_with('<') => {
+                        return Err(strings::BELOW_LIMIT_FORM.into())
+                    }
+                    None => (entry::number(text)?, false),
+                };
+                let l = level_mut(f, i)?;
+                l.value = v;
+                l.below_limit = below;
             }
             Field::LevelNote(i) => {
                 let v = text_opt();
@@ -277,11 +314,30 @@ impl Field {
                     None => return Err(strings::THRESHOLD_FIRST.into()),
                 }
             }
+            Field::ResumeBelow | Field::ResumeAfter => {
+                let v = entry::optional_number(text)?;
+                match f.threshold.as_mut() {
+                    Some(t) if self == Field::ResumeBelow => t.resume_below = v,
+                    Some(t) => t.resume_after_h = v,
+                    None if v.is_none() => {}
+                    None => return Err(strings::THRESHOLD_FIRST.into()),
+                }
+            }
+            Field::TimeZone => f.time_zone = text_opt(),
+            Field::Strategy => f.drug.strategy = text_opt(),
+            Field::SwitchTo => switch_mut(f).to = text_opt(),
+            Field::SwitchBelow => switch_mut(f).start_below = entry::optional_number(text)?,
+            Field::SwitchHalfLives => {
+                switch_mut(f).after_half_lives = entry::optional_number(text)?
+            }
             Field::Sex
             | Field::Unit
             | Field::DoseRoute(_)
             | Field::LevelUse(_)
             | Field::PlanRoute => return Err(strings::CHOICE_NOT_TYPED.into()),
+        }
+        if f.switch.as_ref() == Some(&SwitchFile::default()) {
+            f.switch = None;
         }
         Ok(())
     }
@@ -366,6 +422,13 @@ impl Field {
             Field::TargetAuc => place == "targets.auc24",
             Field::ThresholdBelow => place == "threshold.below",
             Field::ThresholdProcedure => place == "threshold.procedure",
+            Field::ResumeBelow => place == "threshold.resume_below",
+            Field::ResumeAfter => place == "threshold.resume_after_h",
+            Field::TimeZone => place == "time_zone",
+            Field::SwitchTo => place == "switch.to",
+            Field::SwitchBelow => place == "switch.start_below",
+            Field::SwitchHalfLives => place == "switch.after_half_lives",
+            Field::Strategy => place == "drug.strategy",
         }
     }
 }
@@ -398,6 +461,10 @@ fn level_mut(f: &mut CaseFile, i: usize) -> Result<&mut LevelFile, String> {
     f.levels
         .get_mut(i)
         .ok_or_else(|| strings::NO_SUCH_ROW.into())
+}
+
+fn switch_mut(f: &mut CaseFile) -> &mut SwitchFile {
+    f.switch.get_or_insert_with(SwitchFile::default)
 }
 
 fn targets_mut(f: &mut CaseFile) -> &mut TargetsFile {

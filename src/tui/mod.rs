@@ -1,7 +1,8 @@
 //! The bedside terminal UI: state (`app`), intents (`action`), keys (`keymap`), changes
-//! (`update`), the drug profiles on offer (`catalog`), figures from the core (`figures`),
-//! drawing (`view`, `screens`, `widgets`), words (`strings`), the effects `update` asks for
-//! (`effect`: saving, the note) and the run loop (`run`).
+//! (`update`), entering rows and undoing (`rows`), the drug profiles on offer (`catalog`),
+//! figures from the core (`figures`), drawing (`view`, `screens`, `widgets`), words
+//! (`strings`), the effects `update` asks for (`effect`: saving, the note) and the run loop
+//! (`run`).
 
 pub mod action;
 pub mod app;
@@ -11,6 +12,7 @@ pub mod entry;
 pub mod fields;
 pub mod figures;
 pub mod keymap;
+pub mod rows;
 pub mod run;
 pub mod screens;
 pub mod strings;

@@ -68,6 +68,9 @@ fn run_loop(
                 recovery: keep_unsaved(&app),
             });
         }
+        // The keys look at the size too: nothing acts on a screen that is not drawn.
+        let size = terminal.size()?;
+        app.window = Some((size.width, size.height));
         terminal.draw(|frame| view::draw(&app, frame))?;
         // Wake up now and then to notice a signal.
         match event::poll(Duration::from_millis(200)) {
@@ -95,7 +98,6 @@ pub fn keep_unsaved(app: &App) -> Option<Result<PathBuf, String>> {
     let text = toml_keep::render(&app.file, app.source_text.as_deref());
     Some(text.and_then(|t| recover::write(app.path.as_deref(), &t).map_err(|e| e.to_string())))
 }
-
 
 /// One line on standard error, every control character made visible; a failure to write
 /// there is ignored (there is nowhere left to say it; the exit status still tells).

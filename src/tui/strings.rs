@@ -1,7 +1,8 @@
 //! Every word the bedside UI shows, in one place.
 
 use crate::core::fit::VolumeMethod;
-use crate::core::report::{num, Report};
+use crate::core::report::{method_word, num, Report};
+use crate::core::units::auc_unit;
 use crate::tui::app::{App, Screen};
 use crate::tui::fields::Field;
 use crate::tui::figures::ThresholdFrom;
@@ -49,9 +50,7 @@ pub fn hint(s: Screen) -> &'static str {
         Screen::Case => {
             "↑↓←→ move  Enter edit  a add  x delete  u use  p profile  n note  ? keys  q quit"
         }
-        Screen::Fit => {
-            "↑↓ level  Space/u use in fit  m method  n note  ? keys  Ctrl-S save  q quit"
-        }
+        Screen::Fit => "↑↓ level  Space/u use in fit  m method  PgDn warnings  ? keys  q quit",
         Screen::Plan => {
             "+/- dose  [ ] interval  { } infusion  r route  t take suggestion  ? keys  q quit"
         }
@@ -65,6 +64,11 @@ pub fn hint(s: Screen) -> &'static str {
 pub const HINT_EDITING: &str = "Enter accept  Esc cancel  ←→ Home End move  Backspace Delete erase";
 /// The key hint line while the help is shown.
 pub const HINT_HELP: &str = "? or Esc closes the key list";
+/// The key hint line while a new row waits.
+pub const HINT_ROW_DONE: &str =
+    "Row done: Enter or ↑↓ go on  Ctrl-Z removes it  (letters do nothing here)";
+/// Under the request for a larger window.
+pub const KEYS_WAIT: &str = "Keys do nothing until then, except q or Ctrl-C to quit.";
 /// The key hint line while a question waits.
 pub const HINT_CONFIRM: &str = "y yes  n or Esc no";
 /// The key hint line while the profile list is open.
@@ -77,76 +81,19 @@ pub fn help_title(s: Screen) -> String {
     format!("Keys: {} screen", screen_name(s))
 }
 
-/// Keys of the case screen.
-pub const KEYS_CASE: &[(&str, &str)] = &[
-    ("↑ ↓", "move between fields and rows"),
-    ("← →", "move between the columns of a row"),
-    ("Enter", "edit the field (a choice steps to its next value)"),
-    ("Space", "step a choice; on a level row, toggle use in fit"),
-    ("a", "add a dose or a level (in the table the cursor is in)"),
-    ("x", "delete the dose or level row (asks first)"),
-    ("u", "toggle use in fit of the level row"),
-    ("Delete", "clear an optional field"),
-    ("p", "choose the drug profile from a list"),
-    ("i", "the profile's targets, sampling advice, cautions"),
-];
-/// Keys of the fit screen.
-pub const KEYS_FIT: &[(&str, &str)] = &[
-    ("↑ ↓", "select a level"),
-    ("Space, u", "toggle use in fit of the selected level"),
-    ("m", "fit method: auto, log-linear, dose-history, Bayesian"),
-];
-/// Keys of the plan screen.
-pub const KEYS_PLAN: &[(&str, &str)] = &[
-    ("+ -", "raise or lower the dose by about 5 %"),
-    ("] [", "next longer or shorter usual interval"),
-    ("} {", "infusion time 0.25 h longer or shorter"),
-    ("r", "next route (bolus, infusion, oral)"),
-    ("↑ ↓", "select a field, or below them a suggestion"),
-    ("Enter", "type a value (targets as low-high, e.g. 5-10)"),
-    ("Delete", "clear an optional field"),
-    (
-        "t, Enter",
-        "copy the selected (or first) suggestion to the plan",
-    ),
-    ("i", "the profile's targets, sampling advice, cautions"),
-];
-/// Keys of the threshold screen.
-pub const KEYS_THRESHOLD: &[(&str, &str)] = &[
-    ("↑ ↓", "select the threshold or the procedure time"),
-    ("Enter", "type a value (time as 2027-03-02 08:00)"),
-    ("Delete", "clear it (clearing the threshold removes both)"),
-];
-/// Keys of the washout screen.
-pub const KEYS_WASHOUT: &[(&str, &str)] = &[];
-/// Keys while a field is edited.
-pub const KEYS_EDITING: &[(&str, &str)] =
-    &[("Enter / Esc", "in a field: accept / cancel the typing")];
-/// Keys that work on every screen.
-pub const KEYS_GLOBAL: &[(&str, &str)] = &[
-    (
-        "1 … 5, Tab",
-        "Case, Fit, Plan, Threshold, Washout; Shift-Tab back",
-    ),
-    ("n", "write the record note beside the case (CASE.note.txt)"),
-    (
-        "Ctrl-S",
-        "save the case (asks for a file name the first time)",
-    ),
-    ("?", "show or hide this list"),
-    (
-        "q, Ctrl-C",
-        "quit (asks first when there are unsaved changes)",
-    ),
-];
-
 // ---- popups ------------------------------------------------------------------------------
 
 /// Title of the quit question.
 pub const CONFIRM_QUIT_TITLE: &str = "Unsaved changes";
 /// The quit question.
 pub const CONFIRM_QUIT: &str =
-    "The case has changes that are not saved.\ny: quit without saving   s: save, then quit\nn or Esc: stay";
+    "The case has changes that are not saved.\ny: quit without saving\ns: save, then quit\nn, Esc or Ctrl-C: stay";
+/// The quit question while a field is being typed into.
+pub fn confirm_quit_typing(field: &str, typed: &str) -> String {
+    format!(
+        "You are typing into {field} (\"{typed}\"), not yet accepted.\ny: quit; the typing and any unsaved change are lost\ns: save the case without the typing, then quit\nn, Esc or Ctrl-C: back to the typing"
+    )
+}
 /// Title of the delete question.
 pub const CONFIRM_DELETE_TITLE: &str = "Delete a row";
 /// The delete question for a dose.
@@ -175,6 +122,9 @@ pub const ENTER_A_NUMBER: &str = "enter a number";
 pub fn not_a_number(t: &str) -> String {
     format!("\"{t}\" is not a number")
 }
+/// A below-the-limit value written wrongly.
+pub const BELOW_LIMIT_FORM: &str =
+    "write a level below the assay's limit as <0.5 (the limit after <)";
 /// Text that is not a range.
 pub const NOT_A_RANGE: &str = "write a range as low-high, for example 5-10";
 /// Text that is not a date-time.
@@ -257,19 +207,87 @@ pub fn not_accepted(name: &str, why: &str) -> String {
 }
 /// After deleting a dose.
 pub fn dose_deleted(row: usize) -> String {
-    format!("Dose {row} deleted.")
+    format!("Dose {row} deleted (Ctrl-Z undoes).")
 }
 /// After deleting a level.
 pub fn level_deleted(row: usize) -> String {
-    format!("Level {row} deleted.")
+    format!("Level {row} deleted (Ctrl-Z undoes).")
 }
 /// After toggling a level's use.
 pub fn level_use_now(row: usize, used: bool) -> String {
     if used {
-        format!("Level {row} is used in the fit.")
+        format!("Level {row} is used in the fit (Ctrl-Z undoes).")
     } else {
-        format!("Level {row} is left out of the fit (kept on record).")
+        format!("Level {row} is LEFT OUT of the fit, kept on record (Ctrl-Z undoes).")
     }
+}
+/// After a field of a new row, the one typed next.
+pub fn next_in_row(said: &str, next: &str, unit: &str) -> String {
+    let unit = if unit.is_empty() {
+        String::new()
+    } else {
+        format!(" ({unit})")
+    };
+    format!("{said} Now type {next}{unit}; Esc drops the row.")
+}
+/// After the last field of a new dose.
+pub fn dose_added(row: usize, what: &str) -> String {
+    format!("Dose {row} added: {what}.")
+}
+/// After the last field of a new level.
+pub fn level_added(row: usize, what: &str) -> String {
+    format!("Level {row} added: {what}.")
+}
+/// A new dose with no amount typed.
+pub const NO_AMOUNT: &str = "amount not given";
+/// What the keys do once a new row is done.
+pub const ROW_DONE_KEYS: &str = "Enter goes on; Ctrl-Z removes the row.";
+/// A letter typed once a new row is done.
+pub fn stray_key(ch: char) -> String {
+    let shown = if ch == ' ' {
+        "Space".to_string()
+    } else {
+        format!("\"{ch}\"")
+    };
+    format!("{shown} did nothing: the new row is done. Enter goes on; Ctrl-Z removes the row.")
+}
+/// After Enter on a finished row.
+pub const ROW_KEPT: &str = "Row kept. a adds another; ↓ moves on.";
+/// A row whose time moved it.
+pub fn row_renumbered(dose: bool, row: usize) -> String {
+    let what = if dose { "dose" } else { "level" };
+    format!("Rows are kept in time order: it is now {what} {row}.")
+}
+/// Ctrl-Z with nothing to undo.
+pub const NOTHING_TO_UNDO: &str = "Nothing to undo.";
+/// After Ctrl-Z.
+pub fn undone(what: &str, left: usize) -> String {
+    let what = what.trim_end_matches('.');
+    let what = match what.split_once(" (Ctrl-Z undoes)") {
+        Some((head, tail)) => format!("{head}{tail}"),
+        None => what.to_string(),
+    };
+    match left {
+        0 => format!("Undone, the case is as it was before: \"{what}\"."),
+        _ => format!(
+            "Undone, the case is as it was before: \"{what}\". Ctrl-Z again undoes the change before."
+        ),
+    }
+}
+/// The unit cannot be converted without a molar mass.
+pub const UNIT_NEEDS_MASS_FIRST: &str =
+    "Give the molar mass first: the values must be converted, and a molar unit needs it.";
+/// After stepping the unit with values converted.
+pub fn unit_converted(from: &str, to: &str, factor: &str) -> String {
+    format!("Level unit now {to}: every level, target and threshold converted from {from} (x {factor}); Ctrl-Z undoes.")
+}
+/// After stepping the unit with nothing to convert.
+pub fn unit_now(to: &str) -> String {
+    format!("Level unit now {to} (nothing to convert).")
+}
+/// A dose far below the others (the rule is `rows::DOSE_FAR_BELOW_FRACTION`).
+pub fn dose_far_below(row: usize, amount: &str, median: &str) -> String {
+    format!("Check dose {row}: {amount} mg is under a quarter of the other doses (median {median} mg) - is it a level typed as a dose? Ctrl-Z undoes.")
 }
 /// After saving.
 pub fn saved_to(path: &str) -> String {
@@ -405,7 +423,7 @@ pub fn field_label(f: Field) -> (&'static str, &'static str) {
         Field::CreatinineUmolL => ("Creatinine", "umol/L (or mg/dL, not both)"),
         Field::DrugName => ("Name", ""),
         Field::Unit => ("Level unit", "(Enter steps)"),
-        Field::MolarMass => ("Molar mass", "g/mol (mmol/L, umol/L)"),
+        Field::MolarMass => ("Molar mass", "g/mol (molar units)"),
         Field::DrugProfile => ("Profile", "(p chooses, i shows)"),
         Field::DoseTime(_) => ("Time", ""),
         Field::DoseAmount(_) => ("Amount", "mg"),
@@ -427,6 +445,13 @@ pub fn field_label(f: Field) -> (&'static str, &'static str) {
         Field::TargetAuc => ("AUC24 target", ""),
         Field::ThresholdBelow => ("Below", ""),
         Field::ThresholdProcedure => ("Procedure", ""),
+        Field::ResumeBelow => ("Resume below", ""),
+        Field::ResumeAfter => ("Resume after", "h after the procedure"),
+        Field::TimeZone => ("Time zone", "(IANA name, e.g. Europe/Paris)"),
+        Field::SwitchTo => ("Next agent", "(free text)"),
+        Field::SwitchBelow => ("Start below", ""),
+        Field::SwitchHalfLives => ("or after", "half-lives (one of the two)"),
+        Field::Strategy => ("Strategy", "(empty: the profile's default)"),
     }
 }
 
@@ -447,6 +472,11 @@ pub fn field_name(f: Field) -> String {
         }
         Field::ThresholdBelow => "Threshold".into(),
         Field::ThresholdProcedure => "Procedure time".into(),
+        Field::ResumeBelow => "Resume below".into(),
+        Field::ResumeAfter => "Resume after".into(),
+        Field::SwitchTo => "Next agent".into(),
+        Field::SwitchBelow => "Next agent: start below".into(),
+        Field::SwitchHalfLives => "Next agent: start after".into(),
         _ => label.to_string(),
     }
 }
@@ -457,6 +487,10 @@ pub fn field_name(f: Field) -> String {
 pub const PATIENT: &str = "Patient";
 /// Heading.
 pub const DRUG: &str = "Drug";
+/// Heading of the case's clock.
+pub const CLOCK: &str = "Clock";
+/// Heading of the switch to another agent.
+pub const SWITCH: &str = "Switch to another agent (results on screen 5)";
 /// Heading.
 pub const DOSES: &str = "Doses given";
 /// Heading of the levels table.
@@ -467,6 +501,8 @@ pub fn levels_heading(unit: &str) -> String {
 pub const DOSE_COLUMNS: [&str; 6] = ["#", "time", "amount", "route", "infusion", "F"];
 /// Level table columns.
 pub const LEVEL_COLUMNS: [&str; 5] = ["#", "time", "value", "use", "note"];
+/// Beside a dose far below the others (`rows::DOSE_FAR_BELOW_FRACTION`).
+pub const DOSE_FAR_BELOW_MARK: &str = "⚠ far below the other doses";
 /// The add-a-dose line.
 pub const ADD_DOSE: &str = "+ add a dose (a)";
 /// The add-a-level line.
@@ -490,7 +526,7 @@ pub fn fit_summary(r: &Report) -> String {
             .map(|x| x.to_string())
             .collect::<Vec<_>>()
             .join(", "),
-        f.method
+        method_word(f.method)
     )
 }
 
@@ -498,7 +534,7 @@ pub fn fit_summary(r: &Report) -> String {
 
 /// The fit heading.
 pub fn fit_heading(method: &str, rows: &str, dose: usize) -> String {
-    format!("{method} fit, levels {rows} (dose {dose})")
+    format!("{} fit, levels {rows} (dose {dose})", method_word(method))
 }
 /// Label.
 pub const K: &str = "k";
@@ -542,6 +578,12 @@ pub const LEFT_OUT: &str = "left out";
 pub const PRE_DOSE: &str = "pre-dose V";
 /// Heading.
 pub const WARNINGS: &str = "Warnings";
+/// The last line of a cut panel.
+pub fn more_lines(n: usize) -> String {
+    format!(" ↓ {n} more lines: PgDn ")
+}
+/// The first line of a panel scrolled down.
+pub const MORE_ABOVE: &str = " ↑ more above: PgUp ";
 /// No warnings.
 pub const NO_WARNINGS: &str = "none";
 /// The reason a screen has no figures.
@@ -703,6 +745,13 @@ pub fn first_dose_still_running(level: &str, unit: &str) -> String {
 pub fn not_below_even_holding(level: &str, unit: &str) -> String {
     format!("✗ NOT below at the procedure even with every plan dose held ({level} {unit} then).")
 }
+/// When the regimen may resume after the procedure.
+pub fn resume_from(when: &str, level: Option<&str>, unit: &str) -> String {
+    match level {
+        Some(l) => format!("The regimen may resume from {when} (level then {l} {unit})."),
+        None => format!("The regimen may resume from {when}."),
+    }
+}
 /// Level at the procedure, no plan.
 pub fn level_at_procedure(level: &str, unit: &str, below: bool) -> String {
     if below {
@@ -719,7 +768,7 @@ pub fn washout_heading(from: &str, half_life: &str) -> String {
     format!("From {from}, each half-life ({half_life})")
 }
 /// Table heading.
-pub const WASHOUT_COLUMNS: &str = " n  when            level        left";
+pub const WASHOUT_COLUMNS: [&str; 4] = ["n", "when", "level", "left"];
 /// No threshold.
 pub const WASHOUT_NO_THRESHOLD: &str =
     "Set a threshold on screen 4 to see when a following agent may start.";
@@ -780,7 +829,7 @@ pub fn target_trough(v: &str, unit: &str) -> String {
 }
 /// An AUC24 target.
 pub fn target_auc(lo: &str, hi: &str, unit: &str) -> String {
-    format!("AUC24 {lo}–{hi} {unit}·h")
+    format!("AUC24 {lo}–{hi} {}", auc_unit(unit))
 }
 /// A therapeutic range (shown, not checked).
 pub fn target_range(lo: &str, hi: &str, unit: &str) -> String {
@@ -795,8 +844,10 @@ pub const NO_PROFILE_CHOSEN: &str = "No drug profile: the case's own targets onl
 /// After choosing a profile.
 pub fn profile_chosen(display: &str, unit_now: Option<&str>) -> String {
     match unit_now {
-        Some(u) => format!("Profile {display} chosen; levels now in {u} (i shows its details)."),
-        None => format!("Profile {display} chosen (i shows its targets, sampling and cautions)."),
+        Some(u) => format!(
+            "Profile {display} chosen; levels now in {u} (i shows its details; Ctrl-Z undoes)."
+        ),
+        None => format!("Profile {display} chosen (i shows its details; Ctrl-Z undoes)."),
     }
 }
 /// `i` without a profile.
@@ -817,9 +868,9 @@ pub const AUTO: &str = "auto";
 /// The method line of the fit screen.
 pub fn method_line(chosen: Option<&str>, used: Option<&str>) -> String {
     match (chosen, used) {
-        (None, Some(u)) => format!("auto: {u}"),
+        (None, Some(u)) => format!("auto: {}", method_word(u)),
         (None, None) => "auto".into(),
-        (Some(c), _) => format!("{c} (chosen)"),
+        (Some(c), _) => format!("{} (chosen)", method_word(c)),
     }
 }
 /// The key for the method, after the method line.
@@ -830,17 +881,20 @@ pub const METHOD: &str = "method";
 pub fn fit_method_now(chosen: Option<&str>, used: &str) -> String {
     match chosen {
         None if used.is_empty() => "Fit method: automatic choice.".into(),
-        None => format!("Fit method: automatic choice ({used})."),
-        Some(c) => format!("Fit method: {c} (m steps on)."),
+        None => format!("Fit method: automatic choice ({}).", method_word(used)),
+        Some(c) => format!("Fit method: {} (m steps on).", method_word(c)),
     }
 }
 /// A method that cannot be used on this case.
 pub fn fit_method_failed(chosen: Option<&str>, why: &str) -> String {
-    format!("Fit method {}: {why} (m switches)", chosen.unwrap_or(AUTO))
+    format!(
+        "Fit method {}: {why} (m switches)",
+        method_word(chosen.unwrap_or(AUTO))
+    )
 }
 /// The fit spans the dose record.
 pub fn fit_heading_record(method: &str, rows: &str) -> String {
-    format!("{method}: levels {rows}, all doses")
+    format!("{}: levels {rows}, all doses", method_word(method))
 }
 /// r² of a fit that is not a straight line.
 pub const NOT_FOR_METHOD: &str = "— (straight-line fits only)";

@@ -3,28 +3,29 @@
 
 use std::path::{Path, PathBuf};
 
-use crate::core::casefile::{CaseFile, DoseFile, FitFile, LevelFile, PlanFile, TargetsFile};
+use crate::core::casefile::{CaseFile, FitFile, PlanFile};
 use crate::core::fit::CHOICES;
 use crate::files::guard::OutputError;
 use crate::files::recover;
 use crate::files::store::{self, SaveError};
 use crate::tui::action::Action;
 use crate::tui::app::{App, Confirm, Editor, Mode, NewRow, Screen, Target};
-use crate::tui::catalog;
 use crate::tui::effect::{Effect, Outcome};
-use crate::tui::entry;
 use crate::tui::fields::{self, Field, Kind};
-use crate::tui::screens::{self, CaseLine, PLAN_FIELDS, THRESHOLD_FIELDS};
+use crate::tui::rows;
+use crate::tui::screens::{
+    self, is_target, profile_targets, seed_targets, CaseLine, PLAN_FIELDS, THRESHOLD_FIELDS,
+};
 use crate::tui::strings;
 
 /// The usual dosing intervals `[` and `]` step through, in hours.
 pub const INTERVALS_H: [f64; 15] = [
     1.0, 2.0, 3.0, 4.0, 6.0, 8.0, 12.0, 18.0, 24.0, 36.0, 48.0, 72.0, 96.0, 120.0, 168.0,
 ];
+/// How many lines PgDn and PgUp scroll the fit screen's figures and warnings.
+const FIT_SCROLL_STEP: u16 = 5;
 /// How much `{` and `}` change the infusion time, in hours.
 pub const INFUSION_STEP_H: f64 = 0.25;
-/// The gap a new level gets after the previous one, in hours.
-const NEW_LEVEL_GAP_H: f64 = 1.0;
 
 /// Apply one intent. Returns what the outside world must do (save, write the note); the
 /// run loop carries it out and hands the outcome to `settle`.
@@ -43,6 +44,22 @@ pub fn update(app: &mut App, action: Action) -> Vec<Effect> {
         Mode::ChooseProfile(i) => choose_profile(app, i, action),
         Mode::ProfileInfo(top) => profile_info(app, top, action),
         Mode::Editing(ed) => edit(app, ed, action),
+        Mode::RowDone(_) => match action {
+            Action::Up
+            | Action::Down
+            | Action::Left
+            | Action::Right
+            | Action::NextScreen(_)
+            | Action::Save => {
+                app.mode = Mode::Normal;
+                normal(app, action);
+            }
+            Action::Quit => {
+                app.mode = Mode::Normal;
+                quit(app);
+            }
+            other => rows::row_done(app, other),
+        },
         Mode::Normal => normal(app, action),
     }
     // The suggestions change with the case: keep the plan cursor on a line that exists.
@@ -85,6 +102,7 @@ fn confirm(app: &mut App, c: Confirm, action: Action) {
     match (c, action) {
         (Confirm::Quit, Action::Yes) => app.mode = Mode::Quitting,
         (Confirm::Quit, Action::SaveThenQuit) => {
+            app.held_editor = None;
             app.mode = Mode::Normal;
             app.quit_after_save = true;
             save(app);
@@ -150,6 +168,13 @@ fn confirm(app: &mut App, c: Confirm, action: Action) {
                 app.complain(strings::not_overwritten(&path.display().to_string()));
             }
         }
+        (Confirm::Quit, Action::No | Action::Cancel | Action::Quit)
+            if app.held_editor.is_some() =>
+        {
+            if let Some(ed) = app.held_editor.take() {
+                app.mode = Mode::Editing(ed);
+            }
+        }
         (_, Action::No | Action::Cancel) => {
             app.mode = Mode::Normal;
             app.say(strings::NOTHING_DONE);
@@ -204,7 +229,16 @@ fn normal(app: &mut App, action: Action) {
         }
         Action::Activate => activate(app, false),
         Action::Step => activate(app, true),
-        Action::AddRow => add_row(app),
+        Action::AddRow => rows::add_row(app),
+        Action::Undo => rows::undo(app),
+        Action::Scroll(down) => {
+            let s = app.cursors.fit_scroll;
+            app.cursors.fit_scroll = if down {
+                s.saturating_add(FIT_SCROLL_STEP)
+            } else {
+                s.saturating_sub(FIT_SCROLL_STEP)
+            };
+        }
         Action::DeleteRow => delete_row(app),
         Action::ToggleUse => toggle_use(app),
         Action::Clear => clear(app),
@@ -276,7 +310,7 @@ pub fn open_editor(app: &mut App, field: Field) {
 fn activate(app: &mut App, space: bool) {
     if app.screen == Screen::Case {
         match screens::selected_case_line(app) {
-            CaseLine::AddDose | CaseLine::AddLevel if !space => return add_row(app),
+            CaseLine::AddDose | CaseLine::AddLevel if !space => return rows::add_row(app),
             CaseLine::AddDose | CaseLine::AddLevel => return,
             CaseLine::Level(_) if space && app.cursors.case_col != 2 => return toggle_use(app),
             CaseLine::Field(Field::DrugProfile) => return open_chooser(app),
@@ -292,6 +326,9 @@ fn activate(app: &mut App, space: bool) {
     let Some(field) = screens::selected_field(app) else {
         return;
     };
+    if field == Field::Unit {
+        return rows::step_unit(app);
+    }
     match field.kind() {
         Kind::Choice => {
             let had_plan = app.file.plan.is_some();
@@ -312,9 +349,9 @@ fn activate(app: &mut App, space: bool) {
 /// Check the editor's text: does it parse, and does the case still validate with it?
 fn check(app: &App, ed: &mut Editor) {
     ed.error = match ed.target {
-        Target::SavePath => {
-            (ed.buffer.trim().is_empty()).then(|| strings::TYPE_A_FILE_NAME.to_string())
-        }
+        // An empty name is refused on Enter, not before anything is typed.
+        Target::SavePath => None,
+        Target::NotePath if ed.buffer.trim().is_empty() => None,
         Target::NotePath => note_path_problem(app, ed.buffer.trim()),
         Target::Field(field) => {
             let mut trial = app.file.clone();
@@ -338,10 +375,7 @@ fn edit(app: &mut App, mut ed: Editor, action: Action) {
     let len = ed.buffer.chars().count();
     let byte = |s: &str, i: usize| s.char_indices().nth(i).map(|(b, _)| b).unwrap_or(s.len());
     match action {
-        Action::Quit => {
-            app.mode = Mode::Normal;
-            return quit(app);
-        }
+        Action::Quit => return quit_while_typing(app, ed),
         Action::Type(c) => {
             let at = byte(&ed.buffer, ed.cursor);
             ed.buffer.insert(at, c);
@@ -364,6 +398,7 @@ fn edit(app: &mut App, mut ed: Editor, action: Action) {
             app.mode = Mode::Normal;
             app.quit_after_save = false;
             if let Some(row) = ed.new_row {
+                let mark = ed.undo_mark;
                 let r = app.change(|f| {
                     match row {
                         NewRow::Dose(i) if i < f.doses.len() => {
@@ -378,6 +413,9 @@ fn edit(app: &mut App, mut ed: Editor, action: Action) {
                 });
                 clamp_cursor(app);
                 report(app, r, strings::ROW_NOT_ADDED.into());
+                if let Some(m) = mark {
+                    app.drop_undo_since(m);
+                }
             } else {
                 app.say(strings::EDIT_CANCELLED);
             }
@@ -415,6 +453,11 @@ fn accept(app: &mut App, mut ed: Editor) {
         }
         Target::Field(field) => {
             let text = ed.buffer.clone();
+            if ed.new_row.is_some() && rows::needed_in_walk(field) && text.trim().is_empty() {
+                ed.error = Some(strings::ENTER_A_NUMBER.into());
+                app.mode = Mode::Editing(ed);
+                return;
+            }
             let mut seeded = app.file.clone();
             seed_targets(app, field, &mut seeded);
             match app.change(|f| {
@@ -432,16 +475,57 @@ fn accept(app: &mut App, mut ed: Editor) {
                         Some(p) => app.complain(p),
                         None => app.say(strings::now_is(&field.name(), &field.text(&app.file))),
                     }
-                    if let Some(next) = ed.then {
-                        let mut ned = Editor::new(Target::Field(next), next.text(&app.file));
-                        ned.new_row = ed.new_row;
-                        check(app, &mut ned);
-                        app.mode = Mode::Editing(ned);
-                    }
+                    after_accept(app, field, &ed);
                 }
             }
         }
     }
+}
+
+/// After a field was accepted: the next field of a new row, or the finished row; a dose
+/// far below the others is said; a changed time puts the rows back in time order.
+fn after_accept(app: &mut App, field: Field, ed: &Editor) {
+    if let Some(next) = rows::next_in_walk(app, ed) {
+        if let Target::Field(f) = next.target {
+            let said = app
+                .message
+                .as_ref()
+                .map(|m| m.text.clone())
+                .unwrap_or_default();
+            let (_, unit) = strings::field_label(f);
+            app.say(strings::next_in_row(&said, &f.name(), unit));
+        }
+        app.mode = Mode::Editing(next);
+        return;
+    }
+    if let Some(row) = ed.new_row {
+        return rows::finish_row(app, row, ed.undo_mark);
+    }
+    if let Field::DoseAmount(i) = field {
+        if let Some(w) = rows::dose_far_below(&app.file, i) {
+            let said = app
+                .message
+                .as_ref()
+                .map(|m| m.text.clone())
+                .unwrap_or_default();
+            app.complain(format!("{said} {w}"));
+        }
+    }
+    rows::time_changed(app, field);
+}
+
+/// Ctrl-C while typing: ask, keeping the half-typed text to go back to.
+fn quit_while_typing(app: &mut App, ed: Editor) {
+    let untouched = match ed.target {
+        Target::Field(f) => ed.new_row.is_none() && ed.buffer == f.text(&app.file),
+        _ => ed.buffer.is_empty(),
+    };
+    if untouched && !app.dirty {
+        app.mode = Mode::Quitting;
+        return;
+    }
+    app.held_editor = Some(ed);
+    app.mode = Mode::Confirm(Confirm::Quit);
 }
 
 fn figures_problem_for(app: &App, field: Field) -> Option<String> {
@@ -450,118 +534,6 @@ fn figures_problem_for(app: &App, field: Field) -> Option<String> {
         Some(place) if field.owns_place(place) => Some(p.text.clone()),
         _ => None,
     }
-}
-
-fn add_row(app: &mut App) {
-    if app.screen != Screen::Case {
-        return;
-    }
-    match screens::selected_case_line(app) {
-        CaseLine::Dose(_) | CaseLine::AddDose => add_dose(app),
-        CaseLine::Level(_) | CaseLine::AddLevel => add_level(app),
-        CaseLine::Field(_) => app.complain(strings::ADD_WHERE),
-    }
-}
-
-fn add_dose(app: &mut App) {
-    let last = app.file.doses.last().cloned();
-    let gap = match &app.file.plan {
-        Some(p) => p.interval_h,
-        None => fields::plan_from_record(&app.file).interval_h,
-    };
-    let time = match &last {
-        Some(d) => entry::add_hours(&d.time, gap),
-        None => now_on_the_hour(),
-    };
-    let Some(time) = time else {
-        return app.complain(strings::NO_TIME_FOR_ROW);
-    };
-    let dose = match last {
-        Some(d) => DoseFile { time, ..d },
-        None => DoseFile {
-            time,
-            amount_mg: None,
-            route: "infusion".into(),
-            infusion_h: Some(fields::DEFAULT_INFUSION_H),
-            bioavailability: None,
-        },
-    };
-    let i = app.file.doses.len();
-    if let Err(e) = app.change(|f| {
-        f.doses.push(dose);
-        Ok(())
-    }) {
-        return app.complain(e);
-    }
-    edit_new_row(
-        app,
-        CaseLine::Dose(i),
-        [Field::DoseTime(i), Field::DoseAmount(i)],
-        NewRow::Dose(i),
-        strings::NEW_DOSE_HINT,
-    );
-}
-
-fn add_level(app: &mut App) {
-    let last_level = app.file.levels.last().map(|l| l.time);
-    let time = match (last_level, app.file.doses.last()) {
-        (Some(t), _) => entry::add_hours(&t, NEW_LEVEL_GAP_H),
-        (None, Some(d)) => entry::add_hours(&d.time, d.infusion_h.unwrap_or(0.0) + NEW_LEVEL_GAP_H),
-        (None, None) => now_on_the_hour(),
-    };
-    let Some(time) = time else {
-        return app.complain(strings::NO_TIME_FOR_ROW);
-    };
-    let value = app.file.levels.last().map(|l| l.value).unwrap_or(1.0);
-    let i = app.file.levels.len();
-    if let Err(e) = app.change(|f| {
-        f.levels.push(LevelFile {
-            time,
-            value,
-            use_in_fit: None,
-            note: None,
-        });
-        Ok(())
-    }) {
-        return app.complain(e);
-    }
-    edit_new_row(
-        app,
-        CaseLine::Level(i),
-        [Field::LevelTime(i), Field::LevelValue(i)],
-        NewRow::Level(i),
-        strings::NEW_LEVEL_HINT,
-    );
-}
-
-/// Put the cursor on a row just added and open the editor on its time, then `fields[1]`.
-fn edit_new_row(
-    app: &mut App,
-    line: CaseLine,
-    fields: [Field; 2],
-    row: NewRow,
-    hint: &'static str,
-) {
-    app.cursors.case_line = line_of(app, line);
-    app.cursors.case_col = 0;
-    let mut ed = Editor::new(Target::Field(fields[0]), fields[0].text(&app.file));
-    ed.then = Some(fields[1]);
-    ed.new_row = Some(row);
-    check(app, &mut ed);
-    app.mode = Mode::Editing(ed);
-    app.say(hint);
-}
-
-fn line_of(app: &App, line: CaseLine) -> usize {
-    screens::case_lines(&app.file)
-        .iter()
-        .position(|l| *l == line)
-        .unwrap_or(0)
-}
-
-fn now_on_the_hour() -> Option<toml::value::Datetime> {
-    let now = chrono::Local::now().naive_local();
-    entry::datetime(&now.format("%Y-%m-%d %H:00").to_string()).ok()
 }
 
 fn delete_row(app: &mut App) {
@@ -836,40 +808,6 @@ fn not_saved(app: &mut App, path: PathBuf, error: SaveError) {
 
 // ---- drug profiles -------------------------------------------------------------------------
 
-fn is_target(field: Field) -> bool {
-    matches!(
-        field,
-        Field::TargetPeak | Field::TargetTrough | Field::TargetAuc
-    )
-}
-
-/// The targets the case's drug profile gives, in the case's unit, when it gives any.
-pub fn profile_targets(app: &App) -> Option<crate::core::case::Targets> {
-    let name = app.file.drug.profile.as_deref()?;
-    let entry = app.profiles.get(name)?;
-    let t = catalog::profile_targets(
-        entry,
-        app.file.drug.level_unit.as_deref(),
-        app.file.drug.molar_mass_g_mol,
-    );
-    (!t.is_empty()).then_some(t)
-}
-
-/// Before the first edit of a target in a case that takes its targets from the profile,
-/// copy the profile's targets into the case, so the ones not edited stay as they were.
-fn seed_targets(app: &App, field: Field, f: &mut CaseFile) {
-    if !is_target(field) || f.targets.is_some() {
-        return;
-    }
-    if let Some(t) = profile_targets(app) {
-        f.targets = Some(TargetsFile {
-            peak: t.peak.map(Vec::from),
-            trough_max: t.trough_max,
-            auc24: t.auc24.map(Vec::from),
-        });
-    }
-}
-
 /// The list line of the case's profile (0 is "no profile").
 fn profile_line(app: &App) -> usize {
     let Some(name) = app.file.drug.profile.as_deref() else {
@@ -1136,15 +1074,4 @@ fn note_not_written(app: &mut App, path: PathBuf, error: OutputError) {
         }
         e => app.complain(strings::note_failed(&e.to_string())),
     }
-}
-
-/// The case file with the profile's targets written in, when the case has no `[targets]`
-/// and its profile gives some (what the plan screen shows, marked as the profile's).
-pub fn file_with_profile_targets(app: &App) -> Option<CaseFile> {
-    if app.file.targets.is_some() {
-        return None;
-    }
-    let mut f = app.file.clone();
-    seed_targets(app, Field::TargetPeak, &mut f);
-    f.targets.is_some().then_some(f)
 }

@@ -26,11 +26,15 @@ pub fn draw(app: &App, frame: &mut Frame) {
         return too_small(area, buf);
     }
     let banner_h = caution_lines(area.width).len() as u16;
+    // A long message wraps (up to three lines) rather than being cut.
+    let message_h = message_text(app)
+        .map(|(t, _)| widgets::wrap(&t, usize::from(area.width)).len().clamp(1, 3))
+        .unwrap_or(1) as u16;
     let [banner, tabs, body, message, hints] = Layout::vertical([
         Constraint::Length(banner_h),
         Constraint::Length(1),
         Constraint::Min(1),
-        Constraint::Length(1),
+        Constraint::Length(message_h),
         Constraint::Length(1),
     ])
     .areas(area);
@@ -77,7 +81,11 @@ fn too_small(area: Rect, buf: &mut ratatui::buffer::Buffer) {
     }
     lines.push(Line::raw(""));
     for l in widgets::wrap(
-        &strings::enlarge(MIN_WIDTH, MIN_HEIGHT, area.width, area.height),
+        &format!(
+            "{} {}",
+            strings::enlarge(MIN_WIDTH, MIN_HEIGHT, area.width, area.height),
+            strings::KEYS_WAIT
+        ),
         w,
     ) {
         lines.push(Line::raw(l));
@@ -121,20 +129,33 @@ fn tab_line(app: &App, area: Rect, buf: &mut ratatui::buffer::Buffer) {
     Paragraph::new(Line::from(spans)).render(area, buf);
 }
 
-fn message_line(app: &App, area: Rect, buf: &mut ratatui::buffer::Buffer) {
+/// The message line's text and whether it reports a problem: the editor's error, else
+/// the message, else the load error.
+fn message_text(app: &App) -> Option<(String, bool)> {
     if let Some(err) = app.editor().and_then(|e| e.error.as_ref()) {
-        let line = Line::from(Span::styled(format!("✗ {err}"), problem_style()));
-        return Paragraph::new(line).render(area, buf);
+        return Some((format!("✗ {err}"), true));
     }
-    let line = match &app.message {
-        Some(m) if m.is_error => Line::from(Span::styled(format!("✗ {}", m.text), problem_style())),
-        Some(m) => Line::from(Span::raw(format!("· {}", m.text))),
-        None => match &app.load_error {
-            Some(e) => Line::from(Span::styled(format!("✗ {e}"), problem_style())),
-            None => Line::raw(""),
-        },
+    match &app.message {
+        Some(m) if m.is_error => Some((format!("✗ {}", m.text), true)),
+        Some(m) => Some((format!("· {}", m.text), false)),
+        None => app.load_error.as_ref().map(|e| (format!("✗ {e}"), true)),
+    }
+}
+
+fn message_line(app: &App, area: Rect, buf: &mut ratatui::buffer::Buffer) {
+    let Some((text, is_error)) = message_text(app) else {
+        return;
     };
-    Paragraph::new(line).render(area, buf);
+    let style = if is_error {
+        problem_style()
+    } else {
+        Style::new()
+    };
+    let lines: Vec<Line> = widgets::wrap(&text, usize::from(area.width))
+        .into_iter()
+        .map(|l| Line::styled(l, style))
+        .collect();
+    Paragraph::new(lines).render(area, buf);
 }
 
 fn hint_line(app: &App, area: Rect, buf: &mut ratatui::buffer::Buffer) {
@@ -142,6 +163,7 @@ fn hint_line(app: &App, area: Rect, buf: &mut ratatui::buffer::Buffer) {
         Mode::Editing(_) => strings::HINT_EDITING,
         Mode::Help => strings::HINT_HELP,
         Mode::Confirm(_) => strings::HINT_CONFIRM,
+        Mode::RowDone(_) => strings::HINT_ROW_DONE,
         Mode::ChooseProfile(_) => strings::HINT_CHOOSER,
         Mode::ProfileInfo(_) => strings::HINT_INFO,
         _ => strings::hint(app.screen),
@@ -179,7 +201,17 @@ fn overlay(app: &App, body: Rect, buf: &mut ratatui::buffer::Buffer) {
             let (title, text) = match c {
                 Confirm::Quit => (
                     strings::CONFIRM_QUIT_TITLE,
-                    strings::CONFIRM_QUIT.to_string(),
+                    match &app.held_editor {
+                        Some(ed) => strings::confirm_quit_typing(
+                            &match ed.target {
+                                Target::Field(f) => f.name(),
+                                Target::SavePath => strings::SAVE_AS_TITLE.to_lowercase(),
+                                Target::NotePath => strings::NOTE_AS_TITLE.to_lowercase(),
+                            },
+                            &ed.buffer,
+                        ),
+                        None => strings::CONFIRM_QUIT.to_string(),
+                    },
                 ),
                 Confirm::DeleteDose(i) => (
                     strings::CONFIRM_DELETE_TITLE,
@@ -206,7 +238,12 @@ fn overlay(app: &App, body: Rect, buf: &mut ratatui::buffer::Buffer) {
                     strings::confirm_recover(&shown(&app.recovery.as_ref().map(|r| r.0.clone()))),
                 ),
             };
-            let lines: Vec<Line> = text.lines().map(|l| Line::raw(l.to_string())).collect();
+            // Wrapped here, so the box is as tall as the question.
+            let lines: Vec<Line> = text
+                .lines()
+                .flat_map(|l| widgets::wrap(l, 60 - 2))
+                .map(Line::raw)
+                .collect();
             let area = widgets::centered(body, 60, lines.len() as u16 + 2);
             popup(area, buf, title, lines);
         }

@@ -687,7 +687,8 @@ fn the_file_questions_fit_the_smallest_screen() {
     for line in [
         "Replace the note?",
         "was not written by ebb.",
-        "y: replace it with the new note   n or Esc: keep it",
+        "y: replace it with the new note",
+        "n or Esc: keep it",
     ] {
         assert!(text.contains(line), "{line:?} in\n{text}");
     }
@@ -698,7 +699,8 @@ fn the_file_questions_fit_the_smallest_screen() {
         "File exists",
         "bed4.toml already exists and is not the file",
         "this case was opened from.",
-        "y: replace it with this case   n or Esc: keep it",
+        "y: replace it with this case",
+        "n or Esc: keep it",
     ] {
         assert!(text.contains(line), "{line:?} in\n{text}");
     }

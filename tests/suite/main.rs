@@ -33,6 +33,7 @@ mod regimen_design;
 mod regimen_switch;
 mod store_kill;
 mod time_zone_data;
+mod tui_entry;
 mod tui_features;
 mod tui_keys;
 mod tui_random_keys;

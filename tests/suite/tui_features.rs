@@ -374,7 +374,7 @@ fn the_fit_method_key_steps_through_the_choices() {
     assert!(problem.contains("patient.weight_kg"), "{problem}");
     assert!(app.message.as_ref().unwrap().is_error);
     let shown = text(&app, 80, 24);
-    assert!(shown.contains("bayesian (chosen)"), "{shown}");
+    assert!(shown.contains("Bayesian (chosen)"), "{shown}");
     insta::assert_snapshot!("fit_method_refused_80x24", draw(&app, 80, 24).backend());
     // Back to the automatic choice.
     ch(&mut app, 'm');
@@ -603,7 +603,7 @@ fn the_help_lists_the_new_keys_and_fits_80x24() {
     for (s, keys) in [
         ('1', &["p ", "i ", "n "][..]),
         ('2', &["m "][..]),
-        ('3', &["t, Enter", "i "][..]),
+        ('3', &["t ", "Enter", "i ", "+ -, =", "Space"][..]),
         ('5', &["n "][..]),
     ] {
         let mut app = App::demo();

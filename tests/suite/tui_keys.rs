@@ -64,6 +64,9 @@ fn adding_a_level_changes_k_as_the_core_says() {
     clear_field(&mut app);
     typed(&mut app, "0.95");
     key(&mut app, KeyCode::Enter);
+    // Then the note (left empty); the finished row waits for Enter.
+    key(&mut app, KeyCode::Enter);
+    key(&mut app, KeyCode::Enter);
     assert_eq!(app.mode, Mode::Normal);
     assert_eq!(app.file.levels.len(), 5);
     let new = &app.file.levels[4];
@@ -294,6 +297,10 @@ fn a_new_case_can_be_built_from_keys() {
     clear_field(&mut app);
     typed(&mut app, "400");
     key(&mut app, KeyCode::Enter);
+    // The infusion time, then Enter on the finished row.
+    typed(&mut app, "0.5");
+    key(&mut app, KeyCode::Enter);
+    key(&mut app, KeyCode::Enter);
     assert_eq!(app.file.doses.len(), 1);
     assert_eq!(app.file.doses[0].amount_mg, Some(400.0));
     for (t, v) in [("2027-03-02 10:00", "20"), ("2027-03-02 16:00", "10")] {
@@ -304,6 +311,8 @@ fn a_new_case_can_be_built_from_keys() {
         key(&mut app, KeyCode::Enter);
         clear_field(&mut app);
         typed(&mut app, v);
+        key(&mut app, KeyCode::Enter);
+        key(&mut app, KeyCode::Enter);
         key(&mut app, KeyCode::Enter);
     }
     assert_eq!(app.file.levels.len(), 2);

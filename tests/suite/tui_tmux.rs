@@ -189,9 +189,14 @@ fn two_levels_typed_into_a_new_case_give_k() {
     s.keys(&clear);
     s.text("400");
     s.keys(&["Enter"]);
+    // Then its infusion time; the finished row waits on "+ add a dose" for Enter.
+    s.text("0.5");
+    s.keys(&["Enter"]);
+    s.wait_for("Dose 1 added");
+    s.keys(&["Enter"]);
     s.wait_for("400 mg");
-    // From the new row down to "add a level": past "add a dose" (and the first level).
-    for (time, value, downs) in [("2027-03-02 10:00", "20", 2), ("2027-03-02 16:00", "10", 1)] {
+    // One ↓ from "add a dose" is "add a level"; after a level the cursor waits there.
+    for (time, value, downs) in [("2027-03-02 10:00", "20", 1), ("2027-03-02 16:00", "10", 0)] {
         for _ in 0..downs {
             s.keys(&["Down"]);
         }
@@ -202,6 +207,10 @@ fn two_levels_typed_into_a_new_case_give_k() {
         s.keys(&["Enter"]);
         s.keys(&clear);
         s.text(value);
+        s.keys(&["Enter"]);
+        // No note; then Enter on the finished row.
+        s.keys(&["Enter"]);
+        s.wait_for("added");
         s.keys(&["Enter"]);
         s.wait_for(&format!("{}  {value} ", &time[..16]));
     }

@@ -9,7 +9,10 @@ use ratatui::widgets::{Paragraph, Widget};
 use crate::core::report::num;
 use crate::tui::app::App;
 use crate::tui::fields::{self, Field};
-use crate::tui::screens::{self, profile, CaseLine, DRUG_FIELDS, PATIENT_FIELDS};
+use crate::tui::rows;
+use crate::tui::screens::{
+    self, profile, CaseLine, CLOCK_FIELDS, DRUG_FIELDS, PATIENT_FIELDS, SWITCH_FIELDS,
+};
 use crate::tui::strings;
 use crate::tui::widgets::{self, field_line, heading, or_dash, problem_style, quiet};
 
@@ -84,14 +87,33 @@ fn index_of(lines: &[CaseLine], line: CaseLine) -> Option<usize> {
 
 fn field_rows(app: &App, lines: &[CaseLine], selected: CaseLine) -> Vec<Row> {
     let mut out: Vec<Row> = vec![(Line::styled(strings::PATIENT, heading()), None)];
-    for (i, f) in PATIENT_FIELDS.iter().chain(DRUG_FIELDS.iter()).enumerate() {
-        if i == PATIENT_FIELDS.len() {
-            out.push((Line::styled(strings::DRUG, heading()), None));
+    let unit_now = app.file.drug.level_unit.clone().unwrap_or_default();
+    let groups = PATIENT_FIELDS
+        .iter()
+        .chain(DRUG_FIELDS.iter())
+        .chain(CLOCK_FIELDS.iter())
+        .chain(SWITCH_FIELDS.iter());
+    for (i, f) in groups.enumerate() {
+        let heading_here = match i {
+            i if i == PATIENT_FIELDS.len() => Some(strings::DRUG),
+            i if i == PATIENT_FIELDS.len() + DRUG_FIELDS.len() => Some(strings::CLOCK),
+            i if i == PATIENT_FIELDS.len() + DRUG_FIELDS.len() + CLOCK_FIELDS.len() => {
+                Some(strings::SWITCH)
+            }
+            _ => None,
+        };
+        if let Some(h) = heading_here {
+            out.push((Line::styled(h, heading()), None));
         }
         let line = CaseLine::Field(*f);
         let is_sel = selected == line;
         let shown = or_dash(f.text(&app.file));
         let (label, unit) = strings::field_label(*f);
+        let unit = if *f == Field::SwitchBelow {
+            unit_now.as_str()
+        } else {
+            unit
+        };
         out.push((
             field_line(app, *f, label, 14, shown, unit, is_sel),
             index_of(lines, line),
@@ -148,6 +170,8 @@ fn table_rows(app: &App, lines: &[CaseLine], selected: CaseLine) -> Vec<Row> {
         }
         if let Some(p) = row_problem(app, &cols) {
             spans.push(Span::styled(format!("✗ {p}"), problem_style()));
+        } else if rows::dose_far_below(&app.file, i).is_some() {
+            spans.push(Span::styled(strings::DOSE_FAR_BELOW_MARK, problem_style()));
         }
         out.push((Line::from(spans), index_of(lines, line)));
     }
@@ -175,7 +199,11 @@ fn table_rows(app: &App, lines: &[CaseLine], selected: CaseLine) -> Vec<Row> {
         let l = &app.file.levels[i];
         let texts = [
             Field::LevelTime(i).text(&app.file),
-            num(l.value),
+            if l.below_limit {
+                format!("<{}", num(l.value))
+            } else {
+                num(l.value)
+            },
             Field::LevelUse(i).text(&app.file),
             l.note.clone().unwrap_or_default(),
         ];

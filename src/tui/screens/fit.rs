@@ -3,7 +3,7 @@
 
 use ratatui::buffer::Buffer;
 use ratatui::layout::{Constraint, Layout, Rect};
-use ratatui::style::Style;
+use ratatui::style::{Modifier, Style};
 use ratatui::text::{Line, Span};
 use ratatui::widgets::{Paragraph, Widget};
 
@@ -135,7 +135,7 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
             _ => strings::LEFT_OUT,
         };
         let when = l.time.weekday_time();
-        let text = format!("{:<2} {when}  {:>7} ", l.row, num(l.value),);
+        let text = format!("{:<2} {when}  {:>7} ", l.row, l.value_words());
         let resid = kind.1.map(|x| format!("{x:+.3}")).unwrap_or_default();
         let body = Style::new();
         lines.push(Line::from(vec![
@@ -163,7 +163,27 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
         width: right.width.saturating_sub(1),
         ..right
     };
-    Paragraph::new(lines).render(inner, buf);
+    // Too long for the panel: PgDn and PgUp scroll it, and a marker says what is hidden.
+    let h = usize::from(inner.height);
+    let skip = usize::from(app.cursors.fit_scroll).min(lines.len().saturating_sub(h));
+    let hidden_below = lines.len().saturating_sub(skip + h);
+    let mut shown: Vec<Line> = lines.into_iter().skip(skip).take(h).collect();
+    if hidden_below > 0 {
+        if let Some(last) = shown.last_mut() {
+            *last = Line::styled(
+                strings::more_lines(hidden_below + 1),
+                quiet().add_modifier(Modifier::REVERSED),
+            );
+        }
+    } else if skip > 0 {
+        if let Some(first) = shown.first_mut() {
+            *first = Line::styled(
+                strings::MORE_ABOVE,
+                quiet().add_modifier(Modifier::REVERSED),
+            );
+        }
+    }
+    Paragraph::new(shown).render(inner, buf);
 }
 
 fn ci(c: Option<[f64; 2]>) -> String {

@@ -8,10 +8,11 @@ pub mod threshold;
 pub mod washout;
 
 use crate::core::advice::SuggestionPart;
-use crate::core::casefile::CaseFile;
+use crate::core::casefile::{CaseFile, TargetsFile};
 use crate::core::report::num;
 use crate::profiles::{Entry, FirstOrder};
 use crate::tui::app::{App, Screen};
+use crate::tui::catalog;
 use crate::tui::fields::{self, Field};
 use crate::tui::strings;
 
@@ -41,12 +42,19 @@ pub const PATIENT_FIELDS: [Field; 6] = [
 ];
 
 /// The drug's fields, in screen order.
-pub const DRUG_FIELDS: [Field; 4] = [
+pub const DRUG_FIELDS: [Field; 5] = [
     Field::DrugName,
     Field::DrugProfile,
+    Field::Strategy,
     Field::Unit,
     Field::MolarMass,
 ];
+
+/// The case's clock fields.
+pub const CLOCK_FIELDS: [Field; 1] = [Field::TimeZone];
+
+/// The switch to another agent, in screen order.
+pub const SWITCH_FIELDS: [Field; 3] = [Field::SwitchTo, Field::SwitchBelow, Field::SwitchHalfLives];
 
 /// The plan screen's fields, in screen order.
 pub const PLAN_FIELDS: [Field; 9] = [
@@ -62,7 +70,12 @@ pub const PLAN_FIELDS: [Field; 9] = [
 ];
 
 /// The threshold screen's fields, in screen order.
-pub const THRESHOLD_FIELDS: [Field; 2] = [Field::ThresholdBelow, Field::ThresholdProcedure];
+pub const THRESHOLD_FIELDS: [Field; 4] = [
+    Field::ThresholdBelow,
+    Field::ThresholdProcedure,
+    Field::ResumeBelow,
+    Field::ResumeAfter,
+];
 
 /// Every selectable line of the case screen, in cursor order: the dose and level tables
 /// first (the bedside work), then the patient and drug fields.
@@ -75,6 +88,8 @@ pub fn case_lines(file: &CaseFile) -> Vec<CaseLine> {
         PATIENT_FIELDS
             .iter()
             .chain(DRUG_FIELDS.iter())
+            .chain(CLOCK_FIELDS.iter())
+            .chain(SWITCH_FIELDS.iter())
             .map(|f| CaseLine::Field(*f)),
     );
     out
@@ -193,4 +208,52 @@ pub fn entry_lines(e: &Entry) -> Vec<(InfoKind, String)> {
         out.push((InfoKind::Caution, format!("- {c}")));
     }
     out
+}
+
+// ---- targets from the profile (read by the plan screen, written by `update`) --------------
+
+/// Whether `field` is one of the targets.
+pub fn is_target(field: Field) -> bool {
+    matches!(
+        field,
+        Field::TargetPeak | Field::TargetTrough | Field::TargetAuc
+    )
+}
+
+/// The targets the case's drug profile gives, in the case's unit, when it gives any.
+pub fn profile_targets(app: &App) -> Option<crate::core::case::Targets> {
+    let name = app.file.drug.profile.as_deref()?;
+    let entry = app.profiles.get(name)?;
+    let t = catalog::profile_targets(
+        entry,
+        app.file.drug.level_unit.as_deref(),
+        app.file.drug.molar_mass_g_mol,
+    );
+    (!t.is_empty()).then_some(t)
+}
+
+/// Before the first edit of a target in a case that takes its targets from the profile,
+/// copy the profile's targets into the case, so the ones not edited stay as they were.
+pub fn seed_targets(app: &App, field: Field, f: &mut CaseFile) {
+    if !is_target(field) || f.targets.is_some() {
+        return;
+    }
+    if let Some(t) = profile_targets(app) {
+        f.targets = Some(TargetsFile {
+            peak: t.peak.map(Vec::from),
+            trough_max: t.trough_max,
+            auc24: t.auc24.map(Vec::from),
+        });
+    }
+}
+
+/// The case file with the profile's targets written in, when the case has no `[targets]`
+/// and its profile gives some (what the plan screen shows, marked as the profile's).
+pub fn file_with_profile_targets(app: &App) -> Option<CaseFile> {
+    if app.file.targets.is_some() {
+        return None;
+    }
+    let mut f = app.file.clone();
+    seed_targets(app, Field::TargetPeak, &mut f);
+    f.targets.is_some().then_some(f)
 }

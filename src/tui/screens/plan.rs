@@ -9,11 +9,12 @@ use ratatui::widgets::{Paragraph, Widget};
 
 use crate::core::clock::span_words;
 use crate::core::report::{num, TargetCheck};
+use crate::core::units::auc_unit;
 use crate::tui::app::App;
 use crate::tui::fields::Field;
-use crate::tui::screens::{suggestions, PLAN_FIELDS};
+use crate::tui::screens::{self, suggestions, PLAN_FIELDS};
 use crate::tui::strings;
-use crate::tui::update;
+
 use crate::tui::view::note;
 use crate::tui::widgets::chart::SemiLogChart;
 use crate::tui::widgets::{self, field_line, heading, or_dash, problem_style, quiet};
@@ -26,13 +27,13 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
     let unit = app.file.drug.level_unit.clone().unwrap_or_default();
     let mut lines = vec![Line::styled(strings::REGIMEN, heading())];
     let plan_part = app.figures.report.as_ref().and_then(|r| r.plan.as_ref());
-    let from_profile = update::file_with_profile_targets(app);
+    let from_profile = screens::file_with_profile_targets(app);
     for (i, f) in PLAN_FIELDS.iter().enumerate() {
         let (label, u) = strings::field_label(*f);
         let mut u = if matches!(f, Field::TargetPeak | Field::TargetTrough) {
             unit.clone()
         } else if *f == Field::TargetAuc {
-            format!("{unit}·h")
+            auc_unit(&unit)
         } else {
             u.to_string()
         };
@@ -64,7 +65,11 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
     }
     lines.push(Line::styled(strings::AT_STEADY_STATE, heading()));
     match (&app.file.plan, plan_part, &app.figures.problem) {
-        (None, _, _) => lines.push(Line::styled(strings::NO_PLAN, quiet())),
+        (None, _, _) => {
+            for l in widgets::wrap(strings::NO_PLAN, usize::from(left_w)) {
+                lines.push(Line::styled(l, quiet()));
+            }
+        }
         (Some(_), Some(p), _) => {
             let check = |name: &str| p.checks.iter().find(|c| c.name == name);
             match p.peak_sampled_ss {
@@ -91,7 +96,7 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
             lines.push(figure(
                 strings::AUC24,
                 p.auc24_ss,
-                &format!("{unit}·h"),
+                &auc_unit(&unit),
                 check("AUC24"),
             ));
             if let Some(h) = p.drug_free_h {
@@ -111,10 +116,11 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
                 ]));
             }
         }
-        (Some(_), None, Some(problem)) => lines.push(Line::styled(
-            strings::no_figures(&problem.text),
-            problem_style(),
-        )),
+        (Some(_), None, Some(problem)) => {
+            for l in widgets::wrap(&strings::no_figures(&problem.text), usize::from(left_w)) {
+                lines.push(Line::styled(l, problem_style()));
+            }
+        }
         (Some(_), None, None) => lines.push(Line::styled(strings::NO_FIGURES_PLAIN, quiet())),
     }
     let wide = area.width >= 120;
@@ -206,10 +212,19 @@ fn suggestion_lines(app: &App, wide: bool, unit: &str, rows: usize) -> Vec<Line<
         heading(),
     )];
     let [c_dose, c_every, c_route, c_peak, c_trough, c_auc] = strings::SUGGESTION_COLUMNS;
+    // Narrow, the AUC24 column replaces the route when AUC24 is a target (and the peak too
+    // when the peak is not one), so every figure the targets judge stays in view.
+    let targets = app.figures.case.as_ref().map(|c| c.targets.clone());
+    let auc_target = targets.as_ref().is_some_and(|t| t.auc24.is_some());
+    let peak_target = targets.as_ref().is_some_and(|t| t.peak.is_some());
     let row =
         |n: &str, dose: &str, every: &str, route: &str, peak: &str, trough: &str, auc: &str| {
             if wide {
                 format!("{n:<2} {dose:<8} {every:<6} {route:<11} {peak:<9} {trough:<10} {auc}")
+            } else if auc_target && peak_target {
+                format!("{n:<2} {dose:<7} {every:<5} {peak:<6} {trough:<6} {auc}")
+            } else if auc_target {
+                format!("{n:<2} {dose:<8} {every:<6} {trough:<8} {auc}")
             } else {
                 format!("{n:<2} {dose:<8} {every:<6} {peak:<8} {trough}")
             }

@@ -11,6 +11,7 @@ use ratatui::widgets::{Paragraph, Widget};
 use crate::core::clock::span_words;
 use crate::core::report::num;
 use crate::tui::app::App;
+use crate::tui::fields::Field;
 use crate::tui::screens::THRESHOLD_FIELDS;
 use crate::tui::strings;
 use crate::tui::view::note;
@@ -27,7 +28,11 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
     let mut lines = vec![Line::styled(strings::THRESHOLD_HEADING, heading())];
     for (i, f) in THRESHOLD_FIELDS.iter().enumerate() {
         let (label, u) = strings::field_label(*f);
-        let u = if i == 0 { unit.as_str() } else { u };
+        let u = if matches!(f, Field::ThresholdBelow | Field::ResumeBelow) {
+            unit.as_str()
+        } else {
+            u
+        };
         lines.push(field_line(
             app,
             *f,
@@ -108,6 +113,14 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
                     (_, None) => strings::NOT_KNOWN.into(),
                 };
                 wrapped(&mut lines, text, Style::new());
+                if let Some(at) = &t.resume_at {
+                    let text = strings::resume_from(
+                        &at.readable_near(p),
+                        t.level_at_resume.map(num).as_deref(),
+                        &unit,
+                    );
+                    wrapped(&mut lines, text, Style::new().add_modifier(Modifier::BOLD));
+                }
             } else {
                 wrapped(&mut lines, strings::NO_PROCEDURE.into(), quiet());
             }

@@ -23,7 +23,27 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
     ) else {
         return no_figures(app, area, buf);
     };
-    let left_w = if area.width >= 120 { 60 } else { 41 };
+    // The table's columns take the width their widest entry needs (a level in nmol/L
+    // is longer than one in mg/L), and the left column grows to hold them whole.
+    let unit_now = r.unit.as_str();
+    let levels: Vec<String> = r
+        .washout
+        .iter()
+        .map(|row| format!("{} {unit_now}", num(row.level)))
+        .collect();
+    let level_w = levels
+        .iter()
+        .map(|l| l.chars().count())
+        .max()
+        .unwrap_or(0)
+        .max(11);
+    let table_w = 2 + 2 + 15 + 1 + level_w + 1 + 7 + 2;
+    let left_w = if area.width >= 120 {
+        60
+    } else {
+        let cap = (area.width * 3 / 5).max(41);
+        (table_w as u16 + 1).max(41).min(cap)
+    };
     let [left, right] =
         Layout::horizontal([Constraint::Length(left_w), Constraint::Min(1)]).areas(area);
     let unit = r.unit.as_str();
@@ -38,13 +58,17 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
         .into_iter()
         .map(|l| Line::styled(l.replace(KEEP, " "), heading()))
         .collect();
-    lines.push(Line::styled(strings::WASHOUT_COLUMNS, quiet()));
-    for row in &r.washout {
+    let [c_n, c_when, c_level, c_left] = strings::WASHOUT_COLUMNS;
+    lines.push(Line::styled(
+        format!("{c_n:>2}  {c_when:<15} {c_level:<level_w$} {c_left:>9}"),
+        quiet(),
+    ));
+    for (row, level) in r.washout.iter().zip(&levels) {
         lines.push(Line::raw(format!(
-            "{:>2}  {:<15} {:<11} {:>6} %",
+            "{:>2}  {:<15} {:<level_w$} {:>7} %",
             row.half_lives,
             row.at.readable_near(&r.washout_from),
-            format!("{} {unit}", num(row.level)),
+            level,
             num(row.fraction_remaining * 100.0)
         )));
     }
