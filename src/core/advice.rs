@@ -13,7 +13,7 @@ use crate::core::fit::{self, Fit};
 use crate::core::format::{num, when};
 use crate::core::model::Route;
 use crate::core::project::Patient;
-use crate::core::regimen::{self, Advice};
+use crate::core::regimen::{self, Advice, Proportional};
 use crate::core::switch::{self, SwitchRule};
 use crate::core::units::auc_unit;
 
@@ -64,29 +64,6 @@ pub struct LoadingPart {
     pub basis: &'static str,
 }
 
-/// The proportional adjustment, as reported (level unit).
-#[derive(Debug, Clone, PartialEq)]
-pub struct ProportionalPart {
-    /// The interval the levels were measured over, hours.
-    pub interval_h: f64,
-    /// "peak" or "AUC24".
-    pub basis: &'static str,
-    /// The measured figure.
-    pub measured: f64,
-    /// The figure aimed at.
-    pub target: f64,
-    /// target / measured.
-    pub factor: f64,
-    /// The dose that gave the levels, when known.
-    pub dose_given_mg: Option<f64>,
-    /// The adjusted dose, when the dose given is known.
-    pub new_dose_mg: Option<f64>,
-    /// The trough after the adjustment.
-    pub trough_after: f64,
-    /// Whether that trough meets the trough target.
-    pub trough_ok: Option<bool>,
-}
-
 /// AUC24 over the fitted interval by two methods, side by side (level unit·h).
 #[derive(Debug, Clone, PartialEq)]
 pub struct AucPart {
@@ -134,8 +111,8 @@ pub struct AdvicePart {
     pub suggestions: Vec<SuggestionPart>,
     /// The loading dose (None without a volume).
     pub loading: Option<LoadingPart>,
-    /// The proportional adjustment (only without a volume).
-    pub proportional: Option<ProportionalPart>,
+    /// The proportional adjustment in the level unit (only without a volume).
+    pub proportional: Option<Proportional>,
     /// AUC24 by two methods.
     pub auc24: Option<AucPart>,
     /// The switch, when the case plans one.
@@ -254,17 +231,7 @@ pub fn build(
     if let Some(l) = &loading {
         finite(&[l.dose_mg, l.target_peak, l.peak], "loading dose")?;
     }
-    let proportional = proportional.map(|q| ProportionalPart {
-        interval_h: q.interval_h,
-        basis: q.basis,
-        measured: to(q.measured),
-        target: to(q.target),
-        factor: q.factor,
-        dose_given_mg: q.dose_given_mg,
-        new_dose_mg: q.new_dose_mg,
-        trough_after: to(q.trough_after_mg_l),
-        trough_ok: q.trough_ok,
-    });
+    let proportional = proportional.map(|q| q.in_level_unit(to));
     if let Some(q) = &proportional {
         finite(
             &[q.measured, q.target, q.factor, q.trough_after],

@@ -125,13 +125,16 @@ pub struct LoadingDose {
 
 /// The proportional adjustment: with linear kinetics and the same interval, levels scale with
 /// the dose, so new dose = dose × target / measured. Used when no volume is known.
+///
+/// Concentrations are in mg/L (AUC in mg·h/L) as the search makes it; the report holds the
+/// same figures in the case's level unit (`in_level_unit`).
 #[derive(Debug, Clone, PartialEq)]
 pub struct Proportional {
     /// The interval the levels were measured over, hours.
     pub interval_h: f64,
     /// "peak" or "AUC24".
     pub basis: &'static str,
-    /// The measured figure (from the fitted line), mg/L or mg·h/L.
+    /// The measured figure (from the fitted line).
     pub measured: f64,
     /// The figure aimed at (the middle of its target range), same unit.
     pub target: f64,
@@ -141,10 +144,23 @@ pub struct Proportional {
     pub dose_given_mg: Option<f64>,
     /// That dose × factor, rounded to the dose step, when the dose is known.
     pub new_dose_mg: Option<f64>,
-    /// The trough the factor gives (measured trough × factor), mg/L.
-    pub trough_after_mg_l: f64,
+    /// The trough the factor gives (measured trough × factor).
+    pub trough_after: f64,
     /// Whether that trough meets the trough target (None without one).
     pub trough_ok: Option<bool>,
+}
+
+impl Proportional {
+    /// The same adjustment with its concentrations converted by `to` (mg/L to the level
+    /// unit); the factor and the doses do not change.
+    pub fn in_level_unit(&self, to: impl Fn(f64) -> f64) -> Proportional {
+        Proportional {
+            measured: to(self.measured),
+            target: to(self.target),
+            trough_after: to(self.trough_after),
+            ..self.clone()
+        }
+    }
 }
 
 /// Everything regimen design has to say about a case.
@@ -536,7 +552,7 @@ pub fn proportional(case: &Case, fit: &Fit, t: &Targets, step: f64) -> Option<Pr
         factor,
         dose_given_mg: given,
         new_dose_mg: new_dose,
-        trough_after_mg_l: trough_after,
+        trough_after,
         trough_ok: t.trough_max.map(|m| trough_after <= m),
     })
 }
