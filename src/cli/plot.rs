@@ -9,7 +9,7 @@ use crate::core::case::Case;
 use crate::core::error::{Error, Result};
 use crate::core::fit::Fit;
 use crate::core::format::num;
-use crate::core::project::{self, Patient};
+use crate::core::projection::{self, Patient};
 use crate::core::report::Report;
 
 /// Width and height of the drawing, in SVG pixels.
@@ -100,10 +100,10 @@ pub fn plot_svg_from(case: &Case, fit: &Fit, r: &Report) -> Result<String> {
     let in_unit = |pts: Vec<(f64, f64)>| -> Vec<(f64, f64)> {
         pts.into_iter().map(|(t, c)| (t, to(c))).collect()
     };
-    let recorded = in_unit(project::course_mg_l(&p, None, first, x1, SAMPLES));
+    let recorded = in_unit(projection::course_mg_l(&p, None, first, x1, SAMPLES));
     let planned: Vec<(f64, f64)> = match (&case.plan, p.v()) {
-        (Some(pl), Some(_)) => match project::plan_doses_before(pl, x1).checked_sub(1) {
-            Some(last) => in_unit(project::course_mg_l(
+        (Some(pl), Some(_)) => match projection::plan_doses_before(pl, x1).checked_sub(1) {
+            Some(last) => in_unit(projection::course_mg_l(
                 &p,
                 Some((pl, last)),
                 pl.start_t,

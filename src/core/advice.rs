@@ -7,12 +7,12 @@ use std::io::{self, Write};
 
 use crate::core::auc;
 use crate::core::case::Case;
-use crate::core::clock::Stamp;
+use crate::core::clock::ClockTime;
 use crate::core::error::{Error, Result};
 use crate::core::fit::{self, Fit};
 use crate::core::format::{num, when};
 use crate::core::model::Route;
-use crate::core::project::Patient;
+use crate::core::projection::Patient;
 use crate::core::regimen::{self, Advice, Proportional};
 use crate::core::switch::{self, SwitchRule};
 use crate::core::units::auc_unit;
@@ -22,7 +22,7 @@ pub const TRAPEZOID_METHOD: &str = "linear-up/log-down trapezoid (Chiou 1978)";
 
 /// One suggested regimen, as reported (level unit; AUC in level unit·h).
 #[derive(Debug, Clone, PartialEq)]
-pub struct SuggestionPart {
+pub struct SuggestionEntry {
     /// Dose in mg.
     pub dose_mg: f64,
     /// Interval in hours.
@@ -49,7 +49,7 @@ pub struct SuggestionPart {
 
 /// The loading dose, as reported.
 #[derive(Debug, Clone, PartialEq)]
-pub struct LoadingPart {
+pub struct LoadingSection {
     /// Dose in mg.
     pub dose_mg: f64,
     /// Infusion time in hours (0 for bolus and oral).
@@ -66,7 +66,7 @@ pub struct LoadingPart {
 
 /// AUC24 over the fitted interval by two methods, side by side (level unit·h).
 #[derive(Debug, Clone, PartialEq)]
-pub struct AucPart {
+pub struct AucSection {
     /// Rows of the two levels used by the trapezoid.
     pub level_rows: [usize; 2],
     /// Row of the dose whose interval they are in.
@@ -87,7 +87,7 @@ pub struct AucPart {
 
 /// The switch to another agent, as reported.
 #[derive(Debug, Clone, PartialEq)]
-pub struct SwitchPart {
+pub struct SwitchSection {
     /// The next agent.
     pub to: String,
     /// "start_below" or "after_half_lives".
@@ -95,31 +95,31 @@ pub struct SwitchPart {
     /// The rule's number: the level (level unit) or the half-lives.
     pub value: f64,
     /// Where the count starts.
-    pub from: Stamp,
+    pub from: ClockTime,
     /// The earliest start (rounded up to the minute).
-    pub start_at: Stamp,
+    pub start_at: ClockTime,
     /// Its 95 % range.
-    pub start_at_ci95: Option<[Stamp; 2]>,
+    pub start_at_ci95: Option<[ClockTime; 2]>,
     /// The level predicted at the start (level unit).
     pub level_at_start: f64,
 }
 
 /// Every advice part of a report.
 #[derive(Debug, Clone, Default, PartialEq)]
-pub struct AdvicePart {
+pub struct AdviceSection {
     /// Suggested regimens, best first, at most five.
-    pub suggestions: Vec<SuggestionPart>,
+    pub suggestions: Vec<SuggestionEntry>,
     /// The loading dose (None without a volume).
-    pub loading: Option<LoadingPart>,
+    pub loading: Option<LoadingSection>,
     /// The proportional adjustment in the level unit (only without a volume).
     pub proportional: Option<Proportional>,
     /// AUC24 by two methods.
-    pub auc24: Option<AucPart>,
+    pub auc24: Option<AucSection>,
     /// The switch, when the case plans one.
-    pub switch: Option<SwitchPart>,
+    pub switch: Option<SwitchSection>,
 }
 
-fn up(case: &Case, t: f64, what: &str) -> Result<Stamp> {
+fn up(case: &Case, t: f64, what: &str) -> Result<ClockTime> {
     case.clock.at_minute_up(t).ok_or_else(|| {
         Error::invalid(
             what,
@@ -141,7 +141,7 @@ fn finite(xs: &[f64], what: &str) -> Result<()> {
 
 /// AUC24 over the fitted interval from its first and last fitted levels, by the trapezoid
 /// and by k and V. `None` when the interval is unknown or the levels do not allow it.
-pub fn auc_compare(p: &Patient) -> Option<AucPart> {
+pub fn auc_compare(p: &Patient) -> Option<AucSection> {
     let (case, fit) = (p.case, p.fit);
     let w = fit.window_dose;
     let dose = case.doses.get(w)?;
@@ -166,7 +166,7 @@ pub fn auc_compare(p: &Patient) -> Option<AucPart> {
         _ => None,
     };
     let scale = case.drug.scale;
-    Some(AucPart {
+    Some(AucSection {
         level_rows: [la.row, lb.row],
         dose_row: dose.row,
         dose_mg: dose.amount_mg,
@@ -188,7 +188,7 @@ pub fn build(
     fit: &Fit,
     plan_peak_mg_l: Option<f64>,
     warnings: &mut Vec<Warning>,
-) -> Result<AdvicePart> {
+) -> Result<AdviceSection> {
     let p = Patient::new(case, fit);
     let scale = case.drug.scale;
     let to = |x: f64| scale.to_level(x);
@@ -199,9 +199,9 @@ pub fn build(
         notes,
     } = regimen::advise(&p, plan_peak_mg_l, &case.regimen);
     warnings.extend(notes);
-    let suggestions: Vec<SuggestionPart> = suggestions
+    let suggestions: Vec<SuggestionEntry> = suggestions
         .iter()
-        .map(|s| SuggestionPart {
+        .map(|s| SuggestionEntry {
             dose_mg: s.dose_mg,
             interval_h: s.interval_h,
             infusion_h: s.route.infusion_h(),
@@ -220,7 +220,7 @@ pub fn build(
                 .all(|x| x.is_finite())
         })
         .collect();
-    let loading = loading.map(|l| LoadingPart {
+    let loading = loading.map(|l| LoadingSection {
         dose_mg: l.dose_mg,
         infusion_h: l.route.infusion_h(),
         route: l.route.name(),
@@ -266,7 +266,7 @@ pub fn build(
                 Some([a, b]) => Some([up(case, a, place)?, up(case, b, place)?]),
                 None => None,
             };
-            Some(SwitchPart {
+            Some(SwitchSection {
                 to: sw.to.clone(),
                 basis: sw.rule.basis(),
                 value: match sw.rule {
@@ -279,7 +279,7 @@ pub fn build(
             })
         }
     };
-    Ok(AdvicePart {
+    Ok(AdviceSection {
         suggestions,
         loading,
         proportional,
@@ -297,12 +297,12 @@ fn route_words(route: &str, infusion_h: f64) -> String {
 }
 
 /// The route of a suggestion in words, for every output that shows one.
-pub fn suggestion_route(s: &SuggestionPart) -> String {
+pub fn suggestion_route(s: &SuggestionEntry) -> String {
     route_words(s.route, s.infusion_h)
 }
 
 /// The route of the loading dose in words.
-pub fn loading_route(l: &LoadingPart) -> String {
+pub fn loading_route(l: &LoadingSection) -> String {
     route_words(l.route, l.infusion_h)
 }
 
@@ -316,7 +316,7 @@ pub fn route_of(r: Route) -> String {
 ///
 /// # Errors
 /// Only the writer's errors.
-pub fn write_regimen_text(w: &mut dyn Write, a: &AdvicePart, u: &str) -> io::Result<()> {
+pub fn write_regimen_text(w: &mut dyn Write, a: &AdviceSection, u: &str) -> io::Result<()> {
     if !a.suggestions.is_empty() {
         writeln!(w, "Regimens that meet every target (best first):")?;
         for (i, s) in a.suggestions.iter().enumerate() {
@@ -432,7 +432,7 @@ pub fn write_regimen_text(w: &mut dyn Write, a: &AdvicePart, u: &str) -> io::Res
 ///
 /// # Errors
 /// Only the writer's errors.
-pub fn write_switch_text(w: &mut dyn Write, a: &AdvicePart, u: &str) -> io::Result<()> {
+pub fn write_switch_text(w: &mut dyn Write, a: &AdviceSection, u: &str) -> io::Result<()> {
     if let Some(s) = &a.switch {
         let rule = match s.basis {
             "start_below" => format!("once below {} {u}", num(s.value)),

@@ -16,7 +16,7 @@ use crate::core::case::{Case, Patient};
 use crate::core::error::{Error, Result};
 use crate::core::fitted::{Fit, Method};
 use crate::core::history::{self, Failure, Solution};
-use crate::core::model::Given;
+use crate::core::model::Administration;
 pub use crate::core::population::{Population, Summary};
 pub use crate::core::prior::{Prior, Typical};
 use crate::core::renal;
@@ -93,7 +93,7 @@ pub fn population(prior: &Prior, patient: &Patient) -> Result<Population> {
 /// # Errors
 /// A point before the first dose, or a posterior that cannot be found.
 pub fn estimate_points(
-    doses: &[Given],
+    doses: &[Administration],
     points: &[(f64, f64)],
     pop: &Population,
 ) -> std::result::Result<Solution, Failure> {

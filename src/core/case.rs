@@ -3,8 +3,8 @@
 //! Values here have passed validation (see `casefile`): levels are above zero, times are in
 //! order where they must be, and every unit has what it needs to convert.
 
-use crate::core::clock::{Clock, Stamp};
-use crate::core::model::{Given, Route};
+use crate::core::clock::{Clock, ClockTime};
+use crate::core::model::{Administration, Route};
 use crate::core::prior::Prior;
 use crate::core::units::Scale;
 
@@ -53,7 +53,7 @@ pub struct Dose {
     /// Row in the file, counting from 1.
     pub row: usize,
     /// When it was given (start of the infusion).
-    pub time: Stamp,
+    pub time: ClockTime,
     /// Hours on the case's axis.
     pub t: f64,
     /// Amount in mg, when known.
@@ -75,7 +75,7 @@ pub struct Level {
     /// Row in the file, counting from 1.
     pub row: usize,
     /// When it was drawn.
-    pub time: Stamp,
+    pub time: ClockTime,
     /// Hours on the case's axis.
     pub t: f64,
     /// The measured value in the case's level unit.
@@ -215,7 +215,7 @@ pub struct Case {
 
 impl Case {
     /// The doses as the model sees them, or the rows that have no amount.
-    pub fn given(&self) -> std::result::Result<Vec<Given>, Vec<usize>> {
+    pub fn given(&self) -> std::result::Result<Vec<Administration>, Vec<usize>> {
         let missing: Vec<usize> = self
             .doses
             .iter()
@@ -229,7 +229,7 @@ impl Case {
             .doses
             .iter()
             .filter_map(|d| {
-                d.amount_mg.map(|a| Given {
+                d.amount_mg.map(|a| Administration {
                     t: d.t,
                     amount_mg: a,
                     route: d.route,
@@ -239,7 +239,7 @@ impl Case {
     }
 
     /// The stamp of an hour on the axis, to the minute, or `None` if out of the calendar.
-    pub fn stamp(&self, t: f64) -> Option<Stamp> {
+    pub fn stamp(&self, t: f64) -> Option<ClockTime> {
         self.clock.at_minute(t)
     }
 

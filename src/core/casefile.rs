@@ -10,7 +10,7 @@ use crate::core::case::{
     Case, Dose, Drug, FitChoice, Level, Patient, Plan, RegimenOptions, Sex, Switch, SwitchRule,
     Targets, Threshold,
 };
-use crate::core::clock::{Clock, Stamp};
+use crate::core::clock::{Clock, ClockTime};
 use crate::core::error::{Error, Result};
 use crate::core::model::Route;
 use crate::core::prior::Prior;
@@ -377,7 +377,7 @@ impl CaseFile {
         let scale = drug.scale;
 
         // Times: all local or all with an offset.
-        let mut stamps: Vec<(String, Stamp)> = Vec::new();
+        let mut stamps: Vec<(String, ClockTime)> = Vec::new();
         for (i, d) in self.doses.iter().enumerate() {
             let place = format!("dose {}", i + 1);
             stamps.push((place.clone(), to_stamp(&d.time, &format!("{place}: time"))?));
@@ -410,9 +410,9 @@ impl CaseFile {
         };
         // With a zone, local times are placed through it (a time that does not exist or
         // happens twice there is an error naming its row).
-        let in_zone = |place: &str, s: Stamp| -> Result<Stamp> {
+        let in_zone = |place: &str, s: ClockTime| -> Result<ClockTime> {
             match (zone, s) {
-                (Some(z), Stamp::Local(wall)) => crate::core::clock::place_in_zone(wall, z)
+                (Some(z), ClockTime::Local(wall)) => crate::core::clock::place_in_zone(wall, z)
                     .map_err(|m| Error::invalid(format!("{place}: time"), m)),
                 _ => Ok(s),
             }
@@ -424,7 +424,7 @@ impl CaseFile {
         let procedure = procedure
             .map(|s| in_zone("threshold.procedure", s))
             .transpose()?;
-        let mut all: Vec<(String, Stamp)> = stamps.clone();
+        let mut all: Vec<(String, ClockTime)> = stamps.clone();
         if let Some(s) = plan_start {
             all.push(("plan.start".into(), s));
         }
@@ -1207,18 +1207,18 @@ pub fn clock_change_warning(
     case: &Case,
     offset_at: impl Fn(NaiveDateTime) -> Option<FixedOffset>,
 ) -> Option<String> {
-    use crate::core::clock::Stamp;
+    use crate::core::clock::ClockTime;
     if case.clock.zone().is_some() {
         return None;
     }
     let mut rows: Vec<(String, NaiveDateTime)> = Vec::new();
     for d in &case.doses {
-        if let Stamp::Local(t) = d.time {
+        if let ClockTime::Local(t) = d.time {
             rows.push((format!("dose {}", d.row), t));
         }
     }
     for l in &case.levels {
-        if let Stamp::Local(t) = l.time {
+        if let ClockTime::Local(t) = l.time {
             rows.push((format!("level {}", l.row), t));
         }
     }
@@ -1253,7 +1253,7 @@ pub const LAST_YEAR: u16 = 2200;
 
 /// A TOML date-time as a stamp; a date alone, a time alone, or a year outside
 /// `FIRST_YEAR..=LAST_YEAR` is an error.
-pub fn to_stamp(dt: &Datetime, place: &str) -> Result<Stamp> {
+pub fn to_stamp(dt: &Datetime, place: &str) -> Result<ClockTime> {
     let (Some(date), Some(time)) = (dt.date, dt.time) else {
         return Err(Error::invalid(
             place,
@@ -1282,7 +1282,7 @@ pub fn to_stamp(dt: &Datetime, place: &str) -> Result<Stamp> {
     .ok_or_else(|| Error::invalid(place, format!("no such time: {dt}")))?;
     let naive = NaiveDateTime::new(d, t);
     match dt.offset {
-        None => Ok(Stamp::Local(naive)),
+        None => Ok(ClockTime::Local(naive)),
         Some(off) => {
             let minutes: i32 = match off {
                 Offset::Z => 0,
@@ -1293,14 +1293,14 @@ pub fn to_stamp(dt: &Datetime, place: &str) -> Result<Stamp> {
             naive
                 .and_local_timezone(fixed)
                 .single()
-                .map(Stamp::Offset)
+                .map(ClockTime::Offset)
                 .ok_or_else(|| Error::invalid(place, format!("cannot place {dt}")))
         }
     }
 }
 
 /// A stamp as a TOML date-time (for saving).
-pub fn from_stamp(s: &Stamp) -> Datetime {
+pub fn from_stamp(s: &ClockTime) -> Datetime {
     use chrono::{Datelike, Timelike};
     let w = s.wall();
     // chrono's fields are in range by construction; the casts cannot truncate (years are
@@ -1317,8 +1317,8 @@ pub fn from_stamp(s: &Stamp) -> Datetime {
         nanosecond: 0,
     };
     let offset = match s {
-        Stamp::Local(_) => None,
-        Stamp::Offset(t) => Some(Offset::Custom {
+        ClockTime::Local(_) => None,
+        ClockTime::Offset(t) => Some(Offset::Custom {
             minutes: (t.offset().local_minus_utc() / 60) as i16,
         }),
     };
@@ -1329,12 +1329,14 @@ pub fn from_stamp(s: &Stamp) -> Datetime {
     }
 }
 
-fn build_clock(stamps: &[(String, Stamp)]) -> Result<Clock> {
-    let first_kind = stamps.first().map(|(_, s)| matches!(s, Stamp::Offset(_)));
+fn build_clock(stamps: &[(String, ClockTime)]) -> Result<Clock> {
+    let first_kind = stamps
+        .first()
+        .map(|(_, s)| matches!(s, ClockTime::Offset(_)));
     if let Some(offset_kind) = first_kind {
         if let Some((place, _)) = stamps
             .iter()
-            .find(|(_, s)| matches!(s, Stamp::Offset(_)) != offset_kind)
+            .find(|(_, s)| matches!(s, ClockTime::Offset(_)) != offset_kind)
         {
             let (this, other) = if offset_kind {
                 ("a local time", "offset times")
@@ -1361,8 +1363,8 @@ fn build_clock(stamps: &[(String, Stamp)]) -> Result<Clock> {
         .filter(|(p, _)| p.starts_with("dose") || p.starts_with("level"))
         .max_by_key(|(_, s)| s.axis_time())
         .and_then(|(_, s)| match s {
-            Stamp::Offset(t) => Some(*t.offset()),
-            Stamp::Local(_) => None,
+            ClockTime::Offset(t) => Some(*t.offset()),
+            ClockTime::Local(_) => None,
         });
     Ok(Clock::new(origin, offset))
 }

@@ -108,49 +108,49 @@ fn fixed(offset: jiff::tz::Offset) -> Option<FixedOffset> {
 
 /// A date-time as the case gave it: a wall-clock local time, or one with a UTC offset.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Stamp {
+pub enum ClockTime {
     /// A local date-time (wall clock, no zone).
     Local(NaiveDateTime),
     /// A date-time with its UTC offset.
     Offset(DateTime<FixedOffset>),
 }
 
-impl Stamp {
+impl ClockTime {
     /// The instant on the case's axis: UTC for offset times, the wall clock for local ones.
     pub fn axis_time(&self) -> NaiveDateTime {
         match self {
-            Stamp::Local(t) => *t,
-            Stamp::Offset(t) => t.naive_utc(),
+            ClockTime::Local(t) => *t,
+            ClockTime::Offset(t) => t.naive_utc(),
         }
     }
 
     /// The wall-clock reading of this stamp.
     pub fn wall(&self) -> NaiveDateTime {
         match self {
-            Stamp::Local(t) => *t,
-            Stamp::Offset(t) => t.naive_local(),
+            ClockTime::Local(t) => *t,
+            ClockTime::Offset(t) => t.naive_local(),
         }
     }
 
     /// ISO 8601 to the minute, with the offset when there is one (`2027-03-03T14:10`).
     pub fn iso_minute(&self) -> String {
         match self {
-            Stamp::Local(t) => t.format("%Y-%m-%dT%H:%M").to_string(),
-            Stamp::Offset(t) => t.format("%Y-%m-%dT%H:%M%:z").to_string(),
+            ClockTime::Local(t) => t.format("%Y-%m-%dT%H:%M").to_string(),
+            ClockTime::Offset(t) => t.format("%Y-%m-%dT%H:%M%:z").to_string(),
         }
     }
 
     /// ISO 8601 to the second, as a TOML date-time (for saving a case).
     pub fn iso_second(&self) -> String {
         match self {
-            Stamp::Local(t) => t.format("%Y-%m-%dT%H:%M:%S").to_string(),
-            Stamp::Offset(t) => t.format("%Y-%m-%dT%H:%M:%S%:z").to_string(),
+            ClockTime::Local(t) => t.format("%Y-%m-%dT%H:%M:%S").to_string(),
+            ClockTime::Offset(t) => t.format("%Y-%m-%dT%H:%M:%S%:z").to_string(),
         }
     }
 
     /// A reading for people that shows the year only when it is not `reference`'s year
     /// (a projection into another year must say which).
-    pub fn readable_near(&self, reference: &Stamp) -> String {
+    pub fn readable_near(&self, reference: &ClockTime) -> String {
         self.readable(self.wall().year() != reference.wall().year())
     }
 
@@ -174,8 +174,8 @@ impl Stamp {
             w.format("%a %-d %b %H:%M").to_string()
         };
         match self {
-            Stamp::Local(_) => base,
-            Stamp::Offset(t) => format!("{base} {}", t.format("%:z")),
+            ClockTime::Local(_) => base,
+            ClockTime::Offset(t) => format!("{base} {}", t.format("%:z")),
         }
     }
 }
@@ -225,7 +225,7 @@ impl Clock {
     }
 
     /// Hours from the origin to `stamp`.
-    pub fn hours(&self, stamp: &Stamp) -> f64 {
+    pub fn hours(&self, stamp: &ClockTime) -> f64 {
         let d = stamp.axis_time() - self.origin;
         d.num_milliseconds() as f64 / 1000.0 / SECONDS_PER_HOUR
     }
@@ -233,7 +233,7 @@ impl Clock {
     /// The stamp `h` hours after the origin, rounded up to the whole minute (later is the
     /// safe side for "below the threshold at"). `None` when `h` is not finite or so far
     /// away that no calendar date can hold it.
-    pub fn at_minute_up(&self, h: f64) -> Option<Stamp> {
+    pub fn at_minute_up(&self, h: f64) -> Option<ClockTime> {
         if !h.is_finite() || h.abs() > MAX_HOURS {
             return None;
         }
@@ -247,7 +247,7 @@ impl Clock {
     }
 
     /// The stamp `h` hours after the origin, to the nearest minute.
-    pub fn at_minute(&self, h: f64) -> Option<Stamp> {
+    pub fn at_minute(&self, h: f64) -> Option<ClockTime> {
         if !h.is_finite() || h.abs() > MAX_HOURS {
             return None;
         }
@@ -258,16 +258,16 @@ impl Clock {
         self.stamp_of(t)
     }
 
-    fn stamp_of(&self, axis: NaiveDateTime) -> Option<Stamp> {
+    fn stamp_of(&self, axis: NaiveDateTime) -> Option<ClockTime> {
         if let Some(zone) = self.zone {
             let off = zone.offset_at(axis)?;
-            return Some(Stamp::Offset(DateTime::from_naive_utc_and_offset(
+            return Some(ClockTime::Offset(DateTime::from_naive_utc_and_offset(
                 axis, off,
             )));
         }
         Some(match self.offset {
-            None => Stamp::Local(axis),
-            Some(off) => Stamp::Offset(DateTime::from_naive_utc_and_offset(axis, off)),
+            None => ClockTime::Local(axis),
+            Some(off) => ClockTime::Offset(DateTime::from_naive_utc_and_offset(axis, off)),
         })
     }
 }
@@ -289,19 +289,19 @@ pub fn span_words(hours: f64) -> String {
 }
 
 /// Whether two stamps fall on the same calendar day (for compact readings).
-pub fn same_year(a: &Stamp, b: &Stamp) -> bool {
+pub fn same_year(a: &ClockTime, b: &ClockTime) -> bool {
     a.wall().year() == b.wall().year()
 }
 
 /// Minutes past midnight of a stamp's wall clock.
-pub fn minute_of_day(s: &Stamp) -> u32 {
+pub fn minute_of_day(s: &ClockTime) -> u32 {
     let w = s.wall();
     w.hour() * 60 + w.minute()
 }
 
 /// Place a wall-clock time in an IANA zone. `Err` says why it cannot be placed: the time
 /// does not exist (the clocks went forward over it) or happens twice (they went back).
-pub fn place_in_zone(wall: NaiveDateTime, zone: Zone) -> std::result::Result<Stamp, String> {
+pub fn place_in_zone(wall: NaiveDateTime, zone: Zone) -> std::result::Result<ClockTime, String> {
     use chrono::LocalResult;
     let at = |off: FixedOffset| off.from_local_datetime(&wall).single();
     let placed = zone
@@ -312,7 +312,7 @@ pub fn place_in_zone(wall: NaiveDateTime, zone: Zone) -> std::result::Result<Sta
             LocalResult::Ambiguous(a, b) => Some(LocalResult::Ambiguous(at(a)?, at(b)?)),
         });
     match placed {
-        Some(LocalResult::Single(t)) => Ok(Stamp::Offset(t)),
+        Some(LocalResult::Single(t)) => Ok(ClockTime::Offset(t)),
         Some(LocalResult::None) => Err(format!(
             "{} does not exist in {} (the clocks go forward over it); check the time",
             wall.format("%Y-%m-%dT%H:%M"),
@@ -399,7 +399,7 @@ mod tests {
     fn hours_cross_month_ends_and_leap_days() {
         let c = Clock::new(t(2028, 2, 28, 22, 0), None);
         // 2028 is a leap year: 28 Feb 22:00 to 1 Mar 02:00 is 28 h.
-        assert_eq!(c.hours(&Stamp::Local(t(2028, 3, 1, 2, 0))), 28.0);
+        assert_eq!(c.hours(&ClockTime::Local(t(2028, 3, 1, 2, 0))), 28.0);
     }
 
     #[test]
@@ -427,8 +427,8 @@ mod tests {
 
     #[test]
     fn the_year_shows_only_when_it_differs_from_the_reference() {
-        let a = Stamp::Local(t(2027, 12, 31, 22, 0));
-        let b = Stamp::Local(t(2028, 1, 1, 3, 30));
+        let a = ClockTime::Local(t(2027, 12, 31, 22, 0));
+        let b = ClockTime::Local(t(2028, 1, 1, 3, 30));
         assert_eq!(b.readable_near(&a), "Sat 1 Jan 2028 03:30");
         assert_eq!(a.readable_near(&a), "Fri 31 Dec 22:00");
     }

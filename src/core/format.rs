@@ -1,6 +1,6 @@
 //! Numbers and clock times written for people, the same way in every report, note and screen.
 
-use crate::core::clock::Stamp;
+use crate::core::clock::ClockTime;
 
 /// A fit method's name in running text: the case-file spelling, with Bayesian capitalised
 /// (the JSON keeps the case-file spelling).
@@ -37,6 +37,6 @@ pub fn num(x: f64) -> String {
 }
 
 /// A readable stamp, with the year only when it differs from `reference`'s.
-pub fn when(s: &Stamp) -> String {
+pub fn when(s: &ClockTime) -> String {
     s.readable(false)
 }

@@ -20,7 +20,7 @@ use crate::core::error::{Error, Result};
 use crate::core::fitted::{
     after_dose, in_distribution_phase, t975, Fit, Method, VolumeMethod, DISTRIBUTION_PHASE_H,
 };
-use crate::core::model::{self, Given, Schedule};
+use crate::core::model::{self, Administration, Schedule};
 pub use crate::core::spread::{Gaussian, Spread};
 
 /// The result of a dose-history or Bayesian solve on plain numbers.
@@ -39,7 +39,7 @@ pub struct Solution {
 }
 
 /// ln S(t; k) and ∂ln S/∂ln k for the summed unit responses; None when no dose precedes t.
-pub fn ln_unit_level(doses: &[Given], k: f64, t: f64) -> Option<(f64, f64)> {
+pub fn ln_unit_level(doses: &[Administration], k: f64, t: f64) -> Option<(f64, f64)> {
     let (mut s, mut ds) = (0.0, 0.0);
     for d in doses {
         let (c, dc) = model::unit_response(d.amount_mg, d.route, k, t - d.t);
@@ -294,7 +294,7 @@ pub enum Failure {
 /// # Errors
 /// A `Failure` saying why no estimate could be made.
 pub fn fit_points(
-    doses: &[Given],
+    doses: &[Administration],
     points: &[(f64, f64)],
 ) -> std::result::Result<Solution, Failure> {
     if points.len() < 2 {
@@ -330,7 +330,7 @@ pub fn fit_points(
 
 /// Build a problem on plain numbers, refusing points with no dose before them.
 pub(crate) fn problem<'a>(
-    doses: &'a [Given],
+    doses: &'a [Administration],
     points: &[(f64, f64)],
     sigma: f64,
     prior: Option<Gaussian>,
@@ -401,7 +401,7 @@ pub(crate) fn usable_levels(case: &Case) -> (Vec<usize>, Vec<Warning>) {
 }
 
 /// The case's doses as the model sees them, or an error naming the rows without an amount.
-pub(crate) fn given_or_error(case: &Case, method: &str) -> Result<Vec<Given>> {
+pub(crate) fn given_or_error(case: &Case, method: &str) -> Result<Vec<Administration>> {
     if case.doses.is_empty() {
         return Err(Error::invalid(
             "dose",
@@ -557,12 +557,12 @@ mod tests {
     #[test]
     fn exact_points_give_back_k_and_v() {
         let doses = [
-            Given {
+            Administration {
                 t: 0.0,
                 amount_mg: 1000.0,
                 route: Route::Infusion { hours: 1.0 },
             },
-            Given {
+            Administration {
                 t: 11.0,
                 amount_mg: 750.0,
                 route: Route::Infusion { hours: 1.5 },
@@ -582,7 +582,7 @@ mod tests {
 
     #[test]
     fn refusals() {
-        let doses = [Given {
+        let doses = [Administration {
             t: 0.0,
             amount_mg: 100.0,
             route: Route::Bolus,

@@ -18,7 +18,7 @@ pub mod note;
 pub mod population;
 pub mod prior;
 pub mod procedure;
-pub mod project;
+pub mod projection;
 pub mod regimen;
 pub mod renal;
 pub mod report;
@@ -55,7 +55,7 @@ mod layering {
         "history",
         "bayes",
         "fit",
-        "project",
+        "projection",
         "uncertainty",
         "auc",
         "regimen",

@@ -48,7 +48,7 @@ impl Route {
 
 /// One dose on the model's time axis.
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Given {
+pub struct Administration {
     /// Start time in hours on the case's axis.
     pub t: f64,
     /// Amount in mg.
@@ -57,7 +57,7 @@ pub struct Given {
     pub route: Route,
 }
 
-impl Given {
+impl Administration {
     /// When the dose has fully entered (end of infusion; the dose time otherwise).
     pub fn end(&self) -> f64 {
         self.t + self.route.infusion_h()
@@ -134,7 +134,12 @@ pub fn accumulation_factor(k: f64, tau: f64) -> f64 {
 }
 
 /// Concentration (mg/L) at time `t` from every dose given before it.
-pub fn superpose<'a>(doses: impl IntoIterator<Item = &'a Given>, k: f64, v: f64, t: f64) -> f64 {
+pub fn superpose<'a>(
+    doses: impl IntoIterator<Item = &'a Administration>,
+    k: f64,
+    v: f64,
+    t: f64,
+) -> f64 {
     doses
         .into_iter()
         .map(|d| single_dose(d.amount_mg, d.route, k, v, t - d.t))
@@ -147,7 +152,7 @@ pub fn superpose<'a>(doses: impl IntoIterator<Item = &'a Given>, k: f64, v: f64,
 /// instead of O(doses x times) for `superpose` at each time.
 #[derive(Debug, Clone)]
 pub struct Schedule<'a> {
-    doses: &'a [Given],
+    doses: &'a [Administration],
     /// Doses by the time they have fully entered (bolus and oral: their time; infusion: its end).
     by_entry: Vec<usize>,
     /// Infusions by start time.
@@ -156,7 +161,7 @@ pub struct Schedule<'a> {
 
 impl<'a> Schedule<'a> {
     /// Lay out `doses` (in any order).
-    pub fn new(doses: &'a [Given]) -> Self {
+    pub fn new(doses: &'a [Administration]) -> Self {
         let mut by_entry: Vec<usize> = (0..doses.len()).collect();
         by_entry.sort_by(|&a, &b| doses[a].end().total_cmp(&doses[b].end()));
         let mut infusions: Vec<usize> = (0..doses.len())
@@ -171,7 +176,7 @@ impl<'a> Schedule<'a> {
     }
 
     /// The doses, as given.
-    pub fn doses(&self) -> &'a [Given] {
+    pub fn doses(&self) -> &'a [Administration] {
         self.doses
     }
 
@@ -335,17 +340,17 @@ mod tests {
     #[test]
     fn unit_response_matches_the_model_and_its_derivative() {
         let doses = [
-            Given {
+            Administration {
                 t: 0.0,
                 amount_mg: 500.0,
                 route: Route::Infusion { hours: 1.0 },
             },
-            Given {
+            Administration {
                 t: 3.0,
                 amount_mg: 200.0,
                 route: Route::Bolus,
             },
-            Given {
+            Administration {
                 t: 5.0,
                 amount_mg: 100.0,
                 route: Route::Oral { f: 0.6 },
@@ -385,27 +390,27 @@ mod tests {
     #[test]
     fn the_forward_pass_matches_the_sum_at_every_time() {
         let doses = [
-            Given {
+            Administration {
                 t: 0.0,
                 amount_mg: 500.0,
                 route: Route::Infusion { hours: 2.0 },
             },
-            Given {
+            Administration {
                 t: 1.0,
                 amount_mg: 80.0,
                 route: Route::Bolus,
             },
-            Given {
+            Administration {
                 t: 1.5,
                 amount_mg: 300.0,
                 route: Route::Infusion { hours: 0.25 },
             },
-            Given {
+            Administration {
                 t: 12.0,
                 amount_mg: 250.0,
                 route: Route::Oral { f: 0.7 },
             },
-            Given {
+            Administration {
                 t: 24.0,
                 amount_mg: 500.0,
                 route: Route::Infusion { hours: 1.0 },

@@ -1,6 +1,6 @@
 //! After a procedure: when the held regimen may resume, by a level to fall below or a delay.
 
-use crate::core::project::{Patient, ThresholdProjection};
+use crate::core::projection::{Patient, ThresholdProjection};
 
 /// When the regimen may resume after the procedure.
 #[derive(Debug, Clone, PartialEq)]
@@ -66,8 +66,8 @@ mod tests {
     use super::resume;
     use crate::core::casefile::CaseFile;
     use crate::core::fit;
-    use crate::core::model::{self, Given, Route};
-    use crate::core::project::{self, Patient};
+    use crate::core::model::{self, Administration, Route};
+    use crate::core::projection::{self, Patient};
     use crate::core::report;
 
     const K: f64 = 0.1;
@@ -79,9 +79,9 @@ mod tests {
     /// doses every 12 h from hour 24; a threshold `below` at a procedure `proc_h` hours from
     /// the first dose. Invented data.
     fn case_text(below: f64, proc_h: f64, extra: &str) -> String {
-        let given: Vec<Given> = [0.0, 12.0]
+        let given: Vec<Administration> = [0.0, 12.0]
             .iter()
-            .map(|&t| Given {
+            .map(|&t| Administration {
                 t,
                 amount_mg: 1000.0,
                 route: INF,
@@ -142,7 +142,7 @@ mod tests {
         let case = CaseFile::parse(&text).unwrap().validate().unwrap();
         let f = fit::fit(&case).unwrap();
         let p = Patient::new(&case, &f);
-        let th = project::threshold(&p, below, Some(tp));
+        let th = projection::threshold(&p, below, Some(tp));
         let (n, td) = th.latest_plan_dose.expect("an earlier dose is allowed");
         assert_eq!(
             n, 1,
@@ -173,7 +173,7 @@ mod tests {
             .unwrap();
         let f = fit::fit(&case).unwrap();
         let p = Patient::new(&case, &f);
-        let mut th = project::threshold(&p, 1000.0, Some(tp));
+        let mut th = projection::threshold(&p, 1000.0, Some(tp));
         // Force the running dose in, as a record still infusing would be.
         th.latest_plan_dose = Some((0, 24.0));
         let plan = case.plan.clone().unwrap();

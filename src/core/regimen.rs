@@ -10,7 +10,7 @@ pub use crate::core::case::RegimenOptions;
 use crate::core::case::{Case, Targets};
 use crate::core::fit::Fit;
 use crate::core::model::{self, Route, SteadyState};
-use crate::core::project::Patient;
+use crate::core::projection::Patient;
 use crate::core::warning::{Code, Warning};
 
 /// The step a dose of about `need_mg` is rounded on: the profile's `step` while it is at most
@@ -614,7 +614,7 @@ pub fn advise(p: &Patient, plan_peak_mg_l: Option<f64>, opts: &RegimenOptions) -
             };
             let load_route = advice.suggestions.first().map_or(route, |s| s.route);
             let given_at = case.plan.as_ref().map_or_else(
-                || crate::core::project::threshold_start(p).t,
+                || crate::core::projection::threshold_start(p).t,
                 |pl| pl.start_t,
             );
             let on_board = p.level_mg_l(given_at);

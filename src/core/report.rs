@@ -6,12 +6,12 @@ use crate::core::warning::{Code, Warning};
 use std::io::{self, Write};
 
 use crate::core::case::{Case, Targets};
-use crate::core::clock::{span_words, Stamp};
+use crate::core::clock::{span_words, ClockTime};
 use crate::core::error::{Error, Result};
 use crate::core::fit::{self, Fit};
 use crate::core::fitted;
 use crate::core::population::Summary;
-use crate::core::project::{self, Patient};
+use crate::core::projection::{self, Patient};
 use crate::core::uncertainty;
 use crate::core::units::auc_unit;
 use crate::core::units::LevelUnit;
@@ -26,7 +26,7 @@ pub const CAUTION_SHORT: &str =
 
 /// The fit, as reported.
 #[derive(Debug, Clone, PartialEq)]
-pub struct FitPart {
+pub struct FitSection {
     /// "two-point" or "log-linear".
     pub method: &'static str,
     /// Rows of the levels in the fit.
@@ -74,7 +74,7 @@ pub struct TargetCheck {
 
 /// The plan at steady state, as reported (concentrations in the level unit).
 #[derive(Debug, Clone, PartialEq)]
-pub struct PlanPart {
+pub struct PlanSection {
     /// 1/(1 - e^(-k·tau)).
     pub accumulation_factor: f64,
     /// Steady-state peak at the end of the infusion (bolus, oral: just after the dose).
@@ -97,7 +97,7 @@ pub struct PlanPart {
     /// Each target on its own.
     pub checks: Vec<TargetCheck>,
     /// When the first plan dose falls.
-    pub start: Stamp,
+    pub start: ClockTime,
     /// 95 % range of the steady-state peak (dose-history and Bayesian fits).
     pub peak_ss_ci95: Option<[f64; 2]>,
     /// 95 % range of the steady-state trough (dose-history and Bayesian fits).
@@ -108,23 +108,23 @@ pub struct PlanPart {
 
 /// The threshold, as reported.
 #[derive(Debug, Clone, PartialEq)]
-pub struct ThresholdPart {
+pub struct ThresholdSection {
     /// The threshold in the level unit.
     pub below: f64,
     /// Where the projection starts.
-    pub t0: Stamp,
+    pub t0: ClockTime,
     /// The model's value at t0, level unit.
     pub c0: f64,
     /// When the level is at or below the threshold (rounded up to the minute).
-    pub reached_at: Stamp,
+    pub reached_at: ClockTime,
     /// Hours from t0 to `reached_at` (unrounded).
     pub hours_from_t0: f64,
     /// The 95 % range of `reached_at`.
-    pub reached_at_ci95: Option<[Stamp; 2]>,
+    pub reached_at_ci95: Option<[ClockTime; 2]>,
     /// The procedure time, if given.
-    pub procedure: Option<Stamp>,
+    pub procedure: Option<ClockTime>,
     /// The latest plan dose that still lets the level be below at the procedure.
-    pub latest_plan_dose: Option<Stamp>,
+    pub latest_plan_dose: Option<ClockTime>,
     /// Addition: how long the procedure lasts, hours (0 when not given).
     pub procedure_h: f64,
     /// Addition: plan doses that start before the procedure (with a plan and a procedure).
@@ -134,18 +134,18 @@ pub struct ThresholdPart {
     /// The level at the procedure (level unit): the highest over the procedure window.
     pub level_at_procedure: Option<f64>,
     /// Addition: when the regimen may resume after the procedure (rounded up to the minute).
-    pub resume_at: Option<Stamp>,
+    pub resume_at: Option<ClockTime>,
     /// Addition: the level then (level unit).
     pub level_at_resume: Option<f64>,
 }
 
 /// One washout row, as reported.
 #[derive(Debug, Clone, PartialEq)]
-pub struct WashoutPart {
+pub struct WashoutEntry {
     /// Whole half-lives since the end of the last dose.
     pub half_lives: u32,
     /// When.
-    pub at: Stamp,
+    pub at: ClockTime,
     /// The level then (level unit).
     pub level: f64,
     /// 0.5^n.
@@ -158,22 +158,22 @@ pub struct Report {
     /// The case's level unit.
     pub unit: LevelUnit,
     /// The fit.
-    pub fit: FitPart,
+    pub fit: FitSection,
     /// The plan, when the case has one.
-    pub plan: Option<PlanPart>,
+    pub plan: Option<PlanSection>,
     /// The threshold, when the case has one.
-    pub threshold: Option<ThresholdPart>,
+    pub threshold: Option<ThresholdSection>,
     /// The washout table.
-    pub washout: Vec<WashoutPart>,
+    pub washout: Vec<WashoutEntry>,
     /// When the washout table starts (end of the last dose, or the last fitted level).
-    pub washout_from: Stamp,
+    pub washout_from: ClockTime,
     /// Specific warnings, most important first.
     pub warnings: Vec<Warning>,
     /// Suggested regimens, loading dose, AUC24 by two methods and the switch.
-    pub advice: crate::core::advice::AdvicePart,
+    pub advice: crate::core::advice::AdviceSection,
 }
 
-fn place(case: &Case, t: f64, what: &str) -> Result<Stamp> {
+fn place(case: &Case, t: f64, what: &str) -> Result<ClockTime> {
     case.clock.at_minute(t).ok_or_else(|| {
         Error::invalid(
             what,
@@ -182,7 +182,7 @@ fn place(case: &Case, t: f64, what: &str) -> Result<Stamp> {
     })
 }
 
-fn place_up(case: &Case, t: f64, what: &str) -> Result<Stamp> {
+fn place_up(case: &Case, t: f64, what: &str) -> Result<ClockTime> {
     case.clock.at_minute_up(t).ok_or_else(|| {
         Error::invalid(
             what,
@@ -211,7 +211,7 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
     let mut warnings = fit.warnings.clone();
     shape_warnings(case, fit, &mut warnings);
 
-    let fit_part = FitPart {
+    let fit_part = FitSection {
         method: fit.method.name(),
         level_rows: fit.used.iter().map(|&i| case.levels[i].row).collect(),
         k_per_h: fit.k,
@@ -233,7 +233,7 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
         None => None,
         Some(pl) => {
             let mut drug_free_h = None;
-            let pp = project::plan(&patient, pl);
+            let pp = projection::plan(&patient, pl);
             let ranges = patient
                 .v()
                 .and_then(|_| uncertainty::steady_ranges(fit, pl));
@@ -287,7 +287,7 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
                     "the plan's first dose starts before the last recorded dose has finished",
                 ));
             }
-            Some(PlanPart {
+            Some(PlanSection {
                 accumulation_factor: pp.accumulation_factor,
                 peak_ss: peak,
                 peak_sampled_ss: peak_sampled,
@@ -309,7 +309,7 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
     let threshold = match &case.threshold {
         None => None,
         Some(th) => {
-            let tp = project::threshold_window(
+            let tp = projection::threshold_window(
                 &patient,
                 scale.to_mg_l(th.below),
                 th.procedure_t,
@@ -369,7 +369,7 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
                 Some(r) => Some(place_up(case, r.resume_t, "threshold.resume_below")?),
                 None => None,
             };
-            Some(ThresholdPart {
+            Some(ThresholdSection {
                 below: th.below,
                 t0: place_up(case, tp.t0, "threshold")?,
                 c0: to(tp.c0_mg_l),
@@ -397,11 +397,11 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
         .map(|x| scale.to_mg_l(x));
     let advice = crate::core::advice::build(case, fit, plan_peak_mg_l, &mut warnings)?;
     let below_mg_l = case.threshold.as_ref().map(|t| scale.to_mg_l(t.below));
-    let rows = project::washout(&patient, below_mg_l);
-    let washout_start = project::washout_start(&patient);
+    let rows = projection::washout(&patient, below_mg_l);
+    let washout_start = projection::washout_start(&patient);
     let mut washout = Vec::with_capacity(rows.len());
     for r in rows {
-        washout.push(WashoutPart {
+        washout.push(WashoutEntry {
             half_lives: r.half_lives,
             at: place(case, r.t, "washout (half-life)")?,
             level: to(r.level_mg_l),
@@ -569,7 +569,7 @@ fn plan_limit_warnings(case: &Case, pl: &crate::core::case::Plan, warnings: &mut
 }
 
 /// What the report says about the plan doses before a procedure (`u` is the level unit).
-pub fn procedure_words(t: &ThresholdPart, has_plan: bool, u: &str) -> String {
+pub fn procedure_words(t: &ThresholdSection, has_plan: bool, u: &str) -> String {
     let held = if t.procedure_h > 0.0 {
         "the highest level during it"
     } else {

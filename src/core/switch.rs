@@ -2,7 +2,7 @@
 //! its last recorded dose, by a level to fall below or by a number of half-lives.
 
 pub use crate::core::case::{Switch, SwitchRule};
-use crate::core::project::{self, Patient};
+use crate::core::projection::{self, Patient};
 
 /// When the next agent may start, on the case's axis.
 #[derive(Debug, Clone, PartialEq)]
@@ -25,7 +25,7 @@ pub fn project(p: &Patient, sw: &Switch) -> SwitchProjection {
     match sw.rule {
         SwitchRule::StartBelow(level) => {
             let below = p.case.drug.scale.to_mg_l(level);
-            let th = project::threshold(p, below, None);
+            let th = projection::threshold(p, below, None);
             SwitchProjection {
                 from_t: th.t0,
                 start_t: th.reached_t,
@@ -35,7 +35,7 @@ pub fn project(p: &Patient, sw: &Switch) -> SwitchProjection {
             }
         }
         SwitchRule::AfterHalfLives(n) => {
-            let from = project::washout_start(p);
+            let from = projection::washout_start(p);
             let after = |k: f64| from + n * std::f64::consts::LN_2 / k;
             let start = after(fit.k);
             SwitchProjection {

@@ -12,7 +12,7 @@
 use crate::core::case::{Case, Plan};
 use crate::core::fit::Fit;
 use crate::core::history;
-use crate::core::model::{self, Given, Schedule};
+use crate::core::model::{self, Administration, Schedule};
 use crate::core::spread::Spread;
 
 /// Step in ln k and ln V for numerical gradients.
@@ -71,7 +71,7 @@ pub struct BandPoint {
 }
 
 /// The model's level (ln mg/L) at `t` and its gradient in (ln k, ln V); None before any dose.
-fn ln_level(given: &[Given], k: f64, v: f64, t: f64) -> Option<(f64, [f64; 2])> {
+fn ln_level(given: &[Administration], k: f64, v: f64, t: f64) -> Option<(f64, [f64; 2])> {
     let (ls, dls) = history::ln_unit_level(given, k, t)?;
     Some((ls - v.ln(), [dls, -1.0]))
 }
@@ -172,9 +172,9 @@ pub fn threshold_range(case: &Case, fit: &Fit, t0: f64, below_mg_l: f64) -> Opti
 /// The one 95 % range of the time the level falls to `below_mg_l` from `t0` (level `c0`) with
 /// no further dose, shared by the threshold and the switch: for dose-history and Bayesian
 /// fits, where the model's 95 % band crosses it (`threshold_range`); otherwise by k_hi and
-/// k_lo (`project::k_crossing_range`).
+/// k_lo (`projection::k_crossing_range`).
 pub fn crossing_range(
-    p: &crate::core::project::Patient,
+    p: &crate::core::projection::Patient,
     t0: f64,
     c0: f64,
     below_mg_l: f64,
@@ -182,7 +182,7 @@ pub fn crossing_range(
     if p.fit.spread.is_some() {
         threshold_range(p.case, p.fit, t0, below_mg_l)
     } else {
-        crate::core::project::k_crossing_range(p, t0, c0, below_mg_l)
+        crate::core::projection::k_crossing_range(p, t0, c0, below_mg_l)
     }
 }
 
@@ -204,12 +204,12 @@ mod tests {
     #[test]
     fn band_gradient_matches_numerical() {
         let given = [
-            Given {
+            Administration {
                 t: 0.0,
                 amount_mg: 500.0,
                 route: Route::Infusion { hours: 1.0 },
             },
-            Given {
+            Administration {
                 t: 12.0,
                 amount_mg: 500.0,
                 route: Route::Infusion { hours: 1.0 },

@@ -3,7 +3,7 @@
 use toml::value::Datetime;
 
 use crate::core::casefile::{from_stamp, to_stamp};
-use crate::core::clock::Stamp;
+use crate::core::clock::ClockTime;
 use crate::tui::strings;
 
 /// A number that must be given (finite).
@@ -110,7 +110,7 @@ pub fn show_datetime(dt: &Datetime) -> String {
 /// either is not a full date-time or they mix local and offset times.
 pub fn hours_between(a: &Datetime, b: &Datetime) -> Option<f64> {
     let (a, b) = (to_stamp(a, "time").ok()?, to_stamp(b, "time").ok()?);
-    if matches!(a, Stamp::Offset(_)) != matches!(b, Stamp::Offset(_)) {
+    if matches!(a, ClockTime::Offset(_)) != matches!(b, ClockTime::Offset(_)) {
         return None;
     }
     Some((b.axis_time() - a.axis_time()).num_minutes() as f64 / 60.0)
@@ -124,14 +124,14 @@ pub fn add_hours(dt: &Datetime, hours: f64) -> Option<Datetime> {
     }
     let d = chrono::Duration::minutes((hours * 60.0).round() as i64);
     let moved = match s {
-        Stamp::Local(t) => Stamp::Local(t.checked_add_signed(d)?),
-        Stamp::Offset(t) => Stamp::Offset(t.checked_add_signed(d)?),
+        ClockTime::Local(t) => ClockTime::Local(t.checked_add_signed(d)?),
+        ClockTime::Offset(t) => ClockTime::Offset(t.checked_add_signed(d)?),
     };
     Some(from_stamp(&moved))
 }
 
 /// A stamp as a TOML date-time, for new rows made from existing ones.
-pub fn stamp_to_datetime(s: &Stamp) -> Datetime {
+pub fn stamp_to_datetime(s: &ClockTime) -> Datetime {
     from_stamp(s)
 }
 

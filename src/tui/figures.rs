@@ -6,7 +6,7 @@ use crate::core::case::Case;
 use crate::core::casefile::CaseFile;
 use crate::core::error::Error;
 use crate::core::fit::{Fit, Method};
-use crate::core::project::{self, Patient};
+use crate::core::projection::{self, Patient};
 use crate::core::report::Report;
 use crate::core::uncertainty;
 use crate::tui::catalog::Profiles;
@@ -121,10 +121,10 @@ impl Figures {
         let threshold_from =
             case.threshold
                 .as_ref()
-                .map(|_| match project::threshold_start(&patient).from {
-                    project::Start::LastDoseEnd => ThresholdFrom::LastDoseEnd,
-                    project::Start::LastLevel => ThresholdFrom::LastLevel,
-                    project::Start::LastFittedLevel => ThresholdFrom::LastFittedLevel,
+                .map(|_| match projection::threshold_start(&patient).from {
+                    projection::Start::LastDoseEnd => ThresholdFrom::LastDoseEnd,
+                    projection::Start::LastLevel => ThresholdFrom::LastLevel,
+                    projection::Start::LastFittedLevel => ThresholdFrom::LastFittedLevel,
                 });
         Figures {
             case: Some(case),
@@ -157,7 +157,7 @@ fn fit_chart(case: &Case, fit: &Fit, p: &Patient) -> ChartData {
     let x = [first - 0.02 * span, end + 0.12 * span];
     let mut curves = Vec::new();
     if p.v().is_some() {
-        let model = project::course_mg_l(p, None, x[0], x[1], SAMPLES);
+        let model = projection::course_mg_l(p, None, x[0], x[1], SAMPLES);
         let times: Vec<f64> = model.iter().map(|(t, _)| *t).collect();
         let band = uncertainty::band(case, fit, &times);
         if band.iter().any(|b| b.band.is_some()) {
@@ -234,8 +234,8 @@ fn plan_chart(case: &Case, r: &Report, p: &Patient) -> Option<ChartData> {
         .min(plan.start_t);
     let reach = (part.time_to_ss_h[2] + tau).max(3.0 * tau);
     let to = plan.start_t + reach.min(MAX_CHART_PLAN_DOSES as f64 * tau);
-    let last = project::plan_doses_before(plan, to).max(1) - 1;
-    let points = project::course_mg_l(p, Some((plan, last)), from, to, SAMPLES + SAMPLES / 4);
+    let last = projection::plan_doses_before(plan, to).max(1) - 1;
+    let points = projection::course_mg_l(p, Some((plan, last)), from, to, SAMPLES + SAMPLES / 4);
     Some(ChartData {
         clock: case.clock,
         x: [from, to],
@@ -255,7 +255,7 @@ fn plan_chart(case: &Case, r: &Report, p: &Patient) -> Option<ChartData> {
 fn threshold_chart(case: &Case, p: &Patient) -> Option<ChartData> {
     let th = case.threshold.as_ref()?;
     let below_mg_l = case.drug.scale.to_mg_l(th.below);
-    let tp = project::threshold(p, below_mg_l, th.procedure_t);
+    let tp = projection::threshold(p, below_mg_l, th.procedure_t);
     let from = case.doses.last().map(|d| d.t).unwrap_or(tp.t0).min(tp.t0);
     let mut end = tp.reached_t;
     if let Some([_, late]) = tp.reached_ci95_t {
@@ -266,7 +266,7 @@ fn threshold_chart(case: &Case, p: &Patient) -> Option<ChartData> {
     }
     let span = (end - from).max(1.0);
     let to = end + 0.1 * span;
-    let points = project::course_mg_l(p, None, from, to, SAMPLES);
+    let points = projection::course_mg_l(p, None, from, to, SAMPLES);
     Some(ChartData {
         clock: case.clock,
         x: [from, to],
@@ -304,7 +304,7 @@ fn washout_chart(case: &Case, r: &Report, p: &Patient) -> Option<ChartData> {
             to = t + 0.1 * (t - from);
         }
     }
-    let points = project::course_mg_l(p, None, from, to, SAMPLES);
+    let points = projection::course_mg_l(p, None, from, to, SAMPLES);
     let mut marks: Vec<Mark> = r
         .washout
         .iter()

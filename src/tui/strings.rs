@@ -958,7 +958,7 @@ pub fn route_words(route: &str, infusion_h: f64) -> String {
     }
 }
 /// After taking a suggestion.
-pub fn suggestion_taken(n: usize, s: &crate::core::advice::SuggestionPart) -> String {
+pub fn suggestion_taken(n: usize, s: &crate::core::advice::SuggestionEntry) -> String {
     format!(
         "Plan set to suggestion {n}: {} mg every {} h, {}.",
         num(s.dose_mg),

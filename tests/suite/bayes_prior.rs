@@ -7,7 +7,7 @@ use ebb::core::case::{Patient, Sex};
 use ebb::core::casefile::{CaseFile, Defaults};
 use ebb::core::fit::{self, Method};
 use ebb::core::history::fit_points;
-use ebb::core::model::{self, Given, Route};
+use ebb::core::model::{self, Administration, Route};
 use ebb::core::{json, renal, report};
 use rand::rngs::StdRng;
 use rand::SeedableRng;
@@ -37,9 +37,9 @@ fn patient() -> Patient {
     }
 }
 
-fn doses() -> Vec<Given> {
+fn doses() -> Vec<Administration> {
     (0..6)
-        .map(|i| Given {
+        .map(|i| Administration {
             t: 12.0 * i as f64,
             amount_mg: 100.0,
             route: Route::Infusion { hours: 0.5 },
@@ -194,9 +194,9 @@ fn one_level_with_priors_chooses_the_bayesian_fit_and_reports_the_move() {
     };
     let pop = bayes::population(&prior_on_k(), &patient()).unwrap();
     // The trough the population predicts, and one twice as high (slower elimination).
-    let doses: Vec<Given> = [0.0, 12.0]
+    let doses: Vec<Administration> = [0.0, 12.0]
         .iter()
-        .map(|&t| Given {
+        .map(|&t| Administration {
             t,
             amount_mg: 100.0,
             route: Route::Infusion { hours: 0.5 },

@@ -4,7 +4,7 @@ use std::path::Path;
 
 use ebb::core::casefile;
 use ebb::core::model::{self, Route};
-use ebb::core::project;
+use ebb::core::projection;
 use ebb::core::report::{self, Report};
 
 fn report_of(name: &str) -> Report {
@@ -91,8 +91,13 @@ fn washout_rows_keep_half_per_half_life() {
 #[test]
 fn time_to_fall_matches_the_lithium_example() {
     let k = std::f64::consts::LN_2 / 24.0;
-    near(project::hours_to_fall(1.0, 0.4, k), 31.73, 0.005, "hours");
-    assert_eq!(project::hours_to_fall(0.3, 0.4, k), 0.0);
+    near(
+        projection::hours_to_fall(1.0, 0.4, k),
+        31.73,
+        0.005,
+        "hours",
+    );
+    assert_eq!(projection::hours_to_fall(0.3, 0.4, k), 0.0);
 }
 
 // Sawchuk-Zaske worked example, drug-facts.md "Facts of the trade" (computed there from the

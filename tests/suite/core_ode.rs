@@ -7,8 +7,8 @@
 
 use ebb::core::casefile::CaseFile;
 use ebb::core::fit;
-use ebb::core::model::{self, Given, Route};
-use ebb::core::project::{self, Patient};
+use ebb::core::model::{self, Administration, Route};
+use ebb::core::projection::{self, Patient};
 
 /// The largest RK4 step, in hours.
 const H_MAX: f64 = 0.005;
@@ -18,7 +18,7 @@ const REL: f64 = 1e-6;
 /// Concentration (mg/L) and its running area (mg·h/L) at each of the `at` times (any
 /// order), integrating the ODE from before the first dose. A value at a dose time is the one
 /// just before that dose (the pre-dose level).
-fn integrate(doses: &[Given], k: f64, v: f64, at: &[f64]) -> Vec<(f64, f64)> {
+fn integrate(doses: &[Administration], k: f64, v: f64, at: &[f64]) -> Vec<(f64, f64)> {
     let start = doses.iter().map(|d| d.t).fold(f64::INFINITY, f64::min);
     let mut marks: Vec<f64> = doses.iter().flat_map(|d| [d.t, d.end()]).collect();
     marks.extend(at.iter().copied().filter(|&t| t > start));
@@ -93,9 +93,9 @@ fn close(got: f64, want: f64, what: &str) {
 }
 
 /// `n` doses of `amount` by `route` every `tau` hours from t = 0.
-fn regimen(n: usize, amount: f64, route: Route, tau: f64) -> Vec<Given> {
+fn regimen(n: usize, amount: f64, route: Route, tau: f64) -> Vec<Administration> {
     (0..n)
-        .map(|j| Given {
+        .map(|j| Administration {
             t: j as f64 * tau,
             amount_mg: amount,
             route,
@@ -104,7 +104,7 @@ fn regimen(n: usize, amount: f64, route: Route, tau: f64) -> Vec<Given> {
 }
 
 /// A spread of times over the record, including dose times, infusion ends and odd moments.
-fn probe_times(doses: &[Given], until: f64) -> Vec<f64> {
+fn probe_times(doses: &[Administration], until: f64) -> Vec<f64> {
     let mut ts: Vec<f64> = doses
         .iter()
         .flat_map(|d| {
@@ -130,7 +130,7 @@ fn probe_times(doses: &[Given], until: f64) -> Vec<f64> {
 fn superposition_matches_the_ode_for_every_route_and_a_mixed_record() {
     let k = 0.21;
     let v = 23.0;
-    let records: Vec<(&str, Vec<Given>)> = vec![
+    let records: Vec<(&str, Vec<Administration>)> = vec![
         (
             "infusion",
             regimen(12, 150.0, Route::Infusion { hours: 0.5 }, 8.0),
@@ -144,33 +144,33 @@ fn superposition_matches_the_ode_for_every_route_and_a_mixed_record() {
         (
             "mixed, irregular",
             vec![
-                Given {
+                Administration {
                     t: 0.0,
                     amount_mg: 200.0,
                     route: Route::Infusion { hours: 1.0 },
                 },
-                Given {
+                Administration {
                     t: 5.5,
                     amount_mg: 60.0,
                     route: Route::Bolus,
                 },
                 // Overlaps the next infusion: two infusions run at once for a while.
-                Given {
+                Administration {
                     t: 9.25,
                     amount_mg: 300.0,
                     route: Route::Infusion { hours: 3.0 },
                 },
-                Given {
+                Administration {
                     t: 10.0,
                     amount_mg: 120.0,
                     route: Route::Infusion { hours: 0.75 },
                 },
-                Given {
+                Administration {
                     t: 20.0,
                     amount_mg: 400.0,
                     route: Route::Oral { f: 0.55 },
                 },
-                Given {
+                Administration {
                     t: 31.4,
                     amount_mg: 90.0,
                     route: Route::Bolus,
@@ -295,7 +295,7 @@ fn threshold_crossing_time_matches_the_ode() {
         f.volume_l = Some(v);
         f.k_ci95 = None;
         let p = Patient::new(&case, &f);
-        let tp = project::threshold(&p, below, None);
+        let tp = projection::threshold(&p, below, None);
         let given = case.given().unwrap();
         // The start is the later of the last dose's end and the last level.
         let t0 = case.levels.last().unwrap().t;
@@ -336,7 +336,7 @@ fn levels_with_plan_doses_before_a_procedure_match_the_ode() {
     let procedure = pl.start_t + 5.0 * tau + 7.25;
     let mut all = case.given().unwrap();
     for last in 0..6 {
-        all.push(Given {
+        all.push(Administration {
             t: pl.start_t + last as f64 * tau,
             amount_mg: 200.0,
             route: Route::Infusion { hours: 1.0 },

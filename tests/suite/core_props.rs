@@ -7,7 +7,7 @@ use proptest::test_runner::{FileFailurePersistence, TestCaseError};
 use ebb::core::casefile::CaseFile;
 use ebb::core::fit;
 use ebb::core::model::{self, Route};
-use ebb::core::project::{self, Patient};
+use ebb::core::projection::{self, Patient};
 use ebb::core::report::{self, Report};
 use ebb::core::{json, Error};
 
@@ -183,7 +183,7 @@ proptest! {
         let plan = case.plan.as_ref().unwrap();
         let th = case.threshold.as_ref().unwrap();
         let tp = th.procedure_t.unwrap();
-        let count = project::plan_doses_before(plan, tp);
+        let count = projection::plan_doses_before(plan, tp);
         let mut prev = p.level_with_plan(tp, plan, None).unwrap();
         let mut levels = Vec::new();
         for j in 0..count {
@@ -194,7 +194,7 @@ proptest! {
             // Every counted plan dose falls strictly before the procedure.
             prop_assert!(plan.start_t + j as f64 * plan.interval_h < tp);
         }
-        let proj = project::threshold(&p, below, Some(tp));
+        let proj = projection::threshold(&p, below, Some(tp));
         // Only doses that have fully entered by the procedure may be given (no infusion
         // running at the procedure; docs/methods-regimen.md, the procedure window rule).
         let done = proj.plan_doses_done_before.unwrap();

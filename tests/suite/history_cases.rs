@@ -6,16 +6,16 @@ use ebb::core::case::Case;
 use ebb::core::casefile::CaseFile;
 use ebb::core::fit::{self, Method};
 use ebb::core::history;
-use ebb::core::model::{self, Given, Route};
+use ebb::core::model::{self, Administration, Route};
 use ebb::core::{json, report, uncertainty};
 
 const K: f64 = 0.17;
 const V: f64 = 23.0;
 
 /// Gentamicin-like doses every 8 h from 08:00 (hour 0 on the axis), 0.5 h infusions.
-fn doses() -> Vec<Given> {
+fn doses() -> Vec<Administration> {
     (0..4)
-        .map(|i| Given {
+        .map(|i| Administration {
             t: 8.0 * i as f64,
             amount_mg: [120.0, 120.0, 140.0, 140.0][i],
             route: Route::Infusion { hours: 0.5 },

@@ -3,7 +3,7 @@
 //! 95 % intervals. Self-consistency checks: the truth is set in the test.
 
 use ebb::core::history::fit_points;
-use ebb::core::model::{self, Given, Route};
+use ebb::core::model::{self, Administration, Route};
 use rand::rngs::StdRng;
 use rand::{RngExt, SeedableRng};
 use rand_distr::{Distribution, StandardNormal};
@@ -12,7 +12,7 @@ use rand_distr::{Distribution, StandardNormal};
 struct Sim {
     k: f64,
     v: f64,
-    doses: Vec<Given>,
+    doses: Vec<Administration>,
     points: Vec<(f64, f64)>,
 }
 
@@ -44,7 +44,7 @@ fn simulate(rng: &mut StdRng, noise: Noise) -> Sim {
         } else {
             Route::Bolus
         };
-        doses.push(Given {
+        doses.push(Administration {
             t,
             amount_mg: base * rng.random_range(0.75..1.25),
             route,

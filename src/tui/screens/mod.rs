@@ -7,7 +7,7 @@ pub mod profile;
 pub mod threshold;
 pub mod washout;
 
-use crate::core::advice::SuggestionPart;
+use crate::core::advice::SuggestionEntry;
 use crate::core::casefile::{CaseFile, TargetsFile};
 use crate::core::report::num;
 use crate::profiles::{Entry, FirstOrder};
@@ -124,7 +124,7 @@ pub fn selected_field(app: &App) -> Option<Field> {
 }
 
 /// The suggested regimens of the current figures, best first (empty without figures).
-pub fn suggestions(app: &App) -> &[SuggestionPart] {
+pub fn suggestions(app: &App) -> &[SuggestionEntry] {
     app.figures
         .report
         .as_ref()

@@ -5,7 +5,7 @@
 
 use crate::core::case::{Case, Plan};
 use crate::core::fit::Fit;
-use crate::core::model::{self, Given, Schedule, SteadyState};
+use crate::core::model::{self, Administration, Schedule, SteadyState};
 
 /// The fitted patient as a model that can be evaluated at any time.
 #[derive(Debug, Clone)]
@@ -15,7 +15,7 @@ pub struct Patient<'a> {
     /// The fit.
     pub fit: &'a Fit,
     /// The recorded doses, when every amount is known and V was found.
-    pub given: Option<Vec<Given>>,
+    pub given: Option<Vec<Administration>>,
 }
 
 impl<'a> Patient<'a> {
@@ -390,10 +390,10 @@ pub fn course_mg_l(
     }
     let plan = plan.filter(|_| p.v().is_some());
     // Every dose of the course: the record, then the plan doses up to `last` before `to`.
-    let mut doses: Vec<Given> = p.given.clone().unwrap_or_default();
+    let mut doses: Vec<Administration> = p.given.clone().unwrap_or_default();
     if let Some((pl, last)) = plan {
         let count = plan_doses_before(pl, to).min(last.saturating_add(1));
-        doses.extend((0..count).map(|j| Given {
+        doses.extend((0..count).map(|j| Administration {
             t: pl.start_t + j as f64 * pl.interval_h,
             amount_mg: pl.dose_mg,
             route: pl.route,
@@ -404,7 +404,7 @@ pub fn course_mg_l(
     // The start and end of each dose inside the span, so no peak is cut off — while there are
     // no more of them than samples: past that the doses are closer than the chart can show
     // and the even samples draw the course.
-    let inside: Vec<&Given> = doses
+    let inside: Vec<&Administration> = doses
         .iter()
         .filter(|d| d.end() > from && d.t < to)
         .collect();
