@@ -888,8 +888,9 @@ fn too_large(len: u64, max: u64) -> String {
     )
 }
 
-/// What a file is, in words, when it is not a regular file.
-fn special_kind(meta: &std::fs::Metadata) -> Option<&'static str> {
+/// What a file is, in words, when it is not a regular file (`None` for a regular file): the
+/// one description that reading a case and saving one both give.
+pub fn special_kind(meta: &std::fs::Metadata) -> Option<&'static str> {
     let t = meta.file_type();
     if t.is_file() {
         return None;

@@ -83,7 +83,7 @@ pub enum SaveError {
     NotRegular {
         /// The path.
         path: PathBuf,
-        /// What it is, in words ("a FIFO").
+        /// What it is, in words ("a FIFO (named pipe)").
         kind: &'static str,
     },
     /// The file is read-only (or this user may not write it).
@@ -195,30 +195,7 @@ fn read_limited(path: &Path) -> std::io::Result<(Vec<u8>, Option<std::time::Syst
     Ok((bytes, modified))
 }
 
-/// What a path is, in words, when it is not a regular file; `None` for a regular file.
-pub fn special_kind(meta: &fs::Metadata) -> Option<&'static str> {
-    let t = meta.file_type();
-    if t.is_file() {
-        return None;
-    }
-    if t.is_dir() {
-        return Some("a folder");
-    }
-    #[cfg(unix)]
-    {
-        use std::os::unix::fs::FileTypeExt;
-        if t.is_fifo() {
-            return Some("a FIFO");
-        }
-        if t.is_char_device() || t.is_block_device() {
-            return Some("a device");
-        }
-        if t.is_socket() {
-            return Some("a socket");
-        }
-    }
-    Some("not a regular file")
-}
+pub use crate::core::casefile::special_kind;
 
 /// Whether this user may write the regular file at `path`: its permissions say so and it
 /// opens for writing (opening without truncating changes nothing).
@@ -651,7 +628,13 @@ mod tests {
         assert!(made.success());
         let e = save_bytes(&fifo, b"x", &Expect::Overwrite).unwrap_err();
         assert!(
-            matches!(e, SaveError::NotRegular { kind: "a FIFO", .. }),
+            matches!(
+                e,
+                SaveError::NotRegular {
+                    kind: "a FIFO (named pipe)",
+                    ..
+                }
+            ),
             "{e}"
         );
         assert!(fs::symlink_metadata(&fifo).unwrap().file_type().is_fifo());

@@ -121,7 +121,9 @@ fn outputs_and_tidy_refuse_a_fifo_and_leave_it_a_fifo() {
         let (code, err) = ebb(&dir, &args);
         assert_eq!(code, Some(2), "{args:?}: {err}");
         assert!(
-            err.ends_with("is a FIFO, not a regular file; ebb writes only regular files"),
+            err.ends_with(
+                "is a FIFO (named pipe), not a regular file; ebb writes only regular files"
+            ),
             "{err}"
         );
     }
