@@ -777,7 +777,11 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
             };
             writeln!(w, "  volume      {} L  ({by})", num(v))?;
         }
-        _ => writeln!(w, "  volume      not known (no dose amounts)")?,
+        _ if case.given().is_err() => writeln!(w, "  volume      not known (no dose amounts)")?,
+        _ => writeln!(
+            w,
+            "  volume      not known (the levels and the dose record give none; see the warnings)"
+        )?,
     }
     if let Some(cl) = f.clearance_l_per_h {
         if spans_doses {
