@@ -75,3 +75,31 @@ Local = "Invented hospital protocol for tests, version 1"
 "#
     )
 }
+
+/// Keys for the screen, as a user presses them (the key-sequence tests share these).
+pub fn key(app: &mut ebb::tui::App, code: crossterm::event::KeyCode) {
+    app.handle_key(crossterm::event::KeyEvent::new(
+        code,
+        crossterm::event::KeyModifiers::NONE,
+    ));
+}
+
+pub fn ctrl(app: &mut ebb::tui::App, c: char) {
+    app.handle_key(crossterm::event::KeyEvent::new(
+        crossterm::event::KeyCode::Char(c),
+        crossterm::event::KeyModifiers::CONTROL,
+    ));
+}
+
+pub fn typed(app: &mut ebb::tui::App, text: &str) {
+    for c in text.chars() {
+        key(app, crossterm::event::KeyCode::Char(c));
+    }
+}
+
+pub fn clear_field(app: &mut ebb::tui::App) {
+    key(app, crossterm::event::KeyCode::End);
+    for _ in 0..40 {
+        key(app, crossterm::event::KeyCode::Backspace);
+    }
+}

@@ -3,33 +3,13 @@
 //! their fields in order and start empty, that changes can be undone, that rows stay in
 //! time order, that unit changes convert, and that no key acts on a screen not drawn.
 
-use crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
+use crate::common::{clear_field, ctrl, key, typed};
+use crossterm::event::KeyCode;
 use ebb::tui::app::{App, Confirm, Mode, NewRow, Screen};
 use ebb::tui::screens::{self, CaseLine};
 use ebb::tui::view;
 use ratatui::backend::TestBackend;
 use ratatui::Terminal;
-
-fn key(app: &mut App, code: KeyCode) {
-    app.handle_key(KeyEvent::new(code, KeyModifiers::NONE));
-}
-
-fn ctrl(app: &mut App, c: char) {
-    app.handle_key(KeyEvent::new(KeyCode::Char(c), KeyModifiers::CONTROL));
-}
-
-fn typed(app: &mut App, text: &str) {
-    for c in text.chars() {
-        key(app, KeyCode::Char(c));
-    }
-}
-
-fn clear_field(app: &mut App) {
-    key(app, KeyCode::End);
-    for _ in 0..40 {
-        key(app, KeyCode::Backspace);
-    }
-}
 
 fn text(app: &App, w: u16, h: u16) -> String {
     let mut t = Terminal::new(TestBackend::new(w, h)).unwrap();

@@ -2,32 +2,12 @@
 //! figures that result. The figures are compared with the core's own report on the same
 //! case file (self-consistency: the UI must show what the core computes).
 
-use crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
+use crate::common::{clear_field, ctrl, key, typed};
+use crossterm::event::KeyCode;
 use ebb::core::casefile::CaseFile;
 use ebb::core::report::{self, Report};
 use ebb::tui::app::{App, Confirm, Mode, Screen};
 use ebb::tui::screens::{self, CaseLine};
-
-fn key(app: &mut App, code: KeyCode) {
-    app.handle_key(KeyEvent::new(code, KeyModifiers::NONE));
-}
-
-fn ctrl(app: &mut App, c: char) {
-    app.handle_key(KeyEvent::new(KeyCode::Char(c), KeyModifiers::CONTROL));
-}
-
-fn typed(app: &mut App, text: &str) {
-    for c in text.chars() {
-        key(app, KeyCode::Char(c));
-    }
-}
-
-fn clear_field(app: &mut App) {
-    key(app, KeyCode::End);
-    for _ in 0..40 {
-        key(app, KeyCode::Backspace);
-    }
-}
 
 /// The core's report on the app's case file, computed afresh.
 fn core_report(file: &CaseFile) -> Report {
