@@ -23,6 +23,14 @@ pub struct Patient {
     pub creatinine_mg_dl: Option<f64>,
     /// Serum creatinine as entered, when it was entered in umol/L (shown that way).
     pub creatinine_umol_l: Option<f64>,
+    /// Height in cm, for ideal and adjusted body weight and BMI.
+    pub height_cm: Option<f64>,
+    /// Serum albumin in g/dL (converted from g/L when given that way).
+    pub albumin_g_dl: Option<f64>,
+    /// Serum albumin as entered, when it was entered in g/L (shown that way).
+    pub albumin_g_l: Option<f64>,
+    /// Whether the patient is on intermittent haemodialysis.
+    pub dialysis: Option<bool>,
 }
 
 /// Sex as used by creatinine-clearance equations.

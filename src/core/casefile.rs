@@ -83,6 +83,14 @@ pub struct PatientFile {
     pub creatinine_mg_dl: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub creatinine_umol_l: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub height_cm: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub albumin_g_dl: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub albumin_g_l: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub dialysis: Option<bool>,
 }
 
 /// `[drug]` as written.
@@ -1032,6 +1040,32 @@ fn validate_patient(p: &PatientFile) -> Result<Patient> {
         }
         (None, None) => None,
     };
+    if let Some(h) = p.height_cm {
+        if !(h.is_finite() && (30.0..=272.0).contains(&h)) {
+            return Err(Error::invalid(
+                "patient.height_cm",
+                format!("must be from 30 to 272 cm, got {h}"),
+            ));
+        }
+    }
+    let albumin = match (p.albumin_g_dl, p.albumin_g_l) {
+        (Some(_), Some(_)) => {
+            return Err(Error::invalid(
+                "patient.albumin_g_l",
+                "give albumin_g_dl or albumin_g_l, not both",
+            ))
+        }
+        (Some(a), None) => {
+            albumin_range(a, 0.5, 7.0, "patient.albumin_g_dl", "g/dL")?;
+            Some(a)
+        }
+        // 1 g/dL = 10 g/L.
+        (None, Some(a)) => {
+            albumin_range(a, 5.0, 70.0, "patient.albumin_g_l", "g/L")?;
+            Some(a / 10.0)
+        }
+        (None, None) => None,
+    };
     Ok(Patient {
         label: p.label.clone(),
         weight_kg: p.weight_kg,
@@ -1039,7 +1073,24 @@ fn validate_patient(p: &PatientFile) -> Result<Patient> {
         sex,
         creatinine_mg_dl: creatinine,
         creatinine_umol_l: p.creatinine_umol_l,
+        height_cm: p.height_cm,
+        albumin_g_dl: albumin,
+        albumin_g_l: p.albumin_g_l,
+        dialysis: p.dialysis,
     })
+}
+
+/// Serum albumin within what a laboratory can report (0.5-7 g/dL): a value outside is a unit
+/// slip (g/L written as g/dL) or a typing error, named with the unit expected.
+fn albumin_range(a: f64, low: f64, high: f64, place: &str, unit: &str) -> Result<()> {
+    if a.is_finite() && (low..=high).contains(&a) {
+        Ok(())
+    } else {
+        Err(Error::invalid(
+            place,
+            format!("must be from {low} to {high} {unit}, got {a}"),
+        ))
+    }
 }
 
 fn validate_drug(d: &DrugFile, defaults: &Defaults) -> Result<Drug> {

@@ -169,6 +169,19 @@ pub fn write_note(
         (None, Some(x)) => facts.push(format!("creatinine {} mg/dL", num(x))),
         (None, None) => {}
     }
+    if let Some(x) = p.height_cm {
+        facts.push(format!("height {} cm", num(x)));
+    }
+    match (p.albumin_g_l, p.albumin_g_dl) {
+        (Some(x), _) => facts.push(format!("albumin {} g/L", num(x))),
+        (None, Some(x)) => facts.push(format!("albumin {} g/dL", num(x))),
+        (None, None) => {}
+    }
+    match p.dialysis {
+        Some(true) => facts.push("on intermittent haemodialysis".into()),
+        Some(false) => facts.push("not on dialysis".into()),
+        None => {}
+    }
     if !facts.is_empty() {
         writeln!(w, "{item}{}", facts.join(", "))?;
     }

@@ -18,6 +18,10 @@ pub enum Field {
     Sex,
     CreatinineMgDl,
     CreatinineUmolL,
+    Height,
+    AlbuminGDl,
+    AlbuminGL,
+    Dialysis,
     DrugName,
     DrugProfile,
     Unit,
@@ -64,6 +68,8 @@ pub enum Kind {
 pub const ROUTES: [&str; 3] = ["bolus", "infusion", "oral"];
 /// Sex as case files spell it; the empty entry means not given.
 pub const SEXES: [&str; 3] = ["", "female", "male"];
+/// Haemodialysis as the screen shows it; the empty entry means not given.
+pub const DIALYSIS: [&str; 3] = ["", "yes", "no"];
 
 /// The dose-table columns, left to right.
 pub fn dose_columns(row: usize) -> [Field; 5] {
@@ -107,6 +113,7 @@ impl Field {
     pub fn kind(self) -> Kind {
         match self {
             Field::Sex
+            | Field::Dialysis
             | Field::Unit
             | Field::DoseRoute(_)
             | Field::LevelUse(_)
@@ -133,6 +140,14 @@ impl Field {
             Field::Sex => f.patient.sex.clone().unwrap_or_default(),
             Field::CreatinineMgDl => num(f.patient.creatinine_mg_dl),
             Field::CreatinineUmolL => num(f.patient.creatinine_umol_l),
+            Field::Height => num(f.patient.height_cm),
+            Field::AlbuminGDl => num(f.patient.albumin_g_dl),
+            Field::AlbuminGL => num(f.patient.albumin_g_l),
+            Field::Dialysis => match f.patient.dialysis {
+                Some(true) => DIALYSIS[1].into(),
+                Some(false) => DIALYSIS[2].into(),
+                None => String::new(),
+            },
             Field::DrugName => f.drug.name.clone().unwrap_or_default(),
             Field::DrugProfile => f.drug.profile.clone().unwrap_or_default(),
             Field::Unit => f.drug.level_unit.clone().unwrap_or_default(),
@@ -211,6 +226,9 @@ impl Field {
             Field::Age => f.patient.age_years = entry::optional_number(text)?,
             Field::CreatinineMgDl => f.patient.creatinine_mg_dl = entry::optional_number(text)?,
             Field::CreatinineUmolL => f.patient.creatinine_umol_l = entry::optional_number(text)?,
+            Field::Height => f.patient.height_cm = entry::optional_number(text)?,
+            Field::AlbuminGDl => f.patient.albumin_g_dl = entry::optional_number(text)?,
+            Field::AlbuminGL => f.patient.albumin_g_l = entry::optional_number(text)?,
             Field::DrugName => f.drug.name = text_opt(),
             Field::DrugProfile => f.drug.profile = text_opt(),
             Field::MolarMass => f.drug.molar_mass_g_mol = entry::optional_number(text)?,
@@ -331,6 +349,7 @@ impl Field {
                 switch_mut(f).after_half_lives = entry::optional_number(text)?
             }
             Field::Sex
+            | Field::Dialysis
             | Field::Unit
             | Field::DoseRoute(_)
             | Field::LevelUse(_)
@@ -361,6 +380,14 @@ impl Field {
             Field::Sex => {
                 let s = next(&SEXES, f.patient.sex.as_deref().unwrap_or(""), back);
                 f.patient.sex = (!s.is_empty()).then(|| s.to_string());
+            }
+            Field::Dialysis => {
+                let now = Field::Dialysis.text(f);
+                f.patient.dialysis = match next(&DIALYSIS, &now, back) {
+                    "yes" => Some(true),
+                    "no" => Some(false),
+                    _ => None,
+                };
             }
             Field::Unit => {
                 let units: Vec<&str> = LevelUnit::ALL.iter().map(|u| u.as_str()).collect();
@@ -399,6 +426,10 @@ impl Field {
             Field::Sex => place == "patient.sex",
             Field::CreatinineMgDl => place == "patient.creatinine_mg_dl",
             Field::CreatinineUmolL => place == "patient.creatinine_umol_l",
+            Field::Height => place == "patient.height_cm",
+            Field::AlbuminGDl => place == "patient.albumin_g_dl",
+            Field::AlbuminGL => place == "patient.albumin_g_l",
+            Field::Dialysis => place == "patient.dialysis",
             Field::DrugName => place == "drug.name",
             Field::DrugProfile => place == "drug.profile",
             Field::Unit => place == "drug.level_unit",

@@ -32,13 +32,17 @@ pub enum CaseLine {
 }
 
 /// The patient's fields, in screen order.
-pub const PATIENT_FIELDS: [Field; 6] = [
+pub const PATIENT_FIELDS: [Field; 10] = [
     Field::Label,
     Field::Weight,
+    Field::Height,
     Field::Age,
     Field::Sex,
     Field::CreatinineMgDl,
     Field::CreatinineUmolL,
+    Field::AlbuminGDl,
+    Field::AlbuminGL,
+    Field::Dialysis,
 ];
 
 /// The drug's fields, in screen order.
