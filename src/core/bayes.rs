@@ -1,157 +1,237 @@
-//! Bayesian (maximum a posteriori) estimate of k and V from log-normal population priors and
-//! one or a few levels, with creatinine clearance as a covariate where the prior has one.
+//! Bayesian (maximum a posteriori) estimate of k and V from a published population model and
+//! any number of levels — none gives the population values for this patient (the a-priori
+//! estimate).
 //!
-//! The prior: ln k (or ln CL) ~ N(ln typical, omega_k²) and ln V ~ N(ln(V/kg × weight),
-//! omega_v²), independent; the levels: ln(measured) = ln(model) + ε, ε ~ N(0, residual_sd²).
-//! The estimate minimises Σ(ε/residual_sd)² + Σ((ln θ − ln typical)/omega)², by the same
-//! Levenberg-Marquardt as the dose-history fit (`history`); its covariance is the inverse of
-//! JᵀJ/residual_sd² + prior precision (a normal approximation of the posterior), and its 95 %
-//! intervals use the normal quantile 1.96. The weight is the case's recorded (total) body
-//! weight, for the volume and for Cockcroft-Gault alike.
+//! The objective (η: the patient's log-deviations from the typical clearance or k and from
+//! the typical volume; Ω: their between-patient covariance; y: the levels; ŷ(η): the model's
+//! levels at their times over the whole dose record; Var = additive² + (proportional·ŷ)²):
+//!
+//!   OBJ(η) = Σ_j [ (y_j − ŷ_j)² / Var_j + ln Var_j ] + ηᵀ Ω⁻¹ η
+//!
+//! minimised by `minimise`. A parameter the model fixes has no η. The posterior covariance
+//! of η is the inverse of half the Hessian of OBJ at the minimum (the Laplace approximation);
+//! carried to (ln k, ln V) it gives the 95 % intervals (normal quantile 1.96). With no level
+//! the covariance is Ω itself and the intervals are the population's 90 % range (1.645).
 
-use crate::core::warning::{Code, Warning};
 use statrs::distribution::{ContinuousCDF, Normal};
 
-use crate::core::case::{Case, Patient};
+use crate::core::case::Case;
 use crate::core::error::{Error, Result};
 use crate::core::fitted::{Fit, Method};
-use crate::core::history::{self, Failure, Solution};
-use crate::core::model::Administration;
+use crate::core::history::{self, Solution};
+use crate::core::minimise;
+use crate::core::model::{Administration, Route, Schedule};
 pub use crate::core::population::{Population, Summary};
-pub use crate::core::prior::{Prior, Typical};
-use crate::core::renal;
-use crate::core::spread::{Gaussian, Spread};
+use crate::core::spread::Spread;
+use crate::core::warning::{Code, Warning};
 
-/// The population values for this patient: typical k (or CL) from creatinine clearance when
-/// the prior has a slope, and typical V from the recorded weight.
-///
-/// # Errors
-/// A prior number out of range (`prior.…`), or a patient field the prior needs
-/// (`patient.weight_kg`, and for a slope age, sex and serum creatinine).
-pub fn population(prior: &Prior, patient: &Patient) -> Result<Population> {
-    prior.check()?;
-    let weight = patient.weight_kg.ok_or_else(|| {
-        Error::invalid(
-            "patient.weight_kg",
-            "missing; the population volume is given per kg of body weight",
-        )
-    })?;
-    let (base, slope, on_clearance) = match prior.typical {
-        Typical::RateConstant { per_h, per_ml_min } => (per_h, per_ml_min, false),
-        Typical::Clearance {
-            l_per_h,
-            per_ml_min,
-        } => (l_per_h, per_ml_min, true),
-    };
-    let crcl = match slope {
-        Some(_) => Some(renal::creatinine_clearance(patient)?),
-        None => None,
-    };
-    let elimination = base + slope.unwrap_or(0.0) * crcl.map_or(0.0, |c| c.ml_min);
-    let v = prior.v_l_per_kg * weight;
-    let (k, cl) = if on_clearance {
-        (elimination / v, elimination)
-    } else {
-        (elimination, elimination * v)
-    };
-    if !(k.is_finite() && k > 0.0 && v.is_finite() && v > 0.0) {
-        return Err(Error::invalid(
-            "prior",
-            "gives no positive typical k and V for this patient",
-        ));
-    }
-    let (wk, wv) = (
-        1.0 / (prior.omega_k * prior.omega_k),
-        1.0 / (prior.omega_v * prior.omega_v),
-    );
-    // On CL: u = (ln k + ln V, ln V) ~ N((ln CL, ln V), diag(ω²)), so the precision on
-    // (ln k, ln V) is Aᵀ·diag(1/ω²)·A with A = [[1, 1], [0, 1]].
-    let precision = if on_clearance {
-        [[wk, wk], [wk, wk + wv]]
-    } else {
-        [[wk, 0.0], [0.0, wv]]
-    };
-    Ok(Population {
-        k_per_h: k,
-        volume_l: v,
-        clearance_l_per_h: cl,
-        on_clearance,
-        creatinine_clearance: crcl,
-        weight_kg: weight,
-        gaussian: Gaussian {
-            mean: [k.ln(), v.ln()],
-            precision,
-        },
-        residual_sd: prior.residual_sd,
-        omega: [prior.omega_k, prior.omega_v],
-    })
+/// The two-sided normal quantile for a central range holding `p`.
+pub fn normal_quantile(p: f64) -> f64 {
+    Normal::new(0.0, 1.0)
+        .map(|n| n.inverse_cdf(0.5 + p / 2.0))
+        .unwrap_or(f64::NAN)
 }
 
-/// The maximum a posteriori k and V from points `(t, mg/L)` after `doses`, with any number of
-/// points (none gives the population values back).
+/// A maximum a posteriori estimate on plain numbers.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Estimate {
+    /// k, V, the spread of (ln k, ln V) and the log residuals, as every fit carries them.
+    pub solution: Solution,
+    /// η at the minimum (elimination, volume; 0 for a fixed one).
+    pub eta: [f64; 2],
+    /// Posterior covariance of η.
+    pub cov_eta: [[f64; 2]; 2],
+    /// The model's level at each point, mg/L.
+    pub predicted: Vec<f64>,
+}
+
+/// Which η the model lets vary: the elimination always, the volume when it has a variability.
+fn free(pop: &Population) -> usize {
+    if pop.omega[1].is_some() {
+        2
+    } else {
+        1
+    }
+}
+
+fn eta_of(x: &[f64]) -> [f64; 2] {
+    [x[0], x.get(1).copied().unwrap_or(0.0)]
+}
+
+/// OBJ(η) as documented above, for `points` `(t, mg/L)` after `schedule`.
+pub fn objective(pop: &Population, schedule: &Schedule, points: &[(f64, f64)], x: &[f64]) -> f64 {
+    let eta = eta_of(x);
+    let (k, v) = pop.k_and_v(eta);
+    let ts: Vec<f64> = points.iter().map(|p| p.0).collect();
+    let predicted = schedule.levels(k, v, &ts);
+    let mut total = 0.0;
+    for ((_, y), yhat) in points.iter().zip(&predicted) {
+        let var = pop.residual.variance(*yhat);
+        total += (y - yhat).powi(2) / var + var.ln();
+    }
+    total + prior_term(pop, x)
+}
+
+/// ηᵀ Ω⁻¹ η over the free η.
+fn prior_term(pop: &Population, x: &[f64]) -> f64 {
+    let w0 = pop.omega[0].unwrap_or(1.0);
+    if x.len() == 1 {
+        return (x[0] / w0).powi(2);
+    }
+    let w1 = pop.omega[1].unwrap_or(1.0);
+    let r = pop.correlation;
+    let (a, b) = (x[0] / w0, x[1] / w1);
+    (a * a - 2.0 * r * a * b + b * b) / (1.0 - r * r)
+}
+
+/// The estimate from points `(t, mg/L)` after `doses` (any number of points; none gives the
+/// population values with the population's spread).
 ///
 /// # Errors
-/// A point before the first dose, or a posterior that cannot be found.
+/// None found (the objective is not finite at the population values, or does not settle).
 pub fn estimate_points(
     doses: &[Administration],
     points: &[(f64, f64)],
     pop: &Population,
-) -> std::result::Result<Solution, Failure> {
-    let problem = history::problem(doses, points, pop.residual_sd, Some(pop.gaussian))?;
-    let solved = problem.solve().ok_or(Failure::NoElimination)?;
-    history::check_plausible(solved.theta[0])?;
-    let cov = history::inverse2(solved.info).ok_or(Failure::NotSeparable)?;
-    let z = Normal::new(0.0, 1.0)
-        .map(|n| n.inverse_cdf(0.975))
-        .unwrap_or(1.959_963_984_540_054);
-    Ok(Solution {
-        k: solved.theta[0].exp(),
-        v: solved.theta[1].exp(),
-        spread: Some(Spread { cov, quantile: z }),
-        residuals: solved.residuals,
-        iterations: solved.iterations,
+) -> std::result::Result<Estimate, history::Failure> {
+    let schedule = Schedule::new(doses);
+    let n = free(pop);
+    let (eta, cov_eta) = if points.is_empty() {
+        ([0.0, 0.0], pop.omega_matrix())
+    } else {
+        let f = |x: &[f64]| objective(pop, &schedule, points, x);
+        let m = minimise::minimise(&f, &vec![0.0; n]).ok_or(history::Failure::NoElimination)?;
+        let half: Vec<Vec<f64>> = m
+            .hessian
+            .iter()
+            .map(|r| r.iter().map(|v| v / 2.0).collect())
+            .collect();
+        let inv = minimise::inverse(&half).ok_or(history::Failure::NotSeparable)?;
+        let mut cov = [[0.0; 2]; 2];
+        for i in 0..n {
+            for j in 0..n {
+                cov[i][j] = inv[i][j];
+            }
+        }
+        if cov[0][0] <= 0.0 || cov[1][1] < 0.0 {
+            return Err(history::Failure::NotSeparable);
+        }
+        (eta_of(&m.x), cov)
+    };
+    let (k, v) = pop.k_and_v(eta);
+    history::check_plausible(k.ln())?;
+    let a = pop.jacobian();
+    let mut cov = [[0.0; 2]; 2];
+    for i in 0..2 {
+        for j in 0..2 {
+            cov[i][j] = (0..2)
+                .flat_map(|p| (0..2).map(move |q| (p, q)))
+                .map(|(p, q)| a[i][p] * cov_eta[p][q] * a[j][q])
+                .sum();
+        }
+    }
+    let ts: Vec<f64> = points.iter().map(|p| p.0).collect();
+    let predicted = schedule.levels(k, v, &ts);
+    let residuals = points
+        .iter()
+        .zip(&predicted)
+        .map(|((_, y), yhat)| y.ln() - yhat.ln())
+        .collect();
+    let quantile = normal_quantile(if points.is_empty() { 0.90 } else { 0.95 });
+    Ok(Estimate {
+        solution: Solution {
+            k,
+            v,
+            spread: Some(Spread { cov, quantile }),
+            residuals,
+            iterations: 0,
+        },
+        eta,
+        cov_eta,
+        predicted,
     })
 }
 
-/// How far an estimate lies from the population values, in between-patient SDs.
-pub fn summarise(pop: &Population, k: f64, v: f64, sources: &[String]) -> Summary {
-    let elimination_shift_sd = if pop.on_clearance {
-        (k * v / pop.clearance_l_per_h).ln() / pop.omega[0]
-    } else {
-        (k / pop.k_per_h).ln() / pop.omega[0]
-    };
+/// How far an estimate lies from the population values, and how much of it the levels decided.
+pub fn summarise(pop: &Population, est: &Estimate, sources: &[String]) -> Summary {
+    let shift = |i: usize| pop.omega[i].map_or(0.0, |w| est.eta[i] / w);
+    let share = |i: usize| pop.omega[i].map(|w| est.cov_eta[i][i] / (w * w));
     Summary {
         population: pop.clone(),
-        elimination_shift_sd,
-        volume_shift_sd: (v / pop.volume_l).ln() / pop.omega[1],
+        elimination_shift_sd: shift(0),
+        volume_shift_sd: shift(1),
+        prior_share: [share(0), share(1)],
         sources: sources.to_vec(),
     }
 }
 
-/// The Bayesian estimate for a case, from its priors and every usable level.
+/// The daily dose of the current regimen, mg/day: the plan's, else the last recorded dose
+/// over the gap before it.
+pub fn daily_dose_mg(case: &Case) -> Option<f64> {
+    if let Some(p) = &case.plan {
+        return Some(p.dose_mg * 24.0 / p.interval_h);
+    }
+    let n = case.doses.len();
+    if n < 2 {
+        return None;
+    }
+    let (a, b) = (&case.doses[n - 2], &case.doses[n - 1]);
+    let gap = b.t - a.t;
+    b.amount_mg
+        .filter(|_| gap > 0.0)
+        .map(|amount| amount * 24.0 / gap)
+}
+
+/// The profile's oral bioavailability as the case's doses carry it (1 when none is oral).
+fn oral_f(case: &Case) -> f64 {
+    case.doses
+        .iter()
+        .map(|d| d.route)
+        .chain(case.plan.as_ref().map(|p| p.route))
+        .find_map(|r| match r {
+            Route::Oral { f } => Some(f),
+            _ => None,
+        })
+        .unwrap_or(1.0)
+}
+
+/// The case's population values (its model evaluated for this patient).
 ///
 /// # Errors
-/// No priors (naming `fit.method`), a dose without an amount, a patient field the prior needs,
-/// or a posterior that cannot be found.
-pub fn fit(case: &Case) -> Result<Fit> {
-    let prior = case.prior.as_ref().ok_or_else(|| {
+/// No model (naming `fit.method`), or a patient field the model needs.
+pub fn population_of(case: &Case) -> Result<Population> {
+    let model = case.prior.as_ref().ok_or_else(|| {
         let profile = match &case.drug.profile {
             Some(p) => format!("the drug profile \"{p}\" gives none"),
             None => "the case names no drug profile".into(),
         };
         Error::invalid(
             "fit.method",
-            format!("\"bayesian\" needs population priors, and {profile}; use \"log-linear\" or \"dose-history\""),
+            format!("\"bayesian\" and \"population\" need a population model, and {profile}; use \"log-linear\" or \"dose-history\""),
         )
     })?;
-    let given = history::given_or_error(case, "Bayesian")?;
-    let pop = population(prior, &case.patient)?;
+    crate::core::population::evaluate(model, &case.patient, daily_dose_mg(case), oral_f(case))
+}
+
+/// The Bayesian estimate for a case from its population model and every usable level; with
+/// no usable level, the population values (method "population").
+///
+/// # Errors
+/// No model, a dose without an amount, a patient field the model needs, or no estimate.
+pub fn fit(case: &Case) -> Result<Fit> {
+    let model = case.prior.as_ref();
+    let pop = population_of(case)?;
     let (used, mut warnings) = history::usable_levels(case);
+    let given = if used.is_empty() && case.doses.is_empty() {
+        Vec::new()
+    } else {
+        history::given_or_error(case, "Bayesian")?
+    };
     let points: Vec<(f64, f64)> = used
         .iter()
         .map(|&i| (case.levels[i].t, case.levels[i].mg_l))
         .collect();
-    let sol = estimate_points(&given, &points, &pop).map_err(|_| {
+    let est = estimate_points(&given, &points, &pop).map_err(|_| {
         let names: Vec<String> = used.iter().map(|&i| case.level_name(i)).collect();
         let (place, which) = if names.is_empty() {
             ("dose".to_string(), "the dose record".to_string())
@@ -161,42 +241,153 @@ pub fn fit(case: &Case) -> Result<Fit> {
         Error::invalid(
             place,
             format!(
-                "{which}: no Bayesian estimate can be found from these and the population priors; check the times, the values and the dose record"
+                "{which}: no Bayesian estimate can be found from these and the population model {}; check the times, the values and the dose record",
+                pop.model
             ),
         )
     })?;
-    if used.is_empty() {
-        warnings.push(Warning::new(Code::PriorWeighs,
-            "no level is in the fit: k and V are the population values for this patient, not measured ones",
+    warnings.extend(pop.warnings.iter().cloned());
+    let summary = summarise(&pop, &est, model.map_or(&[][..], |m| &m.sources));
+    let method = if used.is_empty() {
+        warnings.push(Warning::new(
+            Code::PriorWeighs,
+            format!(
+                "no level is in the fit: k and V are the typical values of the population model {} for this patient, not measured ones; the ranges are the population's 90 % range",
+                pop.model
+            ),
         ));
+        Method::Population
     } else {
-        warnings.push(Warning::new(Code::PriorWeighs, format!(
-            "k and V are a Bayesian estimate from {} and population priors: with few levels they lean on the population values",
-            match used.len() {
-                1 => "one level".to_string(),
-                n => format!("{n} levels"),
-            }
-        )));
-    }
-    let weight_words = format!(
-        "the population volume uses the recorded (total) body weight, {} kg",
-        pop.weight_kg
-    );
-    let covariates = match &pop.creatinine_clearance {
-        Some(c) => format!(
-            "{weight_words}; creatinine clearance {:.0} mL/min by Cockcroft-Gault with that weight",
-            c.ml_min
-        ),
-        None => weight_words,
+        let levels = match used.len() {
+            1 => "one level".to_string(),
+            n => format!("{n} levels"),
+        };
+        let share = summary.prior_share[0].unwrap_or(1.0);
+        let what = if pop.on_clearance { "clearance" } else { "k" };
+        if share > 0.5 {
+            warnings.push(Warning::new(
+                Code::PriorWeighs,
+                format!(
+                    "the estimate rests mostly on the population model {}: {levels} {} only {:.0} % of what is known of this patient's {what}",
+                    pop.model,
+                    if used.len() == 1 { "carries" } else { "carry" },
+                    (1.0 - share) * 100.0
+                ),
+            ));
+        } else {
+            warnings.push(Warning::new(
+                Code::PriorWeighs,
+                format!(
+                    "k and V are a Bayesian estimate from {levels} and the population model {}; the levels carry {:.0} % of what is known of this patient's {what}, the model the rest",
+                    pop.model,
+                    (1.0 - share) * 100.0
+                ),
+            ));
+        }
+        warnings.extend(unexpected_levels(case, &used, &given, &points, &pop));
+        Method::Bayesian
     };
-    warnings.push(Warning::new(Code::PopulationCovariates, covariates));
-    let summary = summarise(&pop, sol.k, sol.v, &prior.sources);
+    warnings.push(Warning::new(
+        Code::PopulationCovariates,
+        covariate_words(&pop),
+    ));
     Ok(history::to_fit(
         case,
-        Method::Bayesian,
+        method,
         used,
-        &sol,
+        &est.solution,
         warnings,
         Some(summary),
     ))
+}
+
+/// Levels far from the population model's prediction for this patient: more than 3 SDs on
+/// the log scale, counting the between-patient spread (delta method) and the residual error.
+fn unexpected_levels(
+    case: &Case,
+    used: &[usize],
+    given: &[Administration],
+    points: &[(f64, f64)],
+    pop: &Population,
+) -> Vec<Warning> {
+    let schedule = Schedule::new(given);
+    let ts: Vec<f64> = points.iter().map(|p| p.0).collect();
+    let at = |eta: [f64; 2]| {
+        let (k, v) = pop.k_and_v(eta);
+        schedule.levels(k, v, &ts)
+    };
+    let base = at([0.0, 0.0]);
+    let h = 1e-5;
+    let d0 = at([h, 0.0]);
+    let d1 = at([0.0, h]);
+    let om = pop.omega_matrix();
+    let mut out = Vec::new();
+    for (j, &i) in used.iter().enumerate() {
+        let (y, yhat) = (points[j].1, base[j]);
+        if yhat.is_nan() || yhat <= 0.0 {
+            continue;
+        }
+        let g = [(d0[j].ln() - yhat.ln()) / h, (d1[j].ln() - yhat.ln()) / h];
+        let between =
+            g[0] * g[0] * om[0][0] + 2.0 * g[0] * g[1] * om[0][1] + g[1] * g[1] * om[1][1];
+        let var = between + pop.residual.variance(yhat) / (yhat * yhat);
+        let z = (y.ln() - yhat.ln()) / var.sqrt();
+        if z.abs() > 3.0 {
+            let scale = case.drug.scale;
+            out.push(Warning::about_level(
+                Code::LevelUnexpected,
+                case.levels[i].row,
+                format!(
+                    "{} ({} {}) is far from what the population model {} predicts for this patient ({} {}, {:.1} SDs {}): check the sample time, the dose times and where the sample was drawn",
+                    case.level_name(i),
+                    crate::core::format::num(scale.to_level(y)),
+                    scale.unit.as_str(),
+                    pop.model,
+                    crate::core::format::num(scale.to_level(yhat)),
+                    scale.unit.as_str(),
+                    z.abs(),
+                    if z > 0.0 { "above" } else { "below" }
+                ),
+            ));
+        }
+    }
+    out
+}
+
+/// Which covariates the population values used, in words.
+fn covariate_words(pop: &Population) -> String {
+    let num = crate::core::format::num;
+    let mut parts = Vec::new();
+    if let Some(w) = pop.weight_kg {
+        parts.push(format!("weight {} kg", num(w)));
+    }
+    if let Some(c) = &pop.creatinine_clearance {
+        let weight = match c.weight {
+            crate::core::prior::CrclWeight::Total => "total",
+            crate::core::prior::CrclWeight::Ideal => "ideal",
+            crate::core::prior::CrclWeight::Adjusted => "adjusted",
+        };
+        parts.push(format!(
+            "creatinine clearance {:.0} mL/min by Cockcroft-Gault on {weight} body weight ({} kg){}",
+            c.ml_min,
+            num(c.weight_kg),
+            if c.adjusted {
+                ", with the model's floor on creatinine or cap on clearance"
+            } else {
+                ""
+            }
+        ));
+    }
+    if let Some(d) = pop.daily_dose_mg {
+        parts.push(format!("daily dose {} mg", num(d)));
+    }
+    format!(
+        "the population model {} used {}",
+        pop.model,
+        if parts.is_empty() {
+            "no covariate".to_string()
+        } else {
+            parts.join(", ")
+        }
+    )
 }

@@ -5,7 +5,7 @@
 
 use crate::core::clock::{Clock, ClockTime};
 use crate::core::model::{Administration, Route};
-use crate::core::prior::Prior;
+use crate::core::prior::Model;
 use crate::core::units::Scale;
 
 /// Who the patient is, as far as dosing needs (every field optional).
@@ -166,8 +166,10 @@ pub enum FitChoice {
     LogLinear,
     /// k and V from every used level against the whole dose record.
     DoseHistory,
-    /// Maximum a posteriori k and V from population priors and the levels.
+    /// Maximum a posteriori k and V from a population model and the levels.
     Bayesian,
+    /// The population model's typical values for this patient, leaving every level out.
+    Population,
 }
 
 impl FitChoice {
@@ -177,6 +179,7 @@ impl FitChoice {
             FitChoice::LogLinear => "log-linear",
             FitChoice::DoseHistory => "dose-history",
             FitChoice::Bayesian => "bayesian",
+            FitChoice::Population => "population",
         }
     }
 
@@ -186,6 +189,7 @@ impl FitChoice {
             FitChoice::LogLinear,
             FitChoice::DoseHistory,
             FitChoice::Bayesian,
+            FitChoice::Population,
         ]
         .into_iter()
         .find(|c| c.name() == text)
@@ -217,8 +221,8 @@ pub struct Case {
     pub regimen: RegimenOptions,
     /// The fit method the case asks for (`[fit] method`); None lets the fit choose.
     pub fit_method: Option<FitChoice>,
-    /// Population priors for a Bayesian estimate (from the drug profile), when known.
-    pub prior: Option<Prior>,
+    /// The drug profile's population model, when it has one.
+    pub prior: Option<Model>,
 }
 
 impl Case {

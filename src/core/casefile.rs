@@ -13,7 +13,7 @@ use crate::core::case::{
 use crate::core::clock::{Clock, ClockTime};
 use crate::core::error::{Error, Result};
 use crate::core::model::Route;
-use crate::core::prior::Prior;
+use crate::core::prior::Model;
 use crate::core::text;
 use crate::core::units::{LevelUnit, Scale};
 
@@ -313,8 +313,8 @@ pub struct Defaults {
     pub bioavailability: Option<f64>,
     /// Targets, used when the case has no `[targets]`.
     pub targets: Targets,
-    /// Population priors for a Bayesian estimate.
-    pub prior: Option<Prior>,
+    /// The profile's population model.
+    pub prior: Option<Model>,
     /// The practical choices regimen suggestions are searched over (usual intervals, dose
     /// rounding); `None` keeps `RegimenOptions::default()`.
     pub regimen: Option<RegimenOptions>,

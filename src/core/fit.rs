@@ -81,10 +81,11 @@ pub fn ols(xs: &[f64], ys: &[f64]) -> Option<Line> {
 }
 
 /// The methods a case can ask for in `[fit] method`, in the order offered to users.
-pub const CHOICES: [FitChoice; 3] = [
+pub const CHOICES: [FitChoice; 4] = [
     FitChoice::LogLinear,
     FitChoice::DoseHistory,
     FitChoice::Bayesian,
+    FitChoice::Population,
 ];
 
 /// Fit the case by the method it asks for (`[fit] method`), or, when it names none: log-linear
@@ -98,6 +99,13 @@ pub fn fit(case: &Case) -> Result<Fit> {
         Some(FitChoice::LogLinear) => fit_log_linear(case),
         Some(FitChoice::DoseHistory) => history::fit(case),
         Some(FitChoice::Bayesian) => bayes::fit(case),
+        Some(FitChoice::Population) => {
+            let mut without = case.clone();
+            for l in &mut without.levels {
+                l.use_in_fit = false;
+            }
+            bayes::fit(&without)
+        }
         None => {
             // Levels are in time order, so a window's levels are neighbours.
             let windows: Vec<usize> = case
@@ -112,14 +120,14 @@ pub fn fit(case: &Case) -> Result<Fit> {
                 fit_log_linear(case)
             } else if usable >= 2 && doses_known {
                 history::fit(case)
-            } else if usable < 2 && doses_known && case.prior.is_some() {
+            } else if usable < 2 && (doses_known || usable == 0) && case.prior.is_some() {
                 bayes::fit(case)
             } else if usable < 2 {
                 let which = too_few_levels(case);
                 Err(Error::invalid(
                     "level",
                     format!(
-                        "{which}; a fit needs two levels (after one dose, or anywhere when every dose amount is known), or one level with a drug profile that has population priors"
+                        "{which}; a fit needs two levels (after one dose, or anywhere when every dose amount is known), or one level with a drug profile that has a population model"
                     ),
                 ))
             } else {

@@ -25,8 +25,10 @@ pub enum Method {
     LogLinear,
     /// k and V together from every used level against the whole dose record (`history`).
     DoseHistory,
-    /// Maximum a posteriori k and V from population priors and the levels (`bayes`).
+    /// Maximum a posteriori k and V from a population model and the levels (`bayes`).
     Bayesian,
+    /// The population model's typical k and V for this patient, before any level (`bayes`).
+    Population,
 }
 
 impl Method {
@@ -37,6 +39,7 @@ impl Method {
             Method::LogLinear => "log-linear",
             Method::DoseHistory => "dose-history",
             Method::Bayesian => "bayesian",
+            Method::Population => "population",
         }
     }
 }
@@ -52,6 +55,8 @@ pub enum VolumeMethod {
     DoseHistory,
     /// Estimated together with k by the Bayesian fit.
     Bayesian,
+    /// The population model's typical volume for this patient.
+    Population,
 }
 
 impl VolumeMethod {
@@ -62,6 +67,7 @@ impl VolumeMethod {
             VolumeMethod::DoseRecord => "dose record",
             VolumeMethod::DoseHistory => "dose-history",
             VolumeMethod::Bayesian => "bayesian",
+            VolumeMethod::Population => "population",
         }
     }
 }

@@ -523,6 +523,7 @@ pub(crate) fn to_fit(
     let k_ci95 = spread.map(|s| s.interval(k, [1.0, 0.0]));
     let volume_method = match method {
         Method::Bayesian => VolumeMethod::Bayesian,
+        Method::Population => VolumeMethod::Population,
         _ => VolumeMethod::DoseHistory,
     };
     Fit {

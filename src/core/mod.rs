@@ -13,6 +13,7 @@ pub mod fitted;
 pub mod format;
 pub mod history;
 pub mod json;
+pub mod minimise;
 pub mod model;
 pub mod note;
 pub mod population;
@@ -37,7 +38,7 @@ mod layering {
     //! is no cycle); nothing in the core reaches the shells or a terminal crate.
 
     /// Every core module, bottom to top: a module may use only modules listed before it.
-    const ORDER: [&str; 28] = [
+    const ORDER: [&str; 29] = [
         "text",
         "error",
         "units",
@@ -45,6 +46,7 @@ mod layering {
         "warning",
         "format",
         "model",
+        "minimise",
         "prior",
         "case",
         "casefile",

@@ -1,41 +1,321 @@
-//! The population values for one patient (typical k, V and CL from the priors and the
-//! patient's covariates) and how far an estimate moved from them.
+//! A population model evaluated for one patient: the covariates it uses (creatinine clearance
+//! by the model's own rule, body size), the typical k, V and CL, the between-patient spread,
+//! the residual error, where the patient lies outside the population studied — and, after an
+//! estimate, how far it moved from the typical values.
 
-use crate::core::renal::CreatinineClearance;
-use crate::core::spread::Gaussian;
+use crate::core::case::{Patient, Sex};
+use crate::core::error::{Error, Result};
+use crate::core::prior::{Covariate, Elimination, Form, Model, Residual};
+use crate::core::renal::{self, BodySize, CreatinineClearance};
+use crate::core::warning::{Code, Warning};
 
-/// The population values for one patient, and the prior they make on (ln k, ln V).
+/// The population values for one patient.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Population {
+    /// The model's name (first author and year).
+    pub model: String,
+    /// The model in words.
+    pub label: String,
     /// Typical k for this patient, 1/h.
     pub k_per_h: f64,
     /// Typical V for this patient, L.
     pub volume_l: f64,
     /// Typical CL for this patient, L/h.
     pub clearance_l_per_h: f64,
-    /// Whether the prior is on CL (true) or on k (false).
+    /// Whether the elimination parameter is CL (true) or k (false).
     pub on_clearance: bool,
-    /// The creatinine clearance used, when the prior has a slope.
+    /// Between-patient SD of ln(elimination) and of ln V (None: fixed at the typical value).
+    pub omega: [Option<f64>; 2],
+    /// Correlation of the two.
+    pub correlation: f64,
+    /// Residual error of a level.
+    pub residual: Residual,
+    /// The creatinine clearance used, when the model uses one.
     pub creatinine_clearance: Option<CreatinineClearance>,
-    /// The weight used for V, kg (the case's recorded total body weight).
-    pub weight_kg: f64,
-    /// The prior on (ln k, ln V).
-    pub gaussian: Gaussian,
-    /// Residual SD of ln(level).
-    pub residual_sd: f64,
-    /// Between-patient SDs of ln k (or ln CL) and ln V.
-    pub omega: [f64; 2],
+    /// The recorded weight, kg.
+    pub weight_kg: Option<f64>,
+    /// Ideal and adjusted weight and BMI.
+    pub body: BodySize,
+    /// The daily dose used, when the model uses one, mg/day.
+    pub daily_dose_mg: Option<f64>,
+    /// Where the patient lies outside the model's population, and what it assumes.
+    pub warnings: Vec<Warning>,
 }
 
-/// What the report shows of a Bayesian estimate: the population values and the move from them.
+impl Population {
+    /// The prior covariance of (η elimination, η V); a fixed parameter has no variance.
+    pub fn omega_matrix(&self) -> [[f64; 2]; 2] {
+        let (a, b) = (self.omega[0].unwrap_or(0.0), self.omega[1].unwrap_or(0.0));
+        [
+            [a * a, self.correlation * a * b],
+            [self.correlation * a * b, b * b],
+        ]
+    }
+
+    /// k and V for between-patient deviations `eta` (elimination, volume).
+    pub fn k_and_v(&self, eta: [f64; 2]) -> (f64, f64) {
+        let v = self.volume_l * eta[1].exp();
+        if self.on_clearance {
+            (self.clearance_l_per_h * eta[0].exp() / v, v)
+        } else {
+            (self.k_per_h * eta[0].exp(), v)
+        }
+    }
+
+    /// d(ln k, ln V)/d(η elimination, η V).
+    pub fn jacobian(&self) -> [[f64; 2]; 2] {
+        if self.on_clearance {
+            [[1.0, -1.0], [0.0, 1.0]]
+        } else {
+            [[1.0, 0.0], [0.0, 1.0]]
+        }
+    }
+}
+
+/// What the report shows of a population-based estimate: the population values and the move
+/// from them.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Summary {
     /// The population values for this patient.
     pub population: Population,
-    /// How far the estimate moved from the typical k (or CL), in between-patient SDs of its log.
+    /// How far the estimate moved from the typical elimination, in between-patient SDs.
     pub elimination_shift_sd: f64,
-    /// How far the estimate moved from the typical V, in between-patient SDs of ln V.
+    /// How far the estimate moved from the typical V, in between-patient SDs (0 when fixed).
     pub volume_shift_sd: f64,
-    /// Where the priors come from.
+    /// Posterior variance over prior variance of η (elimination, volume): 1 when the levels
+    /// add nothing, near 0 when they decide; None for a fixed parameter.
+    pub prior_share: [Option<f64>; 2],
+    /// Where the model comes from.
     pub sources: Vec<String>,
+}
+
+/// Evaluate `model` for `patient`: `daily_dose_mg` is the current regimen's daily dose (for a
+/// model whose clearance depends on it) and `oral_f` the profile's oral bioavailability (for
+/// a model of apparent values).
+///
+/// # Errors
+/// A patient field the model needs (named `patient.…`; the daily dose as `plan`), or a
+/// model that gives no positive k and V for this patient.
+pub fn evaluate(
+    model: &Model,
+    patient: &Patient,
+    daily_dose_mg: Option<f64>,
+    oral_f: f64,
+) -> Result<Population> {
+    model.check()?;
+    let body = renal::body_size(patient);
+    let uses = |c: Covariate| {
+        [&model.elimination, &model.volume]
+            .iter()
+            .any(|p| p.terms.iter().any(|t| t.of == c))
+            || model.envelope.iter().any(|r| r.of == c)
+    };
+    let crcl = if uses(Covariate::CrclMlMin) || uses(Covariate::CrclLPerH) {
+        Some(renal::creatinine_clearance_by(patient, &model.crcl)?)
+    } else {
+        None
+    };
+    let need = |field: &str, what: &str| {
+        Error::invalid(
+            format!("patient.{field}"),
+            format!("missing; the population model {} uses {what}", model.name),
+        )
+    };
+    let mut assumed = Vec::new();
+    let value = |c: Covariate, assumed: &mut Vec<String>| -> Result<f64> {
+        Ok(match c {
+            Covariate::WeightKg => patient
+                .weight_kg
+                .ok_or_else(|| need("weight_kg", "body weight"))?,
+            Covariate::IdealWeightKg => body
+                .ideal_kg
+                .ok_or_else(|| need("height_cm", "ideal body weight (height and sex)"))?,
+            Covariate::AdjustedWeightKg => body
+                .adjusted_kg
+                .ok_or_else(|| need("height_cm", "adjusted body weight (height and sex)"))?,
+            Covariate::HeightCm => patient.height_cm.ok_or_else(|| need("height_cm", "height"))?,
+            Covariate::AgeYears => patient.age_years.ok_or_else(|| need("age_years", "age"))?,
+            Covariate::CrclMlMin => crcl.map_or(0.0, |c| c.ml_min),
+            Covariate::CrclLPerH => crcl.map_or(0.0, |c| c.ml_min * 0.06),
+            Covariate::CreatinineUmolL => {
+                patient
+                    .creatinine_mg_dl
+                    .ok_or_else(|| need("creatinine_mg_dl", "serum creatinine"))?
+                    * 88.4
+            }
+            Covariate::Dialysis => match patient.dialysis {
+                Some(d) => f64::from(u8::from(d)),
+                None => {
+                    assumed.push("the case does not say whether the patient is on haemodialysis: taken as not".to_string());
+                    0.0
+                }
+            },
+            Covariate::Female | Covariate::Male => {
+                let sex = patient.sex.ok_or_else(|| need("sex", "sex"))?;
+                let female = sex == Sex::Female;
+                f64::from(u8::from(female == (c == Covariate::Female)))
+            }
+            Covariate::DailyDoseMg => daily_dose_mg.ok_or_else(|| {
+                Error::invalid(
+                    "plan",
+                    format!(
+                        "missing; the population model {} uses the daily dose: give a plan (dose and interval) or a dose record",
+                        model.name
+                    ),
+                )
+            })?,
+        })
+    };
+    let mut eval = |p: &crate::core::prior::Parameter| -> Result<f64> {
+        let mut x = p.typical;
+        for t in &p.terms {
+            if let Form::Add { reference, slope } = t.form {
+                x += slope * (value(t.of, &mut assumed)? - reference);
+            }
+        }
+        for t in &p.terms {
+            let c = value(t.of, &mut assumed)?;
+            x *= match t.form {
+                Form::Power {
+                    reference,
+                    exponent,
+                } => (c / reference).powf(exponent),
+                Form::Linear { reference, slope } => 1.0 + slope * (c - reference),
+                Form::Exponential { reference, slope } => (slope * (c - reference)).exp(),
+                Form::Add { .. } => 1.0,
+                Form::Factor { value, at_least } => {
+                    let on = match at_least {
+                        Some(limit) => c >= limit,
+                        None => c >= 0.5,
+                    };
+                    if on {
+                        value
+                    } else {
+                        1.0
+                    }
+                }
+            };
+        }
+        Ok(x)
+    };
+    let mut elimination = eval(&model.elimination)?;
+    let mut v = eval(&model.volume)?;
+    if model.apparent {
+        elimination *= if model.elimination_kind == Elimination::Clearance {
+            oral_f
+        } else {
+            1.0
+        };
+        v *= oral_f;
+    }
+    let on_clearance = model.elimination_kind == Elimination::Clearance;
+    let (k, cl) = if on_clearance {
+        (elimination / v, elimination)
+    } else {
+        (elimination, elimination * v)
+    };
+    if !(k.is_finite() && k > 0.0 && v.is_finite() && v > 0.0) {
+        return Err(Error::invalid(
+            "model",
+            format!(
+                "the population model {} gives no positive typical k and volume for this patient (check weight, age and creatinine)",
+                model.name
+            ),
+        ));
+    }
+    let mut warnings = Vec::new();
+    for r in &model.envelope {
+        let x = match r.of {
+            Covariate::CrclMlMin | Covariate::CrclLPerH => crcl.map(|c| {
+                if r.of == Covariate::CrclLPerH {
+                    c.ml_min * 0.06
+                } else {
+                    c.ml_min
+                }
+            }),
+            other => value(other, &mut Vec::new()).ok(),
+        };
+        if let Some(x) = x {
+            if x < r.low || x > r.high {
+                warnings.push(Warning::new(
+                    Code::OutsidePopulation,
+                    format!(
+                        "{} {} is outside the {}–{} of the patients behind the {} model: its typical values are extrapolated for this patient",
+                        covariate_words(r.of),
+                        crate::core::format::num(x),
+                        crate::core::format::num(r.low),
+                        crate::core::format::num(r.high),
+                        model.name
+                    ),
+                ));
+            }
+        }
+    }
+    if model.excludes_dialysis && patient.dialysis == Some(true) {
+        warnings.push(Warning::new(
+            Code::OutsidePopulation,
+            format!(
+                "the {} model was built without patients on haemodialysis: its typical values do not describe this patient",
+                model.name
+            ),
+        ));
+    }
+    for a in model.assumptions.iter().chain(assumed.iter()) {
+        warnings.push(Warning::new(
+            Code::ModelAssumes,
+            format!("population model {}: {a}", model.name),
+        ));
+    }
+    if model.apparent && oral_f != 1.0 {
+        warnings.push(Warning::new(
+            Code::ModelAssumes,
+            format!(
+                "population model {}: its clearance and volume are apparent (divided by F); they are multiplied by the profile's oral F = {} so that every dose is counted as F x dose",
+                model.name,
+                crate::core::format::num(oral_f)
+            ),
+        ));
+    }
+    Ok(Population {
+        model: model.name.clone(),
+        label: model.label.clone(),
+        k_per_h: k,
+        volume_l: v,
+        clearance_l_per_h: cl,
+        on_clearance,
+        omega: [model.elimination.omega, model.volume.omega],
+        correlation: if model.volume.omega.is_some() {
+            model.correlation
+        } else {
+            0.0
+        },
+        residual: model.residual,
+        creatinine_clearance: crcl,
+        weight_kg: patient.weight_kg,
+        body,
+        daily_dose_mg: if uses(Covariate::DailyDoseMg) {
+            daily_dose_mg
+        } else {
+            None
+        },
+        warnings,
+    })
+}
+
+/// A covariate in a sentence ("creatinine clearance (mL/min)").
+pub fn covariate_words(c: Covariate) -> &'static str {
+    match c {
+        Covariate::WeightKg => "weight (kg)",
+        Covariate::IdealWeightKg => "ideal body weight (kg)",
+        Covariate::AdjustedWeightKg => "adjusted body weight (kg)",
+        Covariate::HeightCm => "height (cm)",
+        Covariate::AgeYears => "age (years)",
+        Covariate::CrclMlMin => "creatinine clearance (mL/min)",
+        Covariate::CrclLPerH => "creatinine clearance (L/h)",
+        Covariate::CreatinineUmolL => "serum creatinine (µmol/L)",
+        Covariate::Dialysis => "haemodialysis",
+        Covariate::Female => "female sex",
+        Covariate::Male => "male sex",
+        Covariate::DailyDoseMg => "daily dose (mg)",
+    }
 }

@@ -1,89 +1,310 @@
-//! Population priors as a drug profile gives them: a typical elimination (perhaps rising with
-//! creatinine clearance), a volume per kg, their between-patient spread and the residual error
-//! of a level. Plain data, checked; the Bayesian estimate (`bayes`) turns them into numbers
-//! for one patient.
+//! A published population model as a drug profile states it, declaratively: each parameter's
+//! typical value with a few named covariate forms, its between-patient variability, the
+//! residual error of a level, how its authors computed creatinine clearance, and the
+//! population it was built on. Plain data, checked; `population` evaluates it for one patient
+//! and `bayes` turns it into an estimate.
 
 use crate::core::error::{Error, Result};
 
-/// The typical elimination of a population, perhaps rising with creatinine clearance.
+/// A patient quantity a covariate term may use.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Covariate {
+    /// Total body weight, kg.
+    WeightKg,
+    /// Ideal body weight (Devine), kg.
+    IdealWeightKg,
+    /// Adjusted body weight, IBW + 0.4 x (TBW − IBW), kg.
+    AdjustedWeightKg,
+    /// Height, cm.
+    HeightCm,
+    /// Age, years.
+    AgeYears,
+    /// Creatinine clearance by the model's own rule, mL/min.
+    CrclMlMin,
+    /// The same in L/h (× 0.06).
+    CrclLPerH,
+    /// Serum creatinine, µmol/L.
+    CreatinineUmolL,
+    /// 1 when on intermittent haemodialysis, else 0.
+    Dialysis,
+    /// 1 for a woman, else 0.
+    Female,
+    /// 1 for a man, else 0.
+    Male,
+    /// The total daily dose of the current regimen, mg/day.
+    DailyDoseMg,
+}
+
+impl Covariate {
+    /// Every covariate with its profile spelling.
+    pub const ALL: [(Covariate, &'static str); 12] = [
+        (Covariate::WeightKg, "weight_kg"),
+        (Covariate::IdealWeightKg, "ideal_weight_kg"),
+        (Covariate::AdjustedWeightKg, "adjusted_weight_kg"),
+        (Covariate::HeightCm, "height_cm"),
+        (Covariate::AgeYears, "age_years"),
+        (Covariate::CrclMlMin, "crcl_ml_min"),
+        (Covariate::CrclLPerH, "crcl_l_h"),
+        (Covariate::CreatinineUmolL, "creatinine_umol_l"),
+        (Covariate::Dialysis, "dialysis"),
+        (Covariate::Female, "female"),
+        (Covariate::Male, "male"),
+        (Covariate::DailyDoseMg, "daily_dose_mg"),
+    ];
+
+    /// The profile spelling.
+    pub fn name(self) -> &'static str {
+        Covariate::ALL
+            .iter()
+            .find(|(c, _)| *c == self)
+            .map_or("", |(_, n)| n)
+    }
+
+    /// The covariate a profile spells `name`.
+    pub fn parse(name: &str) -> Option<Covariate> {
+        Covariate::ALL
+            .iter()
+            .find(|(_, n)| *n == name)
+            .map(|(c, _)| *c)
+    }
+}
+
+/// How one covariate changes a typical value.
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub enum Typical {
-    /// k (1/h) = `per_h` + `per_ml_min` × CrCl (mL/min).
-    RateConstant {
-        /// k at zero creatinine clearance, or the typical k when there is no slope, 1/h.
-        per_h: f64,
-        /// Rise of k per mL/min of creatinine clearance, 1/h per mL/min.
-        per_ml_min: Option<f64>,
+pub enum Form {
+    /// × (x / reference)^exponent.
+    Power {
+        /// The covariate value at which the term is 1.
+        reference: f64,
+        /// The exponent.
+        exponent: f64,
     },
-    /// CL (L/h) = `l_per_h` + `per_ml_min` × CrCl (mL/min).
-    Clearance {
-        /// CL at zero creatinine clearance, or the typical CL when there is no slope, L/h.
-        l_per_h: f64,
-        /// Rise of CL per mL/min of creatinine clearance, L/h per mL/min.
-        per_ml_min: Option<f64>,
+    /// × (1 + slope·(x − reference)).
+    Linear {
+        /// The covariate value at which the term is 1.
+        reference: f64,
+        /// Fractional change per unit of the covariate.
+        slope: f64,
+    },
+    /// × e^(slope·(x − reference)).
+    Exponential {
+        /// The covariate value at which the term is 1.
+        reference: f64,
+        /// Change of the log per unit of the covariate.
+        slope: f64,
+    },
+    /// + slope·(x − reference), added to the typical value before any multiplying term.
+    Add {
+        /// The covariate value at which the term adds nothing.
+        reference: f64,
+        /// Change per unit of the covariate, in the parameter's unit.
+        slope: f64,
+    },
+    /// × value when the covariate is 1 (or, with `at_least`, when it is at least that much).
+    Factor {
+        /// The multiplier.
+        value: f64,
+        /// A threshold for a numeric covariate (e.g. age 70 or more); None for a yes/no one.
+        at_least: Option<f64>,
     },
 }
 
-/// Log-normal population priors for k (or CL) and V, with their sources.
+/// One covariate term of a parameter.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Term {
+    /// The patient quantity used.
+    pub of: Covariate,
+    /// How it acts.
+    pub form: Form,
+}
+
+/// One structural parameter: typical value, covariate terms and between-patient variability.
 #[derive(Debug, Clone, PartialEq)]
-pub struct Prior {
-    /// Typical k or CL, with an optional creatinine-clearance slope.
-    pub typical: Typical,
-    /// Typical volume per kg of (total) body weight, L/kg.
-    pub v_l_per_kg: f64,
-    /// Between-patient SD of ln k (of ln CL when `typical` is a clearance).
-    pub omega_k: f64,
-    /// Between-patient SD of ln V.
-    pub omega_v: f64,
-    /// Residual SD of ln(level) (a proportional error of about this fraction).
-    pub residual_sd: f64,
-    /// Where the numbers come from.
+pub struct Parameter {
+    /// The typical value before the terms, in the parameter's unit (L/h, 1/h or L).
+    pub typical: f64,
+    /// Covariate terms, applied in order: every `Add` first, then the multiplying ones.
+    pub terms: Vec<Term>,
+    /// Between-patient SD of the log (ω); None when the model fixes the parameter.
+    pub omega: Option<f64>,
+}
+
+/// What the elimination parameter is.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Elimination {
+    /// Clearance, L/h.
+    Clearance,
+    /// Elimination rate constant, 1/h.
+    RateConstant,
+}
+
+/// Which weight enters Cockcroft-Gault.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum CrclWeight {
+    /// Total body weight.
+    Total,
+    /// Ideal body weight (Devine).
+    Ideal,
+    /// Adjusted body weight.
+    Adjusted,
+}
+
+/// How the model's authors computed creatinine clearance (Cockcroft-Gault with these choices).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct CrclRule {
+    /// The weight in the formula.
+    pub weight: CrclWeight,
+    /// Serum creatinine below this (mg/dL) is raised to it before the formula.
+    pub min_creatinine_mg_dl: Option<f64>,
+    /// ... but only from this age (years) up; None: at every age.
+    pub min_creatinine_from_age: Option<f64>,
+    /// Clearance above this (mL/min) is lowered to it.
+    pub max_ml_min: Option<f64>,
+}
+
+/// The residual error of one level: Var = additive² + (proportional·prediction)².
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Residual {
+    /// Additive SD, mg/L.
+    pub additive_mg_l: f64,
+    /// Proportional SD, a fraction.
+    pub proportional: f64,
+}
+
+impl Residual {
+    /// The variance of a level predicted at `c` mg/L.
+    pub fn variance(&self, c: f64) -> f64 {
+        self.additive_mg_l * self.additive_mg_l + (self.proportional * c).powi(2)
+    }
+}
+
+/// A range of a covariate the model's population covered.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Range {
+    /// The covariate.
+    pub of: Covariate,
+    /// Lowest value studied.
+    pub low: f64,
+    /// Highest value studied.
+    pub high: f64,
+}
+
+/// A published one-compartment population model.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Model {
+    /// The first author and year, lower case (e.g. "buelga-2005"); the case's `[fit] model`.
+    pub name: String,
+    /// A line for people: whose model, which patients.
+    pub label: String,
+    /// What the elimination parameter is.
+    pub elimination_kind: Elimination,
+    /// Clearance or k.
+    pub elimination: Parameter,
+    /// Volume, L.
+    pub volume: Parameter,
+    /// Correlation of the two η (0 when none was published).
+    pub correlation: f64,
+    /// The residual error.
+    pub residual: Residual,
+    /// Whether CL and V are apparent (÷F, fitted to oral doses): they are then multiplied by
+    /// the profile's oral bioavailability so that every projection can apply F as usual.
+    pub apparent: bool,
+    /// How creatinine clearance is computed for this model (when a term uses it).
+    pub crcl: CrclRule,
+    /// The covariate ranges of the population studied.
+    pub envelope: Vec<Range>,
+    /// Whether patients on haemodialysis were left out of the population.
+    pub excludes_dialysis: bool,
+    /// The population in words (size, setting, country).
+    pub population: String,
+    /// What the model assumes that the case does not record (co-medication and the like).
+    pub assumptions: Vec<String>,
+    /// The published work, cited in full.
     pub sources: Vec<String>,
 }
 
-impl Prior {
+impl Model {
+    /// Whether the parameters with variability include the volume.
+    pub fn volume_varies(&self) -> bool {
+        self.volume.omega.is_some()
+    }
+
     /// Check every number.
     ///
     /// # Errors
-    /// The first impossible value, named as `prior.FIELD`.
+    /// The first impossible value, named as `model.FIELD`.
     pub fn check(&self) -> Result<()> {
-        let positive = |x: f64, field: &str| {
-            if x.is_finite() && x > 0.0 {
-                Ok(())
-            } else {
-                Err(Error::invalid(
-                    format!("prior.{field}"),
-                    format!("must be above 0, got {x}"),
-                ))
+        let bad = |field: &str, why: String| Err(Error::invalid(format!("model.{field}"), why));
+        for (name, p) in [("elimination", &self.elimination), ("volume", &self.volume)] {
+            let adds = p.terms.iter().any(|t| matches!(t.form, Form::Add { .. }));
+            if !(p.typical.is_finite() && (p.typical > 0.0 || adds && p.typical >= 0.0)) {
+                return bad(name, format!("typical must be above 0, got {}", p.typical));
             }
-        };
-        let at_least_zero = |x: f64, field: &str| {
-            if x.is_finite() && x >= 0.0 {
-                Ok(())
-            } else {
-                Err(Error::invalid(
-                    format!("prior.{field}"),
-                    format!("must be 0 or more, got {x}"),
-                ))
+            if let Some(w) = p.omega {
+                if !(w.is_finite() && w > 0.0 && w < 3.0) {
+                    return bad(name, format!("omega must be above 0 and below 3, got {w}"));
+                }
             }
-        };
-        let (base, slope, name) = match self.typical {
-            Typical::RateConstant { per_h, per_ml_min } => (per_h, per_ml_min, "k"),
-            Typical::Clearance {
-                l_per_h,
-                per_ml_min,
-            } => (l_per_h, per_ml_min, "clearance"),
-        };
-        match slope {
-            None => positive(base, name)?,
-            Some(s) => {
-                at_least_zero(base, name)?;
-                positive(s, &format!("{name}_per_ml_min"))?;
+            for t in &p.terms {
+                let ok = match t.form {
+                    Form::Power {
+                        reference,
+                        exponent,
+                    } => reference.is_finite() && reference > 0.0 && exponent.is_finite(),
+                    Form::Linear { reference, slope }
+                    | Form::Exponential { reference, slope }
+                    | Form::Add { reference, slope } => reference.is_finite() && slope.is_finite(),
+                    Form::Factor { value, at_least } => {
+                        value.is_finite() && value > 0.0 && at_least.is_none_or(f64::is_finite)
+                    }
+                };
+                if !ok {
+                    return bad(
+                        name,
+                        format!("the term of {} has an impossible number", t.of.name()),
+                    );
+                }
             }
         }
-        positive(self.v_l_per_kg, "v_l_per_kg")?;
-        positive(self.omega_k, "omega_k")?;
-        positive(self.omega_v, "omega_v")?;
-        positive(self.residual_sd, "residual_sd")
+        if self.elimination.omega.is_none() {
+            return bad(
+                "elimination",
+                "needs a between-patient variability (omega)".into(),
+            );
+        }
+        if !(self.correlation.is_finite() && self.correlation.abs() < 1.0) {
+            return bad(
+                "correlation",
+                format!("must be between -1 and 1, got {}", self.correlation),
+            );
+        }
+        let r = self.residual;
+        if !(r.additive_mg_l.is_finite()
+            && r.additive_mg_l >= 0.0
+            && r.proportional.is_finite()
+            && r.proportional >= 0.0
+            && r.additive_mg_l + r.proportional > 0.0)
+        {
+            return bad(
+                "residual",
+                "needs an additive or a proportional error above 0".into(),
+            );
+        }
+        for e in &self.envelope {
+            if !(e.low.is_finite() && e.high.is_finite() && e.low <= e.high) {
+                return bad(
+                    "population_range",
+                    format!("{}: low must not exceed high", e.of.name()),
+                );
+            }
+        }
+        Ok(())
     }
+}
+
+/// The SD of the log of a log-normal quantity with coefficient of variation `cv_percent`:
+/// ω = sqrt(ln(1 + CV²)) (the log-normal identity).
+pub fn log_sd(cv_percent: f64) -> f64 {
+    let cv = cv_percent / 100.0;
+    (1.0 + cv * cv).ln().sqrt()
 }

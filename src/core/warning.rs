@@ -34,6 +34,12 @@ pub enum Code {
     PriorWeighs,
     /// Which weight and creatinine clearance the population values used.
     PopulationCovariates,
+    /// The patient lies outside the population a model was built on.
+    OutsidePopulation,
+    /// A population model assumes something the case does not record.
+    ModelAssumes,
+    /// A level lies far from what the population model predicts.
+    LevelUnexpected,
     /// No regimen meets every target, or none can be chosen from the targets given.
     NoSuggestion,
     /// The dose adjustment is proportional (no volume).
@@ -82,7 +88,7 @@ pub enum Code {
 
 impl Code {
     /// Every code, in declaration order.
-    pub const ALL: [Code; 35] = [
+    pub const ALL: [Code; 38] = [
         Code::OutsideWindow,
         Code::DistributionPhase,
         Code::RisingLevels,
@@ -96,6 +102,9 @@ impl Code {
         Code::WideIntervals,
         Code::PriorWeighs,
         Code::PopulationCovariates,
+        Code::OutsidePopulation,
+        Code::ModelAssumes,
+        Code::LevelUnexpected,
         Code::NoSuggestion,
         Code::Proportional,
         Code::PlanOverlap,
@@ -136,6 +145,9 @@ impl Code {
             Code::WideIntervals => "wide-intervals",
             Code::PriorWeighs => "prior-weighs",
             Code::PopulationCovariates => "population-covariates",
+            Code::OutsidePopulation => "outside-population",
+            Code::ModelAssumes => "model-assumes",
+            Code::LevelUnexpected => "level-unexpected",
             Code::NoSuggestion => "no-suggestion",
             Code::Proportional => "proportional",
             Code::PlanOverlap => "plan-overlap",

@@ -1,53 +1,317 @@
-//! Turn a profile's `[population]` values into the core's Bayesian priors, when it has them all.
+//! Turn a profile's `[model]` (a published population model, written declaratively) — or,
+//! without one, its `[population]` summary values — into the core's population model.
 //!
-//! A prior needs a typical elimination (clearance, else k, else half-life) with its
-//! between-patient CV, a volume per kg with its CV, and the residual error of a level. The CVs
-//! become SDs of the logs: ω = sqrt(ln(1 + CV²)) (the log-normal identity, common practice).
-//! A half-life CV carries over to k unchanged, since ln k = ln ln 2 − ln t½.
+//! Variability is written as `cv_percent` (turned into ω = sqrt(ln(1 + CV²)), the log-normal
+//! identity), or as the printed `omega` (SD of the log) or `omega_sq` (its variance). The
+//! additive residual error is in the profile's level unit and is converted to mg/L here.
 
-use crate::core::bayes::{Prior, Typical};
-use crate::profiles::schema::{Estimate, Profile};
+use serde::{Deserialize, Serialize};
 
-/// The SD of the log of a log-normal quantity with coefficient of variation `cv_percent`.
-pub fn log_sd(cv_percent: f64) -> f64 {
-    let cv = cv_percent / 100.0;
-    (1.0 + cv * cv).ln().sqrt()
+pub use crate::core::prior::log_sd;
+use crate::core::prior::{
+    Covariate, CrclRule, CrclWeight, Elimination, Form, Model, Parameter, Range, Residual, Term,
+};
+use crate::profiles::schema::{problem, FieldProblem, Profile};
+
+/// `[model]` as written.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ModelFile {
+    /// First author and year, lower case with a hyphen ("buelga-2005").
+    pub name: String,
+    /// One line for people: whose model, which patients, how many compartments.
+    pub label: String,
+    /// The population studied, in words (size, ages, weights, kidney function, setting).
+    pub population: String,
+    /// Source key(s) of the paper, e.g. "[Buelga05]".
+    pub source: String,
+    /// How the numbers were read (printed forms, interpretations).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub note: Option<String>,
+    /// Whether clearance and volume are apparent (÷F, from oral doses).
+    #[serde(default)]
+    pub apparent: bool,
+    /// Correlation of the clearance and volume η, when published.
+    #[serde(default)]
+    pub correlation: f64,
+    /// The residual error.
+    pub residual: ResidualFile,
+    /// How the authors computed creatinine clearance (Cockcroft-Gault).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub crcl: Option<CrclFile>,
+    /// Whether patients on haemodialysis were left out.
+    #[serde(default)]
+    pub excludes_dialysis: bool,
+    /// Covariate ranges of the population studied.
+    #[serde(default)]
+    pub ranges: Vec<RangeFile>,
+    /// Where the ranges come from (published ranges, or mean ± 2 SD).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub ranges_note: Option<String>,
+    /// What the model assumes that a case does not record.
+    #[serde(default)]
+    pub assumptions: Vec<String>,
+    /// Clearance, L/h (or `k`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub clearance: Option<ParameterFile>,
+    /// Elimination rate constant, 1/h (instead of `clearance`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub k: Option<ParameterFile>,
+    /// Volume, L.
+    pub volume: ParameterFile,
 }
 
-fn with_cv(e: &Option<Estimate>) -> Option<(&Estimate, f64)> {
-    let e = e.as_ref()?;
-    let cv = e.cv_percent?;
-    Some((e, log_sd(cv)))
+/// One parameter as written.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ParameterFile {
+    /// Typical value before the covariate terms.
+    pub typical: f64,
+    /// Between-patient variability as a CV, per cent.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub cv_percent: Option<f64>,
+    /// ... or as the printed SD of the log.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub omega: Option<f64>,
+    /// ... or as the printed variance of the log.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub omega_sq: Option<f64>,
+    /// Covariate terms.
+    #[serde(default)]
+    pub terms: Vec<TermFile>,
 }
 
-/// The profile's priors, or None when a value, its CV or the residual error is missing.
-pub fn prior_of(profile: &Profile) -> Option<Prior> {
+/// One covariate term as written.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct TermFile {
+    /// The covariate (see docs/profiles.md).
+    pub of: String,
+    /// "power", "linear", "exponential", "add" or "factor".
+    pub form: String,
+    /// Reference value (power, linear, exponential, add).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub reference: Option<f64>,
+    /// Exponent (power).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub exponent: Option<f64>,
+    /// Slope (linear, exponential, add).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub slope: Option<f64>,
+    /// Multiplier (factor).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub value: Option<f64>,
+    /// Threshold of a numeric covariate (factor).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub at_least: Option<f64>,
+}
+
+/// The residual error as written.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ResidualFile {
+    /// Additive SD in the profile's level unit.
+    #[serde(default)]
+    pub additive: f64,
+    /// Proportional SD, a fraction.
+    #[serde(default)]
+    pub proportional: f64,
+    /// How it was read (e.g. a printed variance taken as such).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub note: Option<String>,
+}
+
+/// The creatinine-clearance rule as written.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct CrclFile {
+    /// "total", "ideal" or "adjusted".
+    pub weight: String,
+    /// Floor on serum creatinine, mg/dL.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub min_creatinine_mg_dl: Option<f64>,
+    /// The floor applies from this age, years.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub min_creatinine_from_age: Option<f64>,
+    /// Cap on the clearance, mL/min.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub max_ml_min: Option<f64>,
+}
+
+/// One covariate range as written.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RangeFile {
+    /// The covariate.
+    pub of: String,
+    /// Lowest value studied.
+    pub low: f64,
+    /// Highest value studied.
+    pub high: f64,
+}
+
+fn covariate(name: &str, field: &str) -> Result<Covariate, FieldProblem> {
+    Covariate::parse(name).ok_or_else(|| {
+        let names: Vec<&str> = Covariate::ALL.iter().map(|(_, n)| *n).collect();
+        problem(
+            field,
+            format!(
+                "unknown covariate \"{name}\"; use one of {}",
+                names.join(", ")
+            ),
+        )
+    })
+}
+
+fn parameter(p: &ParameterFile, field: &str) -> Result<Parameter, FieldProblem> {
+    let omega = match (p.cv_percent, p.omega, p.omega_sq) {
+        (Some(cv), None, None) => Some(log_sd(cv)),
+        (None, Some(w), None) => Some(w),
+        (None, None, Some(w2)) => Some(w2.max(0.0).sqrt()),
+        (None, None, None) => None,
+        _ => {
+            return Err(problem(
+                field,
+                "give one of cv_percent, omega and omega_sq, not several",
+            ))
+        }
+    };
+    let mut terms = Vec::new();
+    for (i, t) in p.terms.iter().enumerate() {
+        let at = format!("{field}.terms[{}]", i + 1);
+        let need = |x: Option<f64>, what: &str| {
+            x.ok_or_else(|| problem(&at, format!("a \"{}\" term needs {what}", t.form)))
+        };
+        let form = match t.form.as_str() {
+            "power" => Form::Power {
+                reference: need(t.reference, "reference")?,
+                exponent: need(t.exponent, "exponent")?,
+            },
+            "linear" => Form::Linear {
+                reference: need(t.reference, "reference")?,
+                slope: need(t.slope, "slope")?,
+            },
+            "exponential" => Form::Exponential {
+                reference: need(t.reference, "reference")?,
+                slope: need(t.slope, "slope")?,
+            },
+            "add" => Form::Add {
+                reference: need(t.reference, "reference")?,
+                slope: need(t.slope, "slope")?,
+            },
+            "factor" => Form::Factor {
+                value: need(t.value, "value")?,
+                at_least: t.at_least,
+            },
+            other => {
+                return Err(problem(
+                    &at,
+                    format!(
+                        "unknown form \"{other}\"; use power, linear, exponential, add or factor"
+                    ),
+                ))
+            }
+        };
+        terms.push(Term {
+            of: covariate(&t.of, &at)?,
+            form,
+        });
+    }
+    Ok(Parameter {
+        typical: p.typical,
+        terms,
+        omega,
+    })
+}
+
+/// The core model a `[model]` section describes; `per_mg_l` converts the profile's level unit
+/// to mg/L (for the additive error), `cite` writes a source key out.
+///
+/// # Errors
+/// The first field that cannot be read, named `model.…`.
+pub fn model_of(
+    m: &ModelFile,
+    level_per_mg_l: f64,
+    cite: &dyn Fn(&str) -> Vec<String>,
+) -> Result<Model, FieldProblem> {
+    let (elimination_kind, elimination) = match (&m.clearance, &m.k) {
+        (Some(c), None) => (Elimination::Clearance, parameter(c, "model.clearance")?),
+        (None, Some(k)) => (Elimination::RateConstant, parameter(k, "model.k")?),
+        _ => {
+            return Err(problem(
+                "model",
+                "give [model.clearance] or [model.k], one of the two",
+            ))
+        }
+    };
+    let crcl = match &m.crcl {
+        None => crate::core::renal::TOTAL_WEIGHT,
+        Some(c) => CrclRule {
+            weight: match c.weight.as_str() {
+                "total" => CrclWeight::Total,
+                "ideal" => CrclWeight::Ideal,
+                "adjusted" => CrclWeight::Adjusted,
+                other => {
+                    return Err(problem(
+                        "model.crcl.weight",
+                        format!("unknown weight \"{other}\"; use total, ideal or adjusted"),
+                    ))
+                }
+            },
+            min_creatinine_mg_dl: c.min_creatinine_mg_dl,
+            min_creatinine_from_age: c.min_creatinine_from_age,
+            max_ml_min: c.max_ml_min,
+        },
+    };
+    let mut envelope = Vec::new();
+    for (i, r) in m.ranges.iter().enumerate() {
+        envelope.push(Range {
+            of: covariate(&r.of, &format!("model.ranges[{}]", i + 1))?,
+            low: r.low,
+            high: r.high,
+        });
+    }
+    let model = Model {
+        name: m.name.clone(),
+        label: m.label.clone(),
+        elimination_kind,
+        elimination,
+        volume: parameter(&m.volume, "model.volume")?,
+        correlation: m.correlation,
+        residual: Residual {
+            additive_mg_l: m.residual.additive / level_per_mg_l,
+            proportional: m.residual.proportional,
+        },
+        apparent: m.apparent,
+        crcl,
+        envelope,
+        excludes_dialysis: m.excludes_dialysis,
+        population: m.population.clone(),
+        assumptions: m.assumptions.clone(),
+        sources: cite(&m.source),
+    };
+    model.check().map_err(|e| problem("model", e.to_string()))?;
+    Ok(model)
+}
+
+/// The summary values of `[population]` as a model: a typical elimination (clearance, else
+/// k, else half-life; a half-life CV carries over to k unchanged, since ln k = ln ln 2 −
+/// ln t½) and a volume per kg of total weight, each with its CV, and a proportional residual.
+fn summary_model(profile: &Profile, cite: &dyn Fn(&str) -> Vec<String>) -> Option<Model> {
     let pop = profile.population.as_ref()?;
-    let (typical, omega_k, elim) = if let Some((e, w)) = with_cv(&pop.clearance_l_per_h) {
-        (
-            Typical::Clearance {
-                l_per_h: e.value,
-                per_ml_min: None,
-            },
-            w,
-            e,
-        )
+    let with_cv = |e: &Option<crate::profiles::schema::Estimate>| {
+        let e = e.as_ref()?;
+        Some((e.clone(), log_sd(e.cv_percent?)))
+    };
+    let (kind, typical, omega, elim) = if let Some((e, w)) = with_cv(&pop.clearance_l_per_h) {
+        (Elimination::Clearance, e.value, w, e)
     } else if let Some((e, w)) = with_cv(&pop.k_per_h) {
-        (
-            Typical::RateConstant {
-                per_h: e.value,
-                per_ml_min: None,
-            },
-            w,
-            e,
-        )
+        (Elimination::RateConstant, e.value, w, e)
     } else {
         let (e, w) = with_cv(&pop.half_life_h)?;
         (
-            Typical::RateConstant {
-                per_h: std::f64::consts::LN_2 / e.value,
-                per_ml_min: None,
-            },
+            Elimination::RateConstant,
+            std::f64::consts::LN_2 / e.value,
             w,
             e,
         )
@@ -55,20 +319,87 @@ pub fn prior_of(profile: &Profile) -> Option<Prior> {
     let (vol, omega_v) = with_cv(&pop.volume_l_per_kg)?;
     let residual = pop.residual_error_percent.as_ref()?;
     let mut sources: Vec<String> = Vec::new();
-    for e in [elim, vol, residual] {
-        if !sources.contains(&e.source) {
-            sources.push(e.source.clone());
+    for s in [&elim.source, &vol.source, &residual.source] {
+        for c in cite(s) {
+            if !sources.contains(&c) {
+                sources.push(c);
+            }
         }
     }
-    let prior = Prior {
-        typical,
-        v_l_per_kg: vol.value,
-        omega_k,
-        omega_v,
-        residual_sd: log_sd(residual.value),
+    let model = Model {
+        name: "summary-values".into(),
+        label: "a typical half-life and volume per kg with their spread, from a published cohort (not a population model)".into(),
+        elimination_kind: kind,
+        elimination: Parameter {
+            typical,
+            terms: Vec::new(),
+            omega: Some(omega),
+        },
+        volume: Parameter {
+            typical: vol.value,
+            terms: vec![Term {
+                of: Covariate::WeightKg,
+                form: Form::Power {
+                    reference: 1.0,
+                    exponent: 1.0,
+                },
+            }],
+            omega: Some(omega_v),
+        },
+        correlation: 0.0,
+        residual: Residual {
+            additive_mg_l: 0.0,
+            proportional: residual.value / 100.0,
+        },
+        apparent: false,
+        crcl: crate::core::renal::TOTAL_WEIGHT,
+        envelope: Vec::new(),
+        excludes_dialysis: false,
+        population: elim.note.clone().unwrap_or_default(),
+        assumptions: vec![
+            "the typical values do not follow kidney function or body size beyond total weight".into(),
+        ],
         sources,
     };
-    prior.check().ok().map(|_| prior)
+    model.check().ok().map(|_| model)
+}
+
+/// The profile's population model: its `[model]`, else one made of its `[population]`
+/// summary values when they are complete, else None.
+pub fn prior_of(profile: &Profile) -> Option<Model> {
+    let cite = |keys: &str| cite_keys(profile, keys);
+    match &profile.model {
+        Some(m) => {
+            let per = profile
+                .unit()
+                .ok()
+                .and_then(|u| u.per_mg_l(profile.molar_mass_g_mol.as_ref().map(|x| x.value)))
+                .unwrap_or(1.0);
+            model_of(m, per, &cite).ok()
+        }
+        None => summary_model(profile, &cite),
+    }
+}
+
+/// Each `[Key]` in `text` written out from the profile's `[sources]`, or the text itself.
+fn cite_keys(profile: &Profile, text: &str) -> Vec<String> {
+    let keys: Vec<&str> = text
+        .split('[')
+        .skip(1)
+        .filter_map(|p| p.split(']').next())
+        .collect();
+    if keys.is_empty() {
+        return vec![text.to_string()];
+    }
+    keys.iter()
+        .map(|k| {
+            profile
+                .sources
+                .get(*k)
+                .cloned()
+                .unwrap_or_else(|| k.to_string())
+        })
+        .collect()
 }
 
 #[cfg(test)]
@@ -76,38 +407,22 @@ mod tests {
     use super::*;
 
     #[test]
-    fn gentamicin_needs_a_residual_error_to_give_priors() {
+    fn gentamicin_summary_values_need_a_residual_error() {
         let cat = crate::profiles::Catalog::built_in().unwrap();
         let g = cat.get("gentamicin").unwrap().profile.clone();
         let mut without = g.clone();
         without.population.as_mut().unwrap().residual_error_percent = None;
         assert_eq!(prior_of(&without), None);
-        let mut with = g.clone();
-        let pop = with.population.as_mut().unwrap();
-        pop.residual_error_percent = Some(Estimate {
-            value: 15.0,
-            cv_percent: None,
-            source: "invented for the test".into(),
-            note: None,
-        });
-        let p = prior_of(&with).unwrap();
+        let m = prior_of(&g).unwrap();
         let pop = g.population.as_ref().unwrap();
-        let (hl, v) = (
-            pop.half_life_h.as_ref().unwrap(),
-            pop.volume_l_per_kg.as_ref().unwrap(),
-        );
+        let hl = pop.half_life_h.as_ref().unwrap();
+        assert_eq!(m.elimination_kind, Elimination::RateConstant);
+        assert_eq!(m.elimination.typical, std::f64::consts::LN_2 / hl.value);
+        assert_eq!(m.elimination.omega, Some(log_sd(hl.cv_percent.unwrap())));
         assert_eq!(
-            p.typical,
-            Typical::RateConstant {
-                per_h: std::f64::consts::LN_2 / hl.value,
-                per_ml_min: None
-            }
+            m.residual.proportional,
+            pop.residual_error_percent.as_ref().unwrap().value / 100.0
         );
-        assert_eq!(p.v_l_per_kg, v.value);
-        assert_eq!(p.omega_k, log_sd(hl.cv_percent.unwrap()));
-        assert_eq!(p.omega_v, log_sd(v.cv_percent.unwrap()));
-        assert_eq!(p.residual_sd, log_sd(15.0));
-        assert!(p.sources.contains(&"invented for the test".to_string()));
     }
 
     #[test]

@@ -76,6 +76,9 @@ pub struct Profile {
     /// Optional population values for later Bayesian work.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub population: Option<Population>,
+    /// A published population model (docs/profiles.md, `[model]`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub model: Option<crate::profiles::prior::ModelFile>,
     /// Source keys (as cited, without brackets) and the reference written out.
     pub sources: BTreeMap<String, String>,
 }
@@ -296,7 +299,8 @@ pub struct FieldProblem {
     pub message: String,
 }
 
-fn problem(field: impl Into<String>, message: impl Into<String>) -> FieldProblem {
+/// A problem at `field`.
+pub fn problem(field: impl Into<String>, message: impl Into<String>) -> FieldProblem {
     FieldProblem {
         field: field.into(),
         message: message.into(),
@@ -427,6 +431,9 @@ impl Profile {
             for (name, e) in p.estimates() {
                 out.push((format!("population.{name}"), &e.source));
             }
+        }
+        if let Some(m) = &self.model {
+            out.push(("model.source".to_string(), &m.source));
         }
         out
     }
@@ -594,6 +601,14 @@ impl Profile {
                     positive(cv, &format!("population.{name}.cv_percent"))?;
                 }
             }
+        }
+        if let Some(m) = &self.model {
+            let per = self
+                .unit()
+                .ok()
+                .and_then(|u| u.per_mg_l(self.molar_mass_g_mol.as_ref().map(|x| x.value)))
+                .unwrap_or(1.0);
+            crate::profiles::prior::model_of(m, per, &|k| vec![k.to_string()])?;
         }
         for (key, text) in &self.sources {
             if text.trim().is_empty() {

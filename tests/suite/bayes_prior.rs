@@ -1,30 +1,91 @@
-//! The Bayesian estimate: it gives the population values back with no level, moves toward the
-//! dose-history fit as levels are added, and takes creatinine clearance as a covariate. The
-//! priors are built here and invented: these are self-consistency checks, not drug values.
+//! The Bayesian estimate from a population model: it gives the population values back with no
+//! level, moves toward the dose-history fit as levels are added, takes creatinine clearance as
+//! a covariate, finds the minimum an independent minimiser finds, and its intervals cover the
+//! truth as often as they claim. The first models here are built in the test and invented:
+//! these are self-consistency checks, not drug values; the built-in models are checked against
+//! their published equations at the end.
 
-use ebb::core::bayes::{self, Population, Prior, Typical};
+use ebb::core::bayes::{self, Population};
 use ebb::core::case::{Patient, Sex};
 use ebb::core::casefile::{CaseFile, Defaults};
 use ebb::core::fit::{self, Method};
 use ebb::core::history::fit_points;
-use ebb::core::model::{self, Administration, Route};
+use ebb::core::model::{self, Administration, Route, Schedule};
+use ebb::core::population;
+use ebb::core::prior::{Covariate, Elimination, Form, Model, Parameter, Residual, Term};
 use ebb::core::{json, renal, report};
 use rand::rngs::StdRng;
 use rand::SeedableRng;
 use rand_distr::{Distribution, StandardNormal};
 
-fn prior_on_k() -> Prior {
-    Prior {
-        typical: Typical::RateConstant {
-            per_h: 0.01,
-            per_ml_min: Some(0.003),
+fn per_weight() -> Term {
+    Term {
+        of: Covariate::WeightKg,
+        form: Form::Power {
+            reference: 1.0,
+            exponent: 1.0,
         },
-        v_l_per_kg: 0.3,
-        omega_k: 0.35,
-        omega_v: 0.25,
-        residual_sd: 0.1,
+    }
+}
+
+/// k = 0.01 + 0.003 x CrCl (1/h), V = 0.3 L/kg, ω 0.35 and 0.25, 10 % proportional error.
+fn model_on_k() -> Model {
+    Model {
+        name: "invented-k".into(),
+        label: "invented for the test".into(),
+        elimination_kind: Elimination::RateConstant,
+        elimination: Parameter {
+            typical: 0.01,
+            terms: vec![Term {
+                of: Covariate::CrclMlMin,
+                form: Form::Add {
+                    reference: 0.0,
+                    slope: 0.003,
+                },
+            }],
+            omega: Some(0.35),
+        },
+        volume: Parameter {
+            typical: 0.3,
+            terms: vec![per_weight()],
+            omega: Some(0.25),
+        },
+        correlation: 0.0,
+        residual: Residual {
+            additive_mg_l: 0.0,
+            proportional: 0.1,
+        },
+        apparent: false,
+        crcl: renal::TOTAL_WEIGHT,
+        envelope: Vec::new(),
+        excludes_dialysis: false,
+        population: String::new(),
+        assumptions: Vec::new(),
         sources: vec!["invented for the test".into()],
     }
+}
+
+/// CL = 4.5 L/h, V = 0.3 L/kg, correlated η, combined error.
+fn model_on_clearance() -> Model {
+    Model {
+        name: "invented-cl".into(),
+        elimination_kind: Elimination::Clearance,
+        elimination: Parameter {
+            typical: 4.5,
+            terms: Vec::new(),
+            omega: Some(0.3),
+        },
+        correlation: 0.4,
+        residual: Residual {
+            additive_mg_l: 0.2,
+            proportional: 0.1,
+        },
+        ..model_on_k()
+    }
+}
+
+fn evaluate(m: &Model, p: &Patient) -> Population {
+    population::evaluate(m, p, None, 1.0).unwrap()
 }
 
 fn patient() -> Patient {
@@ -49,7 +110,7 @@ fn doses() -> Vec<Administration> {
 
 #[test]
 fn covariate_sets_the_typical_k_and_weight_the_volume() {
-    let pop = bayes::population(&prior_on_k(), &patient()).unwrap();
+    let pop = evaluate(&model_on_k(), &patient());
     let crcl = renal::creatinine_clearance(&patient()).unwrap().ml_min;
     assert_eq!(pop.creatinine_clearance.unwrap().ml_min, crcl);
     assert!((pop.k_per_h - (0.01 + 0.003 * crcl)).abs() < 1e-15);
@@ -60,14 +121,14 @@ fn covariate_sets_the_typical_k_and_weight_the_volume() {
         creatinine_mg_dl: Some(2.0),
         ..patient()
     };
-    let low = bayes::population(&prior_on_k(), &older).unwrap();
+    let low = evaluate(&model_on_k(), &older);
     assert!((low.k_per_h - (0.01 + 0.003 * crcl / 2.0)).abs() < 1e-15);
     // Without sex the covariate cannot be formed: the field is named.
     let no_sex = Patient {
         sex: None,
         ..patient()
     };
-    let e = bayes::population(&prior_on_k(), &no_sex)
+    let e = population::evaluate(&model_on_k(), &no_sex, None, 1.0)
         .unwrap_err()
         .to_string();
     assert!(e.starts_with("patient.sex:"), "{e}");
@@ -75,7 +136,7 @@ fn covariate_sets_the_typical_k_and_weight_the_volume() {
         weight_kg: None,
         ..patient()
     };
-    let e = bayes::population(&prior_on_k(), &no_weight)
+    let e = population::evaluate(&model_on_k(), &no_weight, None, 1.0)
         .unwrap_err()
         .to_string();
     assert!(e.starts_with("patient.weight_kg:"), "{e}");
@@ -83,18 +144,10 @@ fn covariate_sets_the_typical_k_and_weight_the_volume() {
 
 #[test]
 fn no_level_gives_the_prior_back() {
-    for prior in [
-        prior_on_k(),
-        Prior {
-            typical: Typical::Clearance {
-                l_per_h: 4.5,
-                per_ml_min: None,
-            },
-            ..prior_on_k()
-        },
-    ] {
-        let pop: Population = bayes::population(&prior, &patient()).unwrap();
-        let s = bayes::estimate_points(&doses(), &[], &pop).unwrap();
+    for m in [model_on_k(), model_on_clearance()] {
+        let pop = evaluate(&m, &patient());
+        let e = bayes::estimate_points(&doses(), &[], &pop).unwrap();
+        let s = &e.solution;
         assert!(
             (s.k / pop.k_per_h - 1.0).abs() < 1e-12,
             "{} {}",
@@ -103,23 +156,149 @@ fn no_level_gives_the_prior_back() {
         );
         assert!((s.v / pop.volume_l - 1.0).abs() < 1e-12);
         assert!((s.k * s.v / pop.clearance_l_per_h - 1.0).abs() < 1e-12);
-        // Its spread is the prior's: omega on ln k (or ln CL) and on ln V.
+        // Its spread is the population's: omega on ln k (or ln CL) and on ln V.
         let sp = s.spread.unwrap();
-        assert!((sp.se_ln_v() - prior.omega_v).abs() < 1e-9);
-        assert!((sp.se_ln([1.0, 0.0]) - prior.omega_k).abs() < 1e-9 || pop.on_clearance);
+        let w = [m.elimination.omega.unwrap(), m.volume.omega.unwrap()];
+        assert!((sp.se_ln_v() - w[1]).abs() < 1e-12);
         if pop.on_clearance {
-            assert!((sp.se_ln([1.0, 1.0]) - prior.omega_k).abs() < 1e-9);
+            assert!((sp.se_ln([1.0, 1.0]) - w[0]).abs() < 1e-12);
+        } else {
+            assert!((sp.se_ln([1.0, 0.0]) - w[0]).abs() < 1e-12);
         }
-        assert!((sp.quantile - 1.959964).abs() < 1e-6);
-        let summary = bayes::summarise(&pop, s.k, s.v, &prior.sources);
-        assert!(summary.elimination_shift_sd.abs() < 1e-9);
-        assert!(summary.volume_shift_sd.abs() < 1e-9);
+        // The population's 90 % range: the normal quantile 1.6449 (statrs).
+        assert!((sp.quantile - 1.644_854).abs() < 1e-6);
+        let summary = bayes::summarise(&pop, &e, &m.sources);
+        assert_eq!(summary.elimination_shift_sd, 0.0);
+        assert_eq!(summary.prior_share, [Some(1.0), Some(1.0)]);
+    }
+}
+
+/// A Nelder-Mead simplex written here, independent of ebb's minimiser.
+fn nelder_mead(f: &dyn Fn(&[f64]) -> f64, x0: &[f64]) -> Vec<f64> {
+    let n = x0.len();
+    let mut pts: Vec<Vec<f64>> = vec![x0.to_vec()];
+    for i in 0..n {
+        let mut p = x0.to_vec();
+        p[i] += 0.3;
+        pts.push(p);
+    }
+    for _ in 0..5000 {
+        pts.sort_by(|a, b| f(a).total_cmp(&f(b)));
+        let centroid: Vec<f64> = (0..n)
+            .map(|j| pts[..n].iter().map(|p| p[j]).sum::<f64>() / n as f64)
+            .collect();
+        let along = |t: f64| -> Vec<f64> {
+            (0..n)
+                .map(|j| centroid[j] + t * (pts[n][j] - centroid[j]))
+                .collect()
+        };
+        let r = along(-1.0);
+        if f(&r) < f(&pts[0]) {
+            let e = along(-2.0);
+            pts[n] = if f(&e) < f(&r) { e } else { r };
+        } else if f(&r) < f(&pts[n - 1]) {
+            pts[n] = r;
+        } else {
+            let c = along(0.5);
+            if f(&c) < f(&pts[n]) {
+                pts[n] = c;
+            } else {
+                let best = pts[0].clone();
+                for p in pts.iter_mut().skip(1) {
+                    for j in 0..n {
+                        p[j] = best[j] + 0.5 * (p[j] - best[j]);
+                    }
+                }
+            }
+        }
+        let spread = pts
+            .iter()
+            .map(|p| (f(p) - f(&pts[0])).abs())
+            .fold(0.0, f64::max);
+        if spread < 1e-14 {
+            break;
+        }
+    }
+    pts.sort_by(|a, b| f(a).total_cmp(&f(b)));
+    pts[0].clone()
+}
+
+#[test]
+fn the_estimate_is_the_minimum_an_independent_minimiser_finds() {
+    // The documented objective, written out here from its definition (bayes.rs and
+    // population-models.md, "How a program uses these models"), minimised by the simplex above.
+    for m in [model_on_k(), model_on_clearance()] {
+        let pop = evaluate(&m, &patient());
+        let doses = doses();
+        let pts = [(23.0, 3.1), (30.0, 6.0), (59.5, 2.2)];
+        let sched = Schedule::new(&doses);
+        let om = pop.omega_matrix();
+        let det = om[0][0] * om[1][1] - om[0][1] * om[1][0];
+        let inv = [
+            [om[1][1] / det, -om[0][1] / det],
+            [-om[1][0] / det, om[0][0] / det],
+        ];
+        let obj = |eta: &[f64]| {
+            let (k, v) = pop.k_and_v([eta[0], eta[1]]);
+            let mut total = 0.0;
+            for &(t, y) in &pts {
+                let yhat = sched.levels(k, v, &[t])[0];
+                let var =
+                    m.residual.additive_mg_l.powi(2) + (m.residual.proportional * yhat).powi(2);
+                total += (y - yhat).powi(2) / var + var.ln();
+            }
+            total
+                + eta[0] * eta[0] * inv[0][0]
+                + 2.0 * eta[0] * eta[1] * inv[0][1]
+                + eta[1] * eta[1] * inv[1][1]
+        };
+        let nm = nelder_mead(&obj, &[0.0, 0.0]);
+        let e = bayes::estimate_points(&doses, &pts, &pop).unwrap();
+        assert!((e.eta[0] - nm[0]).abs() < 1e-5, "{:?} vs {nm:?}", e.eta);
+        assert!((e.eta[1] - nm[1]).abs() < 1e-5, "{:?} vs {nm:?}", e.eta);
+        assert!(obj(&e.eta) <= obj(&nm) + 1e-9);
     }
 }
 
 #[test]
+fn its_95_percent_interval_covers_the_truth_about_95_percent_of_the_time() {
+    // Patients drawn from the model itself (η from the prior, levels with the model's residual
+    // error), one estimate each from two levels: the 95 % interval of clearance should hold the
+    // patient's true clearance in 93-97 % of them.
+    let m = model_on_clearance();
+    let pop = evaluate(&m, &patient());
+    let doses = doses();
+    let om = pop.omega_matrix();
+    let (w0, w1, r) = (om[0][0].sqrt(), om[1][1].sqrt(), m.correlation);
+    let mut rng = StdRng::seed_from_u64(11);
+    let (mut inside, n) = (0, 1000);
+    for _ in 0..n {
+        let z0: f64 = StandardNormal.sample(&mut rng);
+        let z1: f64 = StandardNormal.sample(&mut rng);
+        let eta = [w0 * z0, w1 * (r * z0 + (1.0 - r * r).sqrt() * z1)];
+        let (k, v) = pop.k_and_v(eta);
+        let pts: Vec<(f64, f64)> = [35.0, 59.5]
+            .iter()
+            .map(|&t| {
+                let c = model::superpose(&doses, k, v, t);
+                let e: f64 = StandardNormal.sample(&mut rng);
+                (t, (c + m.residual.variance(c).sqrt() * e).max(0.01))
+            })
+            .collect();
+        let est = bayes::estimate_points(&doses, &pts, &pop).unwrap();
+        let s = &est.solution;
+        let [lo, hi] = s.spread.unwrap().interval(s.k * s.v, [1.0, 1.0]);
+        if (lo..=hi).contains(&(k * v)) {
+            inside += 1;
+        }
+    }
+    let share = inside as f64 / n as f64;
+    assert!((0.93..=0.97).contains(&share), "{share}");
+}
+
+#[test]
 fn more_levels_move_it_to_the_dose_history_fit() {
-    let pop = bayes::population(&prior_on_k(), &patient()).unwrap();
+    let pop = evaluate(&model_on_k(), &patient());
     // This patient eliminates more slowly and has a larger volume than typical.
     let (k, v) = (0.6 * pop.k_per_h, 1.4 * pop.volume_l);
     let doses = doses();
@@ -133,8 +312,8 @@ fn more_levels_move_it_to_the_dose_history_fit() {
     // Exact levels: the dose-history fit gives the truth. Each added level pulls the estimate
     // further from the prior (its prior cost never falls), and closer to the truth.
     let prior_cost = |kk: f64, vv: f64| {
-        ((kk / pop.k_per_h).ln() / pop.omega[0]).powi(2)
-            + ((vv / pop.volume_l).ln() / pop.omega[1]).powi(2)
+        ((kk / pop.k_per_h).ln() / pop.omega[0].unwrap()).powi(2)
+            + ((vv / pop.volume_l).ln() / pop.omega[1].unwrap()).powi(2)
     };
     let (mut last_gap, mut last_cost) = (f64::INFINITY, 0.0);
     for n in [1, 2, 4, 8, 16, 64, 256] {
@@ -142,11 +321,11 @@ fn more_levels_move_it_to_the_dose_history_fit() {
             .into_iter()
             .map(|t| (t, model::superpose(&doses, k, v, t)))
             .collect();
-        let s = bayes::estimate_points(&doses, &pts, &pop).unwrap();
+        let s = bayes::estimate_points(&doses, &pts, &pop).unwrap().solution;
         let gap = (s.k / k).ln().abs().max((s.v / v).ln().abs());
         let cost = prior_cost(s.k, s.v);
         assert!(
-            cost >= last_cost - 1e-12,
+            cost >= last_cost - 1e-6,
             "{n} levels: prior cost {cost} after {last_cost}"
         );
         assert!(gap < last_gap, "{n} levels: gap {gap} after {last_gap}");
@@ -156,7 +335,8 @@ fn more_levels_move_it_to_the_dose_history_fit() {
             assert!((dh.k / k - 1.0).abs() < 1e-6);
         }
     }
-    assert!(last_gap < 0.005, "{last_gap}");
+    // The ln Var term of the objective keeps a pull of order 1/n toward lower predictions.
+    assert!(last_gap < 0.01, "{last_gap}");
     // Noisy levels: the gap to the dose-history fit on the same levels shrinks too.
     let mut rng = StdRng::seed_from_u64(5);
     let gap_at = |n: usize, rng: &mut StdRng| {
@@ -167,7 +347,7 @@ fn more_levels_move_it_to_the_dose_history_fit() {
                 (t, model::superpose(&doses, k, v, t) * (0.1 * e).exp())
             })
             .collect();
-        let b = bayes::estimate_points(&doses, &pts, &pop).unwrap();
+        let b = bayes::estimate_points(&doses, &pts, &pop).unwrap().solution;
         let d = fit_points(&doses, &pts).unwrap();
         (b.k / d.k).ln().abs().max((b.v / d.v).ln().abs())
     };
@@ -189,10 +369,10 @@ fn one_level_case(value: f64, extra: &str) -> String {
 #[test]
 fn one_level_with_priors_chooses_the_bayesian_fit_and_reports_the_move() {
     let defaults = Defaults {
-        prior: Some(prior_on_k()),
+        prior: Some(model_on_k()),
         ..Defaults::default()
     };
-    let pop = bayes::population(&prior_on_k(), &patient()).unwrap();
+    let pop = evaluate(&model_on_k(), &patient());
     // The trough the population predicts, and one twice as high (slower elimination).
     let doses: Vec<Administration> = [0.0, 12.0]
         .iter()
@@ -211,10 +391,15 @@ fn one_level_with_priors_chooses_the_bayesian_fit_and_reports_the_move() {
         assert_eq!(f.method, Method::Bayesian);
         (c, f)
     };
+    // A level at the typical prediction leaves k within a fraction of one between-patient SD
+    // (the objective's ln Var term leans toward lower predictions, so not exactly on it); a
+    // level twice as high moves k well below the typical value.
     let (_, same) = at(typical);
-    assert!((same.k / pop.k_per_h - 1.0).abs() < 1e-6, "{}", same.k);
+    let moved = (same.k / pop.k_per_h).ln() / 0.35;
+    assert!(moved.abs() < 0.6, "{moved}");
     let (c, high) = at(2.0 * typical);
-    assert!(high.k < pop.k_per_h);
+    let high_moved = (high.k / pop.k_per_h).ln() / 0.35;
+    assert!(high_moved < moved - 0.5, "{high_moved} after {moved}");
     let s = high.population.as_ref().unwrap();
     assert!(s.elimination_shift_sd < 0.0);
     let r = report::build(&c).unwrap();
@@ -227,6 +412,9 @@ fn one_level_with_priors_chooses_the_bayesian_fit_and_reports_the_move() {
     assert_eq!(p["prior_on"], "k");
     assert!((p["k_per_h"].as_f64().unwrap() / pop.k_per_h - 1.0).abs() < 1e-12);
     assert_eq!(p["weight_kg"].as_f64().unwrap(), 60.0);
+    assert_eq!(p["model"], "invented-k");
+    let share = p["prior_share"][0].as_f64().unwrap();
+    assert!(share > 0.0 && share < 1.0, "{share}");
     let crcl = p["creatinine_clearance_ml_min"].as_f64().unwrap();
     assert!((crcl / pop.creatinine_clearance.unwrap().ml_min - 1.0).abs() < 1e-12);
     assert_eq!(
@@ -244,7 +432,7 @@ fn one_level_with_priors_chooses_the_bayesian_fit_and_reports_the_move() {
 #[test]
 fn asked_bayesian_with_two_levels_uses_both() {
     let defaults = Defaults {
-        prior: Some(prior_on_k()),
+        prior: Some(model_on_k()),
         ..Defaults::default()
     };
     let text = one_level_case(
@@ -289,4 +477,129 @@ value = 3.0
     let [lo, hi] = r.fit.k_ci95_per_h.unwrap();
     assert!(lo < r.fit.k_per_h && r.fit.k_per_h < hi);
     assert!(r.fit.volume_l.unwrap() > 0.0);
+}
+
+/// The reference patient of our population-model notes: a man of 60 years, 70 kg, 175 cm,
+/// serum creatinine 1.0 mg/dL; Cockcroft-Gault (Cockcroft & Gault, Nephron 1976;16:31-41)
+/// on total weight: (140 - 60) x 70 / 72 = 77.78 mL/min.
+fn reference_case(profile: &str, unit: &str, extra: &str) -> String {
+    format!(
+        "[patient]\nweight_kg = 70.0\nheight_cm = 175.0\nage_years = 60.0\nsex = \"male\"\ncreatinine_mg_dl = 1.0\n\
+         [drug]\nprofile = \"{profile}\"\nlevel_unit = \"{unit}\"\n{extra}"
+    )
+}
+
+fn typical(profile: &str, unit: &str, extra: &str) -> Population {
+    let file = CaseFile::parse(&reference_case(profile, unit, extra)).unwrap();
+    let a = ebb::cli::analyse_parsed(&file, None).unwrap();
+    let case = a.case.expect("a valid case");
+    bayes::population_of(&case).unwrap()
+}
+
+#[test]
+fn built_in_models_give_their_published_typical_values_for_the_reference_patient() {
+    let crcl = 80.0 * 70.0 / 72.0;
+    let plan = |dose: f64, tau: f64, route: &str| {
+        format!("[plan]\nstart = 2027-03-02T08:00:00\ndose_mg = {dose:?}\ninterval_h = {tau:?}\nroute = \"{route}\"\n")
+    };
+    // Hand-worked from CL = 1.08 x CrCl [L/h], V = 0.98 x weight (Buelga et al., Antimicrob
+    // Agents Chemother 2005;49:4934-4941, Table 4).
+    let p = typical("vancomycin", "mg/L", "");
+    assert!(
+        (p.clearance_l_per_h - 1.08 * crcl * 0.06).abs() < 1e-9,
+        "{}",
+        p.clearance_l_per_h
+    );
+    assert!((p.volume_l - 0.98 * 70.0).abs() < 1e-9);
+    assert_eq!(p.model, "buelga-2005");
+    // CL = 1.49 x e^(0.004 x CrCl), V = 23.18 L (Steffens et al., Antibiotics 2025;14:531,
+    // Table 2): 2.0335 L/h.
+    let p = typical("amikacin", "mg/L", "");
+    assert!((p.clearance_l_per_h - 1.49 * (0.004 * crcl).exp()).abs() < 1e-9);
+    assert!((p.volume_l - 23.18).abs() < 1e-12);
+    // CL/F = 6.209 x (min(CrCl, 120) / 60)^0.409, V/F = 6.0 x weight (Hirai et al., BMC
+    // Pharmacol Toxicol 2022;23:14, Table 3), times the profile's oral F of 0.7 so that doses
+    // count as F x dose.
+    let p = typical("digoxin", "ng/mL", &plan(0.125, 24.0, "oral"));
+    let f = 0.7;
+    assert!((p.clearance_l_per_h - 6.209 * (crcl / 60.0).powf(0.409) * f).abs() < 1e-9);
+    assert!((p.volume_l - 6.0 * 70.0 * f).abs() < 1e-9);
+    // CL/F = 0.909 x (TDD/600)^0.354 x (WT/62)^0.33 x (CrCl/116)^0.186, V/F = 10.9 L (Jin et
+    // al., Front Pharmacol 2022;13:913935, Table 2), at 400 mg twice daily, times F = 0.9.
+    let p = typical("lithium", "mmol/L", &plan(400.0, 12.0, "oral"));
+    let cl = 0.909
+        * (800.0f64 / 600.0).powf(0.354)
+        * (70.0f64 / 62.0).powf(0.33)
+        * (crcl / 116.0).powf(0.186);
+    assert!(
+        (p.clearance_l_per_h - cl * 0.9).abs() < 1e-9,
+        "{}",
+        p.clearance_l_per_h
+    );
+    assert_eq!(p.daily_dose_mg, Some(800.0));
+    // CL/F = 0.0134 x weight + 3.58, V/F = 1.97 x weight (Graves et al. 1998, PMID 9545146
+    // abstract), times F = 0.85: 4.518 L/h before F.
+    let p = typical("carbamazepine", "mg/L", &plan(400.0, 12.0, "oral"));
+    assert!((p.clearance_l_per_h - (0.0134 * 70.0 + 3.58) * 0.85).abs() < 1e-9);
+    // CL = exp(-3.78 + 0.0233 x 40) L/h/kg at PaCO2 40 mmHg (Yano et al., Biol Pharm Bull
+    // 1993;16:501-505, Table III): 0.05796 x 70 = 4.057 L/h.
+    let p = typical("theophylline", "mg/L", "");
+    assert!((p.clearance_l_per_h - 0.05796 * 70.0).abs() < 1e-9);
+    // Gentamicin and tobramycin have no one-compartment population model in the profiles:
+    // gentamicin keeps its summary values, tobramycin has none.
+    assert_eq!(typical("gentamicin", "mg/L", "").model, "summary-values");
+    let file = CaseFile::parse(&reference_case("tobramycin", "mg/L", "")).unwrap();
+    let case = ebb::cli::analyse_parsed(&file, None).unwrap().case.unwrap();
+    assert!(bayes::population_of(&case).is_err());
+}
+
+#[test]
+fn the_estimate_follows_creatinine_clearance() {
+    // Renal impairment: creatinine 1.0 -> 4.0 mg/dL quarters Cockcroft-Gault, and with it the
+    // Buelga clearance (proportional to creatinine clearance): the half-life before any level
+    // is four times as long (hand-worked from the Buelga 2005 equations, Table 4).
+    let normal = typical("vancomycin", "mg/L", "");
+    let text = reference_case("vancomycin", "mg/L", "")
+        .replace("creatinine_mg_dl = 1.0", "creatinine_mg_dl = 4.0");
+    let case = ebb::cli::analyse_parsed(&CaseFile::parse(&text).unwrap(), None)
+        .unwrap()
+        .case
+        .unwrap();
+    let impaired = bayes::population_of(&case).unwrap();
+    assert!((normal.k_per_h / impaired.k_per_h - 4.0).abs() < 1e-9);
+    assert!((impaired.creatinine_clearance.unwrap().ml_min - 80.0 * 70.0 / 288.0).abs() < 1e-9);
+}
+
+#[test]
+fn a_new_patient_gets_a_regimen_with_the_population_range_before_any_level() {
+    let text = reference_case(
+        "vancomycin",
+        "mg/L",
+        "[plan]\nstart = 2027-03-02T08:00:00\ndose_mg = 1250.0\ninterval_h = 12.0\nroute = \"infusion\"\ninfusion_h = 2.5\n",
+    );
+    let a = ebb::cli::analyse_parsed(&CaseFile::parse(&text).unwrap(), None).unwrap();
+    let r = a.finished().unwrap().report;
+    assert_eq!(r.fit.method, "population");
+    let j: serde_json::Value = serde_json::from_str(&json::to_json(&r)).unwrap();
+    assert_eq!(j["fit"]["method"], "population");
+    assert_eq!(j["fit"]["model"], "buelga-2005");
+    assert_eq!(j["fit"]["compartments"], 1);
+    assert!(j["fit"]["k_ci95_per_h"].is_null());
+    assert!(j["plan"]["auc24_ss_ci95"].is_null());
+    // AUC24 = daily dose / CL = 2500 / (0.0648 x 77.78) = 496.0 mg·h/L, and its 90 % range is
+    // e^(±1.645 x ω_CL) around it, ω_CL = sqrt(ln(1 + 0.2816²)) (Buelga 2005, Table 4).
+    let auc = j["plan"]["auc24_ss"].as_f64().unwrap();
+    assert!(
+        (auc - 2500.0 / (0.0648 * 80.0 * 70.0 / 72.0)).abs() < 1e-6,
+        "{auc}"
+    );
+    let w = (1.0f64 + 0.2816 * 0.2816).ln().sqrt();
+    let lo = j["plan"]["auc24_ss_pi90"][0].as_f64().unwrap();
+    assert!((lo - auc * (-1.644_854 * w).exp()).abs() < 1e-3, "{lo}");
+    assert_eq!(
+        j["patient"]["ideal_weight_kg"]
+            .as_f64()
+            .map(|x| (x * 100.0).round() / 100.0),
+        Some(70.46)
+    );
 }

@@ -376,7 +376,12 @@ fn the_fit_method_key_steps_through_the_choices() {
     let shown = text(&app, 80, 24);
     assert!(shown.contains("Bayesian (chosen)"), "{shown}");
     insta::assert_snapshot!("fit_method_refused_80x24", draw(&app, 80, 24).backend());
-    // Back to the automatic choice.
+    // The population model alone (a choice before any level), then back to the automatic one.
+    ch(&mut app, 'm');
+    assert_eq!(
+        app.file.fit.as_ref().unwrap().method.as_deref(),
+        Some("population")
+    );
     ch(&mut app, 'm');
     assert_eq!(app.file.fit, None);
     assert_eq!(
