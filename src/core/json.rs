@@ -27,6 +27,23 @@ pub struct JsonReport {
     proportional: Option<JsonProportional>,
     /// Addition: AUC24 over the fitted interval by the trapezoid and by k and V.
     auc24_methods: Option<JsonAuc>,
+    /// Addition: the patient's covariates and what is derived from them.
+    patient: JsonPatient,
+}
+
+#[derive(Debug, Serialize)]
+struct JsonPatient {
+    weight_kg: Option<f64>,
+    height_cm: Option<f64>,
+    age_years: Option<f64>,
+    sex: Option<&'static str>,
+    creatinine_mg_dl: Option<f64>,
+    albumin_g_dl: Option<f64>,
+    dialysis: Option<bool>,
+    ideal_weight_kg: Option<f64>,
+    adjusted_weight_kg: Option<f64>,
+    bmi: Option<f64>,
+    creatinine_clearance_ml_min: Option<f64>,
 }
 
 #[derive(Debug, Serialize)]
@@ -95,6 +112,15 @@ struct JsonFit {
     clearance_ci95_l_per_h: Option<[f64; 2]>,
     /// Addition: the population values and the move from them (Bayesian fits, else null).
     population: Option<JsonPopulation>,
+    /// Addition: the population model's name (first author and year), or null.
+    model: Option<String>,
+    /// Addition: compartments of the model behind the fit.
+    compartments: u8,
+    /// Addition: the population's 90 % ranges (method "population" only, else null).
+    k_pi90_per_h: Option<[f64; 2]>,
+    half_life_pi90_h: Option<[f64; 2]>,
+    v_pi90_l: Option<[f64; 2]>,
+    clearance_pi90_l_per_h: Option<[f64; 2]>,
 }
 
 #[derive(Debug, Serialize)]
@@ -103,8 +129,13 @@ struct JsonPopulation {
     volume_l: f64,
     clearance_l_per_h: f64,
     prior_on: &'static str,
+    model: String,
+    model_label: String,
     creatinine_clearance_ml_min: Option<f64>,
-    weight_kg: f64,
+    weight_kg: Option<f64>,
+    daily_dose_mg: Option<f64>,
+    /// Posterior over prior variance of η (elimination, volume): 1 = the levels add nothing.
+    prior_share: [Option<f64>; 2],
     elimination_shift_sd: f64,
     volume_shift_sd: f64,
     sources: Vec<String>,
@@ -130,6 +161,10 @@ struct JsonPlan {
     peak_ss_ci95: Option<[f64; 2]>,
     trough_ss_ci95: Option<[f64; 2]>,
     auc24_ss_ci95: Option<[f64; 2]>,
+    /// Addition: the population's 90 % ranges (method "population" only, else null).
+    peak_ss_pi90: Option<[f64; 2]>,
+    trough_ss_pi90: Option<[f64; 2]>,
+    auc24_ss_pi90: Option<[f64; 2]>,
 }
 
 #[derive(Debug, Serialize)]
@@ -157,7 +192,28 @@ struct JsonWashout {
 
 impl From<&Report> for JsonReport {
     fn from(r: &Report) -> Self {
+        let prior_only = r.fit.method == "population";
+        // Before any level the ranges are the population's 90 % range, not a 95 % interval.
+        let ci = |x: Option<[f64; 2]>| if prior_only { None } else { x };
+        let pi = |x: Option<[f64; 2]>| if prior_only { x } else { None };
+        let p = &r.patient;
         JsonReport {
+            patient: JsonPatient {
+                weight_kg: p.recorded.weight_kg,
+                height_cm: p.recorded.height_cm,
+                age_years: p.recorded.age_years,
+                sex: p.recorded.sex.map(|s| match s {
+                    crate::core::case::Sex::Female => "female",
+                    crate::core::case::Sex::Male => "male",
+                }),
+                creatinine_mg_dl: p.recorded.creatinine_mg_dl,
+                albumin_g_dl: p.recorded.albumin_g_dl,
+                dialysis: p.recorded.dialysis,
+                ideal_weight_kg: p.body.ideal_kg,
+                adjusted_weight_kg: p.body.adjusted_kg,
+                bmi: p.body.bmi,
+                creatinine_clearance_ml_min: p.crcl_ml_min,
+            },
             caution: crate::core::report::CAUTION,
             fit: JsonFit {
                 method: r.fit.method,
@@ -165,13 +221,23 @@ impl From<&Report> for JsonReport {
                 k_per_h: r.fit.k_per_h,
                 half_life_h: r.fit.half_life_h,
                 r_squared: r.fit.r_squared,
-                k_ci95_per_h: r.fit.k_ci95_per_h,
-                half_life_ci95_h: r.fit.half_life_ci95_h,
+                k_ci95_per_h: ci(r.fit.k_ci95_per_h),
+                half_life_ci95_h: ci(r.fit.half_life_ci95_h),
+                k_pi90_per_h: pi(r.fit.k_ci95_per_h),
+                half_life_pi90_h: pi(r.fit.half_life_ci95_h),
+                v_pi90_l: pi(r.fit.volume_ci95_l),
+                clearance_pi90_l_per_h: pi(r.fit.clearance_ci95_l_per_h),
+                model: r
+                    .fit
+                    .population
+                    .as_ref()
+                    .map(|s| s.population.model.clone()),
+                compartments: 1,
                 volume_l: r.fit.volume_l,
                 volume_method: r.fit.volume_method,
                 clearance_l_per_h: r.fit.clearance_l_per_h,
-                v_ci95_l: r.fit.volume_ci95_l,
-                clearance_ci95_l_per_h: r.fit.clearance_ci95_l_per_h,
+                v_ci95_l: ci(r.fit.volume_ci95_l),
+                clearance_ci95_l_per_h: ci(r.fit.clearance_ci95_l_per_h),
                 population: r.fit.population.as_ref().map(|s| JsonPopulation {
                     k_per_h: s.population.k_per_h,
                     volume_l: s.population.volume_l,
@@ -181,11 +247,15 @@ impl From<&Report> for JsonReport {
                     } else {
                         "k"
                     },
+                    model: s.population.model.clone(),
+                    model_label: s.population.label.clone(),
                     creatinine_clearance_ml_min: s
                         .population
                         .creatinine_clearance
                         .map(|c| c.ml_min),
                     weight_kg: s.population.weight_kg,
+                    daily_dose_mg: s.population.daily_dose_mg,
+                    prior_share: s.prior_share,
                     elimination_shift_sd: s.elimination_shift_sd,
                     volume_shift_sd: s.volume_shift_sd,
                     sources: s.sources.clone(),
@@ -203,9 +273,12 @@ impl From<&Report> for JsonReport {
                 peak_sampled_ss: p.peak_sampled_ss,
                 peak_sampled_after_h: p.peak_sampled_after_h,
                 drug_free_h: p.drug_free_h,
-                peak_ss_ci95: p.peak_ss_ci95,
-                trough_ss_ci95: p.trough_ss_ci95,
-                auc24_ss_ci95: p.auc24_ss_ci95,
+                peak_ss_ci95: ci(p.peak_ss_ci95),
+                trough_ss_ci95: ci(p.trough_ss_ci95),
+                auc24_ss_ci95: ci(p.auc24_ss_ci95),
+                peak_ss_pi90: pi(p.peak_ss_ci95),
+                trough_ss_pi90: pi(p.trough_ss_ci95),
+                auc24_ss_pi90: pi(p.auc24_ss_ci95),
             }),
             threshold: r.threshold.as_ref().map(|t| JsonThreshold {
                 below: t.below,

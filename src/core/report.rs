@@ -171,6 +171,34 @@ pub struct Report {
     pub warnings: Vec<Warning>,
     /// Suggested regimens, loading dose, AUC24 by two methods and the switch.
     pub advice: crate::core::advice::AdviceSection,
+    /// The patient's covariates and what is derived from them.
+    pub patient: PatientSection,
+}
+
+/// The patient's covariates as recorded and the body size and kidney function derived from
+/// them (creatinine clearance here: Cockcroft-Gault on total body weight; a population model
+/// computes its own, shown with the fit).
+#[derive(Debug, Clone, PartialEq)]
+pub struct PatientSection {
+    /// The recorded patient.
+    pub recorded: crate::core::case::Patient,
+    /// Ideal and adjusted body weight, BMI.
+    pub body: crate::core::renal::BodySize,
+    /// Cockcroft-Gault on total body weight, mL/min, when age, weight, sex and creatinine are known.
+    pub crcl_ml_min: Option<f64>,
+}
+
+impl PatientSection {
+    /// The figures for `p`.
+    pub fn of(p: &crate::core::case::Patient) -> Self {
+        PatientSection {
+            recorded: p.clone(),
+            body: crate::core::renal::body_size(p),
+            crcl_ml_min: crate::core::renal::creatinine_clearance(p)
+                .ok()
+                .map(|c| c.ml_min),
+        }
+    }
 }
 
 fn place(case: &Case, t: f64, what: &str) -> Result<ClockTime> {
@@ -223,7 +251,7 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
         volume_method: patient.v().and(fit.volume_method.map(|m| m.name())),
         pre_dose_row: fit.pre_dose_level.map(|i| case.levels[i].row),
         clearance_l_per_h: patient.v().and(fit.clearance_l_per_h),
-        window_dose_row: case.doses[fit.window_dose].row,
+        window_dose_row: case.doses.get(fit.window_dose).map_or(0, |d| d.row),
         volume_ci95_l: patient.v().and(fit.volume_ci95),
         clearance_ci95_l_per_h: patient.v().and(fit.clearance_ci95),
         population: fit.population.clone(),
@@ -397,8 +425,17 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
         .map(|x| scale.to_mg_l(x));
     let advice = crate::core::advice::build(case, fit, plan_peak_mg_l, &mut warnings)?;
     let below_mg_l = case.threshold.as_ref().map(|t| scale.to_mg_l(t.below));
-    let rows = projection::washout(&patient, below_mg_l);
-    let washout_start = projection::washout_start(&patient);
+    // No dose on record (a regimen before the first dose): nothing to wash out yet.
+    let rows = if case.doses.is_empty() {
+        Vec::new()
+    } else {
+        projection::washout(&patient, below_mg_l)
+    };
+    let washout_start = if case.doses.is_empty() {
+        case.plan.as_ref().map_or(0.0, |p| p.start_t)
+    } else {
+        projection::washout_start(&patient)
+    };
     let mut washout = Vec::with_capacity(rows.len());
     for r in rows {
         washout.push(WashoutEntry {
@@ -417,6 +454,7 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
         washout_from: place(case, washout_start, "washout")?,
         warnings,
         advice,
+        patient: PatientSection::of(&case.patient),
     };
     check_finite(&report)?;
     Ok(report)
@@ -487,7 +525,10 @@ fn shape_warnings(case: &Case, fit: &Fit, warnings: &mut Vec<Warning>) {
             ),
         ));
     }
-    if matches!(fit.method, fit::Method::DoseHistory | fit::Method::Bayesian) {
+    if matches!(
+        fit.method,
+        fit::Method::DoseHistory | fit::Method::Bayesian | fit::Method::Population
+    ) {
         // These fits span doses: their own warnings cover the timing of each level.
         return;
     }
@@ -641,6 +682,15 @@ fn target_checks(
     out
 }
 
+/// How a range is named: the population's 90 % range before any level, else a 95 % range.
+pub fn range_name(method: &str) -> &'static str {
+    if method == "population" {
+        "90 % population range"
+    } else {
+        "95 % range"
+    }
+}
+
 /// Every figure must be finite; the first part holding one that is not is named (the fit by
 /// its levels, then the plan, the threshold and the washout).
 fn check_finite(r: &Report) -> Result<()> {
@@ -718,7 +768,7 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
 
     let f = &r.fit;
     let rows: Vec<String> = f.level_rows.iter().map(|r| r.to_string()).collect();
-    let spans_doses = matches!(f.method, "dose-history" | "bayesian");
+    let spans_doses = matches!(f.method, "dose-history" | "bayesian" | "population");
     if !spans_doses {
         writeln!(
             w,
@@ -731,7 +781,7 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
     } else if rows.is_empty() {
         writeln!(
             w,
-            "Fit: {} from population priors alone (no level)",
+            "Fit: {} model alone (no level in the fit)",
             method_word(f.method)
         )?;
     } else {
@@ -744,8 +794,13 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
             rows.join(", ")
         )?;
     }
+    let range_words = if f.method == "population" {
+        "90 % population range"
+    } else {
+        "95 % interval"
+    };
     let ci = |c: Option<[f64; 2]>| match c {
-        Some([a, b]) => format!("(95 % interval {} to {})", num(a), num(b)),
+        Some([a, b]) => format!("({range_words} {} to {})", num(a), num(b)),
         None => "(no interval)".into(),
     };
     writeln!(
@@ -767,12 +822,19 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
         (Some(v), Some(m)) => {
             let by = match f.pre_dose_row {
                 Some(row) if m == "pre-dose level" => format!("by pre-dose level {row}"),
-                _ if spans_doses => match f.volume_ci95_l {
-                    Some([a, b]) => {
-                        format!("fitted with k; 95 % interval {} to {}", num(a), num(b))
+                _ if spans_doses => {
+                    let how = if f.method == "population" {
+                        "the population model's"
+                    } else {
+                        "fitted with k"
+                    };
+                    match f.volume_ci95_l {
+                        Some([a, b]) => {
+                            format!("{how}; {range_words} {} to {}", num(a), num(b))
+                        }
+                        None => format!("{how}; no interval"),
                     }
-                    None => "fitted with k; no interval".into(),
-                },
+                }
                 _ => format!("by {m}"),
             };
             writeln!(w, "  volume      {} L  ({by})", num(v))?;
@@ -802,27 +864,48 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
         } else {
             ("k", p.k_per_h, "/h")
         };
+        writeln!(w, "  model       {}: {}", p.model, p.label)?;
+        let mut basis = Vec::new();
+        if let Some(x) = p.weight_kg {
+            basis.push(format!("{} kg recorded body weight", num(x)));
+        }
+        if let Some(c) = &p.creatinine_clearance {
+            basis.push(format!(
+                "creatinine clearance {} mL/min by Cockcroft-Gault",
+                num(c.ml_min)
+            ));
+        }
+        if let Some(d) = p.daily_dose_mg {
+            basis.push(format!("daily dose {} mg", num(d)));
+        }
         writeln!(
             w,
-            "  population  {what} {} {unit}, volume {} L ({} kg recorded body weight{})",
+            "  population  {what} {} {unit}, volume {} L{}",
             num(typical),
             num(p.volume_l),
-            num(p.weight_kg),
-            match &p.creatinine_clearance {
-                Some(c) => format!(
-                    ", creatinine clearance {} mL/min by Cockcroft-Gault",
-                    num(c.ml_min)
-                ),
-                None => String::new(),
+            if basis.is_empty() {
+                String::new()
+            } else {
+                format!(" ({})", basis.join(", "))
             }
         )?;
-        writeln!(
-            w,
-            "  moved       {what} {:+.2} and volume {:+.2} between-patient SDs from the population toward the levels",
-            s.elimination_shift_sd, s.volume_shift_sd
-        )?;
+        if f.method != "population" {
+            let share = s.prior_share[0]
+                .map(|x| {
+                    format!(
+                        "; the levels carry {:.0} % of what is known of {what}",
+                        (1.0 - x) * 100.0
+                    )
+                })
+                .unwrap_or_default();
+            writeln!(
+                w,
+                "  moved       {what} {:+.2} and volume {:+.2} between-patient SDs from the population toward the levels{share}",
+                s.elimination_shift_sd, s.volume_shift_sd
+            )?;
+        }
         if !s.sources.is_empty() {
-            writeln!(w, "  priors from {}", s.sources.join("; "))?;
+            writeln!(w, "  model from  {}", s.sources.join("; "))?;
         }
     }
     writeln!(w)?;
@@ -848,7 +931,9 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
                     unit: &str|
          -> io::Result<()> {
             let unit = match range {
-                Some([a, b]) => format!("{unit} (95 % range {} to {})", num(a), num(b)),
+                Some([a, b]) => {
+                    format!("{unit} ({} {} to {})", range_name(f.method), num(a), num(b))
+                }
                 None => unit.to_string(),
             };
             let check = p.checks.iter().find(|c| c.name == name);
@@ -935,15 +1020,17 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
         match &t.reached_at_ci95 {
             Some([a, b]) => writeln!(
                 w,
-                "  95 % range {} to {}",
+                "  {} {} to {}",
+                range_name(f.method),
                 a.readable_near(&t.t0),
                 b.readable_near(&t.t0)
             )?,
-            None if matches!(r.fit.method, "dose-history" | "bayesian") => writeln!(
+            None if matches!(r.fit.method, "dose-history" | "bayesian" | "population") => writeln!(
                 w,
-                "  95 % range not known (the spread of k and V is too wide to bound it)"
+                "  {} not known (the spread of k and V is too wide to bound it)",
+                range_name(f.method)
             )?,
-            None => writeln!(w, "  95 % range not known (no interval of k)")?,
+            None => writeln!(w, "  {} not known (no interval of k)", range_name(f.method))?,
         }
         if let Some(p) = &t.procedure {
             if t.procedure_h > 0.0 {
@@ -969,19 +1056,21 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
     }
     crate::core::advice::write_switch_text(w, &r.advice, u)?;
 
-    writeln!(w, "Washout from {}", when(&r.washout_from))?;
-    writeln!(w, "  half-lives  at                 level       remaining")?;
-    for row in &r.washout {
-        writeln!(
-            w,
-            "  {:<10}  {:<17}  {:<10}  {} %",
-            row.half_lives,
-            row.at.readable_near(&r.washout_from),
-            format!("{} {u}", num(row.level)),
-            num(row.fraction_remaining * 100.0)
-        )?;
+    if !r.washout.is_empty() {
+        writeln!(w, "Washout from {}", when(&r.washout_from))?;
+        writeln!(w, "  half-lives  at                 level       remaining")?;
+        for row in &r.washout {
+            writeln!(
+                w,
+                "  {:<10}  {:<17}  {:<10}  {} %",
+                row.half_lives,
+                row.at.readable_near(&r.washout_from),
+                format!("{} {u}", num(row.level)),
+                num(row.fraction_remaining * 100.0)
+            )?;
+        }
+        writeln!(w)?;
     }
-    writeln!(w)?;
     if r.warnings.is_empty() {
         writeln!(w, "Warnings: none")?;
     } else {

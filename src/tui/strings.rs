@@ -911,15 +911,29 @@ pub fn population_values(what: &str, typical: &str, unit: &str, v: &str) -> Stri
     format!("{what} {typical} {unit}, V {v} L")
 }
 /// The covariates behind them.
-pub fn population_basis(weight: &str, crcl: Option<&str>) -> String {
-    match crcl {
-        Some(c) => format!("({weight} kg body weight, CrCl {c} mL/min)"),
-        None => format!("({weight} kg body weight)"),
+pub fn population_basis(model: &str, weight: Option<&str>, crcl: Option<&str>) -> String {
+    let mut parts = vec![format!("model {model}")];
+    if let Some(w) = weight {
+        parts.push(format!("{w} kg"));
     }
+    if let Some(c) = crcl {
+        parts.push(format!("CrCl {c} mL/min"));
+    }
+    format!("({})", parts.join(", "))
 }
 /// How far the estimate moved, in between-patient SDs.
 pub fn population_moved(what: &str, elim: f64, vol: f64) -> String {
     format!("{what} {elim:+.2} SD, V {vol:+.2} SD from it")
+}
+/// Label.
+pub const WEIGHS: &str = "decided";
+/// How much of what is known of the elimination the levels decided, and how much the model.
+pub fn population_weighs(levels_share: f64) -> String {
+    format!(
+        "levels {:.0} %, model {:.0} %",
+        levels_share * 100.0,
+        (1.0 - levels_share) * 100.0
+    )
 }
 
 // ---- regimen suggestions -----------------------------------------------------------------

@@ -101,7 +101,8 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
         lines.push(kv(
             "",
             strings::population_basis(
-                &num(p.weight_kg),
+                &p.model,
+                p.weight_kg.map(num).as_deref(),
                 p.creatinine_clearance
                     .as_ref()
                     .map(|c| num(c.ml_min))
@@ -114,6 +115,13 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
             strings::population_moved(what, s.elimination_shift_sd, s.volume_shift_sd),
             String::new(),
         ));
+        if let (false, Some(share)) = (fit.used.is_empty(), s.prior_share[0]) {
+            lines.push(kv(
+                strings::WEIGHS,
+                strings::population_weighs(1.0 - share),
+                String::new(),
+            ));
+        }
     }
     lines.push(Line::styled(strings::LEVELS_AND_RESIDUALS, heading()));
     for (i, l) in case.levels.iter().enumerate() {
