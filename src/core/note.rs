@@ -46,7 +46,8 @@ fn method_words(method: &str) -> String {
         "two-point" => "two-point log-linear elimination rate, k = ln(C1/C2)/(t2 - t1) (Sawchuk-Zaske one-compartment method)".into(),
         "log-linear" => "log-linear regression: ordinary least squares of ln(level) on time, with the 95 % interval of k from Student's t".into(),
         "dose-history" => "dose-history fit: weighted nonlinear least squares (Levenberg-Marquardt) of ln(level) against the superposition of the whole dose record, k and V together, 95 % intervals from the asymptotic covariance".into(),
-        "bayesian" => "Bayesian maximum a posteriori (MAP) estimate: log-normal population priors for k (or clearance) and V from the drug profile, updated by the levels".into(),
+        "bayesian" => "Bayesian maximum a posteriori (MAP) estimate: the drug profile's published population model (log-normal between-patient variability, its residual error model) updated by the levels; 95 % intervals by the Laplace approximation".into(),
+        "population" => "population model alone (a-priori): the typical values of the drug profile's published population model for this patient's covariates; ranges are the population's 90 % range, not a measurement".into(),
         other => format!("{other} fit"),
     }
 }
@@ -63,6 +64,7 @@ fn volume_words(method: Option<&str>, pre_row: Option<usize>) -> String {
             "volume fitted together with k from every level (dose-history fit)".into()
         }
         (Some("bayesian"), _) => "volume estimated together with k (Bayesian MAP)".into(),
+        (Some("population"), _) => "volume: the population model's typical value".into(),
         (Some(m), _) => format!("volume by {m}"),
         (None, _) => "no volume (dose amounts not known)".into(),
     }
@@ -181,6 +183,22 @@ pub fn write_note(
         Some(true) => facts.push("on intermittent haemodialysis".into()),
         Some(false) => facts.push("not on dialysis".into()),
         None => {}
+    }
+    let size = crate::core::renal::body_size(p);
+    if let Some(x) = size.ideal_kg {
+        facts.push(format!("ideal body weight {} kg (Devine)", num(x)));
+    }
+    if let Some(x) = size.adjusted_kg {
+        facts.push(format!("adjusted body weight {} kg", num(x)));
+    }
+    if let Some(x) = size.bmi {
+        facts.push(format!("BMI {}", num(x)));
+    }
+    if let Ok(c) = crate::core::renal::creatinine_clearance(p) {
+        facts.push(format!(
+            "creatinine clearance {} mL/min (Cockcroft-Gault, total weight)",
+            num(c.ml_min)
+        ));
     }
     if !facts.is_empty() {
         writeln!(w, "{item}{}", facts.join(", "))?;

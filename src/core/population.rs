@@ -104,14 +104,18 @@ pub fn evaluate(
 ) -> Result<Population> {
     model.check()?;
     let body = renal::body_size(patient);
-    let uses = |c: Covariate| {
+    let in_terms = |c: Covariate| {
         [&model.elimination, &model.volume]
             .iter()
             .any(|p| p.terms.iter().any(|t| t.of == c))
-            || model.envelope.iter().any(|r| r.of == c)
     };
-    let crcl = if uses(Covariate::CrclMlMin) || uses(Covariate::CrclLPerH) {
+    let uses = |c: Covariate| in_terms(c) || model.envelope.iter().any(|r| r.of == c);
+    // Needed by a term: an error when it cannot be formed; only checked against the
+    // population's range: used when it can be formed.
+    let crcl = if in_terms(Covariate::CrclMlMin) || in_terms(Covariate::CrclLPerH) {
         Some(renal::creatinine_clearance_by(patient, &model.crcl)?)
+    } else if uses(Covariate::CrclMlMin) || uses(Covariate::CrclLPerH) {
+        renal::creatinine_clearance_by(patient, &model.crcl).ok()
     } else {
         None
     };
@@ -237,15 +241,27 @@ pub fn evaluate(
         };
         if let Some(x) = x {
             if x < r.low || x > r.high {
+                let (what, unit) = covariate_words(r.of);
+                let num = crate::core::format::num;
+                let range = if r.high.is_finite() {
+                    format!(
+                        "outside the {}–{} {unit} of the patients behind the {} model",
+                        num(r.low),
+                        num(r.high),
+                        model.name
+                    )
+                } else {
+                    format!(
+                        "below the {} {unit} that the patients behind the {} model had at least",
+                        num(r.low),
+                        model.name
+                    )
+                };
                 warnings.push(Warning::new(
                     Code::OutsidePopulation,
                     format!(
-                        "{} {} is outside the {}–{} of the patients behind the {} model: its typical values are extrapolated for this patient",
-                        covariate_words(r.of),
-                        crate::core::format::num(x),
-                        crate::core::format::num(r.low),
-                        crate::core::format::num(r.high),
-                        model.name
+                        "{what} {} {unit} is {range}: its typical values are extrapolated for this patient",
+                        num(x)
                     ),
                 ));
             }
@@ -302,20 +318,20 @@ pub fn evaluate(
     })
 }
 
-/// A covariate in a sentence ("creatinine clearance (mL/min)").
-pub fn covariate_words(c: Covariate) -> &'static str {
+/// A covariate in a sentence, and its unit ("creatinine clearance", "mL/min").
+pub fn covariate_words(c: Covariate) -> (&'static str, &'static str) {
     match c {
-        Covariate::WeightKg => "weight (kg)",
-        Covariate::IdealWeightKg => "ideal body weight (kg)",
-        Covariate::AdjustedWeightKg => "adjusted body weight (kg)",
-        Covariate::HeightCm => "height (cm)",
-        Covariate::AgeYears => "age (years)",
-        Covariate::CrclMlMin => "creatinine clearance (mL/min)",
-        Covariate::CrclLPerH => "creatinine clearance (L/h)",
-        Covariate::CreatinineUmolL => "serum creatinine (µmol/L)",
-        Covariate::Dialysis => "haemodialysis",
-        Covariate::Female => "female sex",
-        Covariate::Male => "male sex",
-        Covariate::DailyDoseMg => "daily dose (mg)",
+        Covariate::WeightKg => ("weight", "kg"),
+        Covariate::IdealWeightKg => ("ideal body weight", "kg"),
+        Covariate::AdjustedWeightKg => ("adjusted body weight", "kg"),
+        Covariate::HeightCm => ("height", "cm"),
+        Covariate::AgeYears => ("age", "years"),
+        Covariate::CrclMlMin => ("creatinine clearance", "mL/min"),
+        Covariate::CrclLPerH => ("creatinine clearance", "L/h"),
+        Covariate::CreatinineUmolL => ("serum creatinine", "µmol/L"),
+        Covariate::Dialysis => ("haemodialysis", ""),
+        Covariate::Female => ("female sex", ""),
+        Covariate::Male => ("male sex", ""),
+        Covariate::DailyDoseMg => ("daily dose", "mg"),
     }
 }

@@ -291,7 +291,7 @@ impl Model {
             );
         }
         for e in &self.envelope {
-            if !(e.low.is_finite() && e.high.is_finite() && e.low <= e.high) {
+            if !(e.low.is_finite() && !e.high.is_nan() && e.low <= e.high) {
                 return bad(
                     "population_range",
                     format!("{}: low must not exceed high", e.of.name()),

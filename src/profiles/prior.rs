@@ -353,8 +353,14 @@ fn summary_model(profile: &Profile, cite: &dyn Fn(&str) -> Vec<String>) -> Optio
         },
         apparent: false,
         crcl: crate::core::renal::TOTAL_WEIGHT,
-        envelope: Vec::new(),
-        excludes_dialysis: false,
+        // Summary values describe adults with normal kidney function; below 60 mL/min
+        // (common practice: the start of moderately reduced function) the report says so.
+        envelope: vec![Range {
+            of: Covariate::CrclMlMin,
+            low: 60.0,
+            high: f64::INFINITY,
+        }],
+        excludes_dialysis: true,
         population: elim.note.clone().unwrap_or_default(),
         assumptions: vec![
             "the typical values do not follow kidney function or body size beyond total weight".into(),

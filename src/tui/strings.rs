@@ -407,6 +407,33 @@ pub fn plan_route_now(app: &App) -> String {
 
 // ---- fields ------------------------------------------------------------------------------
 
+/// The derived body size and kidney function lines under the patient's fields.
+pub fn derived_patient(
+    ideal: Option<f64>,
+    adjusted: Option<f64>,
+    bmi: Option<f64>,
+    crcl: Option<f64>,
+) -> Vec<String> {
+    let mut out = Vec::new();
+    let mut size = Vec::new();
+    if let Some(x) = ideal {
+        size.push(format!("IBW {} kg (Devine)", num(x)));
+    }
+    if let Some(x) = adjusted {
+        size.push(format!("AdjBW {} kg", num(x)));
+    }
+    if let Some(x) = bmi {
+        size.push(format!("BMI {}", num(x)));
+    }
+    if !size.is_empty() {
+        out.push(format!("  {}", size.join(", ")));
+    }
+    if let Some(x) = crcl {
+        out.push(format!("  CrCl {} mL/min (Cockcroft-Gault on TBW)", num(x)));
+    }
+    out
+}
+
 /// "yes" (a level in use).
 pub const YES: &str = "yes";
 /// "no" (a level left out).
@@ -521,6 +548,13 @@ pub const NO_FIT_YET: &str = "No fit yet:";
 /// The fit in one line under the case tables.
 pub fn fit_summary(r: &Report) -> String {
     let f = &r.fit;
+    if f.level_rows.is_empty() {
+        return format!(
+            "Fit: k {} /h, half-life {} h, population model alone (no level) — screen 2 has the details",
+            num(f.k_per_h),
+            num(f.half_life_h)
+        );
+    }
     format!(
         "Fit: k {} /h, half-life {} h, from levels {} ({}) — screen 2 has the details",
         num(f.k_per_h),
@@ -560,6 +594,12 @@ pub const NO_INTERVAL: &str = "no 95 % interval";
 pub fn ci95(lo: &str, hi: &str) -> String {
     format!("(95 % {lo}–{hi})")
 }
+/// The population's 90 % range (before any level).
+pub fn pi90(lo: &str, hi: &str) -> String {
+    format!("(90 % pop. {lo}–{hi})")
+}
+/// The fit heading before any level.
+pub const FIT_HEADING_PRIOR: &str = "Population model alone: no level yet";
 /// How the volume was found.
 pub fn volume_how(m: Option<&str>, pre_dose_row: Option<usize>) -> String {
     match (m, pre_dose_row) {
@@ -912,12 +952,12 @@ pub fn population_values(what: &str, typical: &str, unit: &str, v: &str) -> Stri
 }
 /// The covariates behind them.
 pub fn population_basis(model: &str, weight: Option<&str>, crcl: Option<&str>) -> String {
-    let mut parts = vec![format!("model {model}")];
+    let mut parts = vec![model.to_string()];
     if let Some(w) = weight {
         parts.push(format!("{w} kg"));
     }
     if let Some(c) = crcl {
-        parts.push(format!("CrCl {c} mL/min"));
+        parts.push(format!("CrCl {c}"));
     }
     format!("({})", parts.join(", "))
 }

@@ -410,7 +410,7 @@ fn a_bayesian_fit_shows_the_population_and_the_move() {
     assert_eq!(r.fit.k_per_h, core.fit.k_per_h);
     let pop = r.fit.population.as_ref().unwrap();
     let shown = text(&app, 80, 24);
-    assert!(shown.contains("population"), "{shown}");
+    assert!(shown.contains("(summary-values, 68 kg"), "{shown}");
     assert!(shown.contains(&num(pop.population.volume_l)), "{shown}");
     assert!(
         shown.contains(&format!("{:+.2} SD", pop.elimination_shift_sd)),

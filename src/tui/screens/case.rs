@@ -85,6 +85,19 @@ fn index_of(lines: &[CaseLine], line: CaseLine) -> Option<usize> {
     lines.iter().position(|l| *l == line)
 }
 
+/// Body size and kidney function derived from the patient's fields, each with its formula.
+fn derived(app: &App) -> Vec<String> {
+    let Some(case) = app.figures.case.as_ref() else {
+        return Vec::new();
+    };
+    let p = &case.patient;
+    let size = crate::core::renal::body_size(p);
+    let crcl = crate::core::renal::creatinine_clearance(p)
+        .ok()
+        .map(|c| c.ml_min);
+    strings::derived_patient(size.ideal_kg, size.adjusted_kg, size.bmi, crcl)
+}
+
 fn field_rows(app: &App, lines: &[CaseLine], selected: CaseLine) -> Vec<Row> {
     let mut out: Vec<Row> = vec![(Line::styled(strings::PATIENT, heading()), None)];
     let unit_now = app.file.drug.level_unit.clone().unwrap_or_default();
@@ -102,6 +115,11 @@ fn field_rows(app: &App, lines: &[CaseLine], selected: CaseLine) -> Vec<Row> {
             }
             _ => None,
         };
+        if i == PATIENT_FIELDS.len() {
+            for l in derived(app) {
+                out.push((Line::styled(l, quiet()), None));
+            }
+        }
         if let Some(h) = heading_here {
             out.push((Line::styled(h, heading()), None));
         }

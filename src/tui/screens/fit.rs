@@ -33,8 +33,15 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
     let w = usize::from(right.width.saturating_sub(1));
     let f = &r.fit;
     let rows: Vec<String> = f.level_rows.iter().map(|x| x.to_string()).collect();
-    let record_fit = matches!(f.method, "dose-history" | "bayesian");
-    let title = if record_fit {
+    let record_fit = matches!(f.method, "dose-history" | "bayesian" | "population");
+    let prior_only = f.method == "population";
+    let ci = |c: Option<[f64; 2]>| match (c, prior_only) {
+        (Some([a, b]), true) => strings::pi90(&num(a), &num(b)),
+        (c, _) => ci(c),
+    };
+    let title = if prior_only {
+        strings::FIT_HEADING_PRIOR.to_string()
+    } else if record_fit {
         strings::fit_heading_record(f.method, &rows.join(", "))
     } else {
         strings::fit_heading(f.method, &rows.join(", "), f.window_dose_row)
@@ -105,16 +112,18 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
                 p.weight_kg.map(num).as_deref(),
                 p.creatinine_clearance
                     .as_ref()
-                    .map(|c| num(c.ml_min))
+                    .map(|c| format!("{:.0}", c.ml_min))
                     .as_deref(),
             ),
             String::new(),
         ));
-        lines.push(kv(
-            strings::MOVED,
-            strings::population_moved(what, s.elimination_shift_sd, s.volume_shift_sd),
-            String::new(),
-        ));
+        if !prior_only {
+            lines.push(kv(
+                strings::MOVED,
+                strings::population_moved(what, s.elimination_shift_sd, s.volume_shift_sd),
+                String::new(),
+            ));
+        }
         if let (false, Some(share)) = (fit.used.is_empty(), s.prior_share[0]) {
             lines.push(kv(
                 strings::WEIGHS,
