@@ -603,3 +603,79 @@ fn a_new_patient_gets_a_regimen_with_the_population_range_before_any_level() {
         Some(70.46)
     );
 }
+
+fn codes_of(text: &str) -> Vec<String> {
+    let a = ebb::cli::analyse_parsed(&CaseFile::parse(text).unwrap(), None).unwrap();
+    let r = a.finished().unwrap().report;
+    let j: serde_json::Value = serde_json::from_str(&json::to_json(&r)).unwrap();
+    j["warning_codes"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|c| c.as_str().unwrap().to_string())
+        .collect()
+}
+
+const ONE_TROUGH: &str = "[[dose]]\ntime = 2027-03-02T08:00:00\namount_mg = 1000.0\nroute = \"infusion\"\ninfusion_h = 1.0\n\
+[[dose]]\ntime = 2027-03-02T20:00:00\namount_mg = 1000.0\nroute = \"infusion\"\ninfusion_h = 1.0\n\
+[[level]]\ntime = 2027-03-03T07:30:00\nvalue = VALUE\n";
+
+#[test]
+fn a_level_far_from_the_model_and_a_patient_outside_its_population_are_named() {
+    // The Buelga 2005 model predicts a trough near 9 mg/L for the reference patient after two
+    // 1 g doses 12 h apart (hand-worked from its typical CL 5.04 L/h and V 68.6 L); 60 mg/L
+    // is beyond 3 SDs of what it allows (between-patient spread and residual error together).
+    let near = codes_of(&reference_case(
+        "vancomycin",
+        "mg/L",
+        &ONE_TROUGH.replace("VALUE", "9.0"),
+    ));
+    assert!(!near.iter().any(|c| c == "level-unexpected"), "{near:?}");
+    let far = codes_of(&reference_case(
+        "vancomycin",
+        "mg/L",
+        &ONE_TROUGH.replace("VALUE", "60.0"),
+    ));
+    assert!(far.iter().any(|c| c == "level-unexpected"), "{far:?}");
+    // 150 kg is beyond the cohort's mean + 2 SD (64.7 + 2 x 11.3 kg, Buelga 2005 Table 1), and
+    // haemodialysis patients were not studied.
+    assert!(!near.iter().any(|c| c == "outside-population"), "{near:?}");
+    let heavy = reference_case("vancomycin", "mg/L", &ONE_TROUGH.replace("VALUE", "9.0"))
+        .replace("weight_kg = 70.0", "weight_kg = 150.0\ndialysis = true");
+    let text = {
+        let a = ebb::cli::analyse_parsed(&CaseFile::parse(&heavy).unwrap(), None).unwrap();
+        let r = a.finished().unwrap().report;
+        r.warnings
+            .iter()
+            .map(|w| w.text().to_string())
+            .collect::<Vec<_>>()
+            .join("\n")
+    };
+    assert!(
+        text.contains("weight 150 kg is outside the 42.1–87.3 kg"),
+        "{text}"
+    );
+    assert!(
+        text.contains("built without patients on haemodialysis"),
+        "{text}"
+    );
+}
+
+#[test]
+fn height_albumin_and_dialysis_reach_the_report() {
+    let text = reference_case("vancomycin", "mg/L", "").replace(
+        "height_cm = 175.0",
+        "height_cm = 175.0\nalbumin_g_l = 32.0\ndialysis = false",
+    );
+    let a = ebb::cli::analyse_parsed(&CaseFile::parse(&text).unwrap(), None).unwrap();
+    let case = a.case.clone().unwrap();
+    assert_eq!(case.patient.albumin_g_dl, Some(3.2));
+    assert_eq!(case.patient.dialysis, Some(false));
+    let r = a.finished().unwrap().report;
+    let j: serde_json::Value = serde_json::from_str(&json::to_json(&r)).unwrap();
+    assert_eq!(j["patient"]["albumin_g_dl"].as_f64(), Some(3.2));
+    assert_eq!(j["patient"]["dialysis"], false);
+    // BMI 70 / 1.75² = 22.857 (the definition).
+    let bmi = j["patient"]["bmi"].as_f64().unwrap();
+    assert!((bmi - 70.0 / (1.75 * 1.75)).abs() < 1e-9);
+}

@@ -793,3 +793,31 @@ fn the_dosing_strategy_is_typed_on_the_case_screen() {
         .unwrap()
         .contains("strategy = \"extended-interval\""));
 }
+
+#[test]
+fn height_albumin_and_dialysis_are_entered_on_the_case_screen() {
+    use ebb::tui::fields::Field;
+    let mut app = App::demo();
+    go_to(&mut app, CaseLine::Field(Field::Height));
+    key(&mut app, KeyCode::Enter);
+    typed(&mut app, "162");
+    key(&mut app, KeyCode::Enter);
+    assert_eq!(app.file.patient.height_cm, Some(162.0));
+    go_to(&mut app, CaseLine::Field(Field::AlbuminGL));
+    key(&mut app, KeyCode::Enter);
+    typed(&mut app, "28");
+    key(&mut app, KeyCode::Enter);
+    assert_eq!(app.file.patient.albumin_g_l, Some(28.0));
+    // Haemodialysis steps through not given, yes, no.
+    go_to(&mut app, CaseLine::Field(Field::Dialysis));
+    key(&mut app, KeyCode::Enter);
+    assert_eq!(app.file.patient.dialysis, Some(true));
+    key(&mut app, KeyCode::Enter);
+    assert_eq!(app.file.patient.dialysis, Some(false));
+    key(&mut app, KeyCode::Enter);
+    assert_eq!(app.file.patient.dialysis, None);
+    // The derived figures follow: a woman of 162 cm has an ideal body weight of
+    // 45.5 + 2.3 x (162 / 2.54 - 60) = 54.19 kg (Devine 1974, from memory).
+    let shown = text(&app, 160, 48);
+    assert!(shown.contains("IBW 54.19 kg (Devine)"), "{shown}");
+}
