@@ -8,7 +8,9 @@
 //!
 //!   OBJ(η) = Σ_j [ (y_j − ŷ_j)² / Var_j + ln Var_j ] + ηᵀ Ω⁻¹ η
 //!
-//! minimised by `minimise`. A parameter the model fixes has no η. The posterior covariance
+//! minimised by `minimise`. A level reported below the assay's limit L enters as a bound
+//! (the likelihood that the level lies below L): − 2 ln Φ((L − ŷ)/√Var) instead of its
+//! squared residual. A parameter the model fixes has no η. The posterior covariance
 //! of η is the inverse of half the Hessian of OBJ at the minimum (the Laplace approximation);
 //! carried to (ln k, ln V) it gives the 95 % intervals (normal quantile 1.96). With no level
 //! the covariance is Ω itself and the intervals are the population's 90 % range (1.645).
@@ -58,16 +60,29 @@ fn eta_of(x: &[f64]) -> [f64; 2] {
     [x[0], x.get(1).copied().unwrap_or(0.0)]
 }
 
-/// OBJ(η) as documented above, for `points` `(t, mg/L)` after `schedule`.
-pub fn objective(pop: &Population, schedule: &Schedule, points: &[(f64, f64)], x: &[f64]) -> f64 {
+/// OBJ(η) as documented above, for `points` `(t, mg/L)` after `schedule` and levels
+/// `below` `(t, limit mg/L)` reported below the assay's limit.
+pub fn objective(
+    pop: &Population,
+    schedule: &Schedule,
+    points: &[(f64, f64)],
+    below: &[(f64, f64)],
+    x: &[f64],
+) -> f64 {
     let eta = eta_of(x);
     let (k, v) = pop.k_and_v(eta);
-    let ts: Vec<f64> = points.iter().map(|p| p.0).collect();
+    let ts: Vec<f64> = points.iter().chain(below).map(|p| p.0).collect();
     let predicted = schedule.levels(k, v, &ts);
     let mut total = 0.0;
     for ((_, y), yhat) in points.iter().zip(&predicted) {
         let var = pop.residual.variance(*yhat);
         total += (y - yhat).powi(2) / var + var.ln();
+    }
+    let normal = Normal::new(0.0, 1.0).ok();
+    for ((_, limit), yhat) in below.iter().zip(&predicted[points.len()..]) {
+        let z = (limit - yhat) / pop.residual.variance(*yhat).sqrt();
+        let p = normal.as_ref().map_or(f64::NAN, |n| n.cdf(z));
+        total -= 2.0 * p.max(1e-300).ln();
     }
     total + prior_term(pop, x)
 }
@@ -94,12 +109,26 @@ pub fn estimate_points(
     points: &[(f64, f64)],
     pop: &Population,
 ) -> std::result::Result<Estimate, history::Failure> {
+    estimate_with_bounds(doses, points, &[], pop)
+}
+
+/// As [`estimate_points`], with levels `below` `(t, limit mg/L)` reported below the assay's
+/// limit entering as bounds.
+///
+/// # Errors
+/// As [`estimate_points`].
+pub fn estimate_with_bounds(
+    doses: &[Administration],
+    points: &[(f64, f64)],
+    below: &[(f64, f64)],
+    pop: &Population,
+) -> std::result::Result<Estimate, history::Failure> {
     let schedule = Schedule::new(doses);
     let n = free(pop);
-    let (eta, cov_eta) = if points.is_empty() {
+    let (eta, cov_eta) = if points.is_empty() && below.is_empty() {
         ([0.0, 0.0], pop.omega_matrix())
     } else {
-        let f = |x: &[f64]| objective(pop, &schedule, points, x);
+        let f = |x: &[f64]| objective(pop, &schedule, points, below, x);
         let m = minimise::minimise(&f, &vec![0.0; n]).ok_or(history::Failure::NoElimination)?;
         let half: Vec<Vec<f64>> = m
             .hessian
@@ -137,7 +166,11 @@ pub fn estimate_points(
         .zip(&predicted)
         .map(|((_, y), yhat)| y.ln() - yhat.ln())
         .collect();
-    let quantile = normal_quantile(if points.is_empty() { 0.90 } else { 0.95 });
+    let quantile = normal_quantile(if points.is_empty() && below.is_empty() {
+        0.90
+    } else {
+        0.95
+    });
     Ok(Estimate {
         solution: Solution {
             k,
@@ -231,7 +264,20 @@ pub fn fit(case: &Case) -> Result<Fit> {
         .iter()
         .map(|&i| (case.levels[i].t, case.levels[i].mg_l))
         .collect();
-    let est = estimate_points(&given, &points, &pop).map_err(|_| {
+    // Levels below the assay's limit after the first dose bound the estimate (none before it,
+    // and none when the population values alone were asked for).
+    let first_dose = case.doses.iter().map(|d| d.t).fold(f64::INFINITY, f64::min);
+    let below: Vec<(f64, f64)> =
+        if case.fit_method == Some(crate::core::case::FitChoice::Population) || given.is_empty() {
+            Vec::new()
+        } else {
+            case.levels
+                .iter()
+                .filter(|l| l.below_limit && l.t > first_dose)
+                .map(|l| (l.t, l.mg_l))
+                .collect()
+        };
+    let est = estimate_with_bounds(&given, &points, &below, &pop).map_err(|_| {
         let names: Vec<String> = used.iter().map(|&i| case.level_name(i)).collect();
         let (place, which) = if names.is_empty() {
             ("dose".to_string(), "the dose record".to_string())
@@ -248,7 +294,7 @@ pub fn fit(case: &Case) -> Result<Fit> {
     })?;
     warnings.extend(pop.warnings.iter().cloned());
     let summary = summarise(&pop, &est, model.map_or(&[][..], |m| &m.sources));
-    let method = if used.is_empty() {
+    let method = if used.is_empty() && below.is_empty() {
         warnings.push(Warning::new(
             Code::PriorWeighs,
             format!(
@@ -258,10 +304,17 @@ pub fn fit(case: &Case) -> Result<Fit> {
         ));
         Method::Population
     } else {
-        let levels = match used.len() {
+        let mut levels = match used.len() {
+            0 => "no measured level".to_string(),
             1 => "one level".to_string(),
             n => format!("{n} levels"),
         };
+        if !below.is_empty() {
+            levels.push_str(&format!(
+                " and {} below the assay's limit (as an upper bound)",
+                below.len()
+            ));
+        }
         let share = summary.prior_share[0].unwrap_or(1.0);
         let what = if pop.on_clearance { "clearance" } else { "k" };
         if share > 0.5 {
@@ -270,7 +323,7 @@ pub fn fit(case: &Case) -> Result<Fit> {
                 format!(
                     "the estimate rests mostly on the population model {}: {levels} {} only {:.0} % of what is known of this patient's {what}",
                     pop.model,
-                    if used.len() == 1 { "carries" } else { "carry" },
+                    if used.len() == 1 && below.is_empty() { "carries" } else { "carry" },
                     (1.0 - share) * 100.0
                 ),
             ));

@@ -464,9 +464,9 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
 /// drugs managed by levels have half-lives of an hour or more even with the fastest
 /// clearance (common practice), so such a fit comes from a slip in the times.
 pub const MIN_PLAUSIBLE_HALF_LIFE_H: f64 = 5.0 / 60.0;
-/// Levels reported below the assay's limit: none is in any fit (no method here treats a
-/// censored value), but each bounds the level at its time from above, so the fitted
-/// course is checked against it.
+/// Levels reported below the assay's limit: the Bayesian estimate takes each as an upper
+/// bound; no other method can, so there it is left out and the fitted course is checked
+/// against it.
 fn below_limit_warnings(case: &Case, fit: &Fit, warnings: &mut Vec<Warning>) {
     let patient = Patient::new(case, fit);
     let u = case.drug.scale.unit.as_str();
@@ -483,11 +483,16 @@ fn below_limit_warnings(case: &Case, fit: &Fit, warnings: &mut Vec<Warning>) {
                 num(model)
             )
         };
+        let used = if fit.method == fit::Method::Bayesian {
+            "the Bayesian estimate takes it as an upper bound (the chance that the level lies below the limit), not as a value"
+        } else {
+            "this fit cannot use a level known only to lie below a limit, so it is left out and only bounds the level at that time"
+        };
         warnings.push(Warning::about_level(
             Code::BelowLimit,
             l.row,
             format!(
-                "level {} was reported below the assay's limit ({} {u}): it is left out of every fit and only bounds the level at that time; {check}",
+                "level {} was reported below the assay's limit ({} {u}): {used}; {check}",
                 l.row,
                 l.value_words()
             ),

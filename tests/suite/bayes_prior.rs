@@ -679,3 +679,37 @@ fn height_albumin_and_dialysis_reach_the_report() {
     let bmi = j["patient"]["bmi"].as_f64().unwrap();
     assert!((bmi - 70.0 / (1.75 * 1.75)).abs() < 1e-9);
 }
+
+#[test]
+fn a_level_below_the_assay_limit_bounds_the_bayesian_estimate() {
+    // One trough of 15 mg/L, then a level a day later reported "<2": with the trough alone the
+    // model's level then is about 3 mg/L, so the bound asks for faster elimination; a limit far above
+    // the course changes almost nothing (the M3 likelihood of a censored level, Beal,
+    // J Pharmacokinet Pharmacodyn 2001;28:481-504, from memory).
+    let base = reference_case("vancomycin", "mg/L", &ONE_TROUGH.replace("VALUE", "15.0"));
+    let k_of = |extra: &str| {
+        let a =
+            ebb::cli::analyse_parsed(&CaseFile::parse(&format!("{base}{extra}")).unwrap(), None)
+                .unwrap();
+        let r = a.finished().unwrap().report;
+        assert_eq!(r.fit.method, "bayesian");
+        (
+            r.fit.k_per_h,
+            r.warnings
+                .iter()
+                .map(|w| w.text().to_string())
+                .collect::<Vec<_>>(),
+        )
+    };
+    let (alone, _) = k_of("");
+    let (bounded, words) = k_of("[[level]]\ntime = 2027-03-04T07:30:00\nvalue = \"<2\"\n");
+    assert!(bounded > alone * 1.05, "{bounded} vs {alone}");
+    assert!(
+        words
+            .iter()
+            .any(|w| w.contains("takes it as an upper bound")),
+        "{words:?}"
+    );
+    let (loose, _) = k_of("[[level]]\ntime = 2027-03-04T07:30:00\nvalue = \"<100\"\n");
+    assert!((loose / alone - 1.0).abs() < 1e-3, "{loose} vs {alone}");
+}
