@@ -198,12 +198,13 @@ pub fn summarise(pop: &Population, est: &Estimate, sources: &[String]) -> Summar
     }
 }
 
-/// The daily dose of the current regimen, mg/day: the plan's, else the last recorded dose
-/// over the gap before it.
+/// The daily dose the levels were drawn under, mg/day: the last recorded dose over the gap
+/// before it; without two recorded doses, the plan's.
 pub fn daily_dose_mg(case: &Case) -> Option<f64> {
-    if let Some(p) = &case.plan {
-        return Some(p.dose_mg * 24.0 / p.interval_h);
-    }
+    recorded_daily_dose_mg(case).or_else(|| planned_daily_dose_mg(case))
+}
+
+fn recorded_daily_dose_mg(case: &Case) -> Option<f64> {
     let n = case.doses.len();
     if n < 2 {
         return None;
@@ -213,6 +214,38 @@ pub fn daily_dose_mg(case: &Case) -> Option<f64> {
     b.amount_mg
         .filter(|_| gap > 0.0)
         .map(|amount| amount * 24.0 / gap)
+}
+
+fn planned_daily_dose_mg(case: &Case) -> Option<f64> {
+    case.plan.as_ref().map(|p| p.dose_mg * 24.0 / p.interval_h)
+}
+
+/// For a model whose clearance follows the daily dose: when the plan's daily dose differs
+/// from the one the levels were drawn under, how much the model's clearance would change —
+/// the projections keep the clearance of the recorded dose.
+fn dose_dependence(case: &Case, pop: &Population) -> Option<Warning> {
+    let model = case.prior.as_ref()?;
+    let (rec, plan) = (recorded_daily_dose_mg(case)?, planned_daily_dose_mg(case)?);
+    if (plan / rec - 1.0).abs() <= 0.1 {
+        return None;
+    }
+    let f = oral_f(case);
+    let at_plan = crate::core::population::evaluate(model, &case.patient, Some(plan), f).ok()?;
+    let change = at_plan.clearance_l_per_h / pop.clearance_l_per_h - 1.0;
+    if change.abs() < 0.02 {
+        return None;
+    }
+    Some(Warning::new(
+        Code::ModelAssumes,
+        format!(
+            "the population model {}'s clearance follows the daily dose: at the plan's {} mg/day it is {:+.0} % against the recorded {} mg/day; the projections keep this patient's clearance at the recorded dose, so the plan's levels may be {} than shown",
+            pop.model,
+            crate::core::format::num(plan),
+            change * 100.0,
+            crate::core::format::num(rec),
+            if change > 0.0 { "lower" } else { "higher" }
+        ),
+    ))
 }
 
 /// The profile's oral bioavailability as the case's doses carry it (1 when none is oral).
@@ -294,6 +327,16 @@ pub fn fit(case: &Case) -> Result<Fit> {
     })?;
     warnings.extend(pop.warnings.iter().cloned());
     let summary = summarise(&pop, &est, model.map_or(&[][..], |m| &m.sources));
+    if used.is_empty() && below.is_empty() && !model.is_none_or(|m| m.a_priori) {
+        return Err(Error::invalid(
+            "level",
+            format!(
+                "the population model {} serves only as a wide prior for an estimate from levels, not for a dose before the first level (its typical half-life for this patient is {} h); draw a level, or dose by the local protocol",
+                pop.model,
+                crate::core::format::num(std::f64::consts::LN_2 / pop.k_per_h)
+            ),
+        ));
+    }
     let method = if used.is_empty() && below.is_empty() {
         warnings.push(Warning::new(
             Code::PriorWeighs,
@@ -340,6 +383,7 @@ pub fn fit(case: &Case) -> Result<Fit> {
         warnings.extend(unexpected_levels(case, &used, &given, &points, &pop));
         Method::Bayesian
     };
+    warnings.extend(dose_dependence(case, &pop));
     warnings.push(Warning::new(
         Code::PopulationCovariates,
         covariate_words(&pop),

@@ -215,6 +215,9 @@ pub struct Model {
     pub envelope: Vec<Range>,
     /// Whether patients on haemodialysis were left out of the population.
     pub excludes_dialysis: bool,
+    /// Whether its typical values may stand alone before any level (false: only a wide prior
+    /// for estimates from levels).
+    pub a_priori: bool,
     /// The population in words (size, setting, country).
     pub population: String,
     /// What the model assumes that the case does not record (co-medication and the like).

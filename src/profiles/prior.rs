@@ -42,6 +42,10 @@ pub struct ModelFile {
     /// Whether patients on haemodialysis were left out.
     #[serde(default)]
     pub excludes_dialysis: bool,
+    /// Whether its typical values may stand alone before any level (default true); false for a
+    /// model that serves only as a wide prior for estimates from levels.
+    #[serde(default = "yes")]
+    pub a_priori: bool,
     /// Covariate ranges of the population studied.
     #[serde(default)]
     pub ranges: Vec<RangeFile>,
@@ -59,6 +63,10 @@ pub struct ModelFile {
     pub k: Option<ParameterFile>,
     /// Volume, L.
     pub volume: ParameterFile,
+}
+
+fn yes() -> bool {
+    true
 }
 
 /// One parameter as written.
@@ -286,6 +294,7 @@ pub fn model_of(
         crcl,
         envelope,
         excludes_dialysis: m.excludes_dialysis,
+        a_priori: m.a_priori,
         population: m.population.clone(),
         assumptions: m.assumptions.clone(),
         sources: cite(&m.source),
@@ -361,6 +370,7 @@ fn summary_model(profile: &Profile, cite: &dyn Fn(&str) -> Vec<String>) -> Optio
             high: f64::INFINITY,
         }],
         excludes_dialysis: true,
+        a_priori: true,
         population: elim.note.clone().unwrap_or_default(),
         assumptions: vec![
             "the typical values do not follow kidney function or body size beyond total weight".into(),

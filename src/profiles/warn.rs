@@ -181,8 +181,13 @@ fn plausibility(profile: &Profile, case: &Case, report: &Report, out: &mut Vec<W
             ),
         };
         if v < lo / 2.0 || v > hi * 2.0 {
+            let from_model = if matches!(report.fit.method, "bayesian" | "population") {
+                "; with few levels the volume is mostly the population model's own"
+            } else {
+                ""
+            };
             out.push(Warning::new(Code::VolumeImplausible, format!(
-                "the fitted volume {} L is far outside {name}'s {}–{} L/kg {} for {per}: check the level unit (a slip of x1000 moves the volume as much), the dose amounts and the times",
+                "the fitted volume {} L is far outside {name}'s {}–{} L/kg {} for {per}: check the level unit (a slip of x1000 moves the volume as much), the dose amounts and the times{from_model}",
                 num(v),
                 num(per_kg.low),
                 num(per_kg.high),

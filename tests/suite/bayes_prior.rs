@@ -59,6 +59,7 @@ fn model_on_k() -> Model {
         crcl: renal::TOTAL_WEIGHT,
         envelope: Vec::new(),
         excludes_dialysis: false,
+        a_priori: true,
         population: String::new(),
         assumptions: Vec::new(),
         sources: vec!["invented for the test".into()],
@@ -524,19 +525,16 @@ fn built_in_models_give_their_published_typical_values_for_the_reference_patient
     let f = 0.7;
     assert!((p.clearance_l_per_h - 6.209 * (crcl / 60.0).powf(0.409) * f).abs() < 1e-9);
     assert!((p.volume_l - 6.0 * 70.0 * f).abs() < 1e-9);
-    // CL/F = 0.909 x (TDD/600)^0.354 x (WT/62)^0.33 x (CrCl/116)^0.186, V/F = 10.9 L (Jin et
-    // al., Front Pharmacol 2022;13:913935, Table 2), at 400 mg twice daily, times F = 0.9.
-    let p = typical("lithium", "mmol/L", &plan(400.0, 12.0, "oral"));
-    let cl = 0.909
-        * (800.0f64 / 600.0).powf(0.354)
-        * (70.0f64 / 62.0).powf(0.33)
-        * (crcl / 116.0).powf(0.186);
+    // CL/F = 0.46 x (WT/70)^0.56 x (DD/1000)^0.13 x 1.12 (male), V/F = 12.84 L (the abstract
+    // of Eur J Clin Pharmacol 2021, doi:10.1007/s00228-021-03246-2), at 500 mg twice daily;
+    // the profile's F is 1.
+    let p = typical("valproic-acid", "mg/L", &plan(500.0, 12.0, "oral"));
     assert!(
-        (p.clearance_l_per_h - cl * 0.9).abs() < 1e-9,
+        (p.clearance_l_per_h - 0.46 * 1.12).abs() < 1e-9,
         "{}",
         p.clearance_l_per_h
     );
-    assert_eq!(p.daily_dose_mg, Some(800.0));
+    assert_eq!(p.daily_dose_mg, Some(1000.0));
     // CL/F = 0.0134 x weight + 3.58, V/F = 1.97 x weight (Graves et al. 1998, PMID 9545146
     // abstract), times F = 0.85: 4.518 L/h before F.
     let p = typical("carbamazepine", "mg/L", &plan(400.0, 12.0, "oral"));
@@ -545,12 +543,28 @@ fn built_in_models_give_their_published_typical_values_for_the_reference_patient
     // 1993;16:501-505, Table III): 0.05796 x 70 = 4.057 L/h.
     let p = typical("theophylline", "mg/L", "");
     assert!((p.clearance_l_per_h - 0.05796 * 70.0).abs() < 1e-9);
-    // Gentamicin and tobramycin have no one-compartment population model in the profiles:
-    // gentamicin keeps its summary values, tobramycin has none.
+    // Gentamicin, tobramycin and lithium have no one-compartment population model in the
+    // profiles: gentamicin keeps its summary values, tobramycin and lithium have none.
     assert_eq!(typical("gentamicin", "mg/L", "").model, "summary-values");
-    let file = CaseFile::parse(&reference_case("tobramycin", "mg/L", "")).unwrap();
-    let case = ebb::cli::analyse_parsed(&file, None).unwrap().case.unwrap();
-    assert!(bayes::population_of(&case).is_err());
+    for (drug, unit) in [("tobramycin", "mg/L"), ("lithium", "mmol/L")] {
+        let file = CaseFile::parse(&reference_case(drug, unit, "")).unwrap();
+        let case = ebb::cli::analyse_parsed(&file, None).unwrap().case.unwrap();
+        assert!(bayes::population_of(&case).is_err(), "{drug}");
+    }
+    // The amikacin model (Steffens 2025) is a wide prior for estimates from levels only: no
+    // dose before the first level rests on it.
+    let file = CaseFile::parse(&reference_case(
+        "amikacin",
+        "mg/L",
+        &plan(1000.0, 24.0, "infusion").replace(
+            "route = \"infusion\"",
+            "route = \"infusion\"\ninfusion_h = 0.5",
+        ),
+    ))
+    .unwrap();
+    let stop = ebb::cli::analyse_parsed(&file, None).unwrap().stop.unwrap();
+    let e = stop.to_error(None).to_string();
+    assert!(e.contains("only as a wide prior"), "{e}");
 }
 
 #[test]
@@ -712,4 +726,24 @@ fn a_level_below_the_assay_limit_bounds_the_bayesian_estimate() {
     );
     let (loose, _) = k_of("[[level]]\ntime = 2027-03-04T07:30:00\nvalue = \"<100\"\n");
     assert!((loose / alone - 1.0).abs() < 1e-3, "{loose} vs {alone}");
+}
+
+#[test]
+fn a_plan_at_another_daily_dose_says_how_a_dose_dependent_clearance_would_move() {
+    // The valproate model's clearance rises with the daily dose to the power 0.13 (Eur J Clin
+    // Pharmacol 2021 abstract): from 1000 to 1500 mg/day it is 1.5^0.13 = 1.054, +5 %.
+    let extra = "[[dose]]\ntime = 2027-03-02T08:00:00\namount_mg = 500.0\nroute = \"oral\"\n\
+[[dose]]\ntime = 2027-03-02T20:00:00\namount_mg = 500.0\nroute = \"oral\"\n\
+[[level]]\ntime = 2027-03-03T07:30:00\nvalue = 70.0\n\
+[plan]\ndose_mg = 750.0\ninterval_h = 12.0\nroute = \"oral\"\n";
+    let text = reference_case("valproic-acid", "mg/L", extra);
+    let a = ebb::cli::analyse_parsed(&CaseFile::parse(&text).unwrap(), None).unwrap();
+    let r = a.finished().unwrap().report;
+    let w: Vec<String> = r.warnings.iter().map(|w| w.text().to_string()).collect();
+    assert!(
+        w.iter()
+            .any(|x| x
+                .contains("at the plan's 1500 mg/day it is +5 % against the recorded 1000 mg/day")),
+        "{w:?}"
+    );
 }
