@@ -165,6 +165,87 @@ fn every_citation_in_shipped_text_resolves_and_every_source_is_cited() {
     }
 }
 
+/// Hosts of unofficial copies: document-sharing sites, sites that reproduce books, papers,
+/// labels or paid articles, and mirrors or proxies of PubMed. A source cites the published
+/// work itself; a link beside it goes to the publisher, PubMed or PMC.
+const COPY_HOSTS: &[&str] = &[
+    "scribd",
+    "readbag.com",
+    "paperzz.com",
+    "coek.info",
+    "mitchmedical.us",
+    "kidneydiseaseclinic.net",
+    "wilddata.cn",
+    "weglot.com",
+    "ablesci.com",
+    "paperexplained.cn",
+    "lausr.org",
+    "tweb-dev.unibo.it",
+    "jioinstitute.edu.in",
+    "47.251.13.51",
+    "studylib",
+    "dokumen.pub",
+    "pdfcoffee",
+    "doctorlib.info",
+    "basicmedicalkey.com",
+    "naqlafshk.com",
+    "acallresources.com",
+    "healthscout.com",
+    "medbullets.com",
+    "medluna.com",
+    "unboundmedicine.com/medline",
+];
+
+/// The unofficial-copy hosts named in a source text (case-insensitive).
+fn copy_hosts_in(text: &str) -> Vec<&'static str> {
+    let lower = text.to_lowercase();
+    COPY_HOSTS
+        .iter()
+        .copied()
+        .filter(|h| lower.contains(h))
+        .collect()
+}
+
+#[test]
+fn the_copy_host_check_catches_a_sharing_site_and_passes_a_publisher() {
+    assert_eq!(
+        copy_hosts_in("Rybak MJ, Clin Infect Dis 2006 — https://JA.Scribd.com/document/1"),
+        vec!["scribd"]
+    );
+    assert_eq!(
+        copy_hosts_in("PMID 7726530 — https://suppr.wilddata.cn/browses/detail/pubmed/7726530"),
+        vec!["wilddata.cn"]
+    );
+    assert!(copy_hosts_in(
+        "Nicolau DP, et al. Antimicrob Agents Chemother 1995;39(3):650–655. \
+         PMID 7793867 — https://pubmed.ncbi.nlm.nih.gov/7793867/"
+    )
+    .is_empty());
+}
+
+#[test]
+fn no_built_in_source_links_to_an_unofficial_copy() {
+    let cat = Catalog::built_in().unwrap();
+    let mut seen = 0;
+    for (stem, text) in shipped_files() {
+        assert!(cat.get(&stem).is_some(), "{stem} is built in");
+        let v: toml::Value = toml::from_str(&text).unwrap();
+        for (key, source) in v["sources"].as_table().unwrap() {
+            let source = source.as_str().unwrap();
+            let hosts = copy_hosts_in(source);
+            assert!(
+                hosts.is_empty(),
+                "{stem}: [sources] {key} points to an unofficial copy ({}): cite the published \
+                 work itself (authors, title, journal, year;volume(issue):pages, DOI or PMID); \
+                 got \"{source}\"",
+                hosts.join(", ")
+            );
+            seen += 1;
+        }
+    }
+    assert!(seen > 100, "the check read every source ({seen})");
+}
+
 // ---------------------------------------------------------------- cases and defaults
 
 const GENT: &str = r#"

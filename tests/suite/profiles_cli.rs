@@ -55,7 +55,10 @@ fn profiles_show_prints_one_with_its_sources() {
     );
     assert!(s.contains("conventional — Conventional (multiple daily dosing) [default]"));
     assert!(s.contains("Cautions:"));
-    assert!(s.contains("[Nicolau95] Experience with a once-daily aminoglycoside program"));
+    assert!(s.contains(
+        "[Nicolau95] Nicolau DP, Freeman CD, Belliveau PP, Nightingale CH, Ross JW, Quintiliani R. \
+         Experience with a once-daily aminoglycoside program"
+    ));
 
     let out = ebb(&["profiles", "show", "gentamicin", "--toml"], None);
     assert!(out.status.success());
