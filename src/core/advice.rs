@@ -128,13 +128,15 @@ fn up(case: &Case, t: f64, what: &str) -> Result<ClockTime> {
     })
 }
 
+/// Every figure of `what` is finite, or an error at the levels (every figure of the advice
+/// is made from the fit, so the levels, their times and the dose amounts are what to check).
 fn finite(xs: &[f64], what: &str) -> Result<()> {
     if xs.iter().all(|x| x.is_finite()) {
         Ok(())
     } else {
         Err(Error::invalid(
-            what,
-            "the values are too extreme for the model to give finite figures; check amounts, levels and times",
+            "level",
+            format!("the {what} is too extreme for the model to give finite figures; check the level values and times and the dose amounts"),
         ))
     }
 }
@@ -257,7 +259,7 @@ pub fn build(
         None => None,
         Some(sw) => {
             let sp = switch::project(&p, sw);
-            finite(&[sp.level_at_start_mg_l], "switch")?;
+            finite(&[sp.level_at_start_mg_l], "switch level")?;
             let place = match sw.rule {
                 SwitchRule::StartBelow(_) => "switch.start_below",
                 SwitchRule::AfterHalfLives(_) => "switch.after_half_lives",
