@@ -1170,7 +1170,7 @@ fn validate_route(
                     format!("must be above 0 and at most 1, got {f}"),
                 ));
             }
-            Ok(Route::Oral { f })
+            Ok(Route::oral(f))
         }
         other => Err(Error::invalid(
             format!("{place}: route"),

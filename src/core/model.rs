@@ -2,6 +2,16 @@
 //!
 //! Concentrations here are in mg/L, times in hours, volumes in litres, doses in mg.
 
+/// First-order absorption from the gut: the rate constant ka and an optional lag time. The
+/// gut holds F x dose from the end of the lag and empties into the blood at ka x what it holds.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Absorption {
+    /// Absorption rate constant, 1/h (> 0).
+    pub ka_per_h: f64,
+    /// Hours from the dose to the start of absorption (>= 0).
+    pub lag_h: f64,
+}
+
 /// How a dose enters the body.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum Route {
@@ -12,14 +22,33 @@ pub enum Route {
         /// Duration of the infusion in hours (> 0).
         hours: f64,
     },
-    /// By mouth, treated as a bolus of F x dose (absorption is not modelled).
+    /// By mouth: F x dose absorbed first-order with `absorption`, or, when no ka is known,
+    /// treated as a bolus of F x dose at the dose time (the documented fallback).
     Oral {
         /// Bioavailability F, in (0, 1].
         f: f64,
+        /// First-order absorption, when ka is known (the drug profile's formulation).
+        absorption: Option<Absorption>,
     },
 }
 
 impl Route {
+    /// An oral dose with bioavailability `f` and no known absorption (the instant fallback).
+    pub fn oral(f: f64) -> Route {
+        Route::Oral {
+            f,
+            absorption: None,
+        }
+    }
+
+    /// An oral dose with bioavailability `f` absorbed first-order at `ka_per_h` after `lag_h`.
+    pub fn oral_absorbed(f: f64, ka_per_h: f64, lag_h: f64) -> Route {
+        Route::Oral {
+            f,
+            absorption: Some(Absorption { ka_per_h, lag_h }),
+        }
+    }
+
     /// Infusion duration in hours (0 for bolus and oral).
     pub fn infusion_h(&self) -> f64 {
         match self {
@@ -31,9 +60,28 @@ impl Route {
     /// Fraction of the dose that reaches the circulation.
     pub fn bioavailability(&self) -> f64 {
         match self {
-            Route::Oral { f } => *f,
+            Route::Oral { f, .. } => *f,
             _ => 1.0,
         }
+    }
+
+    /// The first-order absorption of an oral dose, when ka is known.
+    pub fn absorption(&self) -> Option<Absorption> {
+        match self {
+            Route::Oral { absorption, .. } => *absorption,
+            _ => None,
+        }
+    }
+
+    /// Whether this is an oral dose whose absorption is not known (modelled as instant).
+    pub fn is_instant_oral(&self) -> bool {
+        matches!(
+            self,
+            Route::Oral {
+                absorption: None,
+                ..
+            }
+        )
     }
 
     /// The case-file spelling of the route.
@@ -58,7 +106,8 @@ pub struct Administration {
 }
 
 impl Administration {
-    /// When the dose has fully entered (end of infusion; the dose time otherwise).
+    /// When the dose has fully entered (end of infusion; the dose time otherwise). For an
+    /// absorbed oral dose this is the dose time too: dosing windows and washout count from it.
     pub fn end(&self) -> f64 {
         self.t + self.route.infusion_h()
     }
@@ -85,15 +134,49 @@ pub fn rise(k: f64, s: f64) -> (f64, f64) {
     }
 }
 
+/// The Bateman kernel (e^(−k·u) − e^(−ka·u))/(ka − k) for `u` hours of absorption, and its
+/// derivative in k (ka held). It is symmetric in k and ka, so it is computed as
+/// e^(−m·u)·(1 − e^(−d·u))/d with m the smaller rate and d = |ka − k| ≥ 0, the second factor
+/// by `rise` (the small-k rule): no difference of nearly equal numbers when ka ≈ k (the limit
+/// is u·e^(−k·u)), and nothing overflows in flip-flop (ka < k).
+pub fn bateman(k: f64, ka: f64, u: f64) -> (f64, f64) {
+    if u <= 0.0 {
+        return (0.0, 0.0);
+    }
+    if ka >= k {
+        let (g, dg) = rise(ka - k, u);
+        let e = (-k * u).exp();
+        (e * g, -e * (u * g + dg))
+    } else {
+        let (g, dg) = rise(k - ka, u);
+        let e = (-ka * u).exp();
+        (e * g, e * dg)
+    }
+}
+
 /// The single-dose response: concentration (mg/L) with a volume of 1 L, `s` hours after the
 /// start of a dose of `amount_mg` by `route`, and its derivative in k. Zero for `s <= 0`: a
 /// level drawn at a dose time is a pre-dose level. Every concentration of the model, and of
 /// the fits, is built from this one function.
+///
+/// The one-compartment disposition is one exponential mode, e^(−k·t) per litre; each route is
+/// an input into it: at once (bolus), at a constant rate (infusion), or from the gut at
+/// ka x what it holds (oral with absorption: F·D·ka·(e^(−k·u) − e^(−ka·u))/(ka − k), u the
+/// hours since the lag ended). A disposition of several modes (two compartments) adds one
+/// such term per mode.
 pub fn unit_response(amount_mg: f64, route: Route, k: f64, s: f64) -> (f64, f64) {
     if s <= 0.0 {
         return (0.0, 0.0);
     }
     match route {
+        Route::Oral {
+            f,
+            absorption: Some(a),
+        } => {
+            let (b, db) = bateman(k, a.ka_per_h, s - a.lag_h);
+            let scale = f * amount_mg * a.ka_per_h;
+            (scale * b, scale * db)
+        }
         Route::Bolus | Route::Oral { .. } => {
             let c = route.bioavailability() * amount_mg * (-k * s).exp();
             (c, -s * c)
@@ -119,11 +202,40 @@ pub fn single_dose(amount_mg: f64, route: Route, k: f64, v: f64, s: f64) -> f64 
     unit_response(amount_mg, route, k, s).0 / v
 }
 
-/// The peak (mg/L) one dose gives with no drug on board: at the end of the infusion, or just
-/// after a bolus or oral dose.
+/// Hours from the end of the lag to the peak of one absorbed dose with nothing else on
+/// board: ln(ka/k)/(ka − k), whose limit when ka = k is 1/k (computed as
+/// ln(1 + (ka − k)/k)/(ka − k), which loses no digits near the limit).
+pub fn single_peak_after_lag(k: f64, ka: f64) -> f64 {
+    let d = ka - k;
+    if d == 0.0 {
+        1.0 / k
+    } else {
+        (d / k).ln_1p() / d
+    }
+}
+
+/// Hours after the start of one dose at which its peak falls with no drug on board: the end
+/// of the infusion; the dose time for a bolus and an instant oral dose; the lag plus
+/// `single_peak_after_lag` for an absorbed oral dose.
+pub fn single_peak_time(route: Route, k: f64) -> f64 {
+    match route.absorption() {
+        Some(a) => a.lag_h + single_peak_after_lag(k, a.ka_per_h),
+        None => route.infusion_h(),
+    }
+}
+
+/// The peak (mg/L) one dose gives with no drug on board: at the end of the infusion, just
+/// after a bolus or an instant oral dose, at `single_peak_time` for an absorbed oral dose.
 pub fn single_peak(amount_mg: f64, route: Route, k: f64, v: f64) -> f64 {
     match route {
         Route::Infusion { hours } => amount_mg / hours * rise(k, hours).0 / v,
+        Route::Oral {
+            f,
+            absorption: Some(a),
+        } => {
+            let u = single_peak_after_lag(k, a.ka_per_h);
+            f * amount_mg * a.ka_per_h * bateman(k, a.ka_per_h, u).0 / v
+        }
         r => r.bioavailability() * amount_mg / v,
     }
 }
@@ -146,24 +258,46 @@ pub fn superpose<'a>(
         .sum()
 }
 
-/// A dose record laid out for evaluating the model at many times in one forward pass: the
-/// doses that have fully entered decay together (three running sums), and only infusions still
-/// running are added one by one. Cost O(doses + times) per pass once the times are in order,
-/// instead of O(doses x times) for `superpose` at each time.
+/// When a dose joins the running sums of the forward pass: the end of an infusion, the end
+/// of the lag of an absorbed oral dose (it joins the gut), the dose time otherwise.
+fn joins_at(d: &Administration) -> f64 {
+    match d.route.absorption() {
+        Some(a) => d.t + a.lag_h,
+        None => d.end(),
+    }
+}
+
+/// A dose record laid out for evaluating the model at many times in one forward pass.
+///
+/// The state is a sum of exponentials: the amount per litre in the disposition's one mode
+/// (with its derivative in k), which decays with k, and one gut store per absorption rate,
+/// which decays with its ka and feeds the mode. Doses join the state once they have fully
+/// entered (an infusion at its end, an absorbed oral dose at the end of its lag, into its
+/// gut store); only infusions still running are added one by one. Stepping the state over
+/// Δt is exact: the mode keeps e^(−k·Δt) of itself and receives ka·G·bateman(k, ka, Δt)
+/// from a gut store G. Cost O(doses + times) per pass once the times are in order, instead
+/// of O(doses x times) for `superpose` at each time.
 #[derive(Debug, Clone)]
 pub struct Schedule<'a> {
     doses: &'a [Administration],
-    /// Doses by the time they have fully entered (bolus and oral: their time; infusion: its end).
+    /// Doses by the time they join the running sums (`joins_at`).
     by_entry: Vec<usize>,
     /// Infusions by start time.
     infusions: Vec<usize>,
+}
+
+/// A gut store of the forward pass: its absorption rate and the amount per litre it holds.
+#[derive(Debug, Clone, Copy)]
+struct Gut {
+    ka: f64,
+    held: f64,
 }
 
 impl<'a> Schedule<'a> {
     /// Lay out `doses` (in any order).
     pub fn new(doses: &'a [Administration]) -> Self {
         let mut by_entry: Vec<usize> = (0..doses.len()).collect();
-        by_entry.sort_by(|&a, &b| doses[a].end().total_cmp(&doses[b].end()));
+        by_entry.sort_by(|&a, &b| joins_at(&doses[a]).total_cmp(&joins_at(&doses[b])));
         let mut infusions: Vec<usize> = (0..doses.len())
             .filter(|&i| matches!(doses[i].route, Route::Infusion { .. }))
             .collect();
@@ -189,20 +323,23 @@ impl<'a> Schedule<'a> {
             order.sort_by(|&a, &b| ts[a].total_cmp(&ts[b]));
         }
         let mut out = vec![(0.0, 0.0); ts.len()];
-        // Over the doses that have fully entered, at time `now`: s = Σ A·e^(−k·(now−τ)),
-        // p = Σ A'·e^(−k·(now−τ)) and q = Σ (now−τ)·A·e^(−k·(now−τ)), where τ is the time a
-        // dose fully entered, A what it left then (per litre) and A' = ∂A/∂k; so the level is
-        // s and its derivative in k is p − q.
-        let (mut s, mut p, mut q) = (0.0, 0.0, 0.0);
+        // The mode: m per litre and dm = ∂m/∂k; the gut stores (ka held, so ∂G/∂k = 0).
+        let (mut m, mut dm) = (0.0, 0.0);
+        let mut guts: Vec<Gut> = Vec::new();
         let mut now = f64::NEG_INFINITY;
-        let mut advance = |s: &mut f64, p: &mut f64, q: &mut f64, to: f64| {
+        let mut advance = |m: &mut f64, dm: &mut f64, guts: &mut [Gut], to: f64| {
             if to > now {
                 if now.is_finite() {
                     let dt = to - now;
                     let e = (-k * dt).exp();
-                    *q = (*q + dt * *s) * e;
-                    *s *= e;
-                    *p *= e;
+                    *dm = (*dm - dt * *m) * e;
+                    *m *= e;
+                    for g in guts.iter_mut().filter(|g| g.held != 0.0) {
+                        let (b, db) = bateman(k, g.ka, dt);
+                        *m += g.ka * g.held * b;
+                        *dm += g.ka * g.held * db;
+                        g.held *= (-g.ka * dt).exp();
+                    }
                 }
                 now = to;
             }
@@ -211,26 +348,40 @@ impl<'a> Schedule<'a> {
         let mut running: Vec<usize> = Vec::new();
         for &j in &order {
             let t = ts[j];
-            // Doses fully entered before t (a bolus at t itself is not yet given; an infusion
-            // ending at t is still counted as running, with the same value).
+            // Doses that joined before t (a bolus at t itself is not yet given; an infusion
+            // ending at t is still counted as running, with the same value; an absorbed dose
+            // whose lag ends at t has given nothing yet).
             while let Some(&i) = self.by_entry.get(next_entry) {
                 let d = &self.doses[i];
-                if d.end() >= t {
+                let at = joins_at(d);
+                if at >= t {
                     break;
                 }
-                advance(&mut s, &mut p, &mut q, d.end());
-                let (a, da) = match d.route {
+                advance(&mut m, &mut dm, &mut guts, at);
+                match d.route {
                     Route::Infusion { hours } => {
                         let (g, dg) = rise(k, hours);
-                        (d.amount_mg / hours * g, d.amount_mg / hours * dg)
+                        m += d.amount_mg / hours * g;
+                        dm += d.amount_mg / hours * dg;
                     }
-                    r => (r.bioavailability() * d.amount_mg, 0.0),
-                };
-                s += a;
-                p += da;
+                    Route::Oral {
+                        f,
+                        absorption: Some(a),
+                    } => {
+                        let amount = f * d.amount_mg;
+                        match guts.iter_mut().find(|g| g.ka == a.ka_per_h) {
+                            Some(g) => g.held += amount,
+                            None => guts.push(Gut {
+                                ka: a.ka_per_h,
+                                held: amount,
+                            }),
+                        }
+                    }
+                    r => m += r.bioavailability() * d.amount_mg,
+                }
                 next_entry += 1;
             }
-            advance(&mut s, &mut p, &mut q, t);
+            advance(&mut m, &mut dm, &mut guts, t);
             while let Some(&i) = self.infusions.get(next_infusion) {
                 if self.doses[i].t >= t {
                     break;
@@ -239,7 +390,7 @@ impl<'a> Schedule<'a> {
                 next_infusion += 1;
             }
             running.retain(|&i| self.doses[i].end() >= t);
-            let (mut c, mut dc) = (s, p - q);
+            let (mut c, mut dc) = (m, dm);
             for &i in &running {
                 let d = &self.doses[i];
                 let (x, dx) = unit_response(d.amount_mg, d.route, k, t - d.t);
@@ -265,12 +416,69 @@ impl<'a> Schedule<'a> {
 pub struct SteadyState {
     /// 1/(1 - e^(-k·tau)).
     pub accumulation_factor: f64,
-    /// Peak at the end of the infusion (bolus, oral: just after the dose), mg/L.
+    /// The highest level of the interval, mg/L: at the end of the infusion, just after a
+    /// bolus or an instant oral dose, at `peak_after_h` for an absorbed oral dose.
     pub peak_mg_l: f64,
+    /// Hours after the start of a dose at which `peak_mg_l` falls.
+    pub peak_after_h: f64,
     /// Trough just before the next dose, mg/L.
     pub trough_mg_l: f64,
     /// Area under the curve over 24 h at steady state, mg·h/L.
     pub auc24_mg_h_l: f64,
+}
+
+/// The steady-state sum of the Bateman kernel over every earlier dose,
+/// Σₙ (e^(−k·(u+nτ)) − e^(−ka·(u+nτ)))/(ka − k) for n ≥ 0 and 0 ≤ u < τ, written with m the
+/// smaller of k and ka, M the larger and d = M − m as
+/// e^(−m·u)·[g(u)/(1 − e^(−M·τ)) + e^(−m·τ)·g(τ)/((1 − e^(−m·τ))·(1 − e^(−M·τ)))],
+/// g(x) = (1 − e^(−d·x))/d by `rise`: a sum of positive terms, exact as ka → k.
+pub fn steady_bateman(k: f64, ka: f64, tau: f64, u: f64) -> f64 {
+    let (lo, hi) = if ka >= k { (k, ka) } else { (ka, k) };
+    let d = hi - lo;
+    let (gu, _) = rise(d, u);
+    let (gt, _) = rise(d, tau);
+    let one_hi = one_minus_exp_neg(hi * tau);
+    let one_lo = one_minus_exp_neg(lo * tau);
+    (-lo * u).exp() * (gu / one_hi + (-lo * tau).exp() * gt / (one_lo * one_hi))
+}
+
+/// Hours from the end of the lag to the steady-state peak of an absorbed oral regimen:
+/// ln(ka·(1 − e^(−k·τ))/(k·(1 − e^(−ka·τ))))/(ka − k), computed as
+/// [ln(1 + (ka − k)/k) − ln(1 + (e^(−k·τ) − e^(−ka·τ))/(1 − e^(−k·τ)))]/(ka − k), whose limit
+/// at ka = k is 1/k − τ/(e^(k·τ) − 1). It always lies inside (0, τ).
+pub fn steady_peak_after_lag(k: f64, ka: f64, tau: f64) -> f64 {
+    let d = ka - k;
+    if d == 0.0 {
+        return 1.0 / k - tau / (k * tau).exp_m1();
+    }
+    let x = (-k * tau).exp() * one_minus_exp_neg(d * tau) / one_minus_exp_neg(k * tau);
+    ((d / k).ln_1p() - x.ln_1p()) / d
+}
+
+/// The steady-state level (mg/L) `s` hours after the start of a dose (0 ≤ s ≤ tau) of
+/// `amount_mg` by `route` every `tau` hours. At s = 0 a bolus or an instant oral dose counts
+/// as just given (its peak); s = tau is the trough before the next dose.
+pub fn steady_level(amount_mg: f64, route: Route, tau: f64, k: f64, v: f64, s: f64) -> f64 {
+    let acc = accumulation_factor(k, tau);
+    match route {
+        Route::Oral {
+            f,
+            absorption: Some(a),
+        } => {
+            let u = (s - a.lag_h).rem_euclid(tau);
+            f * amount_mg * a.ka_per_h * steady_bateman(k, a.ka_per_h, tau, u) / v
+        }
+        Route::Infusion { hours } => {
+            let peak = single_peak(amount_mg, route, k, v) * acc;
+            if s <= hours {
+                let trough = peak * (-k * (tau - hours)).exp();
+                trough * (-k * s).exp() + amount_mg / hours * rise(k, s).0 / v
+            } else {
+                peak * (-k * (s - hours)).exp()
+            }
+        }
+        r => r.bioavailability() * amount_mg / v * acc * (-k * s).exp(),
+    }
 }
 
 /// Steady state of `amount_mg` by `route` every `tau` hours, for `k` and `v`.
@@ -278,12 +486,25 @@ pub fn steady_state(amount_mg: f64, route: Route, tau: f64, k: f64, v: f64) -> S
     let acc = accumulation_factor(k, tau);
     let t_inf = route.infusion_h();
     let f = route.bioavailability();
-    let peak = single_peak(amount_mg, route, k, v) * acc;
-    let trough = peak * (-k * (tau - t_inf)).exp();
     let auc24 = f * amount_mg / (k * v) * 24.0 / tau;
+    let (peak, peak_after, trough) = match route.absorption() {
+        Some(a) => {
+            let after = (a.lag_h + steady_peak_after_lag(k, a.ka_per_h, tau)).rem_euclid(tau);
+            (
+                steady_level(amount_mg, route, tau, k, v, after),
+                after,
+                steady_level(amount_mg, route, tau, k, v, tau),
+            )
+        }
+        None => {
+            let peak = single_peak(amount_mg, route, k, v) * acc;
+            (peak, t_inf, peak * (-k * (tau - t_inf)).exp())
+        }
+    };
     SteadyState {
         accumulation_factor: acc,
         peak_mg_l: peak,
+        peak_after_h: peak_after,
         trough_mg_l: trough,
         auc24_mg_h_l: auc24,
     }
@@ -353,10 +574,15 @@ mod tests {
             Administration {
                 t: 5.0,
                 amount_mg: 100.0,
-                route: Route::Oral { f: 0.6 },
+                route: Route::oral(0.6),
+            },
+            Administration {
+                t: 6.0,
+                amount_mg: 100.0,
+                route: Route::oral_absorbed(0.8, 0.2, 0.5),
             },
         ];
-        for k in [1e-7, 0.03, 0.2, 1.5] {
+        for k in [1e-7, 0.03, 0.2, 0.2 + 1e-9, 1.5] {
             for t in [0.3, 1.0, 2.5, 4.0, 7.0, 30.0] {
                 let c: f64 = doses
                     .iter()
@@ -408,7 +634,22 @@ mod tests {
             Administration {
                 t: 12.0,
                 amount_mg: 250.0,
-                route: Route::Oral { f: 0.7 },
+                route: Route::oral(0.7),
+            },
+            Administration {
+                t: 13.0,
+                amount_mg: 300.0,
+                route: Route::oral_absorbed(0.9, 0.8, 0.25),
+            },
+            Administration {
+                t: 14.0,
+                amount_mg: 150.0,
+                route: Route::oral_absorbed(1.0, 0.05, 0.0),
+            },
+            Administration {
+                t: 20.0,
+                amount_mg: 200.0,
+                route: Route::oral_absorbed(0.9, 0.8, 0.25),
             },
             Administration {
                 t: 24.0,
@@ -418,10 +659,11 @@ mod tests {
         ];
         // Times out of order, on dose times and infusion ends, during overlapping infusions.
         let ts = [
-            30.0, 0.0, 0.5, 1.0, 1.2, 1.75, 2.0, 3.0, 12.0, 12.5, 24.0, 24.5, 25.0, 100.0,
+            30.0, 0.0, 0.5, 1.0, 1.2, 1.75, 2.0, 3.0, 12.0, 12.5, 13.0, 13.25, 13.3, 14.0, 16.0,
+            20.25, 24.0, 24.5, 25.0, 100.0,
         ];
         let schedule = Schedule::new(&doses);
-        for k in [1e-9, 0.05, 0.3, 2.0] {
+        for k in [1e-9, 0.05, 0.3, 0.8, 2.0] {
             let fast = schedule.unit_levels(k, &ts);
             for (j, &t) in ts.iter().enumerate() {
                 let (c, dc) = doses
@@ -435,5 +677,87 @@ mod tests {
                 );
             }
         }
+    }
+
+    #[test]
+    fn the_bateman_kernel_matches_its_formula_and_its_limit() {
+        // Away from ka = k: the textbook difference of exponentials.
+        for (k, ka, u) in [(0.1f64, 1.0f64, 3.0f64), (1.0, 0.1, 3.0), (0.05, 0.0773, 40.0)] {
+            let want = ((-k * u).exp() - (-ka * u).exp()) / (ka - k);
+            let (b, db) = bateman(k, ka, u);
+            assert!((b - want).abs() <= 1e-14 * want, "{k} {ka}: {b} vs {want}");
+            let h = 1e-6 * k;
+            let num = (bateman(k + h, ka, u).0 - bateman(k - h, ka, u).0) / (2.0 * h);
+            assert!((db - num).abs() <= 1e-6 * num.abs(), "{db} vs {num}");
+        }
+        // At and near ka = k the limit u·e^(−k·u), with no lost digits; and its derivative
+        // in k, −u²/2·e^(−k·u) (differentiate the limit series in d = ka − k).
+        for d in [0.0, 1e-15, -1e-15, 1e-9, -1e-9] {
+            let (k, u) = (0.3, 5.0);
+            let (b, db) = bateman(k, k + d, u);
+            let want = u * (-k * u).exp() * (1.0 - d * u / 2.0);
+            assert!((b - want).abs() <= 4e-16 * want, "{d}: {b} vs {want}");
+            let dwant = -u * u / 2.0 * (-k * u).exp();
+            assert!((db - dwant).abs() <= 1e-8 * dwant.abs(), "{d}: {db} vs {dwant}");
+        }
+        // Flip-flop far out: no overflow.
+        let (b, _) = bateman(5.0, 0.01, 2000.0);
+        assert!(b.is_finite() && b > 0.0);
+        assert_eq!(bateman(0.1, 1.0, 0.0), (0.0, 0.0));
+    }
+
+    #[test]
+    fn an_absorbed_dose_waits_for_its_lag() {
+        let r = Route::oral_absorbed(0.9, 1.73, 0.09);
+        assert_eq!(single_dose(300.0, r, 0.1, 30.0, 0.05), 0.0);
+        assert_eq!(single_dose(300.0, r, 0.1, 30.0, 0.09), 0.0);
+        assert!(single_dose(300.0, r, 0.1, 30.0, 0.1) > 0.0);
+    }
+
+    #[test]
+    fn the_single_peak_is_where_the_course_turns() {
+        for (k, ka, lag) in [(0.1, 1.73, 0.09), (0.5, 0.0773, 0.0), (0.2, 0.2, 1.0)] {
+            let r = Route::oral_absorbed(1.0, ka, lag);
+            let t = single_peak_time(r, k);
+            let p = single_peak(100.0, r, k, 10.0);
+            assert!((single_dose(100.0, r, k, 10.0, t) - p).abs() <= 1e-13 * p);
+            for dt in [-1e-3, 1e-3] {
+                assert!(single_dose(100.0, r, k, 10.0, t + dt) < p, "{k} {ka} {dt}");
+            }
+        }
+        // ka = k: the peak is 1/k after the lag, at F·D/(V·e) (the limit of the formula).
+        let r = Route::oral_absorbed(1.0, 0.25, 0.0);
+        assert!((single_peak_time(r, 0.25) - 4.0).abs() < 1e-14);
+        let want = 100.0 / 10.0 * (-1.0f64).exp();
+        assert!((single_peak(100.0, r, 0.25, 10.0) - want).abs() < 1e-14 * want);
+    }
+
+    #[test]
+    fn the_steady_state_sum_matches_adding_the_doses() {
+        for (k, ka, tau) in [
+            (0.03, 0.293, 24.0),
+            (0.3, 0.0773, 24.0),
+            (0.1, 0.1, 12.0),
+            (0.1, 0.1 + 1e-12, 12.0),
+        ] {
+            for u in [0.0, 0.5, 3.0, 11.9] {
+                let direct: f64 = (0..20_000)
+                    .map(|n| bateman(k, ka, u + n as f64 * tau).0)
+                    .sum::<f64>();
+                let ss = steady_bateman(k, ka, tau, u);
+                assert!((ss - direct).abs() <= 1e-12 * direct, "{k} {ka} {u}: {ss} vs {direct}");
+            }
+        }
+    }
+
+    #[test]
+    fn the_steady_state_peak_time_has_its_limit_at_ka_equal_k() {
+        let (k, tau) = (0.1, 12.0);
+        let at = steady_peak_after_lag(k, k, tau);
+        for d in [1e-7, -1e-7] {
+            let near = steady_peak_after_lag(k, k + d, tau);
+            assert!((near - at).abs() < 1e-5, "{near} vs {at}");
+        }
+        assert!(at > 0.0 && at < tau);
     }
 }
