@@ -682,7 +682,11 @@ mod tests {
     #[test]
     fn the_bateman_kernel_matches_its_formula_and_its_limit() {
         // Away from ka = k: the textbook difference of exponentials.
-        for (k, ka, u) in [(0.1f64, 1.0f64, 3.0f64), (1.0, 0.1, 3.0), (0.05, 0.0773, 40.0)] {
+        for (k, ka, u) in [
+            (0.1f64, 1.0f64, 3.0f64),
+            (1.0, 0.1, 3.0),
+            (0.05, 0.0773, 40.0),
+        ] {
             let want = ((-k * u).exp() - (-ka * u).exp()) / (ka - k);
             let (b, db) = bateman(k, ka, u);
             assert!((b - want).abs() <= 1e-14 * want, "{k} {ka}: {b} vs {want}");
@@ -698,7 +702,10 @@ mod tests {
             let want = u * (-k * u).exp() * (1.0 - d * u / 2.0);
             assert!((b - want).abs() <= 4e-16 * want, "{d}: {b} vs {want}");
             let dwant = -u * u / 2.0 * (-k * u).exp();
-            assert!((db - dwant).abs() <= 1e-8 * dwant.abs(), "{d}: {db} vs {dwant}");
+            assert!(
+                (db - dwant).abs() <= 1e-8 * dwant.abs(),
+                "{d}: {db} vs {dwant}"
+            );
         }
         // Flip-flop far out: no overflow.
         let (b, _) = bateman(5.0, 0.01, 2000.0);
@@ -745,7 +752,10 @@ mod tests {
                     .map(|n| bateman(k, ka, u + n as f64 * tau).0)
                     .sum::<f64>();
                 let ss = steady_bateman(k, ka, tau, u);
-                assert!((ss - direct).abs() <= 1e-12 * direct, "{k} {ka} {u}: {ss} vs {direct}");
+                assert!(
+                    (ss - direct).abs() <= 1e-12 * direct,
+                    "{k} {ka} {u}: {ss} vs {direct}"
+                );
             }
         }
     }

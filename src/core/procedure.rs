@@ -36,7 +36,17 @@ pub fn resume(
         }
     };
     let mut t = procedure_t + window_h.max(0.0) + resume_after_h.unwrap_or(0.0);
-    if let Some(below) = resume_below_mg_l {
+    let absorbed =
+        crate::core::projection::Absorbing::of(p.case.doses.iter().map(|d| (d.t, d.route)).chain(
+            plan.zip(latest).into_iter().flat_map(|(pl, n)| {
+                (0..=n).map(|j| (pl.start_t + j as f64 * pl.interval_h, pl.route))
+            }),
+        ));
+    if let (Some(below), Some(a)) = (resume_below_mg_l, absorbed) {
+        // Absorbed oral doses lift the level after their lag: from the highest level after t
+        // the model is followed down.
+        t = a.settles_below(&level, t, below, p.fit.k).max(t);
+    } else if let Some(below) = resume_below_mg_l {
         // After the last dose given has fully entered, the level only falls; before that a
         // running infusion may still lift it, so the level must be low enough both now and
         // once every dose has entered (between the two it is monotonic: c + d·e^(-k·t)).

@@ -56,6 +56,27 @@ impl<'a> Patient<'a> {
         Some(model::superpose(g, k, v, t) + from_plan)
     }
 
+    /// When the record has absorbed oral doses (and V): the last time one of them starts
+    /// absorbing (dose time + lag) and the slowest absorption rate. `None` otherwise: every
+    /// level then only falls once the last dose has entered.
+    pub fn absorbing(&self) -> Option<Absorbing> {
+        self.given.as_ref()?;
+        Absorbing::of(self.case.doses.iter().map(|d| (d.t, d.route)))
+    }
+
+    /// The time (hours) from which the level, with the recorded doses only and rate constant
+    /// `k`, is at or below `below_mg_l` for good, searching from `t0` (at or after the last
+    /// dose). Without absorbed doses: t0 + ln(c(t0)/below)/k, as contract v1 has it. With
+    /// them the level may still rise after t0: the search starts from the highest level after
+    /// t0 and follows the model down.
+    pub fn settles_below(&self, t0: f64, below_mg_l: f64, k: f64) -> f64 {
+        let level = |t: f64| self.level_with_k(t, k);
+        match self.absorbing() {
+            None => t0 + hours_to_fall(level(t0), below_mg_l, k),
+            Some(a) => a.settles_below(&level, t0, below_mg_l, k),
+        }
+    }
+
     /// The end of the last recorded dose.
     pub fn last_dose_end(&self) -> f64 {
         self.case
@@ -147,6 +168,122 @@ fn absorbed_plan_level(
         }
     }
     scale * sum
+}
+
+/// Absorbed oral doses still to reckon with after a time: the last time one starts absorbing
+/// and the slowest absorption rate.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Absorbing {
+    /// The latest dose time + lag among the absorbed doses, hours on the axis.
+    pub last_entry: f64,
+    /// The smallest ka among them, 1/h.
+    pub slowest_ka: f64,
+}
+
+impl Absorbing {
+    /// From doses as (time, route); `None` when none is absorbed.
+    pub fn of(doses: impl Iterator<Item = (f64, model::Route)>) -> Option<Absorbing> {
+        let mut out: Option<Absorbing> = None;
+        for (t, r) in doses {
+            if let Some(a) = r.absorption() {
+                let entry = t + a.lag_h;
+                out = Some(match out {
+                    None => Absorbing {
+                        last_entry: entry,
+                        slowest_ka: a.ka_per_h,
+                    },
+                    Some(o) => Absorbing {
+                        last_entry: o.last_entry.max(entry),
+                        slowest_ka: o.slowest_ka.min(a.ka_per_h),
+                    },
+                });
+            }
+        }
+        out
+    }
+
+    /// The time of the highest level on [t0, ∞) when no dose is given after t0 other than
+    /// those absorbing: before the last entry, and after it (where the level is a sum of
+    /// decaying exponentials with one turn at most for one absorption rate), each part by a
+    /// golden-section search; t0 itself when the level only falls.
+    pub fn peak_after(&self, level: &dyn Fn(f64) -> f64, t0: f64, k: f64) -> f64 {
+        let mut best = (t0, level(t0));
+        let entered = self.last_entry.max(t0);
+        if entered > t0 {
+            let m = golden_max(level, t0, entered);
+            if m.1 > best.1 {
+                best = m;
+            }
+        }
+        let span = 5.0 / k.min(self.slowest_ka);
+        let m = golden_max(level, entered, entered + span);
+        if m.1 > best.1 {
+            best = m;
+        }
+        best.0
+    }
+
+    /// See `Patient::settles_below`.
+    pub fn settles_below(&self, level: &dyn Fn(f64) -> f64, t0: f64, below: f64, k: f64) -> f64 {
+        let from = self.peak_after(level, t0, k);
+        if level(from) <= below {
+            return t0;
+        }
+        let slowest = k.min(self.slowest_ka);
+        let mut step = (std::f64::consts::LN_2 / slowest).clamp(0.01, 1e4);
+        let (mut lo, mut hi) = (from, from + step);
+        while level(hi) > below {
+            lo = hi;
+            step *= 2.0;
+            hi = from + step;
+            if !hi.is_finite() || step > 1e9 {
+                return hi;
+            }
+        }
+        for _ in 0..200 {
+            let mid = 0.5 * (lo + hi);
+            if mid <= lo || mid >= hi {
+                break;
+            }
+            if level(mid) > below {
+                lo = mid;
+            } else {
+                hi = mid;
+            }
+        }
+        hi
+    }
+}
+
+/// The highest value of `f` on [a, b] and where, by golden-section search (exact for a
+/// function with one turn at most there), the ends included.
+pub fn golden_max(f: &dyn Fn(f64) -> f64, a: f64, b: f64) -> (f64, f64) {
+    let r = (5f64.sqrt() - 1.0) / 2.0;
+    let (mut lo, mut hi) = (a, b);
+    let mut x1 = hi - r * (hi - lo);
+    let mut x2 = lo + r * (hi - lo);
+    let (mut f1, mut f2) = (f(x1), f(x2));
+    for _ in 0..200 {
+        if hi - lo <= 1e-12 * (1.0 + lo.abs()) {
+            break;
+        }
+        if f1 < f2 {
+            lo = x1;
+            x1 = x2;
+            f1 = f2;
+            x2 = lo + r * (hi - lo);
+            f2 = f(x2);
+        } else {
+            hi = x2;
+            x2 = x1;
+            f2 = f1;
+            x1 = hi - r * (hi - lo);
+            f1 = f(x1);
+        }
+    }
+    [(a, f(a)), (b, f(b)), (x1, f1), (x2, f2)]
+        .into_iter()
+        .fold((a, f64::NEG_INFINITY), |m, x| if x.1 > m.1 { x } else { m })
 }
 
 /// The plan at steady state.
@@ -294,10 +431,15 @@ pub fn threshold(p: &Patient, below_mg_l: f64, procedure_t: Option<f64>) -> Thre
 /// zero. Fits with a joint spread of k and V get theirs from `uncertainty::crossing_range`,
 /// the one range the threshold and the switch share.
 pub fn k_crossing_range(p: &Patient, t0: f64, c0: f64, below_mg_l: f64) -> Option<[f64; 2]> {
-    match p.fit.k_ci95 {
-        Some([lo, hi]) if lo > 0.0 => Some([
+    match (p.fit.k_ci95, p.absorbing()) {
+        (Some([lo, hi]), None) if lo > 0.0 => Some([
             t0 + hours_to_fall(c0, below_mg_l, hi),
             t0 + hours_to_fall(c0, below_mg_l, lo),
+        ]),
+        // With absorbed doses the level may still rise after t0: the model with each k.
+        (Some([lo, hi]), Some(_)) if lo > 0.0 => Some([
+            p.settles_below(t0, below_mg_l, hi),
+            p.settles_below(t0, below_mg_l, lo),
         ]),
         _ => None,
     }
@@ -306,7 +448,8 @@ pub fn k_crossing_range(p: &Patient, t0: f64, c0: f64, below_mg_l: f64) -> Optio
 /// The highest model level over `[from, from + hours]` with the recorded doses and the plan
 /// doses `0..=last` (`None`: no plan dose). Between the start or end of one dose and the next
 /// the level is c + d·e^(-k·t), so it is monotonic there: the highest value is at the window's
-/// edges or at a dose start or end inside it.
+/// edges or at a dose start or end inside it. With absorbed oral doses the level may turn once
+/// between those edges (and the ends of the lags): each piece is searched as well.
 pub fn window_max(
     p: &Patient,
     plan: Option<&Plan>,
@@ -331,11 +474,47 @@ pub fn window_max(
             edges.extend([td, td + pl.route.infusion_h()]);
         }
     }
-    edges
+    // An absorbed oral dose starts absorbing after its lag and peaks later: between those
+    // edges the level may turn once, so each such piece is searched for its highest value.
+    let mut absorbed = Absorbing::of(p.case.doses.iter().map(|d| (d.t, d.route)));
+    if let (Some(pl), Some(last)) = (plan, last) {
+        let plan_doses = (0..=last).map(|j| (pl.start_t + j as f64 * pl.interval_h, pl.route));
+        if let Some(a) = pl.route.absorption() {
+            for (td, _) in plan_doses.clone() {
+                edges.push(td + a.lag_h);
+            }
+        }
+        absorbed = match (absorbed, Absorbing::of(plan_doses)) {
+            (Some(x), Some(y)) => Some(Absorbing {
+                last_entry: x.last_entry.max(y.last_entry),
+                slowest_ka: x.slowest_ka.min(y.slowest_ka),
+            }),
+            (x, y) => x.or(y),
+        };
+    }
+    if absorbed.is_some() {
+        for d in &p.case.doses {
+            if let Some(a) = d.route.absorption() {
+                edges.push(d.t + a.lag_h);
+            }
+        }
+    }
+    let mut inside: Vec<f64> = edges
         .into_iter()
         .filter(|t| *t >= from && *t <= to)
-        .map(at)
-        .fold(f64::NEG_INFINITY, f64::max)
+        .collect();
+    inside.sort_by(f64::total_cmp);
+    inside.dedup();
+    let mut best = inside
+        .iter()
+        .map(|&t| at(t))
+        .fold(f64::NEG_INFINITY, f64::max);
+    if absorbed.is_some() {
+        for w in inside.windows(2) {
+            best = best.max(golden_max(&at, w[0], w[1]).1);
+        }
+    }
+    best
 }
 
 /// Project the threshold of `below_mg_l`, with a procedure at `procedure_t` lasting
@@ -353,7 +532,10 @@ pub fn threshold_window(
     let StartPoint {
         t: t0, c_mg_l: c0, ..
     } = threshold_start(p);
-    let reached_t = t0 + hours_to_fall(c0, below_mg_l, fit.k);
+    let reached_t = match p.absorbing() {
+        None => t0 + hours_to_fall(c0, below_mg_l, fit.k),
+        Some(_) => p.settles_below(t0, below_mg_l, fit.k),
+    };
     let reached_ci95_t = k_crossing_range(p, t0, c0, below_mg_l);
     let (mut latest_plan_dose, mut level_at_procedure) = (None, None);
     let (mut before, mut done) = (None, None);

@@ -225,9 +225,23 @@ pub fn score(s: &SteadyState, t: &Targets) -> f64 {
 }
 
 /// The steady state with its peak moved to the time the peak target is defined on:
-/// `after_h` hours after the end of the infusion (kept within the interval).
+/// `after_h` hours after the end of the infusion (kept within the interval). For an absorbed
+/// oral dose that is the steady-state level `after_h` hours after the dose (the course still
+/// rises after the dose), and with `after_h` = 0 the absorbed peak itself.
 pub fn for_targets(s: SteadyState, route: Route, tau: f64, k: f64, after_h: f64) -> SteadyState {
     let after = after_h.clamp(0.0, (tau - route.infusion_h()).max(0.0));
+    if route.absorption().is_some() {
+        if after <= 0.0 {
+            return s;
+        }
+        // Figures are proportional to the dose and 1/V: scale the unit course to this one.
+        let unit = model::steady_state(1.0, route, tau, k, 1.0);
+        let at = model::steady_level(1.0, route, tau, k, 1.0, after);
+        return SteadyState {
+            peak_mg_l: s.peak_mg_l * at / unit.peak_mg_l,
+            ..s
+        };
+    }
     SteadyState {
         peak_mg_l: s.peak_mg_l * (-k * after).exp(),
         ..s
@@ -238,6 +252,9 @@ pub fn for_targets(s: SteadyState, route: Route, tau: f64, k: f64, after_h: f64)
 /// infusion before the level climbs past it and the tail after it falls below it again.
 pub fn drug_free_h(dose: f64, route: Route, tau: f64, k: f64, v: f64, below: f64) -> f64 {
     let s = model::steady_state(dose, route, tau, k, v);
+    if let Some(a) = route.absorption() {
+        return absorbed_drug_free_h(dose, route, a, tau, k, v, below, &s);
+    }
     let t_inf = route.infusion_h();
     if s.peak_mg_l <= below {
         return tau;
@@ -252,6 +269,48 @@ pub fn drug_free_h(dose: f64, route: Route, tau: f64, k: f64, v: f64, below: f64
         _ => 0.0,
     };
     (rise.clamp(0.0, t_inf) + tail).min(tau)
+}
+
+/// `drug_free_h` for an absorbed oral dose: in the hours u since the lag ended (mod τ) the
+/// steady-state level rises to its peak and falls after it, so it is at or below `below`
+/// before the crossing on the way up and after the crossing on the way down (each found by
+/// bisection).
+#[allow(clippy::too_many_arguments)]
+fn absorbed_drug_free_h(
+    dose: f64,
+    route: Route,
+    a: model::Absorption,
+    tau: f64,
+    k: f64,
+    v: f64,
+    below: f64,
+    s: &SteadyState,
+) -> f64 {
+    if s.peak_mg_l <= below {
+        return tau;
+    }
+    let level = |u: f64| model::steady_level(dose, route, tau, k, v, u + a.lag_h);
+    if s.trough_mg_l.max(level(0.0)) > below {
+        return 0.0;
+    }
+    let peak_u = (s.peak_after_h - a.lag_h).rem_euclid(tau);
+    let cross = |mut lo: f64, mut hi: f64, rising: bool| {
+        for _ in 0..200 {
+            let mid = 0.5 * (lo + hi);
+            if mid <= lo || mid >= hi {
+                break;
+            }
+            if (level(mid) > below) == rising {
+                hi = mid;
+            } else {
+                lo = mid;
+            }
+        }
+        0.5 * (lo + hi)
+    };
+    let up = cross(0.0, peak_u, true);
+    let down = cross(peak_u, tau, false);
+    (up + (tau - down)).clamp(0.0, tau)
 }
 
 /// The route with its infusion lengthened, when needed, so `dose` runs no faster than

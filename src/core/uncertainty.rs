@@ -138,17 +138,26 @@ pub fn threshold_range(case: &Case, fit: &Fit, t0: f64, below_mg_l: f64) -> Opti
         let (lc, g) = ln_level(&given, fit.k, v, t)?;
         Some(lc + sign * spread.quantile * spread.se_ln(g))
     };
+    // With absorbed oral doses the level may still rise after t0: the edges are followed
+    // down from the model's highest level after t0.
+    let start = match crate::core::projection::Absorbing::of(given.iter().map(|d| (d.t, d.route))) {
+        None => t0,
+        Some(a) => {
+            let level = |t: f64| model::superpose(&given, fit.k, v, t);
+            a.peak_after(&level, t0, fit.k)
+        }
+    };
     let cross = |sign: f64| -> Option<f64> {
-        if edge(t0, sign)? <= ln_x {
+        if edge(start, sign)? <= ln_x {
             return Some(t0);
         }
         let mut step = fit.half_life_h.clamp(0.1, 1e4);
-        let mut lo = t0;
-        let mut hi = t0 + step;
+        let mut lo = start;
+        let mut hi = start + step;
         while edge(hi, sign)? > ln_x {
             lo = hi;
             step *= 2.0;
-            hi = t0 + step;
+            hi = start + step;
             if step > 1e7 {
                 return None;
             }
