@@ -255,7 +255,7 @@ fn oral_f(case: &Case) -> f64 {
         .map(|d| d.route)
         .chain(case.plan.as_ref().map(|p| p.route))
         .find_map(|r| match r {
-            Route::Oral { f } => Some(f),
+            Route::Oral { f, .. } => Some(f),
             _ => None,
         })
         .unwrap_or(1.0)

@@ -12,7 +12,7 @@ use crate::core::case::{
 };
 use crate::core::clock::{Clock, ClockTime};
 use crate::core::error::{Error, Result};
-use crate::core::model::Route;
+use crate::core::model::{Absorption, Route};
 use crate::core::prior::Model;
 use crate::core::text;
 use crate::core::units::{LevelUnit, Scale};
@@ -125,6 +125,10 @@ pub struct DoseFile {
     pub infusion_h: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub bioavailability: Option<f64>,
+    /// Addition: the oral formulation (a name from the drug profile's `[[absorption]]`);
+    /// default: the profile's first.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub formulation: Option<String>,
 }
 
 /// One `[[level]]` as written. A value written `"<0.5"` (addition) is a level the
@@ -251,6 +255,9 @@ pub struct PlanFile {
     pub infusion_h: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub bioavailability: Option<f64>,
+    /// Addition: the oral formulation, as on a dose.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub formulation: Option<String>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub start: Option<Datetime>,
 }
@@ -320,6 +327,8 @@ pub struct Defaults {
     pub regimen: Option<RegimenOptions>,
     /// The profile's strategy names (a case's `drug.strategy` must be one of them).
     pub strategies: Vec<String>,
+    /// The profile's oral formulations by name with their absorption, the default first.
+    pub formulations: Vec<(String, Absorption)>,
 }
 
 impl CaseFile {
@@ -462,7 +471,8 @@ impl CaseFile {
                 &d.route,
                 d.infusion_h,
                 d.bioavailability,
-                defaults.bioavailability,
+                d.formulation.as_deref(),
+                defaults,
                 &place,
             )?;
             let time = stamps[i].1;
@@ -568,7 +578,8 @@ impl CaseFile {
                     &p.route,
                     p.infusion_h,
                     p.bioavailability,
-                    defaults.bioavailability,
+                    p.formulation.as_deref(),
+                    defaults,
                     "plan",
                 )?;
                 if route.infusion_h() > p.interval_h {
@@ -1129,9 +1140,20 @@ fn validate_route(
     route: &str,
     infusion_h: Option<f64>,
     bioavailability: Option<f64>,
-    default_f: Option<f64>,
+    formulation: Option<&str>,
+    defaults: &Defaults,
     place: &str,
 ) -> Result<Route> {
+    let default_f = defaults.bioavailability;
+    if formulation.is_some() && route != "oral" {
+        return Err(Error::invalid(
+            format!("{place}: formulation"),
+            format!(
+                "only an oral dose has a formulation; this one is {}",
+                text::quoted(route)
+            ),
+        ));
+    }
     if bioavailability.is_some() && route != "oral" {
         return Err(Error::invalid(
             format!("{place}: bioavailability"),
@@ -1170,7 +1192,37 @@ fn validate_route(
                     format!("must be above 0 and at most 1, got {f}"),
                 ));
             }
-            Ok(Route::oral(f))
+            let absorption = match formulation {
+                None => defaults.formulations.first().map(|(_, a)| *a),
+                Some(name) => {
+                    let found = defaults.formulations.iter().find(|(n, _)| n == name);
+                    match found {
+                        Some((_, a)) => Some(*a),
+                        None if defaults.formulations.is_empty() => {
+                            return Err(Error::invalid(
+                                format!("{place}: formulation"),
+                                format!(
+                                    "no formulation {} is known: formulations come from a drug profile that gives their absorption, and this case's has none",
+                                    text::quoted(name)
+                                ),
+                            ))
+                        }
+                        None => {
+                            let names: Vec<&str> =
+                                defaults.formulations.iter().map(|(n, _)| n.as_str()).collect();
+                            return Err(Error::invalid(
+                                format!("{place}: formulation"),
+                                format!(
+                                    "the profile has no formulation {}; it has {}",
+                                    text::quoted(name),
+                                    names.join(", ")
+                                ),
+                            ));
+                        }
+                    }
+                }
+            };
+            Ok(Route::Oral { f, absorption })
         }
         other => Err(Error::invalid(
             format!("{place}: route"),

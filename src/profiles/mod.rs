@@ -396,6 +396,19 @@ pub fn defaults_for_strategy(
         prior: prior_of(profile),
         regimen: Some(regimen_of(profile, chosen)),
         strategies: profile.strategies.iter().map(|s| s.name.clone()).collect(),
+        formulations: profile
+            .absorption
+            .iter()
+            .map(|a| {
+                (
+                    a.formulation.clone(),
+                    crate::core::model::Absorption {
+                        ka_per_h: a.ka_per_h.value,
+                        lag_h: a.lag_h.as_ref().map_or(0.0, |l| l.value),
+                    },
+                )
+            })
+            .collect(),
         ..Defaults::default()
     }
 }

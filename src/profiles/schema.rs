@@ -73,6 +73,10 @@ pub struct Profile {
     pub strategies: Vec<Strategy>,
     /// Cautions in plain words, shown with the profile.
     pub cautions: Vec<String>,
+    /// First-order absorption of oral doses, one entry per formulation (`[[absorption]]`);
+    /// the first is the default. Empty: oral doses are modelled as instant (the fallback).
+    #[serde(default, rename = "absorption", skip_serializing_if = "Vec::is_empty")]
+    pub absorption: Vec<Formulation>,
     /// Optional population values for later Bayesian work.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub population: Option<Population>,
@@ -262,6 +266,22 @@ pub struct Strategy {
     pub drug_free_time: bool,
 }
 
+/// One oral formulation's first-order absorption (`[[absorption]]`).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Formulation {
+    /// Identifier a case names in `[[dose]] formulation` (lower case, hyphens).
+    pub formulation: String,
+    /// Absorption rate constant, 1/h (> 0).
+    pub ka_per_h: Sourced,
+    /// Lag time before absorption starts, h (>= 0); absent: none.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub lag_h: Option<Sourced>,
+    /// Optional plain words (the product, the population studied).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub note: Option<String>,
+}
+
 /// `[population]`: optional typical values with variability, for later Bayesian work.
 #[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -425,6 +445,15 @@ impl Profile {
             }
             if let Some(x) = &s.peak_sampled_after_h {
                 out.push((at("peak_sampled_after_h"), &x.source));
+            }
+        }
+        for (i, a) in self.absorption.iter().enumerate() {
+            out.push((
+                format!("absorption[{}].ka_per_h", i + 1),
+                &a.ka_per_h.source,
+            ));
+            if let Some(l) = &a.lag_h {
+                out.push((format!("absorption[{}].lag_h", i + 1), &l.source));
             }
         }
         if let Some(p) = &self.population {
@@ -592,6 +621,47 @@ impl Profile {
                     quoted(&self.default_strategy),
                     names.join(", ")
                 ),
+            ));
+        }
+        for (i, a) in self.absorption.iter().enumerate() {
+            let at = |f: &str| format!("absorption[{}].{f}", i + 1);
+            if a.formulation.is_empty()
+                || !a
+                    .formulation
+                    .chars()
+                    .all(|c| c.is_ascii_lowercase() || c.is_ascii_digit() || c == '-')
+            {
+                return Err(problem(
+                    at("formulation"),
+                    format!(
+                        "use lower-case letters, digits and hyphens, got {}",
+                        quoted(&a.formulation)
+                    ),
+                ));
+            }
+            if self.absorption[..i]
+                .iter()
+                .any(|o| o.formulation == a.formulation)
+            {
+                return Err(problem(
+                    at("formulation"),
+                    format!("{} is used by an earlier entry", quoted(&a.formulation)),
+                ));
+            }
+            positive(a.ka_per_h.value, &at("ka_per_h"))?;
+            if let Some(l) = &a.lag_h {
+                if !(l.value.is_finite() && l.value >= 0.0) {
+                    return Err(problem(
+                        at("lag_h"),
+                        format!("must be 0 or more hours, got {}", l.value),
+                    ));
+                }
+            }
+        }
+        if !self.absorption.is_empty() && self.bioavailability.is_none() {
+            return Err(problem(
+                "absorption",
+                "absorption is for oral doses; give the oral bioavailability too",
             ));
         }
         if let Some(p) = &self.population {

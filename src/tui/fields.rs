@@ -398,11 +398,17 @@ impl Field {
                 let d = dose_mut(f, i)?;
                 let r = next(&ROUTES, &d.route, back).to_string();
                 set_route(&r, &mut d.route, &mut d.infusion_h, &mut d.bioavailability);
+                if r != "oral" {
+                    d.formulation = None;
+                }
             }
             Field::PlanRoute => {
                 let p = plan_mut(f);
                 let r = next(&ROUTES, &p.route, back).to_string();
                 set_route(&r, &mut p.route, &mut p.infusion_h, &mut p.bioavailability);
+                if r != "oral" {
+                    p.formulation = None;
+                }
             }
             Field::LevelUse(i) => {
                 let l = level_mut(f, i)?;
@@ -539,6 +545,7 @@ pub fn plan_from_record(f: &CaseFile) -> PlanFile {
             None => Some(DEFAULT_INFUSION_H),
         },
         bioavailability: last.and_then(|d| d.bioavailability),
+        formulation: last.and_then(|d| d.formulation.clone()),
         start: None,
     }
 }

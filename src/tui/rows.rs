@@ -62,6 +62,7 @@ fn add_dose(app: &mut App) {
             route: "infusion".into(),
             infusion_h: Some(fields::DEFAULT_INFUSION_H),
             bioavailability: None,
+            formulation: None,
         },
     };
     let mark = app.undo.len();

@@ -972,6 +972,7 @@ fn take_suggestion(app: &mut App, i: usize) {
         p.infusion_h = (s.route == "infusion").then_some(s.infusion_h);
         if s.route != "oral" {
             p.bioavailability = None;
+            p.formulation = None;
         }
         Ok(())
     });

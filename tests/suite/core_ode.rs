@@ -1,7 +1,8 @@
 //! The closed forms of the model against a numerical integration of the one-compartment ODE.
 //!
 //! dC/dt = -k·C + R(t)/V, with R(t) the sum of the running infusions' rates and a jump of
-//! F·D/V at each bolus or oral dose. The integrator is a fixed-step classic Runge-Kutta
+//! F·D/V at each bolus or instant oral dose; an absorbed oral dose fills a gut store that
+//! empties first-order into the blood (dG/dt = −ka·G, dC/dt += ka·G/V). The integrator is a fixed-step classic Runge-Kutta
 //! (RK4) written here, stepping exactly to every infusion start and stop so the forcing is
 //! constant within each step. These are self-consistency checks: no outside source needed.
 
@@ -17,10 +18,16 @@ const REL: f64 = 1e-6;
 
 /// Concentration (mg/L) and its running area (mg·h/L) at each of the `at` times (any
 /// order), integrating the ODE from before the first dose. A value at a dose time is the one
-/// just before that dose (the pre-dose level).
+/// just before that dose (the pre-dose level). An absorbed oral dose puts F·D into a gut
+/// store of its own at the end of its lag; the store empties into the blood at ka times its
+/// content: dG/dt = −ka·G, and dC/dt gains ka·G/V.
 fn integrate(doses: &[Administration], k: f64, v: f64, at: &[f64]) -> Vec<(f64, f64)> {
     let start = doses.iter().map(|d| d.t).fold(f64::INFINITY, f64::min);
-    let mut marks: Vec<f64> = doses.iter().flat_map(|d| [d.t, d.end()]).collect();
+    let entry = |d: &Administration| d.t + d.route.absorption().map_or(0.0, |a| a.lag_h);
+    let mut marks: Vec<f64> = doses
+        .iter()
+        .flat_map(|d| [d.t, d.end(), entry(d)])
+        .collect();
     marks.extend(at.iter().copied().filter(|&t| t > start));
     marks.sort_by(f64::total_cmp);
     marks.dedup();
@@ -35,36 +42,76 @@ fn integrate(doses: &[Administration], k: f64, v: f64, at: &[f64]) -> Vec<(f64, 
             })
             .sum()
     };
+    // One gut store per absorption rate: dose j empties into store `store[j]`.
+    let mut rates: Vec<f64> = Vec::new();
+    let store: Vec<Option<usize>> = doses
+        .iter()
+        .map(|d| {
+            d.route.absorption().map(|a| {
+                rates
+                    .iter()
+                    .position(|r| *r == a.ka_per_h)
+                    .unwrap_or_else(|| {
+                        rates.push(a.ka_per_h);
+                        rates.len() - 1
+                    })
+            })
+        })
+        .collect();
+    let n = rates.len();
+    // State: [C, AUC, G_1 … G_n].
+    let mut y = vec![0.0f64; n + 2];
+    let deriv = |y: &[f64], r: f64, d: &mut [f64]| {
+        let mut into = r;
+        for j in 0..n {
+            into += rates[j] * y[j + 2];
+            d[j + 2] = -rates[j] * y[j + 2];
+        }
+        d[0] = -k * y[0] + into / v;
+        d[1] = y[0];
+    };
+    let axpy = |y: &[f64], h: f64, d: &[f64], out: &mut [f64]| {
+        for i in 0..y.len() {
+            out[i] = y[i] + h * d[i];
+        }
+    };
     let mut values: Vec<(f64, (f64, f64))> = Vec::new();
-    let (mut c, mut auc) = (0.0f64, 0.0f64);
     let mut t = start;
     for &mark in &marks {
         // Integrate from t to mark with the forcing constant on (t, mark).
         if mark > t {
-            let r = rate(0.5 * (t + mark)) / v;
+            let r = rate(0.5 * (t + mark));
             let steps = ((mark - t) / H_MAX).ceil().max(1.0) as usize;
             let h = (mark - t) / steps as f64;
-            let f = |c: f64| -k * c + r;
+            let m = y.len();
+            let (mut k1, mut k2, mut k3, mut k4) =
+                (vec![0.0; m], vec![0.0; m], vec![0.0; m], vec![0.0; m]);
+            let mut tmp = vec![0.0; m];
             for _ in 0..steps {
-                let k1 = f(c);
-                let k2 = f(c + 0.5 * h * k1);
-                let k3 = f(c + 0.5 * h * k2);
-                let k4 = f(c + h * k3);
-                // The area integrates the same stages (dA/dt = C).
-                let a1 = c;
-                let a2 = c + 0.5 * h * k1;
-                let a3 = c + 0.5 * h * k2;
-                let a4 = c + h * k3;
-                auc += h / 6.0 * (a1 + 2.0 * a2 + 2.0 * a3 + a4);
-                c += h / 6.0 * (k1 + 2.0 * k2 + 2.0 * k3 + k4);
+                deriv(&y, r, &mut k1);
+                axpy(&y, 0.5 * h, &k1, &mut tmp);
+                deriv(&tmp, r, &mut k2);
+                axpy(&y, 0.5 * h, &k2, &mut tmp);
+                deriv(&tmp, r, &mut k3);
+                axpy(&y, h, &k3, &mut tmp);
+                deriv(&tmp, r, &mut k4);
+                for i in 0..m {
+                    y[i] += h / 6.0 * (k1[i] + 2.0 * k2[i] + 2.0 * k3[i] + k4[i]);
+                }
             }
             t = mark;
         }
         // Record before applying the jumps at this mark (a level at a dose time is pre-dose).
-        values.push((mark, (c, auc)));
-        for d in doses.iter().filter(|d| d.t == mark) {
-            if let Route::Bolus | Route::Oral { .. } = d.route {
-                c += d.route.bioavailability() * d.amount_mg / v;
+        values.push((mark, (y[0], y[1])));
+        for (j, d) in doses.iter().enumerate() {
+            match store[j] {
+                Some(g) if entry(d) == mark => y[g + 2] += d.route.bioavailability() * d.amount_mg,
+                None if d.t == mark => {
+                    if let Route::Bolus | Route::Oral { .. } = d.route {
+                        y[0] += d.route.bioavailability() * d.amount_mg / v;
+                    }
+                }
+                _ => {}
             }
         }
     }
@@ -140,7 +187,7 @@ fn superposition_matches_the_ode_for_every_route_and_a_mixed_record() {
             regimen(8, 900.0, Route::Infusion { hours: 2.0 }, 6.0),
         ),
         ("bolus", regimen(10, 80.0, Route::Bolus, 12.0)),
-        ("oral", regimen(10, 250.0, Route::Oral { f: 0.7 }, 12.0)),
+        ("oral", regimen(10, 250.0, Route::oral(0.7), 12.0)),
         (
             "mixed, irregular",
             vec![
@@ -168,7 +215,7 @@ fn superposition_matches_the_ode_for_every_route_and_a_mixed_record() {
                 Administration {
                     t: 20.0,
                     amount_mg: 400.0,
-                    route: Route::Oral { f: 0.55 },
+                    route: Route::oral(0.55),
                 },
                 Administration {
                     t: 31.4,
@@ -202,7 +249,7 @@ fn steady_state_peak_trough_and_auc_match_the_ode_after_many_doses() {
         (0.0965, 50.0, 1000.0, Route::Infusion { hours: 1.0 }, 12.0),
         (0.2, 10.0, 100.0, Route::Infusion { hours: 6.0 }, 6.0),
         (0.1, 20.0, 500.0, Route::Bolus, 24.0),
-        (0.05, 40.0, 250.0, Route::Oral { f: 0.8 }, 12.0),
+        (0.05, 40.0, 250.0, Route::oral(0.8), 12.0),
         (0.35, 15.0, 80.0, Route::Bolus, 4.0),
         (0.03, 60.0, 300.0, Route::Infusion { hours: 2.0 }, 36.0),
     ];
@@ -241,7 +288,7 @@ fn auc_over_a_clock_day_at_steady_state_matches_the_ode() {
     for (k, v, dose, route, tau) in [
         (0.27566, 18.29, 120.0, Route::Infusion { hours: 0.5 }, 8.0),
         (0.12, 30.0, 400.0, Route::Bolus, 6.0),
-        (0.08, 35.0, 600.0, Route::Oral { f: 0.9 }, 12.0),
+        (0.08, 35.0, 600.0, Route::oral(0.9), 12.0),
         (0.04, 70.0, 1500.0, Route::Infusion { hours: 1.5 }, 24.0),
     ] {
         let n = doses_to_steady_state(k, tau);
@@ -344,5 +391,192 @@ fn levels_with_plan_doses_before_a_procedure_match_the_ode() {
         let closed = p.level_with_plan(procedure, pl, Some(last)).unwrap();
         let ode = integrate(&all, k, v, &[procedure])[0].0;
         close(closed, ode, &format!("plan doses 0..={last}"));
+    }
+}
+
+/// A 30-dose oral record of two formulations with lags, irregular times and a missed dose;
+/// `ka_ir` for the immediate-release doses.
+fn oral_record(ka_ir: f64) -> Vec<Administration> {
+    let ir = Route::oral_absorbed(0.9, ka_ir, 0.25);
+    let sr = Route::oral_absorbed(0.85, 0.0773, 0.0);
+    (0..31)
+        .filter(|&j| j != 17)
+        .map(|j| Administration {
+            t: j as f64 * 12.0 + if j % 3 == 0 { 0.75 } else { 0.0 },
+            amount_mg: if j % 4 == 0 { 400.0 } else { 300.0 },
+            route: if j < 20 { ir } else { sr },
+        })
+        .collect()
+}
+
+#[test]
+fn absorbed_oral_superposition_matches_the_ode_over_a_30_dose_record() {
+    // Rates apart, ka = k exactly (the limit of the Bateman form), ka a hair from k, and
+    // flip-flop (the sustained-release doses: ka 0.0773 < k).
+    let v = 30.0;
+    for (k, ka) in [
+        (0.12, 1.73),
+        (0.12, 0.12),
+        (0.12, 0.12 + 1e-9),
+        (0.35, 0.35),
+    ] {
+        let doses = oral_record(ka);
+        assert_eq!(doses.len(), 30);
+        let until = doses.last().unwrap().t + 48.0;
+        let mut ts = probe_times(&doses, until);
+        ts.extend(
+            doses
+                .iter()
+                .flat_map(|d| [d.t + 0.25, d.t + 0.26, d.t + 2.0]),
+        );
+        let ode = integrate(&doses, k, v, &ts);
+        let swept = model::Schedule::new(&doses).levels(k, v, &ts);
+        for ((t, (c, _)), fast) in ts.iter().zip(ode).zip(swept) {
+            if c < 1e-9 {
+                // Before the first lag has ended: both are zero.
+                assert!(fast.abs() < 1e-12, "k {k} ka {ka} at {t}: {fast}");
+                continue;
+            }
+            let closed = model::superpose(&doses, k, v, *t);
+            close(closed, c, &format!("k {k} ka {ka} at t = {t}"));
+            close(fast, c, &format!("forward pass, k {k} ka {ka} at t = {t}"));
+        }
+    }
+}
+
+#[test]
+fn absorbed_steady_state_matches_the_ode_and_a_scan_of_the_course() {
+    // (k /h, V L, dose mg, F, ka /h, lag h, tau h)
+    for (k, v, dose, f, ka, lag, tau) in [
+        (0.0289f64, 50.0, 800.0, 0.9, 0.293f64, 0.0, 24.0),
+        (0.0289, 50.0, 400.0, 0.9, 0.293, 0.0, 12.0),
+        (0.1, 30.0, 300.0, 1.0, 1.73, 0.09, 12.0),
+        (0.1, 30.0, 600.0, 1.0, 0.0773, 0.0, 24.0),
+        (0.2, 20.0, 250.0, 0.8, 0.2, 0.5, 8.0),
+        (0.1, 25.0, 100.0, 1.0, 2.0, 3.0, 2.5),
+    ] {
+        let route = Route::oral_absorbed(f, ka, lag);
+        // e^(−20) of the first dose is left: far below the tolerance.
+        let n = (20.0 / (k.min(ka) * tau)).ceil() as usize + 2;
+        let doses = regimen(n + 1, dose, route, tau);
+        let last = doses[n - 1];
+        let ss = model::steady_state(dose, route, tau, k, v);
+        let what = format!("{dose} mg ka {ka} lag {lag} q{tau}h k={k}");
+        // A brute-force scan of the superposed course over the last full interval.
+        let steps = 20_000;
+        let (mut best_t, mut best) = (0.0, f64::NEG_INFINITY);
+        let ts: Vec<f64> = (0..=steps)
+            .map(|i| last.t + tau * i as f64 / steps as f64)
+            .collect();
+        let course = model::Schedule::new(&doses).levels(k, v, &ts);
+        for (t, c) in ts.iter().zip(&course) {
+            if *c > best {
+                best = *c;
+                best_t = t - last.t;
+            }
+        }
+        assert!(
+            (ss.peak_after_h - best_t).abs() <= 2.0 * tau / steps as f64,
+            "{what}: peak at {} h, scan {best_t} h",
+            ss.peak_after_h
+        );
+        close(
+            ss.peak_mg_l,
+            best,
+            &format!("{what}: peak against the scan"),
+        );
+        let t_peak = last.t + ss.peak_after_h;
+        let within = [0.3, 0.5 * tau];
+        let mut asked = vec![last.t, t_peak, last.t + tau];
+        asked.extend(within.iter().map(|s| last.t + s));
+        let ode = integrate(&doses, k, v, &asked);
+        close(ss.peak_mg_l, ode[1].0, &format!("{what}: peak"));
+        close(ss.trough_mg_l, ode[2].0, &format!("{what}: trough"));
+        close(ss.trough_mg_l, ode[0].0, &format!("{what}: pre-dose"));
+        close(
+            ss.auc24_mg_h_l,
+            (ode[2].1 - ode[0].1) * 24.0 / tau,
+            &format!("{what}: AUC24"),
+        );
+        // The level at other times of the interval.
+        for (s, at) in within.iter().zip(&ode[3..]) {
+            close(
+                model::steady_level(dose, route, tau, k, v, *s),
+                at.0,
+                &format!("{what}: level {s} h after the dose"),
+            );
+        }
+    }
+}
+
+/// A case of `n` oral doses every 12 h of a drug whose profile gives no absorption, written
+/// with two levels after the last dose (they are replaced by the test's own k and V).
+fn oral_case_text(n: usize, threshold: &str) -> String {
+    let mut s = String::from("[drug]\nlevel_unit = \"mg/L\"\n");
+    let base = chrono::NaiveDate::from_ymd_opt(2027, 1, 30)
+        .unwrap()
+        .and_hms_opt(6, 0, 0)
+        .unwrap();
+    let at = |h: f64| {
+        let t = base + chrono::Duration::seconds((h * 3600.0).round() as i64);
+        t.format("%Y-%m-%dT%H:%M:%S").to_string()
+    };
+    for j in 0..n {
+        s += &format!(
+            "[[dose]]\ntime = {}\namount_mg = 300.0\nroute = \"oral\"\n",
+            at(j as f64 * 12.0)
+        );
+    }
+    let last = (n - 1) as f64 * 12.0;
+    for (dt, value) in [(0.5, 7.0), (1.0, 3.0)] {
+        s += &format!("[[level]]\ntime = {}\nvalue = {value}\n", at(last + dt));
+    }
+    s + threshold
+}
+
+#[test]
+fn threshold_crossing_after_absorbed_doses_matches_the_ode() {
+    // The last level is drawn before the last dose has peaked: the level still rises after
+    // t0, so the fall starts from the peak (the contract's exponential from t0 would be early).
+    let (k, v, ka, lag) = (0.1, 30.0, 0.3, 0.5);
+    let route = Route::oral_absorbed(1.0, ka, lag);
+    for below in [12.0, 3.0, 0.2] {
+        let text = oral_case_text(8, &format!("[threshold]\nbelow = {below}\n"));
+        let mut case = CaseFile::parse(&text).unwrap().validate().unwrap();
+        for d in &mut case.doses {
+            d.route = route;
+        }
+        // The last level is 1 h after the last dose: t0 is then before the peak.
+        let last_dose = case.doses.last().unwrap().t;
+        let mut f = fit::fit(&case).unwrap();
+        f.k = k;
+        f.volume_l = Some(v);
+        f.k_ci95 = None;
+        let p = Patient::new(&case, &f);
+        let tp = projection::threshold(&p, below, None);
+        let given = case.given().unwrap();
+        let t0 = last_dose + 1.0;
+        assert_eq!(tp.t0, t0);
+        // Scan the ODE for the last time the level is above the threshold, then bisect.
+        let scan: Vec<f64> = (0..4000).map(|i| t0 + i as f64 * 0.05).collect();
+        let ode = integrate(&given, k, v, &scan);
+        let Some(i) = ode.iter().rposition(|(c, _)| *c > below) else {
+            assert_eq!(tp.reached_t, t0, "below {below}");
+            continue;
+        };
+        // Between two scan points the fall is smooth: take the ODE on a fine grid there and
+        // interpolate its logarithm.
+        let fine: Vec<f64> = (0..=1000)
+            .map(|j| scan[i] + 0.05 * j as f64 / 1000.0)
+            .collect();
+        let on = integrate(&given, k, v, &fine);
+        let j = on.iter().rposition(|(c, _)| *c > below).unwrap();
+        let (c1, c2) = (on[j].0, on[j + 1].0);
+        let crossing = fine[j] + (fine[j + 1] - fine[j]) * (c1 / below).ln() / (c1 / c2).ln();
+        assert!(
+            (tp.reached_t - crossing).abs() <= 1e-6 * (crossing - t0),
+            "below {below}: projection {} h, ODE {crossing} h",
+            tp.reached_t - t0
+        );
     }
 }

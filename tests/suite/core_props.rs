@@ -50,7 +50,7 @@ fn route_strategy() -> impl Strategy<Value = Route> {
     prop_oneof![
         Just(Route::Bolus),
         (0.05f64..4.0).prop_map(|hours| Route::Infusion { hours }),
-        (0.05f64..=1.0).prop_map(|f| Route::Oral { f }),
+        (0.05f64..=1.0).prop_map(Route::oral),
     ]
 }
 
@@ -60,7 +60,7 @@ fn route_lines(r: Route) -> String {
         Route::Infusion { hours } => {
             format!("route = \"infusion\"\ninfusion_h = {}\n", toml_f(hours))
         }
-        Route::Oral { f } => format!("route = \"oral\"\nbioavailability = {}\n", toml_f(f)),
+        Route::Oral { f, .. } => format!("route = \"oral\"\nbioavailability = {}\n", toml_f(f)),
     }
 }
 

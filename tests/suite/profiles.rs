@@ -460,8 +460,9 @@ fn the_profile_supplies_the_molar_mass_and_bioavailability() {
     let case = ebb::cli::load_case_with(&path, None).unwrap();
     // Lithium carbonate 73.89 g/mol per two lithium ions [FDA-Li]: 36.945 mg per mmol.
     assert_eq!(case.drug.molar_mass_g_mol, Some(36.945));
-    // Oral F about 90 % [SwissLi-A].
-    assert_eq!(case.doses[0].route, Route::Oral { f: 0.9 });
+    // Oral F about 90 % [SwissLi-A]; absorption ka 0.293 /h, the value Jin et al. fixed
+    // (Front Pharmacol 2022;13:913935, Table 2), no lag.
+    assert_eq!(case.doses[0].route, Route::oral_absorbed(0.9, 0.293, 0.0));
     // Without the profile a molar unit needs the case's own molar mass.
     let path = write(
         dir,

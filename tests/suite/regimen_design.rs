@@ -23,7 +23,22 @@ fn one_dose(d: f64, route: Route, k: f64, v: f64, s: f64) -> f64 {
             r0 / (k * v) * (1.0 - (-k * run).exp()) * (-k * (s - run)).exp()
         }
         Route::Bolus => d / v * (-k * s).exp(),
-        Route::Oral { f } => f * d / v * (-k * s).exp(),
+        Route::Oral {
+            f,
+            absorption: None,
+        } => f * d / v * (-k * s).exp(),
+        Route::Oral {
+            f,
+            absorption: Some(a),
+        } => {
+            // The Bateman equation as printed, away from ka = k.
+            let u = s - a.lag_h;
+            if u <= 0.0 {
+                return 0.0;
+            }
+            let ka = a.ka_per_h;
+            f * d * ka / (v * (ka - k)) * ((-k * u).exp() - (-ka * u).exp())
+        }
     }
 }
 
