@@ -1202,7 +1202,7 @@ fn validate_route(
                             return Err(Error::invalid(
                                 format!("{place}: formulation"),
                                 format!(
-                                    "no formulation {} is known: formulations come from a drug profile that gives their absorption, and this case's has none",
+                                    "no formulation {} is known: this case has no drug profile that lists formulations",
                                     text::quoted(name)
                                 ),
                             ))

@@ -327,7 +327,16 @@ fn volume(case: &Case, fit: &mut Fit) {
         let l = &case.levels[i];
         let c_pre = l.mg_l * (-k * (dose.t - l.t)).exp();
         let t_inf = dose.route.infusion_h();
-        let (num, den) = if t_inf > 0.0 {
+        let (num, den) = if dose.route.absorption().is_some() {
+            // Still absorbing: no level at the dose time to extrapolate to. At the first
+            // fitted level the dose's own part of the fitted line is its Bateman response
+            // over V, the pre-dose level decayed to then being the rest.
+            let t1 = case.levels[fit.used[0]].t;
+            (
+                model::unit_response(dose.amount_mg, dose.route, k, t1 - dose.t).0,
+                fit.line_mg_l(t1) - c_pre * (-k * (t1 - dose.t)).exp(),
+            )
+        } else if t_inf > 0.0 {
             let c_end = fit.line_mg_l(dose.end());
             (
                 dose.amount_mg / t_inf * one_minus_exp_neg(k * t_inf),

@@ -157,6 +157,10 @@ struct JsonPlan {
     peak_sampled_after_h: f64,
     /// Addition: hours per interval at or below the trough ceiling, or null.
     drug_free_h: Option<f64>,
+    /// Addition: hours after the start of a dose at which `peak_ss` falls.
+    peak_after_dose_h: f64,
+    /// Addition: the steady-state level 12 h after a dose (strategies sampled at 12 h), or null.
+    level_12h_ss: Option<f64>,
     /// Addition: 95 % ranges of the steady-state figures (dose-history and Bayesian fits).
     peak_ss_ci95: Option<[f64; 2]>,
     trough_ss_ci95: Option<[f64; 2]>,
@@ -273,6 +277,8 @@ impl From<&Report> for JsonReport {
                 peak_sampled_ss: p.peak_sampled_ss,
                 peak_sampled_after_h: p.peak_sampled_after_h,
                 drug_free_h: p.drug_free_h,
+                peak_after_dose_h: p.peak_after_dose_h,
+                level_12h_ss: p.level_12h_ss,
                 peak_ss_ci95: ci(p.peak_ss_ci95),
                 trough_ss_ci95: ci(p.trough_ss_ci95),
                 auc24_ss_ci95: ci(p.auc24_ss_ci95),

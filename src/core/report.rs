@@ -86,6 +86,16 @@ pub struct PlanSection {
     pub peak_sampled_after_h: f64,
     /// Addition: hours per interval at or below the trough ceiling (strategies that care).
     pub drug_free_h: Option<f64>,
+    /// Addition: hours after the start of a dose at which `peak_ss` falls (the end of the
+    /// infusion; 0 for a bolus or an instant oral dose; the absorbed peak's time for an oral
+    /// dose with a known absorption rate).
+    pub peak_after_dose_h: f64,
+    /// Addition: whether the plan's oral doses are absorbed first-order (the peak is then the
+    /// highest level of the interval, not the level just after the dose).
+    pub peak_absorbed: bool,
+    /// Addition: the steady-state level 12 h after a dose, for a strategy that samples at
+    /// 12 h (lithium); checked against the strategy's range by the profile warnings.
+    pub level_12h_ss: Option<f64>,
     /// Steady-state trough.
     pub trough_ss: Option<f64>,
     /// Steady-state AUC over 24 h (level unit x h).
@@ -286,6 +296,23 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
                     .peak_mg_l
             });
             let peak_sampled = sampled.filter(|_| after > 0.0).map(to);
+            let level_12h_ss = match (pp.steady, patient.v()) {
+                (Some(_), Some(v)) if (after - LEVEL_12H_AFTER_H).abs() < 1e-9 => {
+                    Some(to(crate::core::model::steady_level(
+                        pl.dose_mg,
+                        pl.route,
+                        pl.interval_h,
+                        fit.k,
+                        v,
+                        // With a shorter interval, 12 h after a dose falls in a later one.
+                        match LEVEL_12H_AFTER_H.rem_euclid(pl.interval_h) {
+                            s if s > 0.0 => s,
+                            _ => pl.interval_h.min(LEVEL_12H_AFTER_H),
+                        },
+                    )))
+                }
+                _ => None,
+            };
             let checks = target_checks(&case.targets, peak_sampled.or(peak), trough, auc);
             if let Some(v) = patient.v() {
                 plan_limit_warnings(case, pl, &mut warnings);
@@ -321,6 +348,16 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
                 peak_sampled_ss: peak_sampled,
                 peak_sampled_after_h: after,
                 drug_free_h,
+                peak_after_dose_h: crate::core::model::steady_state(
+                    pl.dose_mg,
+                    pl.route,
+                    pl.interval_h,
+                    fit.k,
+                    1.0,
+                )
+                .peak_after_h,
+                peak_absorbed: pl.route.absorption().is_some(),
+                level_12h_ss,
                 trough_ss: trough,
                 auc24_ss: auc,
                 time_to_ss_h: pp.time_to_ss_h,
@@ -460,6 +497,24 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
     Ok(report)
 }
 
+/// Where the reported steady-state peak falls, in words.
+pub fn peak_where(p: &PlanSection) -> String {
+    if p.peak_absorbed {
+        format!(
+            "{} after the dose (oral absorption, first-order)",
+            span_words(p.peak_after_dose_h)
+        )
+    } else if p.peak_after_dose_h > 0.0 {
+        "at the end of the infusion".into()
+    } else {
+        "just after the dose".into()
+    }
+}
+
+/// The sampling time of the standard lithium level: 12 h after the dose (common practice;
+/// NICE CKS lithium monitoring). A strategy whose peak is sampled then gets `level_12h_ss`.
+pub const LEVEL_12H_AFTER_H: f64 = 12.0;
+
 /// A fitted half-life below this (5 minutes, in hours) is flagged as implausible: the
 /// drugs managed by levels have half-lives of an hour or more even with the fastest
 /// clearance (common practice), so such a fit comes from a slip in the times.
@@ -503,17 +558,14 @@ fn below_limit_warnings(case: &Case, fit: &Fit, warnings: &mut Vec<Warning>) {
 /// Warnings read off the shape of the data: timing, route and curvature.
 fn shape_warnings(case: &Case, fit: &Fit, warnings: &mut Vec<Warning>) {
     below_limit_warnings(case, fit, warnings);
-    if case
-        .doses
-        .iter()
-        .any(|d| matches!(d.route, crate::core::model::Route::Oral { .. }))
-        || matches!(
-            case.plan.as_ref().map(|p| p.route),
-            Some(crate::core::model::Route::Oral { .. })
-        )
+    if case.doses.iter().any(|d| d.route.is_instant_oral())
+        || case
+            .plan
+            .as_ref()
+            .is_some_and(|p| p.route.is_instant_oral())
     {
         warnings.push(Warning::new(Code::OralAbsorption,
-            "oral doses are modelled as an instant dose of F x amount (absorption is not modelled): measured peaks will be lower and later than projected",
+            "no absorption rate (ka) is known for these oral doses (the drug profile gives no formulation), so each is modelled as an instant dose of F x amount: measured peaks will be lower and later than projected",
         ));
     }
     if fit.half_life_h.is_finite() && fit.half_life_h < MIN_PLAUSIBLE_HALF_LIFE_H {
@@ -538,6 +590,25 @@ fn shape_warnings(case: &Case, fit: &Fit, warnings: &mut Vec<Warning>) {
         return;
     }
     let dose = &case.doses[fit.window_dose];
+    if let Some(a) = dose.route.absorption() {
+        // Before about the peak of the dose the level is still rising, or falling slower than
+        // elimination alone: the log-linear line through it understates k.
+        let peak_after = crate::core::model::single_peak_time(dose.route, fit.k);
+        for &i in &fit.used {
+            let after = case.levels[i].t - dose.t;
+            if after < peak_after {
+                warnings.push(Warning::about_level(Code::AbsorptionPhase, case.levels[i].row, format!(
+                    "{} was drawn {} after oral dose {}, before its expected peak (about {} after it, absorption rate {} /h{}): it is in the absorption phase, where the log-linear fit understates k; use levels drawn after the peak, or the dose-history fit, which models absorption",
+                    case.level_name(i),
+                    span_words(after),
+                    dose.row,
+                    span_words(peak_after),
+                    num(a.ka_per_h),
+                    if a.lag_h > 0.0 { format!(", lag {} h", num(a.lag_h)) } else { String::new() }
+                )));
+            }
+        }
+    }
     for &i in &fit.used {
         let after = case.levels[i].t - dose.end();
         if fitted::in_distribution_phase(after, fitted::DISTRIBUTION_PHASE_H) {
@@ -961,8 +1032,14 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
                 let end = p
                     .peak_ss
                     .map_or("not known".into(), |x| format!("{} {u}", num(x)));
-                writeln!(w, "  peak     at the end of the infusion  {end}")?;
-                let name = format!("peak {} h after the end", num(p.peak_sampled_after_h));
+                writeln!(w, "  peak     {}  {end}", peak_where(p))?;
+                let name = if p.level_12h_ss.is_some() {
+                    "level 12 h after a dose".to_string()
+                } else if p.peak_absorbed {
+                    format!("level {} h after the dose", num(p.peak_sampled_after_h))
+                } else {
+                    format!("peak {} h after the end", num(p.peak_sampled_after_h))
+                };
                 let check = p.checks.iter().find(|c| c.name == "peak");
                 let tail = match check {
                     Some(c) => format!(
@@ -974,7 +1051,19 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
                 };
                 writeln!(w, "  {name} at steady state  {} {u}{tail}", num(sampled))?;
             }
-            None => line(w, "peak", p.peak_ss, p.peak_ss_ci95, u)?,
+            None => {
+                line(w, "peak", p.peak_ss, p.peak_ss_ci95, u)?;
+                if p.peak_absorbed {
+                    writeln!(w, "           {}", peak_where(p))?;
+                }
+            }
+        }
+        if let (Some(x), None) = (p.level_12h_ss, p.peak_sampled_ss) {
+            writeln!(
+                w,
+                "  level 12 h after a dose at steady state  {} {u}",
+                num(x)
+            )?;
         }
         line(w, "trough", p.trough_ss, p.trough_ss_ci95, u)?;
         line(w, "AUC24", p.auc24_ss, p.auc24_ss_ci95, &auc_unit(u))?;

@@ -52,8 +52,10 @@ pub enum Code {
     NoTimeRange,
     /// The procedure is before the last dose or level.
     ProcedureBeforeData,
-    /// Oral doses are modelled without absorption.
+    /// Oral doses are modelled without absorption: no absorption rate is known (the fallback).
     OralAbsorption,
+    /// A level in a log-linear fit was drawn while an oral dose was still being absorbed.
+    AbsorptionPhase,
     /// The levels suggest saturable (nonlinear) elimination.
     NonlinearKinetics,
     /// AUC24 from two levels assumes a steady state the interval is not in.
@@ -88,7 +90,7 @@ pub enum Code {
 
 impl Code {
     /// Every code, in declaration order.
-    pub const ALL: [Code; 38] = [
+    pub const ALL: [Code; 39] = [
         Code::OutsideWindow,
         Code::DistributionPhase,
         Code::RisingLevels,
@@ -112,6 +114,7 @@ impl Code {
         Code::NoTimeRange,
         Code::ProcedureBeforeData,
         Code::OralAbsorption,
+        Code::AbsorptionPhase,
         Code::NonlinearKinetics,
         Code::AucNotSteady,
         Code::ProfileUnit,
@@ -155,6 +158,7 @@ impl Code {
             Code::NoTimeRange => "no-time-range",
             Code::ProcedureBeforeData => "procedure-before-data",
             Code::OralAbsorption => "oral-absorption",
+            Code::AbsorptionPhase => "absorption-phase",
             Code::NonlinearKinetics => "nonlinear-kinetics",
             Code::AucNotSteady => "auc-not-steady",
             Code::ProfileUnit => "profile-unit",

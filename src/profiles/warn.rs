@@ -222,6 +222,29 @@ fn plausibility(profile: &Profile, case: &Case, report: &Report, out: &mut Vec<W
     let (Some(s), Some(plan)) = (strategy, &report.plan) else {
         return;
     };
+    // The standard 12-hour level (lithium) against the range quoted at 12 h.
+    if let (Some(x), Some(range)) = (plan.level_12h_ss, s.range.as_ref()) {
+        if let Some(f) = unit_factor(profile, case.drug.scale.unit, case.drug.molar_mass_g_mol) {
+            let (low, high) = (range.low * f, range.high * f);
+            let u = case.drug.scale.unit.as_str();
+            let side = if x < low {
+                Some("below")
+            } else if x > high {
+                Some("above")
+            } else {
+                None
+            };
+            if let Some(side) = side {
+                out.push(Warning::new(Code::OutsideRange, format!(
+                    "the plan's steady-state level 12 h after a dose, {} {u}, is {side} {name}'s range of {}–{} {u} for a level drawn then {}",
+                    num(x),
+                    num(low),
+                    num(high),
+                    range.source
+                )));
+            }
+        }
+    }
     let Some(range) = s
         .range
         .as_ref()

@@ -704,6 +704,14 @@ pub fn peak_sampled(after: &str) -> String {
 }
 /// Beside the end-of-infusion peak when the target is on a later one.
 pub const PEAK_AT_END: &str = "end of infusion";
+/// Beside the peak of a bolus or an instant oral dose when the target is on a later one.
+pub const PEAK_JUST_AFTER: &str = "just after the dose";
+/// Beside an absorbed oral peak: when it falls after the dose.
+pub fn peak_absorbed(after: &str) -> String {
+    format!("{after} after the dose (absorbed)")
+}
+/// The standard level 12 h after a dose (lithium), as a figure's short name.
+pub const LEVEL_12H: &str = "12-h";
 /// Hours per interval at or below the trough ceiling.
 pub const DRUG_FREE: &str = "Drug-free";
 /// Label.

@@ -85,12 +85,24 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
                             format!("{end:<15}"),
                             Style::new().add_modifier(Modifier::BOLD),
                         ),
-                        Span::styled(strings::PEAK_AT_END, quiet()),
+                        Span::styled(peak_where(p), quiet()),
                     ]));
-                    let name = strings::peak_sampled(&num(p.peak_sampled_after_h));
+                    let name = if p.level_12h_ss.is_some() {
+                        strings::LEVEL_12H.to_string()
+                    } else {
+                        strings::peak_sampled(&num(p.peak_sampled_after_h))
+                    };
                     lines.push(figure(&name, Some(sampled), &unit, check("peak")));
                 }
-                None => lines.push(figure(strings::PEAK, p.peak_ss, &unit, check("peak"))),
+                None => {
+                    lines.push(figure(strings::PEAK, p.peak_ss, &unit, check("peak")));
+                    if p.peak_absorbed {
+                        lines.push(Line::styled(format!("{:<8}{}", "", peak_where(p)), quiet()));
+                    }
+                    if let Some(x) = p.level_12h_ss {
+                        lines.push(figure(strings::LEVEL_12H, Some(x), &unit, None));
+                    }
+                }
             }
             lines.push(figure(strings::TROUGH, p.trough_ss, &unit, check("trough")));
             lines.push(figure(
@@ -163,6 +175,17 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
 }
 
 /// A steady-state figure with its target and whether it is met, in words and a symbol.
+/// Where the steady-state peak falls, in the screen's words.
+fn peak_where(p: &crate::core::report::PlanSection) -> String {
+    if p.peak_absorbed {
+        strings::peak_absorbed(&crate::core::clock::span_words(p.peak_after_dose_h))
+    } else if p.peak_after_dose_h > 0.0 {
+        strings::PEAK_AT_END.into()
+    } else {
+        strings::PEAK_JUST_AFTER.into()
+    }
+}
+
 fn figure(name: &str, v: Option<f64>, unit: &str, check: Option<&TargetCheck>) -> Line<'static> {
     let value = match v {
         Some(v) => format!("{} {unit}", num(v)),
