@@ -24,6 +24,7 @@ mod hostile_cli;
 mod layout;
 mod note_cli;
 mod note_figures;
+mod oral;
 mod plot_svg;
 mod profile_lookup;
 mod profiles;
