@@ -108,6 +108,31 @@ pub fn write_show(w: &mut dyn Write, e: &Entry) -> io::Result<()> {
         Some(f) => writeln!(w, "oral F              {}", one(f, ""))?,
         None => writeln!(w, "oral F              none (not given by mouth)")?,
     }
+    for (i, a) in p.absorption.iter().enumerate() {
+        let lag = a
+            .lag_h
+            .as_ref()
+            .map(|l| format!("; lag {}", one(l, " h")))
+            .unwrap_or_default();
+        writeln!(
+            w,
+            "{}{}{}: ka {}{lag}",
+            if i == 0 {
+                "oral absorption     "
+            } else {
+                "                    "
+            },
+            a.formulation,
+            if i == 0 { " (default)" } else { "" },
+            one(&a.ka_per_h, " /h")
+        )?;
+    }
+    if p.absorption.is_empty() && p.bioavailability.is_some() {
+        writeln!(
+            w,
+            "oral absorption     no rate known: oral doses are modelled as instant"
+        )?;
+    }
     match &p.level_valid_after_h {
         Some(v) => writeln!(
             w,
