@@ -275,6 +275,39 @@ pub fn write_note(
         w,
         "{item}Linear one-compartment model, first-order elimination"
     )?;
+    let routes = || {
+        case.doses
+            .iter()
+            .map(|d| d.route)
+            .chain(case.plan.as_ref().map(|p| p.route))
+    };
+    let rates: Vec<String> =
+        routes()
+            .filter_map(|r| r.absorption())
+            .fold(Vec::new(), |mut seen, a| {
+                let words = if a.lag_h > 0.0 {
+                    format!("ka {} /h, lag {} h", num(a.ka_per_h), num(a.lag_h))
+                } else {
+                    format!("ka {} /h", num(a.ka_per_h))
+                };
+                if !seen.contains(&words) {
+                    seen.push(words);
+                }
+                seen
+            });
+    if !rates.is_empty() {
+        writeln!(
+            w,
+            "{item}Oral doses absorbed first-order ({}, from the drug profile)",
+            rates.join("; ")
+        )?;
+    }
+    if routes().any(|r| r.is_instant_oral()) {
+        writeln!(
+            w,
+            "{item}Oral doses modelled as instant (no absorption rate known)"
+        )?;
+    }
     writeln!(w, "{item}k: {}", method_words(r.fit.method))?;
     writeln!(
         w,

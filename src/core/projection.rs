@@ -650,6 +650,16 @@ pub fn course_mg_l(
             let end = if end > start { end } else { start + 1e-6 };
             times.extend([start, end].into_iter().filter(|t| *t > from && *t < to));
         }
+        // An absorbed oral dose starts after its lag and peaks later: sample both.
+        for d in inside.iter().filter(|d| d.route.absorption().is_some()) {
+            let lag = d.route.absorption().map_or(0.0, |a| a.lag_h);
+            let peak = d.t + model::single_peak_time(d.route, p.fit.k);
+            times.extend(
+                [d.t + lag, peak]
+                    .into_iter()
+                    .filter(|t| *t > from && *t < to),
+            );
+        }
     }
     times.sort_by(f64::total_cmp);
     times.dedup();

@@ -105,6 +105,18 @@ fn the_report_gives_the_12_hour_level_and_checks_it_against_the_range() {
         "{text_out}"
     );
     assert!(text_out.contains("level 12 h after a dose"), "{text_out}");
+    // The record note says how oral doses were modelled, and carries the same figures.
+    let meta = ebb::core::note::NoteMeta {
+        made_at: "2027-03-09 18:00".into(),
+        version: "test".into(),
+        source: "case.toml".into(),
+    };
+    let note = ebb::core::note::note_text(case, report, &meta, ebb::core::note::NoteFormat::Text);
+    assert!(
+        note.contains("Oral doses absorbed first-order (ka 0.293 /h, from the drug profile)"),
+        "{note}"
+    );
+    assert!(note.contains("level 12 h after a dose"), "{note}");
     // Twice the dose puts the 12-h level above 0.6-0.8 mmol/L (NICE QS95): a warning.
     let high = analyse(&lithium(800.0, &[(12, 0.62), (22, 0.47)], 1600.0, ""));
     let w = json(&high)["warnings"].to_string();
