@@ -1032,7 +1032,11 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
                 let end = p
                     .peak_ss
                     .map_or("not known".into(), |x| format!("{} {u}", num(x)));
-                writeln!(w, "  peak     {}  {end}", peak_where(p))?;
+                if p.peak_absorbed {
+                    writeln!(w, "  peak     at steady state  {end}, {}", peak_where(p))?;
+                } else {
+                    writeln!(w, "  peak     {}  {end}", peak_where(p))?;
+                }
                 let name = if p.level_12h_ss.is_some() {
                     "level 12 h after a dose".to_string()
                 } else if p.peak_absorbed {
