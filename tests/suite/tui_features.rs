@@ -626,3 +626,35 @@ fn the_help_lists_the_new_keys_and_fits_80x24() {
     ch(&mut app, '?');
     insta::assert_snapshot!("help_case_80x24", draw(&app, 80, 24).backend());
 }
+
+#[test]
+fn the_plan_screen_shows_the_absorbed_peak_and_the_12_hour_level() {
+    // A lithium case (built-in profile, ka 0.293 /h): the screen shows what the report
+    // computes. Invented data.
+    let mut text = String::from(
+        "[patient]\nweight_kg = 70.0\n[drug]\nprofile = \"lithium\"\nlevel_unit = \"mmol/L\"\n",
+    );
+    for day in 2..=8 {
+        text += &format!(
+            "[[dose]]\ntime = 2027-03-0{day}T20:00:00\namount_mg = 800.0\nroute = \"oral\"\n"
+        );
+    }
+    text += "[[level]]\ntime = 2027-03-09T08:00:00\nvalue = 0.62\n[[level]]\ntime = 2027-03-09T18:00:00\nvalue = 0.47\n";
+    text += "[plan]\ndose_mg = 800.0\ninterval_h = 24.0\nroute = \"oral\"\n";
+    let parsed = CaseFile::parse(&text).unwrap();
+    let mut app = demo_with(|f| *f = parsed);
+    app.screen = Screen::Plan;
+    let shown = text_of(&app);
+    let r = app.figures.report.as_ref().expect("a report");
+    let p = r.plan.as_ref().unwrap();
+    assert!(
+        shown.contains(&format!("{} mmol/L", num(p.level_12h_ss.unwrap()))),
+        "{shown}"
+    );
+    assert!(shown.contains("12-h"), "{shown}");
+    assert!(shown.contains("after the dose (absorbed)"), "{shown}");
+}
+
+fn text_of(app: &App) -> String {
+    text(app, 160, 48)
+}
