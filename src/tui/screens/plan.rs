@@ -152,7 +152,7 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
     };
     let lines: Vec<Line> = lines.into_iter().skip(skip).collect();
     Paragraph::new(lines).render(left, buf);
-    match &app.figures.charts.plan {
+    match app.figures.plan_chart() {
         Some(c) => SemiLogChart {
             data: c,
             unit: &unit,
