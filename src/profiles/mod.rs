@@ -739,6 +739,79 @@ mod plausibility_tests {
         assert!(warn::clearly_outside(1.5, 2.0, 3.0));
     }
 
+    fn codes_of(profile: &str, text: &str) -> Vec<(crate::core::warning::Code, String)> {
+        let cat = Catalog::built_in().unwrap();
+        let p = &cat.get(profile).unwrap().profile;
+        let file = CaseFile::parse(text).unwrap();
+        let case = file.validate_with(&defaults_for_file(p, &file)).unwrap();
+        let mut r = report::build(&case).unwrap();
+        apply(p, &case, &mut r);
+        r.warnings
+            .iter()
+            .map(|w| (w.code(), w.text().to_string()))
+            .collect()
+    }
+
+    fn contradiction(w: &[(crate::core::warning::Code, String)]) -> Option<&str> {
+        w.iter()
+            .find(|(c, _)| *c == crate::core::warning::Code::TargetsNotStrategy)
+            .map(|(_, t)| t.as_str())
+    }
+
+    #[test]
+    fn conventional_targets_with_extended_interval_dosing_are_flagged() {
+        // Extended-interval gentamicin sets a trough below 1 mg/L and no peak [SouthTeesGent];
+        // the demo's own targets are the conventional peak 5-10 and trough below 2 mg/L
+        // [UKMi-Gent][MedscapeGent]: they contradict it, and the warning says which are used.
+        let text = crate::demo::DEMO_CASE.replace(
+            "level_unit = \"mg/L\"\n",
+            "level_unit = \"mg/L\"\nstrategy = \"extended-interval\"\n",
+        );
+        let w = codes_of("gentamicin", &text);
+        let t = contradiction(&w).unwrap_or_else(|| panic!("{w:?}"));
+        assert!(
+            t.starts_with(
+                "the case's own targets (peak 5–10 mg/L, trough at most 2 mg/L) contradict the dosing strategy \"extended-interval\" (Extended interval (once daily, 7 mg/kg); targets trough at most 1 mg/L [SouthTeesGent])"
+            ),
+            "{t}"
+        );
+        assert!(t.contains("the strategy sets no peak target"), "{t}");
+        assert!(
+            t.contains("the trough ceiling 2 is above the strategy's 1"),
+            "{t}"
+        );
+        assert!(t.contains("use the case's own targets"), "{t}");
+        // The demo as it is: its targets are the default (conventional) strategy's.
+        assert_eq!(
+            contradiction(&codes_of("gentamicin", crate::demo::DEMO_CASE)),
+            None
+        );
+        // Without [targets] the strategy's own apply: nothing to contradict.
+        let own_gone = text.replace("[targets]\npeak = [5.0, 10.0]\ntrough_max = 2.0\n", "");
+        assert_ne!(own_gone, text);
+        assert_eq!(contradiction(&codes_of("gentamicin", &own_gone)), None);
+    }
+
+    #[test]
+    fn targets_inside_the_strategys_are_not_flagged_and_wider_ones_are() {
+        // Serious gram-negative infection: peak 8-10 mg/L [Bauer3e-AG][Wallace81], trough
+        // below 2 mg/L [UKMi-Gent][MedscapeGent]. A peak of 8.5-9.5 is stricter (kept
+        // quiet); 5-10 reaches below 8 (flagged).
+        let serious = crate::demo::DEMO_CASE.replace(
+            "level_unit = \"mg/L\"\n",
+            "level_unit = \"mg/L\"\nstrategy = \"conventional-serious\"\n",
+        );
+        let w = codes_of("gentamicin", &serious);
+        let t = contradiction(&w).unwrap_or_else(|| panic!("{w:?}"));
+        assert!(
+            t.contains("the peak range 5–10 reaches outside the strategy's 8–10"),
+            "{t}"
+        );
+        assert!(!t.contains("trough ceiling"), "{t}");
+        let stricter = serious.replace("peak = [5.0, 10.0]", "peak = [8.5, 9.5]");
+        assert_eq!(contradiction(&codes_of("gentamicin", &stricter)), None);
+    }
+
     #[test]
     fn a_projection_below_the_trough_range_is_flagged() {
         // Vancomycin trough 15-20 mg/L (2009 surrogate) [Rybak20exec][Rybak20]: a plan whose

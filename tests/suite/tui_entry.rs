@@ -831,6 +831,10 @@ fn the_dosing_strategy_is_chosen_from_the_profiles_strategies_and_undone() {
         intervals.iter().all(|h| [24.0, 36.0, 48.0].contains(h)),
         "{intervals:?}"
     );
+    // The plan screen says the targets are not the strategy's.
+    key(&mut app, KeyCode::Char('3'));
+    assert!(text(&app, 80, 24).contains("✗ targets not the strategy's: screen 2"));
+    key(&mut app, KeyCode::Char('1'));
     key(&mut app, KeyCode::Enter);
     assert_eq!(
         app.file.drug.strategy.as_deref(),
