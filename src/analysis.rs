@@ -153,8 +153,9 @@ pub fn analyse(file: &CaseFile, profiles: &dyn ProfileSource) -> Analysis {
 }
 
 /// As `analyse`, but with `known` (when given) as the fit: the fit of an earlier analysis of
-/// a case file that differs from this one in nothing a fit reads (the screen keeps it when
-/// only the plan changed).
+/// a case file that differs from this one in nothing that fit reads (the screen keeps a
+/// two-point, log-linear or dose-history fit when only the plan changed; a Bayesian or
+/// population fit may read the plan's daily dose).
 pub fn analyse_with_fit(
     file: &CaseFile,
     profiles: &dyn ProfileSource,

@@ -3,8 +3,9 @@
 //!
 //! Two savings keep a keystroke cheap on a long dose record: a chart is sampled only when a
 //! screen draws it (once per state of the case), and an edit of the plan alone keeps the
-//! fit of the state before (the fit reads the doses, levels, patient and drug, never the
-//! plan).
+//! fit of the state before when that fit never reads the plan (two-point, log-linear and
+//! dose-history fits read the doses, levels and drug; a Bayesian or population fit may take
+//! the daily dose from the plan, so it is fitted again).
 
 use std::cell::OnceCell;
 
@@ -103,14 +104,21 @@ impl Figures {
 
     /// The figures of `file` after a change from the state whose figures were `previous`:
     /// as `compute`, but when the change was to the plan alone (`plan_alone`, see
-    /// [`plan_alone_differs`]) the fit of `previous` is kept rather than fitted again.
+    /// [`plan_alone_differs`]) a fit of `previous` that never reads the plan is kept rather
+    /// than fitted again.
     pub fn after_change(
         previous: &Figures,
         plan_alone: bool,
         file: &CaseFile,
         profiles: &Profiles,
     ) -> Figures {
-        let keep = previous.fit.as_ref().filter(|_| plan_alone);
+        let keep = previous.fit.as_ref().filter(|f| {
+            plan_alone
+                && matches!(
+                    f.method,
+                    Method::TwoPoint | Method::LogLinear | Method::DoseHistory
+                )
+        });
         Figures::compute_keeping(file, profiles, keep)
     }
 

@@ -671,3 +671,25 @@ fn only_the_chart_on_screen_is_sampled_and_a_plan_edit_keeps_the_fit() {
 fn ctrl_z(app: &mut App) {
     app.handle_key(KeyEvent::new(KeyCode::Char('z'), KeyModifiers::CONTROL));
 }
+
+#[test]
+fn a_plan_edit_fits_a_bayesian_estimate_again_when_its_model_reads_the_daily_dose() {
+    // The valproate population model's clearance follows the daily dose (profile
+    // valproic-acid; see bayes_prior.rs): its warning names the plan's daily dose, so after a
+    // plan keystroke the Bayesian fit must be that of the new plan, not the one kept.
+    let text = "[patient]\nweight_kg = 70.0\nheight_cm = 175.0\nage_years = 60.0\nsex = \"male\"\ncreatinine_mg_dl = 1.0\n\
+[drug]\nprofile = \"valproic-acid\"\nlevel_unit = \"mg/L\"\n\
+[[dose]]\ntime = 2027-03-02T08:00:00\namount_mg = 500.0\nroute = \"oral\"\n\
+[[dose]]\ntime = 2027-03-02T20:00:00\namount_mg = 500.0\nroute = \"oral\"\n\
+[[level]]\ntime = 2027-03-03T07:30:00\nvalue = 70.0\n\
+[plan]\ndose_mg = 750.0\ninterval_h = 12.0\nroute = \"oral\"\n";
+    let mut app = demo_with(|f| *f = CaseFile::parse(text).unwrap());
+    assert_eq!(app.figures.fit.as_ref().unwrap().method.name(), "bayesian");
+    ch(&mut app, '3');
+    ch(&mut app, '+');
+    let dose = app.file.plan.as_ref().unwrap().dose_mg;
+    assert_ne!(dose, 750.0);
+    let fresh = ebb::tui::figures::Figures::compute(&app.file, &app.profiles);
+    assert_eq!(app.figures.fit, fresh.fit);
+    assert_eq!(app.figures.report, fresh.report);
+}
