@@ -149,6 +149,18 @@ fn validate_with(file: &CaseFile, profile: Option<&Entry>) -> Result<Case> {
 
 /// Run the analysis of a parsed case file with the drug profiles of `profiles`.
 pub fn analyse(file: &CaseFile, profiles: &dyn ProfileSource) -> Analysis {
+    analyse_with_fit(file, profiles, None)
+}
+
+/// As `analyse`, but with `known` (when given) as the fit: the fit of an earlier analysis of
+/// a case file that differs from this one in nothing that fit reads (the screen keeps a
+/// two-point, log-linear or dose-history fit when only the plan changed; a Bayesian or
+/// population fit may read the plan's daily dose).
+pub fn analyse_with_fit(
+    file: &CaseFile,
+    profiles: &dyn ProfileSource,
+    known: Option<&Fit>,
+) -> Analysis {
     let profile = match file.drug.profile.as_deref() {
         None => None,
         Some(name) => match profiles.find(name) {
@@ -163,7 +175,7 @@ pub fn analyse(file: &CaseFile, profiles: &dyn ProfileSource) -> Analysis {
     if let Some(why) = profile.as_ref().and_then(|e| profiles::refusal(&e.profile)) {
         return Analysis::stopped(profile, Some(case), Stop::Refused(why));
     }
-    let fit = match fit::fit(&case) {
+    let fit = match known.map_or_else(|| fit::fit(&case), |f| Ok(f.clone())) {
         Ok(f) => f,
         Err(e) => return Analysis::stopped(profile, Some(case), Stop::Fit(e)),
     };

@@ -122,6 +122,11 @@ pub fn band(case: &Case, fit: &Fit, ts: &[f64]) -> Vec<BandPoint> {
 /// band's lower edge reaches the threshold, the latest where its upper edge does. None
 /// without a spread or V, or when the band's upper edge need not fall (the spread of k is as
 /// wide as k itself: c·SE(ln k) >= 1).
+///
+/// After the last dose has entered, the level is one exponential, so each edge's crossing has
+/// a closed form (`closed_crossing`, one pass over the record for the level at `t0`); it is
+/// checked against the model at the time found, and only where the model is not one
+/// exponential there is the crossing bisected, to the minute it is reported to.
 pub fn threshold_range(case: &Case, fit: &Fit, t0: f64, below_mg_l: f64) -> Option<[f64; 2]> {
     let spread = fit.spread.as_ref()?;
     let v = fit.volume_l?;
@@ -147,35 +152,92 @@ pub fn threshold_range(case: &Case, fit: &Fit, t0: f64, below_mg_l: f64) -> Opti
             a.peak_after(&level, t0, fit.k)
         }
     };
+    let (l0, g0) = ln_level(&given, fit.k, v, start)?;
     let cross = |sign: f64| -> Option<f64> {
-        if edge(start, sign)? <= ln_x {
+        if l0 + sign * spread.quantile * spread.se_ln(g0) <= ln_x {
             return Some(t0);
         }
-        let mut step = fit.half_life_h.clamp(0.1, 1e4);
-        let mut lo = start;
-        let mut hi = start + step;
-        while edge(hi, sign)? > ln_x {
-            lo = hi;
-            step *= 2.0;
-            hi = start + step;
-            if step > 1e7 {
-                return None;
+        if let Some(s) = closed_crossing(l0, g0[0], fit.k, spread, sign, ln_x) {
+            let t = start + s;
+            // The closed form holds where the model is one exponential past the start; check it.
+            if edge(t, sign).is_some_and(|e| (e - ln_x).abs() <= 1e-9 * (1.0 + ln_x.abs())) {
+                return (s <= MAX_CROSSING_H).then_some(t);
             }
         }
-        for _ in 0..200 {
-            let mid = 0.5 * (lo + hi);
-            if mid <= lo || mid >= hi {
-                break;
-            }
-            if edge(mid, sign)? > ln_x {
-                lo = mid;
-            } else {
-                hi = mid;
-            }
-        }
-        Some(hi)
+        bisect_crossing(|t| edge(t, sign), start, fit.half_life_h, ln_x)
     };
     Some([cross(-1.0)?, cross(1.0)?])
+}
+
+/// Crossings further than this many hours past the start are not given.
+const MAX_CROSSING_H: f64 = 1e7;
+
+/// Hours `s` after t0 at which an edge of the band reaches `ln_x`, when the level falls as one
+/// exponential from t0: ln C(s) = l0 − k·s, whose gradient in (ln k, ln V) is (u, −1) with
+/// u = g0 − k·s. The edge is ln C + sign·c·SE, SE = √(gᵀ·Cov·g), so with
+/// R = ln_x − l0 + g0 the crossing solves u + sign·c·SE(u) = R. The left side rises
+/// strictly with u while c·SE(ln k) < 1, so there is one solution; squaring gives
+/// (c²·Cov₁₁ − 1)·u² + 2(R − c²·Cov₁₂)·u + c²·Cov₂₂ − R² = 0, and of its two roots the one
+/// that solves the unsquared equation is taken. `None` when no root is real and finite.
+fn closed_crossing(l0: f64, g0: f64, k: f64, spread: &Spread, sign: f64, ln_x: f64) -> Option<f64> {
+    let cov = &spread.cov;
+    let q2 = spread.quantile * spread.quantile;
+    let r = ln_x - l0 + g0;
+    let f = |u: f64| u + sign * spread.quantile * spread.se_ln([u, -1.0]);
+    let a = q2 * cov[0][0] - 1.0;
+    let b = 2.0 * (r - q2 * cov[0][1]);
+    let c = q2 * cov[1][1] - r * r;
+    let disc = b * b - 4.0 * a * c;
+    if !(a < 0.0 && disc >= 0.0 && disc.is_finite() && k > 0.0) {
+        return None;
+    }
+    let root = disc.sqrt();
+    let u = [(-b + root) / (2.0 * a), (-b - root) / (2.0 * a)]
+        .into_iter()
+        .filter(|u| u.is_finite())
+        .min_by(|x, y| (f(*x) - r).abs().total_cmp(&(f(*y) - r).abs()))?;
+    let s = (g0 - u) / k;
+    (s.is_finite() && s >= 0.0).then_some(s)
+}
+
+/// Where `edge` (falling) first reaches `ln_x` after `t0`, by doubling steps from a
+/// half-life and then halving the bracket until both its ends give the same clock minute,
+/// rounded either way (`ClockTime::at_minute_up` and `at_minute` count minutes from the
+/// axis origin): the minute the time is reported to.
+fn bisect_crossing(
+    edge: impl Fn(f64) -> Option<f64>,
+    t0: f64,
+    half_life_h: f64,
+    ln_x: f64,
+) -> Option<f64> {
+    let up = |h: f64| ((h * 3600.0 - 1e-3) / 60.0).ceil();
+    let near = |h: f64| (h * 60.0).round();
+    let mut step = half_life_h.clamp(0.1, 1e4);
+    let mut lo = t0;
+    let mut hi = t0 + step;
+    while edge(hi)? > ln_x {
+        lo = hi;
+        step *= 2.0;
+        hi = t0 + step;
+        if step > MAX_CROSSING_H {
+            return None;
+        }
+    }
+    for _ in 0..200 {
+        if up(lo) == up(hi) && near(lo) == near(hi) {
+            break;
+        }
+        let mid = 0.5 * (lo + hi);
+        if mid <= lo || mid >= hi {
+            break;
+        }
+        if edge(mid)? > ln_x {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    Some(hi)
 }
 
 /// The one 95 % range of the time the level falls to `below_mg_l` from `t0` (level `c0`) with
@@ -208,6 +270,52 @@ mod tests {
             (g[0] + 1.0).abs() < 1e-8 && (g[1] + 1.0).abs() < 1e-8,
             "{g:?}"
         );
+    }
+
+    /// A spread with a correlation of ln k and ln V, as a dose-history fit gives.
+    fn spread() -> Spread {
+        Spread {
+            cov: [[0.01, -0.004], [-0.004, 0.02]],
+            quantile: 2.2,
+        }
+    }
+
+    #[test]
+    fn the_closed_form_crossing_is_where_the_edge_meets_the_threshold() {
+        // Self-consistency: one exponential after t0 (l0, gradient g0 in ln k at t0), each
+        // edge's crossing from the quadratic against the edge itself at that time.
+        let (k, l0, g0, ln_x) = (0.2, 2.0_f64, -1.3, 0.5_f64.ln());
+        let sp = spread();
+        for sign in [-1.0, 1.0] {
+            let s = closed_crossing(l0, g0, k, &sp, sign, ln_x).unwrap();
+            let u = g0 - k * s;
+            let edge = l0 - k * s + sign * sp.quantile * sp.se_ln([u, -1.0]);
+            assert!((edge - ln_x).abs() < 1e-12, "{sign}: {edge} at {s}");
+        }
+        let early = closed_crossing(l0, g0, k, &sp, -1.0, ln_x).unwrap();
+        let late = closed_crossing(l0, g0, k, &sp, 1.0, ln_x).unwrap();
+        let middle = (l0 - ln_x) / k;
+        assert!(early < middle && middle < late, "{early} {middle} {late}");
+    }
+
+    #[test]
+    fn bisection_stops_at_the_reported_minute() {
+        // Self-consistency: the bisection (used where the level is not one exponential)
+        // gives the same clock minute, rounded up and to the nearest, as the closed form.
+        let (k, l0, g0, ln_x) = (0.2, 2.0_f64, -1.3, 0.5_f64.ln());
+        let sp = spread();
+        for sign in [-1.0, 1.0] {
+            let edge = |t: f64| {
+                let u = g0 - k * t;
+                Some(l0 - k * t + sign * sp.quantile * sp.se_ln([u, -1.0]))
+            };
+            let exact = closed_crossing(l0, g0, k, &sp, sign, ln_x).unwrap();
+            let found = bisect_crossing(edge, 0.0, 3.5, ln_x).unwrap();
+            let up = |h: f64| ((h * 3600.0 - 1e-3) / 60.0).ceil();
+            assert_eq!(up(found), up(exact), "{found} {exact}");
+            assert_eq!((found * 60.0).round(), (exact * 60.0).round());
+            assert!(found >= exact && found - exact < 1.0 / 60.0);
+        }
     }
 
     #[test]

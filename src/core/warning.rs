@@ -86,11 +86,14 @@ pub enum Code {
     ClockChange,
     /// A level was reported below the assay's limit: out of the fit, checked as a bound.
     BelowLimit,
+    /// The case's own targets contradict its dosing strategy's (a target the strategy does
+    /// not use, or a bound outside the strategy's); the case's are the ones used.
+    TargetsNotStrategy,
 }
 
 impl Code {
     /// Every code, in declaration order.
-    pub const ALL: [Code; 39] = [
+    pub const ALL: [Code; 40] = [
         Code::OutsideWindow,
         Code::DistributionPhase,
         Code::RisingLevels,
@@ -130,6 +133,7 @@ impl Code {
         Code::OutsideRange,
         Code::ClockChange,
         Code::BelowLimit,
+        Code::TargetsNotStrategy,
     ];
 
     /// The code as the JSON report spells it.
@@ -174,6 +178,7 @@ impl Code {
             Code::OutsideRange => "outside-range",
             Code::ClockChange => "clock-change",
             Code::BelowLimit => "below-limit",
+            Code::TargetsNotStrategy => "targets-not-strategy",
         }
     }
 }

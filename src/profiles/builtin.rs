@@ -1,39 +1,6 @@
-//! The built-in profiles: the files of `drug-profiles/`, embedded at build time by file stem.
+//! The built-in profiles: the files of `drug-profiles/`, embedded at build time by file
+//! stem, each with its TOML text and the same document as JSON (written by `build.rs`, so
+//! that no TOML is parsed for a built-in at run time; empty when `build.rs` could not
+//! convert the file).
 
-/// (file stem, TOML text) of every built-in profile.
-pub(crate) const BUILT_IN: &[(&str, &str)] = &[
-    (
-        "amikacin",
-        include_str!("../../drug-profiles/amikacin.toml"),
-    ),
-    (
-        "carbamazepine",
-        include_str!("../../drug-profiles/carbamazepine.toml"),
-    ),
-    ("digoxin", include_str!("../../drug-profiles/digoxin.toml")),
-    (
-        "gentamicin",
-        include_str!("../../drug-profiles/gentamicin.toml"),
-    ),
-    ("lithium", include_str!("../../drug-profiles/lithium.toml")),
-    (
-        "phenytoin",
-        include_str!("../../drug-profiles/phenytoin.toml"),
-    ),
-    (
-        "theophylline",
-        include_str!("../../drug-profiles/theophylline.toml"),
-    ),
-    (
-        "tobramycin",
-        include_str!("../../drug-profiles/tobramycin.toml"),
-    ),
-    (
-        "valproic-acid",
-        include_str!("../../drug-profiles/valproic-acid.toml"),
-    ),
-    (
-        "vancomycin",
-        include_str!("../../drug-profiles/vancomycin.toml"),
-    ),
-];
+include!(concat!(env!("OUT_DIR"), "/built_in_profiles.rs"));

@@ -18,6 +18,7 @@ mod text;
 mod warn;
 
 use std::path::{Path, PathBuf};
+use std::sync::Arc;
 
 use crate::core::case::Targets;
 use crate::core::casefile::Defaults;
@@ -64,7 +65,8 @@ fn shown(p: &Path) -> String {
     crate::core::text::printable(&p.display().to_string()).into_owned()
 }
 
-/// One profile with its name (file stem) and origin.
+/// One profile with its name (file stem) and origin (cheap to clone: the profile and its
+/// text are shared).
 #[derive(Debug, Clone, PartialEq)]
 pub struct Entry {
     /// The file stem, as a case's `drug.profile` names it.
@@ -72,9 +74,9 @@ pub struct Entry {
     /// Where it came from.
     pub origin: Origin,
     /// The parsed, validated profile.
-    pub profile: Profile,
+    pub profile: Arc<Profile>,
     /// The TOML text as written (for `ebb profiles show NAME --toml`).
-    pub text: String,
+    pub text: Arc<str>,
 }
 
 impl Entry {
@@ -121,28 +123,22 @@ pub fn override_dir(flag: Option<&Path>) -> Option<PathBuf> {
     }
 }
 
-/// A built-in profile, parsed once per process (a report looks its profile up twice: to
-/// validate the case and to write the report).
-fn parsed_built_in(name: &str, text: &str) -> Result<Entry> {
-    static PARSED: std::sync::Mutex<Vec<Entry>> = std::sync::Mutex::new(Vec::new());
-    if let Some(e) = PARSED
-        .lock()
-        .ok()
-        .and_then(|cache| cache.iter().find(|e| e.name == name).cloned())
-    {
-        return Ok(e);
-    }
-    let file = format!("drug-profiles/{name}.toml (built-in)");
-    let entry = Entry {
+/// A built-in profile from its build-time JSON (`build.rs`): read into the same types as
+/// the TOML. The shipped files are checked by the loader in the tests, which also read each
+/// both ways and compare the two profiles field for field; a debug build checks the JSON's
+/// profile again here. Should the JSON not give a valid profile, the TOML goes through the
+/// ordinary loader, so any error is the loader's own, naming the file, line and field.
+fn built_in_entry(name: &str, text: &str, json: &str) -> Result<Entry> {
+    let profile = match serde_json::from_str::<Profile>(json) {
+        Ok(p) if !cfg!(debug_assertions) || p.validate().is_ok() => p,
+        _ => parse_profile(text, &format!("drug-profiles/{name}.toml (built-in)"))?,
+    };
+    Ok(Entry {
         name: name.to_string(),
         origin: Origin::BuiltIn,
-        profile: parse_profile(text, &file)?,
-        text: text.to_string(),
-    };
-    if let Ok(mut cache) = PARSED.lock() {
-        cache.push(entry.clone());
-    }
-    Ok(entry)
+        profile: Arc::new(profile),
+        text: Arc::from(text),
+    })
 }
 
 impl Catalog {
@@ -170,34 +166,29 @@ impl Catalog {
     /// Only if a built-in file is broken (the tests keep them whole).
     pub fn built_in() -> Result<Catalog> {
         let mut entries = Vec::with_capacity(builtin::BUILT_IN.len());
-        for (name, text) in builtin::BUILT_IN {
-            let file = format!("drug-profiles/{name}.toml (built-in)");
-            entries.push(Entry {
-                name: (*name).to_string(),
-                origin: Origin::BuiltIn,
-                profile: parse_profile(text, &file)?,
-                text: (*text).to_string(),
-            });
+        for (name, text, json) in builtin::BUILT_IN {
+            entries.push(built_in_entry(name, text, json)?);
         }
         entries.sort_by(|a, b| a.name.cmp(&b.name));
         Ok(Catalog { entries })
     }
 
-    /// A catalog in which `wanted` can be looked up, parsing no more than it must: without
-    /// `dir`, only the built-in named `wanted` (the others are not needed, and parsing them
-    /// all dominated the start-up of `ebb report`); with `dir`, or when no built-in has that
-    /// name, the same as `load(dir)`, so lookups, unknown-name messages and broken local
-    /// files behave exactly as there.
+    /// A catalog in which `wanted` can be looked up, reading no more than it must: without
+    /// `dir`, only the built-in named `wanted` (the others are not needed); with `dir`, or
+    /// when no built-in has that name, the same as `load(dir)`, so lookups, unknown-name
+    /// messages and broken local files behave exactly as there.
     ///
     /// # Errors
     /// As `load`.
     pub fn load_for(dir: Option<&Path>, wanted: &str) -> Result<Catalog> {
         match (
             dir,
-            builtin::BUILT_IN.iter().find(|(name, _)| *name == wanted),
+            builtin::BUILT_IN
+                .iter()
+                .find(|(name, _, _)| *name == wanted),
         ) {
-            (None, Some((name, text))) => Ok(Catalog {
-                entries: vec![parsed_built_in(name, text)?],
+            (None, Some((name, text, json))) => Ok(Catalog {
+                entries: vec![built_in_entry(name, text, json)?],
             }),
             _ => Catalog::load(dir),
         }
@@ -248,12 +239,13 @@ impl Catalog {
                         reason,
                     }
                 })?;
-            let profile = parse_profile(&text, &path.display().to_string())?;
+            let profile = Arc::new(parse_profile(&text, &path.display().to_string())?);
+            let text: Arc<str> = Arc::from(text);
             let entry = |origin| Entry {
                 name: name.to_string(),
                 origin,
-                profile: profile.clone(),
-                text: text.clone(),
+                profile: Arc::clone(&profile),
+                text: Arc::clone(&text),
             };
             match cat.entries.iter().position(|e| e.name == name) {
                 Some(i) => cat.entries[i] = entry(Origin::Replaces(path.clone())),
@@ -758,6 +750,79 @@ mod plausibility_tests {
         assert!(!warn::clearly_outside(3.006, 2.0, 3.0));
         assert!(warn::clearly_outside(3.5, 2.0, 3.0));
         assert!(warn::clearly_outside(1.5, 2.0, 3.0));
+    }
+
+    fn codes_of(profile: &str, text: &str) -> Vec<(crate::core::warning::Code, String)> {
+        let cat = Catalog::built_in().unwrap();
+        let p = &cat.get(profile).unwrap().profile;
+        let file = CaseFile::parse(text).unwrap();
+        let case = file.validate_with(&defaults_for_file(p, &file)).unwrap();
+        let mut r = report::build(&case).unwrap();
+        apply(p, &case, &mut r);
+        r.warnings
+            .iter()
+            .map(|w| (w.code(), w.text().to_string()))
+            .collect()
+    }
+
+    fn contradiction(w: &[(crate::core::warning::Code, String)]) -> Option<&str> {
+        w.iter()
+            .find(|(c, _)| *c == crate::core::warning::Code::TargetsNotStrategy)
+            .map(|(_, t)| t.as_str())
+    }
+
+    #[test]
+    fn conventional_targets_with_extended_interval_dosing_are_flagged() {
+        // Extended-interval gentamicin sets a trough below 1 mg/L and no peak [SouthTeesGent];
+        // the demo's own targets are the conventional peak 5-10 and trough below 2 mg/L
+        // [UKMi-Gent][MedscapeGent]: they contradict it, and the warning says which are used.
+        let text = crate::demo::DEMO_CASE.replace(
+            "level_unit = \"mg/L\"\n",
+            "level_unit = \"mg/L\"\nstrategy = \"extended-interval\"\n",
+        );
+        let w = codes_of("gentamicin", &text);
+        let t = contradiction(&w).unwrap_or_else(|| panic!("{w:?}"));
+        assert!(
+            t.starts_with(
+                "the case's own targets (peak 5–10 mg/L, trough at most 2 mg/L) contradict the dosing strategy \"extended-interval\" (Extended interval (once daily, 7 mg/kg); targets trough at most 1 mg/L [SouthTeesGent])"
+            ),
+            "{t}"
+        );
+        assert!(t.contains("the strategy sets no peak target"), "{t}");
+        assert!(
+            t.contains("the trough ceiling 2 is above the strategy's 1"),
+            "{t}"
+        );
+        assert!(t.contains("use the case's own targets"), "{t}");
+        // The demo as it is: its targets are the default (conventional) strategy's.
+        assert_eq!(
+            contradiction(&codes_of("gentamicin", crate::demo::DEMO_CASE)),
+            None
+        );
+        // Without [targets] the strategy's own apply: nothing to contradict.
+        let own_gone = text.replace("[targets]\npeak = [5.0, 10.0]\ntrough_max = 2.0\n", "");
+        assert_ne!(own_gone, text);
+        assert_eq!(contradiction(&codes_of("gentamicin", &own_gone)), None);
+    }
+
+    #[test]
+    fn targets_inside_the_strategys_are_not_flagged_and_wider_ones_are() {
+        // Serious gram-negative infection: peak 8-10 mg/L [Bauer3e-AG][Wallace81], trough
+        // below 2 mg/L [UKMi-Gent][MedscapeGent]. A peak of 8.5-9.5 is stricter (kept
+        // quiet); 5-10 reaches below 8 (flagged).
+        let serious = crate::demo::DEMO_CASE.replace(
+            "level_unit = \"mg/L\"\n",
+            "level_unit = \"mg/L\"\nstrategy = \"conventional-serious\"\n",
+        );
+        let w = codes_of("gentamicin", &serious);
+        let t = contradiction(&w).unwrap_or_else(|| panic!("{w:?}"));
+        assert!(
+            t.contains("the peak range 5–10 reaches outside the strategy's 8–10"),
+            "{t}"
+        );
+        assert!(!t.contains("trough ceiling"), "{t}");
+        let stricter = serious.replace("peak = [5.0, 10.0]", "peak = [8.5, 9.5]");
+        assert_eq!(contradiction(&codes_of("gentamicin", &stricter)), None);
     }
 
     #[test]

@@ -425,7 +425,7 @@ mod tests {
     #[test]
     fn gentamicin_summary_values_need_a_residual_error() {
         let cat = crate::profiles::Catalog::built_in().unwrap();
-        let g = cat.get("gentamicin").unwrap().profile.clone();
+        let g = Profile::clone(&cat.get("gentamicin").unwrap().profile);
         let mut without = g.clone();
         without.population.as_mut().unwrap().residual_error_percent = None;
         assert_eq!(prior_of(&without), None);

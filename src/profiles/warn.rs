@@ -2,13 +2,14 @@
 //! level unit, kinetics, route; and the refusal for drugs whose kinetics are not first-order.
 
 use crate::core::case::Case;
+use crate::core::case::Targets;
 use crate::core::clock::span_words;
 use crate::core::fitted;
 use crate::core::model::Route;
 use crate::core::report::{num, Report};
 use crate::core::warning::{Code, Warning};
 use crate::profiles::schema::{FirstOrder, Profile};
-use crate::profiles::unit_factor;
+use crate::profiles::{targets_of, unit_factor};
 
 /// Why first-order projections are refused for this profile, or `None` when they are not.
 ///
@@ -154,8 +155,112 @@ pub fn warnings(profile: &Profile, case: &Case, report: &Report) -> Vec<Warning>
             typical.source
         )));
     }
+    out.extend(targets_against_strategy(profile, case));
     plausibility(profile, case, report, &mut out);
     out
+}
+
+/// Targets in words (`peak 5–10 mg/L, trough at most 2 mg/L`).
+fn targets_words(t: &Targets, unit: &str) -> String {
+    let mut parts = Vec::new();
+    if let Some([lo, hi]) = t.peak {
+        parts.push(format!("peak {}–{} {unit}", num(lo), num(hi)));
+    }
+    if let Some(x) = t.trough_max {
+        parts.push(format!("trough at most {} {unit}", num(x)));
+    }
+    if let Some([lo, hi]) = t.auc24 {
+        let u = crate::core::units::auc_unit(unit);
+        parts.push(format!("AUC24 {}–{} {u}", num(lo), num(hi)));
+    }
+    parts.join(", ")
+}
+
+/// Whether `x` is above `limit` by more than rounding (a target converted between units
+/// may differ from the profile's in the last digits).
+fn above(x: f64, limit: f64) -> bool {
+    x > limit * (1.0 + 1e-9) + 1e-12
+}
+
+/// The case's own targets against the dosing strategy in force (chosen in `drug.strategy`,
+/// else the profile's default): a warning when the case sets a target the strategy does not
+/// use (a conventional peak with extended-interval dosing, a trough with AUC dosing), or a
+/// bound outside the strategy's range or above its ceiling. A case without `[targets]` has
+/// the strategy's own, so it never contradicts them; a case whose targets are inside the
+/// strategy's (stricter) does not either. The suggestions and checks use the case's targets
+/// either way: the warning says so.
+fn targets_against_strategy(profile: &Profile, case: &Case) -> Option<Warning> {
+    let s = case
+        .regimen
+        .strategy
+        .as_deref()
+        .and_then(|n| profile.strategy(n))?;
+    let f = unit_factor(profile, case.drug.scale.unit, case.drug.molar_mass_g_mol)?;
+    let own = &case.targets;
+    let theirs = targets_of(s, f);
+    if own.is_empty() || theirs.is_empty() {
+        return None;
+    }
+    let mut why: Vec<String> = Vec::new();
+    let range = |what: &str,
+                 own: Option<[f64; 2]>,
+                 theirs: Option<[f64; 2]>,
+                 why: &mut Vec<String>| {
+        match (own, theirs) {
+            (Some(_), None) => why.push(format!("the strategy sets no {what} target")),
+            (Some([lo, hi]), Some([slo, shi])) if above(slo, lo) || above(hi, shi) => {
+                why.push(format!(
+                    "the {what} range {}–{} reaches outside the strategy's {}–{}",
+                    num(lo),
+                    num(hi),
+                    num(slo),
+                    num(shi)
+                ))
+            }
+            _ => {}
+        }
+    };
+    range("peak", own.peak, theirs.peak, &mut why);
+    match (own.trough_max, theirs.trough_max) {
+        (Some(_), None) => why.push("the strategy sets no trough ceiling".into()),
+        (Some(x), Some(limit)) if above(x, limit) => why.push(format!(
+            "the trough ceiling {} is above the strategy's {}",
+            num(x),
+            num(limit)
+        )),
+        _ => {}
+    }
+    range("AUC24", own.auc24, theirs.auc24, &mut why);
+    if why.is_empty() {
+        return None;
+    }
+    let unit = case.drug.scale.unit.as_str();
+    let sources: Vec<&str> = [
+        s.peak.as_ref().map(|x| x.source.as_str()),
+        s.trough_max.as_ref().map(|x| x.source.as_str()),
+        s.auc24.as_ref().map(|x| x.source.as_str()),
+    ]
+    .into_iter()
+    .flatten()
+    .collect();
+    let mut cited: Vec<&str> = Vec::new();
+    for src in sources {
+        if !cited.contains(&src) {
+            cited.push(src);
+        }
+    }
+    Some(Warning::new(
+        Code::TargetsNotStrategy,
+        format!(
+            "the case's own targets ({}) contradict the dosing strategy {} ({}; targets {} {}): {}. The plan's checks and the suggestions use the case's own targets with the strategy's intervals; remove [targets] to use the strategy's, or choose the strategy the targets belong to",
+            targets_words(own, unit),
+            crate::core::text::quoted(&s.name),
+            s.label,
+            targets_words(&theirs, unit),
+            cited.join(""),
+            why.join("; ")
+        ),
+    ))
 }
 
 /// Whether `x` lies clearly outside `[low, high]`: by more than 10 % of the nearer end (a

@@ -10,7 +10,7 @@ use crate::files::{recover, toml_keep};
 use crate::tui::catalog::Profiles;
 use crate::tui::effect::Effect;
 use crate::tui::fields::Field;
-use crate::tui::figures::Figures;
+use crate::tui::figures::{self, Figures};
 use crate::tui::strings;
 
 /// The five screens, in tab order.
@@ -393,7 +393,8 @@ impl App {
         let mut next = self.file.clone();
         change(&mut next)?;
         if next != self.file {
-            let before = std::mem::replace(&mut self.file, next);
+            let mut before = std::mem::replace(&mut self.file, next);
+            let plan_alone = figures::plan_alone_differs(&mut before, &self.file);
             self.undo.push(Undo {
                 file: before,
                 what: String::new(),
@@ -403,7 +404,8 @@ impl App {
             }
             self.undo_unlabelled = true;
             self.dirty = self.file != self.saved;
-            self.figures = Figures::compute(&self.file, &self.profiles);
+            self.figures =
+                Figures::after_change(&self.figures, plan_alone, &self.file, &self.profiles);
         }
         Ok(())
     }
@@ -440,11 +442,12 @@ impl App {
     /// Put the case back as it was before the last change; `None` when there is nothing
     /// to undo, else what was undone.
     pub fn undo_last(&mut self) -> Option<String> {
-        let u = self.undo.pop()?;
+        let mut u = self.undo.pop()?;
         self.undo_unlabelled = false;
+        let plan_alone = figures::plan_alone_differs(&mut u.file, &self.file);
         self.file = u.file;
         self.dirty = self.file != self.saved;
-        self.figures = Figures::compute(&self.file, &self.profiles);
+        self.figures = Figures::after_change(&self.figures, plan_alone, &self.file, &self.profiles);
         Some(u.what)
     }
 

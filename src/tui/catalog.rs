@@ -76,12 +76,14 @@ impl ProfileSource for Profiles {
     }
 }
 
-/// The targets a case gets from its profile when it has no `[targets]` of its own, in the
-/// case's level unit (empty when the unit cannot be converted).
+/// The targets a case gets from its profile when it has no `[targets]` of its own: those of
+/// the strategy it names (`None`: the profile's default), in the case's level unit (empty
+/// when the unit cannot be converted).
 pub fn profile_targets(
     entry: &Entry,
+    strategy: Option<&str>,
     level_unit: Option<&str>,
     molar_mass: Option<f64>,
 ) -> Targets {
-    profiles::defaults_for(&entry.profile, level_unit, molar_mass).targets
+    profiles::defaults_for_strategy(&entry.profile, strategy, level_unit, molar_mass).targets
 }

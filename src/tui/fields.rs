@@ -117,7 +117,8 @@ impl Field {
             | Field::Unit
             | Field::DoseRoute(_)
             | Field::LevelUse(_)
-            | Field::PlanRoute => Kind::Choice,
+            | Field::PlanRoute
+            | Field::Strategy => Kind::Choice,
             _ => Kind::Text,
         }
     }
@@ -342,6 +343,7 @@ impl Field {
                 }
             }
             Field::TimeZone => f.time_zone = text_opt(),
+            // Chosen from the profile's strategies (`update`); only cleared as text.
             Field::Strategy => f.drug.strategy = text_opt(),
             Field::SwitchTo => switch_mut(f).to = text_opt(),
             Field::SwitchBelow => switch_mut(f).start_below = entry::optional_number(text)?,

@@ -1,5 +1,13 @@
 //! The figures the screens show, all computed by the core from the case file: validation,
 //! the fit, the report, and the model's course sampled for the charts.
+//!
+//! Two savings keep a keystroke cheap on a long dose record: a chart is sampled only when a
+//! screen draws it (once per state of the case), and an edit of the plan alone keeps the
+//! fit of the state before when that fit never reads the plan (two-point, log-linear and
+//! dose-history fits read the doses, levels and drug; a Bayesian or population fit may take
+//! the daily dose from the plan, so it is fitted again).
+
+use std::cell::OnceCell;
 
 use crate::analysis::{self, Stop};
 use crate::core::case::Case;
@@ -40,17 +48,17 @@ pub enum ThresholdFrom {
     LastFittedLevel,
 }
 
-/// The charts of the four figure screens.
-#[derive(Debug, Clone, Default, PartialEq)]
-pub struct Charts {
+/// The charts of the four figure screens, each sampled the first time it is asked for.
+#[derive(Debug, Clone, Default)]
+struct Charts {
     /// Levels, fitted line, model course and threshold.
-    pub fit: Option<ChartData>,
+    fit: OnceCell<Option<ChartData>>,
     /// The projected course of the plan to steady state.
-    pub plan: Option<ChartData>,
+    plan: OnceCell<Option<ChartData>>,
     /// The fall to the threshold.
-    pub threshold: Option<ChartData>,
+    threshold: OnceCell<Option<ChartData>>,
     /// The washout, with each half-life marked.
-    pub washout: Option<ChartData>,
+    washout: OnceCell<Option<ChartData>>,
 }
 
 /// Everything computed from one state of the case file.
@@ -66,8 +74,8 @@ pub struct Figures {
     pub problem: Option<Problem>,
     /// Where the threshold projection starts from.
     pub threshold_from: Option<ThresholdFrom>,
-    /// The charts.
-    pub charts: Charts,
+    /// The charts, sampled when first drawn.
+    charts: Charts,
 }
 
 fn problem(e: &Error, invalid_case: bool) -> Problem {
@@ -87,11 +95,35 @@ fn problem(e: &Error, invalid_case: bool) -> Problem {
 }
 
 impl Figures {
-    /// Run the one analysis on the case file (with its drug profile, as `ebb report` does)
-    /// and draw the charts; never panics, never fails: what cannot be computed is left
-    /// `None` with the reason in `problem`.
+    /// Run the one analysis on the case file (with its drug profile, as `ebb report` does);
+    /// never panics, never fails: what cannot be computed is left `None` with the reason in
+    /// `problem`. The charts are sampled when first drawn.
     pub fn compute(file: &CaseFile, profiles: &Profiles) -> Figures {
-        let a = analysis::analyse(file, profiles);
+        Figures::compute_keeping(file, profiles, None)
+    }
+
+    /// The figures of `file` after a change from the state whose figures were `previous`:
+    /// as `compute`, but when the change was to the plan alone (`plan_alone`, see
+    /// [`plan_alone_differs`]) a fit of `previous` that never reads the plan is kept rather
+    /// than fitted again.
+    pub fn after_change(
+        previous: &Figures,
+        plan_alone: bool,
+        file: &CaseFile,
+        profiles: &Profiles,
+    ) -> Figures {
+        let keep = previous.fit.as_ref().filter(|f| {
+            plan_alone
+                && matches!(
+                    f.method,
+                    Method::TwoPoint | Method::LogLinear | Method::DoseHistory
+                )
+        });
+        Figures::compute_keeping(file, profiles, keep)
+    }
+
+    fn compute_keeping(file: &CaseFile, profiles: &Profiles, fit: Option<&Fit>) -> Figures {
+        let a = analysis::analyse_with_fit(file, profiles, fit);
         let problem = a.stop.as_ref().map(|stop| match stop {
             Stop::Refused(why) => Problem {
                 place: Some("drug.profile".into()),
@@ -112,12 +144,6 @@ impl Figures {
             }
         };
         let patient = Patient::new(&case, &fit);
-        let charts = Charts {
-            fit: Some(fit_chart(&case, &fit, &patient)),
-            plan: plan_chart(&case, &report, &patient),
-            threshold: threshold_chart(&case, &patient),
-            washout: washout_chart(&case, &report, &patient),
-        };
         let threshold_from =
             case.threshold
                 .as_ref()
@@ -132,9 +158,69 @@ impl Figures {
             report: Some(report),
             problem: None,
             threshold_from,
-            charts,
+            charts: Charts::default(),
         }
     }
+
+    /// One chart, sampled by `make` the first time it is asked for; `None` without a report.
+    fn chart<'a>(
+        &'a self,
+        cell: &'a OnceCell<Option<ChartData>>,
+        make: fn(&Case, &Fit, &Report, &Patient) -> Option<ChartData>,
+    ) -> Option<&'a ChartData> {
+        cell.get_or_init(|| {
+            let (case, fit, report) = (
+                self.case.as_ref()?,
+                self.fit.as_ref()?,
+                self.report.as_ref()?,
+            );
+            make(case, fit, report, &Patient::new(case, fit))
+        })
+        .as_ref()
+    }
+
+    /// Levels, fitted line, model course and threshold (screen 2).
+    pub fn fit_chart(&self) -> Option<&ChartData> {
+        self.chart(&self.charts.fit, |c, f, _, p| Some(fit_chart(c, f, p)))
+    }
+
+    /// The projected course of the plan to steady state (screen 3).
+    pub fn plan_chart(&self) -> Option<&ChartData> {
+        self.chart(&self.charts.plan, |c, _, r, p| plan_chart(c, r, p))
+    }
+
+    /// The fall to the threshold (screen 4).
+    pub fn threshold_chart(&self) -> Option<&ChartData> {
+        self.chart(&self.charts.threshold, |c, _, _, p| threshold_chart(c, p))
+    }
+
+    /// The washout, with each half-life marked (screen 5).
+    pub fn washout_chart(&self) -> Option<&ChartData> {
+        self.chart(&self.charts.washout, |c, _, r, p| washout_chart(c, r, p))
+    }
+
+    /// Which charts have been sampled so far: fit, plan, threshold, washout.
+    pub fn charts_built(&self) -> [bool; 4] {
+        let c = &self.charts;
+        [
+            c.fit.get().is_some(),
+            c.plan.get().is_some(),
+            c.threshold.get().is_some(),
+            c.washout.get().is_some(),
+        ]
+    }
+}
+
+/// Whether two states of the case file differ, and only in `[plan]` (`before` is borrowed
+/// mutably to compare it without a copy of the dose record, and left as it was).
+pub fn plan_alone_differs(before: &mut CaseFile, after: &CaseFile) -> bool {
+    if before.plan == after.plan {
+        return false;
+    }
+    let plan = std::mem::replace(&mut before.plan, after.plan.clone());
+    let same_otherwise = *before == *after;
+    before.plan = plan;
+    same_otherwise
 }
 
 fn to_level(case: &Case, pts: Vec<(f64, f64)>) -> Vec<(f64, f64)> {
@@ -332,4 +418,30 @@ fn washout_chart(case: &Case, r: &Report, p: &Patient) -> Option<ChartData> {
         guide: threshold_guide(case),
         vline: None,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_plan_edit_alone_is_told_from_any_other() {
+        let demo = CaseFile::parse(crate::demo::DEMO_CASE).unwrap();
+        let mut before = demo.clone();
+        let mut plan = demo.clone();
+        if let Some(p) = plan.plan.as_mut() {
+            p.dose_mg += 10.0;
+        }
+        assert!(plan_alone_differs(&mut before, &plan));
+        assert_eq!(before, demo, "left as it was");
+        // No change, a change elsewhere, or both: not the plan alone.
+        assert!(!plan_alone_differs(&mut before, &demo));
+        let mut level = demo.clone();
+        level.levels[0].value = 0.8;
+        assert!(!plan_alone_differs(&mut before, &level));
+        let mut both = plan.clone();
+        both.levels[0].value = 0.8;
+        assert!(!plan_alone_differs(&mut before, &both));
+        assert_eq!(before, demo);
+    }
 }

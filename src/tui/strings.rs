@@ -482,7 +482,7 @@ pub fn field_label(f: Field) -> (&'static str, &'static str) {
         Field::SwitchTo => ("Next agent", "(free text)"),
         Field::SwitchBelow => ("Start below", ""),
         Field::SwitchHalfLives => ("or after", "half-lives (one of the two)"),
-        Field::Strategy => ("Strategy", "(empty: the profile's default)"),
+        Field::Strategy => ("Strategy", ""),
     }
 }
 
@@ -867,6 +867,10 @@ pub fn profile_kinetics(why: &str) -> String {
 pub fn profile_strategy(label: &str) -> String {
     format!("Default targets: {label}")
 }
+/// The heading of the strategy the case chose.
+pub fn profile_chosen_strategy(label: &str) -> String {
+    format!("Chosen strategy: {label}")
+}
 /// The targets of the strategy.
 pub fn profile_targets(list: &str) -> String {
     format!("{list} (used unless the case sets its own)")
@@ -900,6 +904,33 @@ pub fn profile_chosen(display: &str, unit_now: Option<&str>) -> String {
             "Profile {display} chosen; levels now in {u} (i shows its details; Ctrl-Z undoes)."
         ),
         None => format!("Profile {display} chosen (i shows its details; Ctrl-Z undoes)."),
+    }
+}
+/// Under the plan's targets when they contradict the dosing strategy (at most 41 columns).
+pub const TARGETS_NOT_STRATEGY: &str = "✗ targets not the strategy's: screen 2";
+/// Stepping the strategy of a case with no profile.
+pub const STRATEGY_NEEDS_PROFILE: &str =
+    "A dosing strategy belongs to a drug profile; choose one with p first.";
+/// The strategy after a step: its name and label; whether it is the profile's default; and
+/// whether the case's own targets stay in force.
+pub fn strategy_now(name: &str, label: &str, is_default: bool, own_targets: bool) -> String {
+    let which = if is_default {
+        format!("Strategy: the profile's default, {name} ({label})")
+    } else {
+        format!("Strategy: {name} ({label})")
+    };
+    if own_targets {
+        format!("{which}; its intervals and sampling apply, the case's own targets stay.")
+    } else {
+        format!("{which}; its targets, intervals and sampling apply.")
+    }
+}
+/// How the case screen shows the strategy beside its name: the label, or the default's.
+pub fn strategy_shown(label: &str, is_default: bool) -> String {
+    if is_default {
+        format!("default: {label}")
+    } else {
+        label.to_string()
     }
 }
 /// `i` without a profile.

@@ -329,6 +329,9 @@ fn activate(app: &mut App, space: bool) {
     if field == Field::Unit {
         return rows::step_unit(app);
     }
+    if field == Field::Strategy {
+        return step_strategy(app);
+    }
     match field.kind() {
         Kind::Choice => {
             let had_plan = app.file.plan.is_some();
@@ -579,7 +582,7 @@ fn clear(app: &mut App) {
             | Field::PlanDose
             | Field::PlanInterval
             | Field::Unit
-    ) || field.kind() == Kind::Choice;
+    ) || (field.kind() == Kind::Choice && field != Field::Strategy);
     if required {
         return app.complain(strings::cannot_clear(&field.name()));
     }
@@ -927,6 +930,61 @@ fn profile_info(app: &mut App, top: u16, action: Action) {
         Action::Cancel | Action::Help => app.mode = Mode::Normal,
         _ => {}
     }
+}
+
+// ---- dosing strategy ------------------------------------------------------------------------
+
+/// The strategies the Strategy line steps through: the profile's default (no `strategy` in
+/// the case), then each other strategy in the profile's order.
+fn strategy_order(p: &crate::profiles::Profile) -> Vec<Option<String>> {
+    std::iter::once(None)
+        .chain(
+            p.strategies
+                .iter()
+                .filter(|s| s.name != p.default_strategy)
+                .map(|s| Some(s.name.clone())),
+        )
+        .collect()
+}
+
+/// Step the case's dosing strategy to the next of its profile's, and say which it is now,
+/// with its label.
+fn step_strategy(app: &mut App) {
+    let Some(name) = app.file.drug.profile.clone() else {
+        return app.complain(strings::STRATEGY_NEEDS_PROFILE);
+    };
+    let p = match app.profiles.lookup(&name) {
+        Ok(e) => e.profile.clone(),
+        Err(e) => return app.complain(e),
+    };
+    let order = strategy_order(&p);
+    let now = app
+        .file
+        .drug
+        .strategy
+        .clone()
+        .filter(|n| *n != p.default_strategy);
+    let next = match order.iter().position(|o| *o == now) {
+        Some(i) => order[(i + 1) % order.len()].clone(),
+        // A name the profile does not have: back to the default.
+        None => None,
+    };
+    let r = app.change(|f| {
+        f.drug.strategy = next.clone();
+        Ok(())
+    });
+    if let Err(e) = r {
+        return app.complain(e);
+    }
+    let shown = next.as_deref().unwrap_or(&p.default_strategy);
+    let label = p.strategy(shown).map_or("", |s| s.label.as_str());
+    let own_targets = app.file.targets.is_some();
+    app.say(strings::strategy_now(
+        shown,
+        label,
+        next.is_none(),
+        own_targets,
+    ));
 }
 
 // ---- fit method ----------------------------------------------------------------------------

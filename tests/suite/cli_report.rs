@@ -210,3 +210,50 @@ fn demo_report_json_parses_with_the_contract_keys() {
         assert!(v["threshold"].get(*k).is_some(), "threshold.{k}");
     }
 }
+
+#[test]
+fn targets_that_contradict_the_strategy_are_a_typed_warning_in_text_and_json() {
+    // Extended-interval gentamicin: trough below 1 mg/L, no peak [SouthTeesGent]; the demo's
+    // own targets are the conventional ones (peak 5-10, trough below 2 mg/L
+    // [UKMi-Gent][MedscapeGent]).
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("case.toml");
+    let text = ebb::demo::DEMO_CASE.replace(
+        "level_unit = \"mg/L\"\n",
+        "level_unit = \"mg/L\"\nstrategy = \"extended-interval\"\n",
+    );
+    std::fs::write(&path, text).unwrap();
+    let p = path.to_str().unwrap();
+    let o = ebb(&["report", "--json", p]);
+    assert_eq!(o.status.code(), Some(0), "{}", err(&o));
+    let j: Value = serde_json::from_str(&out(&o)).unwrap();
+    let codes: Vec<&str> = j["warning_codes"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|c| c.as_str().unwrap())
+        .collect();
+    let at = codes
+        .iter()
+        .position(|c| *c == "targets-not-strategy")
+        .unwrap_or_else(|| panic!("{codes:?}"));
+    let words = j["warnings"][at].as_str().unwrap();
+    assert!(words.contains("use the case's own targets"), "{words}");
+    // The suggestions follow the strategy's intervals with the case's targets (the
+    // regimen the patient is on is listed as well, marked current).
+    let suggestions = j["suggestions"].as_array().unwrap();
+    assert!(suggestions.iter().any(|s| s["current"] == false));
+    for s in suggestions.iter().filter(|s| s["current"] == false) {
+        assert!(
+            [24.0, 36.0, 48.0].contains(&s["interval_h"].as_f64().unwrap()),
+            "{s}"
+        );
+    }
+    let o = ebb(&["report", p]);
+    assert!(
+        out(&o)
+            .contains("the case's own targets (peak 5–10 mg/L, trough at most 2 mg/L) contradict"),
+        "{}",
+        out(&o)
+    );
+}

@@ -70,6 +70,12 @@ fn every_shipped_profile_parses_and_is_built_in() {
         assert!(p.default_strategy().is_some());
         assert!(!p.cautions.is_empty(), "{stem} has cautions");
         assert_eq!(cat.get(stem).unwrap().origin, Origin::BuiltIn);
+        // The built-in is read from the JSON build.rs wrote, not from this TOML: the two
+        // must give the same profile, field for field, and keep the text as written.
+        assert_eq!(*cat.get(stem).unwrap().profile, p, "{stem}");
+        assert_eq!(&*cat.get(stem).unwrap().text, text.as_str(), "{stem}");
+        let one = Catalog::load_for(None, stem).unwrap();
+        assert_eq!(*one.get(stem).unwrap().profile, p, "{stem}");
     }
 }
 

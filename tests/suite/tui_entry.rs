@@ -779,19 +779,96 @@ fn every_help_list_fits_whole_at_80x24() {
 }
 
 #[test]
-fn the_dosing_strategy_is_typed_on_the_case_screen() {
+fn the_dosing_strategy_is_chosen_from_the_profiles_strategies_and_undone() {
+    // The gentamicin profile's strategies (drug-profiles/gentamicin.toml): the default
+    // "conventional", then the others in file order.
     use ebb::tui::fields::Field;
     let mut app = App::demo();
     go_to(&mut app, CaseLine::Field(Field::Strategy));
+    let line = |app: &App| {
+        text(app, 80, 24)
+            .lines()
+            .find(|l| l.contains("Strategy"))
+            .unwrap_or_default()
+            .to_string()
+    };
+    assert!(
+        line(&app).contains("default: Conventional (multiple daily dosing)"),
+        "{}",
+        line(&app)
+    );
+    // Enter steps the choice: typed letters never become a strategy name.
     key(&mut app, KeyCode::Enter);
-    typed(&mut app, "extended-interval");
-    key(&mut app, KeyCode::Enter);
+    assert_eq!(app.mode, Mode::Normal);
+    assert_eq!(
+        app.file.drug.strategy.as_deref(),
+        Some("conventional-serious")
+    );
+    key(&mut app, KeyCode::Char(' '));
     assert_eq!(app.file.drug.strategy.as_deref(), Some("extended-interval"));
+    assert!(
+        message(&app).contains("extended-interval (Extended interval (once daily, 7 mg/kg))"),
+        "{}",
+        message(&app)
+    );
+    // The demo has its own [targets]: they stay, and the message says so.
+    assert!(message(&app).contains("the case's own targets stay"));
+    assert!(line(&app).contains("Extended interval"), "{}", line(&app));
     assert!(app
         .file
         .to_toml()
         .unwrap()
         .contains("strategy = \"extended-interval\""));
+    // The suggestions follow the strategy's intervals (24, 36, 48 h); the regimen the
+    // patient is on is listed too, marked as current.
+    let intervals: Vec<f64> = screens::suggestions(&app)
+        .iter()
+        .filter(|s| !s.current)
+        .map(|s| s.interval_h)
+        .collect();
+    assert!(!intervals.is_empty());
+    assert!(
+        intervals.iter().all(|h| [24.0, 36.0, 48.0].contains(h)),
+        "{intervals:?}"
+    );
+    // The plan screen says the targets are not the strategy's.
+    key(&mut app, KeyCode::Char('3'));
+    assert!(text(&app, 80, 24).contains("✗ targets not the strategy's: screen 2"));
+    key(&mut app, KeyCode::Char('1'));
+    key(&mut app, KeyCode::Enter);
+    assert_eq!(
+        app.file.drug.strategy.as_deref(),
+        Some("endocarditis-synergy")
+    );
+    // Round to the default again.
+    key(&mut app, KeyCode::Enter);
+    assert_eq!(app.file.drug.strategy, None);
+    // Each step is one undo.
+    ctrl(&mut app, 'z');
+    assert_eq!(
+        app.file.drug.strategy.as_deref(),
+        Some("endocarditis-synergy")
+    );
+    ctrl(&mut app, 'z');
+    assert_eq!(app.file.drug.strategy.as_deref(), Some("extended-interval"));
+    // Delete goes back to the profile's default.
+    key(&mut app, KeyCode::Delete);
+    assert_eq!(app.file.drug.strategy, None);
+}
+
+#[test]
+fn a_strategy_needs_a_profile() {
+    use ebb::tui::fields::Field;
+    let mut app = App::new_case();
+    go_to(&mut app, CaseLine::Field(Field::Strategy));
+    key(&mut app, KeyCode::Enter);
+    assert_eq!(app.mode, Mode::Normal);
+    assert_eq!(app.file.drug.strategy, None);
+    assert!(
+        message(&app).contains("choose one with p first"),
+        "{}",
+        message(&app)
+    );
 }
 
 #[test]

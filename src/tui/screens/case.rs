@@ -38,7 +38,13 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
     let selected = screens::selected_case_line(app);
     let lines = screens::case_lines(&app.file);
     let sel_index = lines.iter().position(|l| *l == selected);
-    let mut left = field_rows(app, &lines, selected);
+    // The fields' column: the wide layout's right panel, or the whole width.
+    let fields_w = if area.width >= 120 {
+        usize::from(PANEL_W.saturating_sub(2))
+    } else {
+        usize::from(area.width)
+    };
+    let mut left = field_rows(app, &lines, selected, fields_w);
     let right = table_rows(app, &lines, selected);
     if area.width >= 120 {
         // The profile's targets, sampling advice and cautions under the drug fields.
@@ -63,6 +69,16 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
         scrolled(all, sel_index, main, buf);
     }
     Paragraph::new(footer_lines).render(foot, buf);
+}
+
+/// `text` cut to `room` characters, ending in `…` when cut.
+fn cut(text: &str, room: usize) -> String {
+    if text.chars().count() <= room {
+        return text.to_string();
+    }
+    let mut out: String = text.chars().take(room.saturating_sub(1)).collect();
+    out.push('…');
+    out
 }
 
 fn scrolled(rows: Vec<Row>, sel: Option<usize>, area: Rect, buf: &mut Buffer) {
@@ -98,7 +114,8 @@ fn derived(app: &App) -> Vec<String> {
     strings::derived_patient(size.ideal_kg, size.adjusted_kg, size.bmi, crcl)
 }
 
-fn field_rows(app: &App, lines: &[CaseLine], selected: CaseLine) -> Vec<Row> {
+/// The patient, drug, clock and switch fields, `width` columns wide at most.
+fn field_rows(app: &App, lines: &[CaseLine], selected: CaseLine, width: usize) -> Vec<Row> {
     let mut out: Vec<Row> = vec![(Line::styled(strings::PATIENT, heading()), None)];
     let unit_now = app.file.drug.level_unit.clone().unwrap_or_default();
     let groups = PATIENT_FIELDS
@@ -127,10 +144,18 @@ fn field_rows(app: &App, lines: &[CaseLine], selected: CaseLine) -> Vec<Row> {
         let is_sel = selected == line;
         let shown = or_dash(f.text(&app.file));
         let (label, unit) = strings::field_label(*f);
-        let unit = if *f == Field::SwitchBelow {
-            unit_now.as_str()
-        } else {
-            unit
+        // The strategy's label beside its name, cut to the room left on the line.
+        let strategy_label = (*f == Field::Strategy)
+            .then(|| screens::strategy_in_force(app))
+            .flatten()
+            .map(|(label, is_default)| {
+                let room = width.saturating_sub(2 + 15 + shown.chars().count() + 1);
+                cut(&strings::strategy_shown(&label, is_default), room)
+            });
+        let unit = match (*f, &strategy_label) {
+            (Field::SwitchBelow, _) => unit_now.as_str(),
+            (Field::Strategy, Some(l)) => l.as_str(),
+            _ => unit,
         };
         out.push((
             field_line(app, *f, label, 14, shown, unit, is_sel),

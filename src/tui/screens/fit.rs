@@ -20,7 +20,7 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
         app.figures.case.as_ref(),
         app.figures.fit.as_ref(),
         app.figures.report.as_ref(),
-        app.figures.charts.fit.as_ref(),
+        app.figures.fit_chart(),
     ) else {
         return no_fit(app, area, buf);
     };

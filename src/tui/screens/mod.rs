@@ -155,13 +155,29 @@ pub fn profile_info_lines(app: &App) -> Vec<(InfoKind, String)> {
         .profile
         .as_deref()
         .and_then(|n| app.profiles.get(n))
-        .map(entry_lines)
+        .map(|e| entry_lines(e, app.file.drug.strategy.as_deref()))
         .unwrap_or_default()
 }
 
-/// One profile as lines: what it is, its levels and half-life, the default targets with
-/// their sampling advice, the kinetics limit, and the cautions.
-pub fn entry_lines(e: &Entry) -> Vec<(InfoKind, String)> {
+/// The label of the dosing strategy in force for the case, and whether it is the profile's
+/// default (the case names none, or names the default); `None` without a profile or with a
+/// name the profile does not have.
+pub fn strategy_in_force(app: &App) -> Option<(String, bool)> {
+    let p = &app.profiles.get(app.file.drug.profile.as_deref()?)?.profile;
+    let name = app
+        .file
+        .drug
+        .strategy
+        .as_deref()
+        .unwrap_or(&p.default_strategy);
+    let s = p.strategy(name)?;
+    Some((s.label.clone(), name == p.default_strategy))
+}
+
+/// One profile as lines: what it is, its levels and half-life, the targets of `strategy`
+/// (`None`, or a name it does not have: the default) with their sampling advice, the
+/// kinetics limit, and the cautions.
+pub fn entry_lines(e: &Entry, strategy: Option<&str>) -> Vec<(InfoKind, String)> {
     let p = &e.profile;
     let mut out = vec![
         (
@@ -186,7 +202,10 @@ pub fn entry_lines(e: &Entry) -> Vec<(InfoKind, String)> {
             strings::profile_kinetics(&p.kinetics.why),
         ));
     }
-    if let Some(st) = p.default_strategy() {
+    let chosen = strategy
+        .filter(|n| *n != p.default_strategy)
+        .and_then(|n| p.strategy(n));
+    if let Some(st) = chosen.or_else(|| p.default_strategy()) {
         let u = p.level_unit.as_str();
         let mut parts = Vec::new();
         if let Some(r) = &st.peak {
@@ -201,7 +220,11 @@ pub fn entry_lines(e: &Entry) -> Vec<(InfoKind, String)> {
         if let Some(r) = &st.range {
             parts.push(strings::target_range(&num(r.low), &num(r.high), u));
         }
-        out.push((InfoKind::Heading, strings::profile_strategy(&st.label)));
+        let heading = match chosen {
+            Some(_) => strings::profile_chosen_strategy(&st.label),
+            None => strings::profile_strategy(&st.label),
+        };
+        out.push((InfoKind::Heading, heading));
         if !parts.is_empty() {
             out.push((InfoKind::Text, strings::profile_targets(&parts.join(", "))));
         }
@@ -230,6 +253,7 @@ pub fn profile_targets(app: &App) -> Option<crate::core::case::Targets> {
     let entry = app.profiles.get(name)?;
     let t = catalog::profile_targets(
         entry,
+        app.file.drug.strategy.as_deref(),
         app.file.drug.level_unit.as_deref(),
         app.file.drug.molar_mass_g_mol,
     );

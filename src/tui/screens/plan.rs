@@ -63,6 +63,14 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
             app.cursors.plan == i,
         ));
     }
+    let contradicts = app.figures.report.as_ref().is_some_and(|r| {
+        r.warnings
+            .iter()
+            .any(|w| w.code() == crate::core::warning::Code::TargetsNotStrategy)
+    });
+    if contradicts {
+        lines.push(Line::styled(strings::TARGETS_NOT_STRATEGY, problem_style()));
+    }
     lines.push(Line::styled(strings::AT_STEADY_STATE, heading()));
     match (&app.file.plan, plan_part, &app.figures.problem) {
         (None, _, _) => {
@@ -164,7 +172,7 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
     };
     let lines: Vec<Line> = lines.into_iter().skip(skip).collect();
     Paragraph::new(lines).render(left, buf);
-    match &app.figures.charts.plan {
+    match app.figures.plan_chart() {
         Some(c) => SemiLogChart {
             data: c,
             unit: &unit,

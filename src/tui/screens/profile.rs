@@ -127,7 +127,7 @@ pub fn draw_chooser(app: &App, at: usize, body: Rect, buf: &mut Buffer) {
             text_w,
         ),
         (Ok(es), i) => match es.get(i - 1) {
-            Some(e) => wrapped(&entry_lines(e), text_w),
+            Some(e) => wrapped(&entry_lines(e, None), text_w),
             None => Vec::new(),
         },
     };

@@ -137,7 +137,7 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
         width: right.width.saturating_sub(1),
         ..right
     };
-    match &app.figures.charts.threshold {
+    match app.figures.threshold_chart() {
         Some(c) => SemiLogChart {
             data: c,
             unit: &unit,

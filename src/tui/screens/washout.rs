@@ -17,10 +17,7 @@ use crate::tui::widgets::{self, heading, quiet};
 
 /// Draw the washout screen.
 pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
-    let (Some(r), Some(chart)) = (
-        app.figures.report.as_ref(),
-        app.figures.charts.washout.as_ref(),
-    ) else {
+    let (Some(r), Some(chart)) = (app.figures.report.as_ref(), app.figures.washout_chart()) else {
         return no_figures(app, area, buf);
     };
     // The table's columns take the width their widest entry needs (a level in nmol/L
