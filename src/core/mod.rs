@@ -23,6 +23,7 @@ pub mod projection;
 pub mod regimen;
 pub mod renal;
 pub mod report;
+pub mod saturable;
 pub mod spread;
 pub mod switch;
 pub mod text;
@@ -38,7 +39,7 @@ mod layering {
     //! is no cycle); nothing in the core reaches the shells or a terminal crate.
 
     /// Every core module, bottom to top: a module may use only modules listed before it.
-    const ORDER: [&str; 29] = [
+    const ORDER: [&str; 30] = [
         "text",
         "error",
         "units",
@@ -47,6 +48,7 @@ mod layering {
         "format",
         "model",
         "minimise",
+        "saturable",
         "prior",
         "case",
         "casefile",
