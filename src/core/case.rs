@@ -53,6 +53,8 @@ pub struct Drug {
     pub scale: Scale,
     /// Molar mass in g/mol, when known.
     pub molar_mass_g_mol: Option<f64>,
+    /// The salt the doses are written as (`drug.salt`), when the case names one.
+    pub salt: Option<String>,
 }
 
 /// A dose actually given.
@@ -96,6 +98,8 @@ pub struct Level {
     pub below_limit: bool,
     /// Free text.
     pub note: Option<String>,
+    /// A free (unbound) level rather than a total one (saturable drug profiles only).
+    pub free: bool,
 }
 
 impl Level {
