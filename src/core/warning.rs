@@ -86,11 +86,21 @@ pub enum Code {
     ClockChange,
     /// A level was reported below the assay's limit: out of the fit, checked as a bound.
     BelowLimit,
+    /// Saturable elimination: a dose increase larger than the small steps of common practice.
+    LargeDoseStep,
+    /// Saturable elimination: a level drawn before the dose rate could reach steady state.
+    NotSteadyState,
+    /// Saturable elimination: low albumin or renal failure without a measured free level.
+    BindingUncertain,
+    /// Saturable elimination: a daily dose at or above Vmax has no steady state.
+    AboveVmax,
+    /// Saturable elimination: how Vmax and Km were found and what limits them.
+    SaturableEstimate,
 }
 
 impl Code {
     /// Every code, in declaration order.
-    pub const ALL: [Code; 39] = [
+    pub const ALL: [Code; 44] = [
         Code::OutsideWindow,
         Code::DistributionPhase,
         Code::RisingLevels,
@@ -130,6 +140,11 @@ impl Code {
         Code::OutsideRange,
         Code::ClockChange,
         Code::BelowLimit,
+        Code::LargeDoseStep,
+        Code::NotSteadyState,
+        Code::BindingUncertain,
+        Code::AboveVmax,
+        Code::SaturableEstimate,
     ];
 
     /// The code as the JSON report spells it.
@@ -174,6 +189,11 @@ impl Code {
             Code::OutsideRange => "outside-range",
             Code::ClockChange => "clock-change",
             Code::BelowLimit => "below-limit",
+            Code::LargeDoseStep => "large-dose-step",
+            Code::NotSteadyState => "not-steady-state",
+            Code::BindingUncertain => "binding-uncertain",
+            Code::AboveVmax => "above-vmax",
+            Code::SaturableEstimate => "saturable-estimate",
         }
     }
 }
