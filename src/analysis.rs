@@ -5,14 +5,16 @@
 //!
 //! The steps, always in this order: look up the profile the case names (once: the same entry
 //! gives the case its defaults and the report its warnings); validate the case with the
-//! profile's defaults; refuse first-order projections for a drug whose profile says they do
-//! not hold; fit; build the report; put the profile's warnings in front of the report's own.
+//! profile's defaults; for a drug whose profile says first-order kinetics does not hold, run
+//! the saturable (Michaelis-Menten) analysis when the profile has one and refuse otherwise;
+//! fit; build the report; put the profile's warnings in front of the report's own.
 
 use crate::core::case::Case;
 use crate::core::casefile::CaseFile;
 use crate::core::error::{Error, Result};
 use crate::core::fit::{self, Fit};
 use crate::core::report::{self, Report};
+use crate::core::saturable_report::{self, Params, SaturableReport};
 use crate::core::warning::{Code, Warning};
 use crate::profiles::{self, Catalog, Entry};
 
@@ -80,6 +82,18 @@ pub struct Analysis {
     pub report: Option<Report>,
     /// Why it stopped short of the report, when it did.
     pub stop: Option<Stop>,
+    /// The saturable (Michaelis-Menten) analysis, for a drug whose profile has one: then
+    /// `fit` and `report` (first-order) are `None` and `stop` is `None`.
+    pub saturable: Option<Saturable>,
+}
+
+/// The saturable analysis of a case and the profile values it used.
+#[derive(Debug, Clone)]
+pub struct Saturable {
+    /// What the profile gave.
+    pub params: Params,
+    /// The report.
+    pub report: SaturableReport,
 }
 
 /// A finished analysis: every part there.
@@ -103,6 +117,7 @@ impl Analysis {
             fit: None,
             report: None,
             stop: Some(stop),
+            saturable: None,
         }
     }
 
@@ -160,6 +175,31 @@ pub fn analyse(file: &CaseFile, profiles: &dyn ProfileSource) -> Analysis {
         Ok(c) => c,
         Err(e) => return Analysis::stopped(profile, None, Stop::Case(e)),
     };
+    let params = profile
+        .as_ref()
+        .and_then(|e| profiles::saturable_params(&e.profile, &case));
+    if let Some(params) = params {
+        return match saturable_report::analyse(&case, &params) {
+            Ok(report) => Analysis {
+                profile,
+                case: Some(case),
+                fit: None,
+                report: None,
+                stop: None,
+                saturable: Some(Saturable { params, report }),
+            },
+            Err(e @ Error::Invalid { .. }) => Analysis::stopped(profile, Some(case), Stop::Case(e)),
+            Err(e) => Analysis::stopped(profile, Some(case), Stop::Fit(e)),
+        };
+    }
+    if let Some(l) = case.levels.iter().find(|l| l.free) {
+        let e = Error::invalid(
+            format!("level {}", l.row),
+            "free: a free (unbound) level is read only for a drug whose profile has saturable \
+             elimination (phenytoin); enter the total level for this drug",
+        );
+        return Analysis::stopped(profile, Some(case), Stop::Case(e));
+    }
     if let Some(why) = profile.as_ref().and_then(|e| profiles::refusal(&e.profile)) {
         return Analysis::stopped(profile, Some(case), Stop::Refused(why));
     }
@@ -176,6 +216,7 @@ pub fn analyse(file: &CaseFile, profiles: &dyn ProfileSource) -> Analysis {
                 fit: Some(fit),
                 report: None,
                 stop: Some(Stop::Report(e)),
+                saturable: None,
             }
         }
     };
@@ -191,6 +232,7 @@ pub fn analyse(file: &CaseFile, profiles: &dyn ProfileSource) -> Analysis {
         fit: Some(fit),
         report: Some(report),
         stop: None,
+        saturable: None,
     }
 }
 

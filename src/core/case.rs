@@ -31,6 +31,9 @@ pub struct Patient {
     pub albumin_g_l: Option<f64>,
     /// Whether the patient is on intermittent haemodialysis.
     pub dialysis: Option<bool>,
+    /// Renal failure (`[patient] renal_failure`), for the albumin adjustment of a saturable
+    /// drug's level (haemodialysis counts too).
+    pub renal_failure: Option<bool>,
 }
 
 /// Sex as used by creatinine-clearance equations.

@@ -91,6 +91,10 @@ pub struct PatientFile {
     pub albumin_g_l: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub dialysis: Option<bool>,
+    /// Addition: renal failure (creatinine clearance below 10-20 mL/min or end-stage renal
+    /// disease): the albumin adjustment of a saturable drug's level takes its renal form.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub renal_failure: Option<bool>,
 }
 
 /// `[drug]` as written.
@@ -1100,6 +1104,7 @@ fn validate_patient(p: &PatientFile) -> Result<Patient> {
         albumin_g_dl: albumin,
         albumin_g_l: p.albumin_g_l,
         dialysis: p.dialysis,
+        renal_failure: p.renal_failure,
     })
 }
 

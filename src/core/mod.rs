@@ -24,6 +24,7 @@ pub mod regimen;
 pub mod renal;
 pub mod report;
 pub mod saturable;
+pub mod saturable_report;
 pub mod spread;
 pub mod switch;
 pub mod text;
@@ -66,6 +67,7 @@ mod layering {
         "procedure",
         "switch",
         "advice",
+        "saturable_report",
         "report",
         "json",
         "note",
