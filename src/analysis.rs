@@ -275,13 +275,54 @@ value = 2.0
     }
 
     #[test]
-    fn a_drug_whose_kinetics_are_not_first_order_is_refused_before_the_fit() {
+    fn a_saturable_drug_gets_the_saturable_analysis_and_no_first_order_fit() {
         let cat = Catalog::built_in().unwrap();
         let a = analyse(&parse(&DOSES.replace("PROFILE", "phenytoin")), &cat);
+        assert!(a.stop.is_none(), "{:?}", a.stop);
+        assert!(a.fit.is_none() && a.report.is_none());
+        let s = a.saturable.unwrap();
+        // One level on 400 mg/day with the population Km of 5.7 mg/L: Vmax = 400·(5.7 + C)/C
+        // for the last level, C = 2 mg/L (no weight: the algebra alone).
+        assert!((s.report.vmax_mg_per_day - 400.0 * 7.7 / 2.0).abs() < 1e-9);
+    }
+
+    struct One(Entry);
+
+    impl ProfileSource for One {
+        fn find(&self, _: &str) -> Result<&Entry> {
+            Ok(&self.0)
+        }
+    }
+
+    #[test]
+    fn a_drug_that_is_not_first_order_without_a_saturable_section_is_refused() {
+        let text = include_str!("../drug-profiles/phenytoin.toml");
+        let cut = text.find("\n[saturable]\n").unwrap();
+        let rest = &text[cut..];
+        let end = rest.find("\n[sources]\n").unwrap();
+        let text = format!("{}{}", &text[..cut], &rest[end..]);
+        let profile = profiles::parse_profile(&text, "phenytoin.toml").unwrap();
+        let entry = Entry {
+            name: "phenytoin".into(),
+            origin: profiles::Origin::BuiltIn,
+            profile,
+            text,
+        };
+        let a = analyse(&parse(&DOSES.replace("PROFILE", "phenytoin")), &One(entry));
         assert!(matches!(a.stop, Some(Stop::Refused(_))));
-        assert!(a.case.is_some() && a.fit.is_none());
         let e = a.finished().unwrap_err().to_string();
         assert!(e.starts_with("drug.profile: \"phenytoin\": "), "{e}");
+    }
+
+    #[test]
+    fn a_free_level_of_a_first_order_drug_is_refused_by_row() {
+        let cat = Catalog::built_in().unwrap();
+        let text = DOSES.replace("PROFILE", "gentamicin").replace(
+            "value = 2.0\n",
+            "value = 2.0\nfree = true\n",
+        );
+        let e = analyse(&parse(&text), &cat).finished().unwrap_err().to_string();
+        assert!(e.starts_with("level 2: free: a free (unbound) level"), "{e}");
     }
 
     #[test]
