@@ -217,6 +217,11 @@ pub struct SaturableReport {
     pub warnings: Vec<Warning>,
 }
 
+/// The fewest days on one daily dose before a level counts as steady state, whatever the
+/// estimate says (common practice for phenytoin: steady state takes 7-35 days, [Liverpool]
+/// in the profile).
+pub const MIN_DAYS_TO_STEADY: f64 = 7.0;
+
 fn stamp(case: &Case, t: f64, what: &str) -> Result<ClockTime> {
     case.clock.at_minute(t).ok_or_else(|| {
         Error::invalid(
@@ -376,7 +381,7 @@ pub fn analyse(case: &Case, p: &Params) -> Result<SaturableReport> {
             .ok_or_else(|| {
                 Error::Fit(format!(
                     "levels {} and {} do not fit saturable elimination: {} mg/L on {} mg/day and \
-                     {} mg/L on {} mg/day give no positive Km (the level must rise more than in \
+                     {} mg/L on {} mg/day (reaching the circulation) give no positive Km (the level must rise more than in \
                      proportion to the dose); check that both were drawn at steady state and \
                      that the doses were taken, or set use = false on one",
                     o.row,
@@ -445,8 +450,10 @@ pub fn analyse(case: &Case, p: &Params) -> Result<SaturableReport> {
                         format!(
                             "the fit to the dose record (Vmax {} mg/day, Km {} mg/L) and the \
                              steady-state algebra (Vmax {} mg/day, Km {} mg/L) disagree by more \
-                             than 25 %: the record is taken to start drug-free, so enter any \
-                             earlier doses, and check that the levels were at steady state",
+                             than 25 %: the algebra takes each level as the steady-state average \
+                             (no swing within the dosing interval) and the record fit takes the \
+                             record to start drug-free, so enter any earlier doses and check that \
+                             the levels were at steady state; the record fit is used",
                             num(f.kinetics.vmax_mg_per_day),
                             num(f.kinetics.km_mg_l),
                             num(alg_vmax),
@@ -483,45 +490,69 @@ pub fn analyse(case: &Case, p: &Params) -> Result<SaturableReport> {
         ),
         None => (alg_method, alg_vmax, alg_km),
     };
+    // A Vmax far from the population's (whose between-patient spread is 10-20 %) points to
+    // missed doses, a wrong dose record or unit, or a level drawn at the wrong time.
+    let weight = case.patient.weight_kg.unwrap_or(70.0);
+    let typical = p.vmax_70kg_mg_per_day * (weight / 70.0).powf(p.vmax_weight_exponent);
+    if vmax > 2.0 * typical || vmax < 0.5 * typical {
+        warnings.push(Warning::new(
+            Code::SaturableEstimate,
+            format!(
+                "Vmax {} mg/day is far from the population value of about {} mg/day for {} kg: \
+                 check that the doses were taken as recorded, the dose record and units, and \
+                 the level's time before using these figures",
+                num(vmax),
+                num(typical),
+                num(weight)
+            ),
+        ));
+    }
     let kin = volume.map(|v| Kinetics {
         vmax_mg_per_day: vmax,
         km_mg_l: km,
         volume_l: v,
     });
 
-    // Steady state of the levels the algebra used.
+    // Steady state of the levels the algebra used: at least MIN_DAYS_TO_STEADY days on the
+    // same daily dose, and at least the time to 90 % of steady state when the volume is known.
     for r in dosed.iter().filter(|r| algebra_rows.contains(&r.row)) {
-        match saturable::ss_level(vmax, km, r.rate_mg_per_day) {
-            None => warnings.push(Warning::about_level(
+        let t90 = volume
+            .and_then(|v| saturable::days_to_90pct(vmax, km, v, r.rate_mg_per_day))
+            .map(|d| d * HOURS_PER_DAY);
+        if saturable::ss_level(vmax, km, r.rate_mg_per_day).is_none() {
+            warnings.push(Warning::about_level(
                 Code::NotSteadyState,
                 r.row,
                 format!(
                     "level {}: its daily dose is at or above Vmax, so it was not at steady state",
                     r.row
                 ),
-            )),
-            Some(_) => {
-                if let Some(v) = volume {
-                    let days = saturable::days_to_90pct(vmax, km, v, r.rate_mg_per_day);
-                    if let Some(h) = days.map(|d| d * HOURS_PER_DAY) {
-                        if r.hours_on_rate < h {
-                            warnings.push(Warning::about_level(
-                                Code::NotSteadyState,
-                                r.row,
-                                format!(
-                                    "level {}: drawn {} after the daily dose last changed (or the \
-                                     record began); about {} are needed to reach 90 % of steady \
-                                     state on that dose, so the steady-state figures may be wrong \
-                                     — repeat the level later",
-                                    r.row,
-                                    span_words(r.hours_on_rate),
-                                    span_words(h)
-                                ),
-                            ));
-                        }
-                    }
-                }
-            }
+            ));
+            continue;
+        }
+        let needed = t90.unwrap_or(0.0).max(MIN_DAYS_TO_STEADY * HOURS_PER_DAY);
+        if r.hours_on_rate < needed {
+            let why = match t90 {
+                Some(h) if h >= MIN_DAYS_TO_STEADY * HOURS_PER_DAY => format!(
+                    "about {} are needed to reach 90 % of steady state on that dose",
+                    span_words(h)
+                ),
+                _ => format!(
+                    "steady state takes at least {} days",
+                    num(MIN_DAYS_TO_STEADY)
+                ),
+            };
+            warnings.push(Warning::about_level(
+                Code::NotSteadyState,
+                r.row,
+                format!(
+                    "level {}: drawn {} after the daily dose last changed (or the record \
+                     began); {why}, so the steady-state figures may be wrong — repeat the level \
+                     later",
+                    r.row,
+                    span_words(r.hours_on_rate)
+                ),
+            ));
         }
     }
 
@@ -732,7 +763,10 @@ pub fn analyse(case: &Case, p: &Params) -> Result<SaturableReport> {
                 level_mg_l: c,
                 half_life_here_h: half(c),
             });
-            let done = match below {
+            // Until the threshold is passed, or a tenth of the range's low end (8 rows
+            // without a range); at least 3 rows, at most 14.
+            let floor = below.or(range.map(|r| r[0] / 10.0));
+            let done = match floor {
                 None => n >= 8,
                 Some(b) => c <= b && n >= 3,
             };
