@@ -317,12 +317,17 @@ value = 2.0
     #[test]
     fn a_free_level_of_a_first_order_drug_is_refused_by_row() {
         let cat = Catalog::built_in().unwrap();
-        let text = DOSES.replace("PROFILE", "gentamicin").replace(
-            "value = 2.0\n",
-            "value = 2.0\nfree = true\n",
+        let text = DOSES
+            .replace("PROFILE", "gentamicin")
+            .replace("value = 2.0\n", "value = 2.0\nfree = true\n");
+        let e = analyse(&parse(&text), &cat)
+            .finished()
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.starts_with("level 2: free: a free (unbound) level"),
+            "{e}"
         );
-        let e = analyse(&parse(&text), &cat).finished().unwrap_err().to_string();
-        assert!(e.starts_with("level 2: free: a free (unbound) level"), "{e}");
     }
 
     #[test]

@@ -94,13 +94,14 @@ pub fn write_report(out: &mut dyn Write, a: &Analysis, name: &str, as_json: bool
         let written = if as_json {
             writeln!(out, "{}", json::saturable_to_json(case, &sat.report))
         } else {
-            crate::core::saturable_report::write_text(out, case, &sat.report, &sat.params)
-                .and_then(|()| match &a.profile {
+            crate::core::saturable_report::write_text(out, case, &sat.report, &sat.params).and_then(
+                |()| match &a.profile {
                     Some(e) => {
                         profiles::write_profile_note(out, e, case.regimen.strategy.as_deref())
                     }
                     None => Ok(()),
-                })
+                },
+            )
         };
         return written.map_err(output);
     }

@@ -413,7 +413,11 @@ mod tests {
         // (Grasela TH et al., Clin Pharmacokinet 1983;8(4):355-364, PMID 6617043):
         // 250 mg/day -> 5.7·250/165 = 8.6364; 300 -> 5.7·300/115 = 14.870;
         // 350 -> 5.7·350/65 = 30.692 mg/L.
-        for (r, want) in [(250.0, 8.636_363_6), (300.0, 14.869_565), (350.0, 30.692_308)] {
+        for (r, want) in [
+            (250.0, 8.636_363_6),
+            (300.0, 14.869_565),
+            (350.0, 30.692_308),
+        ] {
             let c = ss_level(415.0, 5.7, r).unwrap();
             assert!((c - want).abs() < 1e-5, "{r}: {c}");
         }
@@ -562,7 +566,10 @@ mod tests {
         assert!((f.kinetics.km_mg_l - 5.7).abs() < 0.001, "{f:?}");
         assert!(f.rms_log < 1e-6);
         // With Km held, Vmax alone from one level.
-        let start = Kinetics { km_mg_l: 5.7, ..start };
+        let start = Kinetics {
+            km_mg_l: 5.7,
+            ..start
+        };
         let f = fit_record(&start, &inputs, &obs[..1], false).unwrap();
         assert!((f.kinetics.vmax_mg_per_day - 415.0).abs() < 0.01, "{f:?}");
     }

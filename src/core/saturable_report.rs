@@ -356,7 +356,10 @@ pub fn analyse(case: &Case, p: &Params) -> Result<SaturableReport> {
                 .into(),
         ));
     };
-    let dosed: Vec<&Reading> = readings.iter().filter(|r| r.rate_mg_per_day > 0.0).collect();
+    let dosed: Vec<&Reading> = readings
+        .iter()
+        .filter(|r| r.rate_mg_per_day > 0.0)
+        .collect();
     let Some(last) = dosed.last().copied() else {
         return Err(Error::Fit(format!(
             "level {}: no dose in the 24 h before it; the saturable analysis needs a level drawn \
@@ -613,7 +616,11 @@ pub fn analyse(case: &Case, p: &Params) -> Result<SaturableReport> {
             .map(|o| o.amount_mg.unwrap_or(0.0))
             .sum::<f64>()
     });
-    let range = case.targets.peak.map(|r| r.map(|x| case.drug.scale.to_mg_l(x))).or(p.range_mg_l);
+    let range = case
+        .targets
+        .peak
+        .map(|r| r.map(|x| case.drug.scale.to_mg_l(x)))
+        .or(p.range_mg_l);
     let target = range.map(|r| (r[0] + r[1]) / 2.0);
     let step = grid(&p.dose_forms_mg);
     let dose_for_target = target.map(|c| {
@@ -731,25 +738,26 @@ pub fn analyse(case: &Case, p: &Params) -> Result<SaturableReport> {
     let mut fall = Vec::new();
     let mut fall_from = None;
     let mut threshold = None;
-    if let (Some(k), Some(last_dose)) = (kin, case.doses.iter().map(|d| d.end()).reduce(f64::max))
-    {
+    if let (Some(k), Some(last_dose)) = (kin, case.doses.iter().map(|d| d.end()).reduce(f64::max)) {
         let last_level = case.levels.last().map_or(last_dose, |l| l.t);
         let t0 = last_dose.max(last_level);
         let first = inputs.iter().map(|i| i.t).fold(f64::INFINITY, f64::min) - 1e-9;
         let c0 = saturable::course(&k, &inputs, 0.0, first, &[t0])[0];
         // The level just after the last instant dose, when the fall starts at it.
-        let c0 = c0 + inputs
-            .iter()
-            .filter(|i| i.hours == 0.0 && i.t == t0)
-            .map(|i| i.amount_mg / k.volume_l)
-            .sum::<f64>();
+        let c0 = c0
+            + inputs
+                .iter()
+                .filter(|i| i.hours == 0.0 && i.t == t0)
+                .map(|i| i.amount_mg / k.volume_l)
+                .sum::<f64>();
         fall_from = Some((stamp(case, t0, "the fall after the last dose")?, c0));
         let below = case
             .threshold
             .as_ref()
             .map(|th| case.drug.scale.to_mg_l(th.below));
         let half = |c: f64| {
-            std::f64::consts::LN_2 * k.volume_l * (k.km_mg_l + c) / (k.vmax_mg_per_day / HOURS_PER_DAY)
+            std::f64::consts::LN_2 * k.volume_l * (k.km_mg_l + c)
+                / (k.vmax_mg_per_day / HOURS_PER_DAY)
         };
         let mut hours = 0.0;
         let mut c = c0;
@@ -954,11 +962,7 @@ pub fn write_text(
         num(r.vmax_mg_per_day),
         num(r.km_mg_l),
         r.volume_l
-            .map(|v| format!(
-                ", volume {} L ({} L/kg)",
-                num(v),
-                num(p.volume_l_per_kg)
-            ))
+            .map(|v| format!(", volume {} L ({} L/kg)", num(v), num(p.volume_l_per_kg)))
             .unwrap_or_else(|| ", volume not known (no weight)".into())
     )?;
     let (am, av, ak) = r.algebraic;

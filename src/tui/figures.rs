@@ -68,6 +68,9 @@ pub struct Figures {
     pub threshold_from: Option<ThresholdFrom>,
     /// The charts.
     pub charts: Charts,
+    /// The saturable (Michaelis-Menten) analysis, for a drug such as phenytoin (then there
+    /// is no first-order fit or report).
+    pub saturable: Option<analysis::Saturable>,
 }
 
 fn problem(e: &Error, invalid_case: bool) -> Problem {
@@ -92,6 +95,18 @@ impl Figures {
     /// `None` with the reason in `problem`.
     pub fn compute(file: &CaseFile, profiles: &Profiles) -> Figures {
         let a = analysis::analyse(file, profiles);
+        if let (Some(case), Some(s)) = (&a.case, &a.saturable) {
+            return Figures {
+                case: Some(case.clone()),
+                saturable: Some(s.clone()),
+                problem: Some(Problem {
+                    place: None,
+                    text: strings::SATURABLE_ELSEWHERE.into(),
+                    invalid_case: false,
+                }),
+                ..Figures::default()
+            };
+        }
         let problem = a.stop.as_ref().map(|stop| match stop {
             Stop::Refused(why) => Problem {
                 place: Some("drug.profile".into()),
@@ -133,6 +148,7 @@ impl Figures {
             problem: None,
             threshold_from,
             charts,
+            saturable: None,
         }
     }
 }

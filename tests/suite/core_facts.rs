@@ -154,7 +154,10 @@ fn saturable_of(name: &str) -> ebb::analysis::Saturable {
     let file = casefile::read(&path).unwrap();
     let cat = ebb::profiles::Catalog::built_in().unwrap();
     let a = ebb::analysis::analyse(&file, &cat);
-    assert!(a.fit.is_none() && a.report.is_none(), "{name}: a first-order fit");
+    assert!(
+        a.fit.is_none() && a.report.is_none(),
+        "{name}: a first-order fit"
+    );
     a.saturable
         .unwrap_or_else(|| panic!("{name}: {:?}", a.stop))
 }
@@ -197,7 +200,12 @@ fn phenytoin_one_level_with_low_albumin() {
     let a = s.report.adjusted.unwrap();
     near(a.adjusted_mg_l, 8.571429, 5e-7, "adjusted");
     near(s.report.decision.decision_mg_l, 8.571429, 5e-7, "deciding");
-    near(s.report.decision.rate_mg_per_day, 237.36, 1e-9, "daily rate");
+    near(
+        s.report.decision.rate_mg_per_day,
+        237.36,
+        1e-9,
+        "daily rate",
+    );
     let (method, vmax, km) = s.report.algebraic;
     assert_eq!(method.name(), "one-level-population-km");
     near(km, 5.7, 0.0, "Km");

@@ -132,7 +132,13 @@ fn check_json(json: &str, text: &str) -> Result<(), TestCaseError> {
     if let Some(m) = v["saturable"].as_object() {
         prop_assert!(v["fit"].is_null(), "{}", json);
         for key in ["vmax_mg_per_day", "km_mg_l", "deciding_level"] {
-            prop_assert!(m[key].is_number(), "saturable.{} in {}\n{}", key, json, text);
+            prop_assert!(
+                m[key].is_number(),
+                "saturable.{} in {}\n{}",
+                key,
+                json,
+                text
+            );
         }
         return Ok(());
     }

@@ -542,12 +542,15 @@ fn phenytoin_gets_the_saturable_report_and_no_first_order_figure() {
     )
     .unwrap();
     let text = String::from_utf8(out).unwrap();
-    assert!(text.starts_with("CAUTION: Decision support only. Figures assume one-compartment saturable"));
+    assert!(text
+        .starts_with("CAUTION: Decision support only. Figures assume one-compartment saturable"));
     assert!(text.contains("no first-order k, half-life, AUC or washout by half-lives"));
     assert!(text.contains("level 1") && text.contains("14.2 mg/L"));
     assert!(text.contains("level 2") && text.contains("12.9 mg/L"));
     assert!(text.contains("Vmax") && text.contains("Km 5.7 mg/L"));
-    assert!(!text.contains("Washout") && !text.contains("  k    ") && !text.contains("accumulation"));
+    assert!(
+        !text.contains("Washout") && !text.contains("  k    ") && !text.contains("accumulation")
+    );
 
     let mut out = Vec::new();
     ebb::cli::write_report(
