@@ -17,7 +17,8 @@ pub fn meta_now(source: &str) -> NoteMeta {
 ///
 /// # Errors
 /// The step that stopped the analysis with `name` in front (a drug whose profile refuses
-/// first-order projections gets no note), or a write error.
+/// first-order projections without a saturable model gets no note), or a write error. A
+/// drug with saturable elimination gets the saturable note.
 pub fn write_note(
     out: &mut dyn Write,
     a: &Analysis,
@@ -25,6 +26,10 @@ pub fn write_note(
     format: NoteFormat,
     meta: &NoteMeta,
 ) -> Result<()> {
+    if let (None, Some(case), Some(s)) = (&a.stop, &a.case, &a.saturable) {
+        return note::write_saturable_note(out, case, &s.report, &s.params, meta, format)
+            .map_err(|e| Error::invalid("output", e.to_string()));
+    }
     let (case, r) = finished(a, name)?;
     note::write_note(out, case, r, meta, format)
         .map_err(|e| Error::invalid("output", e.to_string()))

@@ -895,7 +895,6 @@ pub fn write_text(
     p: &Params,
 ) -> io::Result<()> {
     let u = case.drug.scale.unit.as_str();
-    let lv = |x: f64| case.drug.scale.to_level(x);
     writeln!(w, "CAUTION: {CAUTION}")?;
     writeln!(w)?;
     let title = match (&case.patient.label, case.drug.name.as_str()) {
@@ -906,6 +905,21 @@ pub fn write_text(
     };
     writeln!(w, "ebb report: {title} (levels in {u})")?;
     writeln!(w)?;
+    write_body(w, case, r, p)
+}
+
+/// The report without the caution and title: for the report and the record note.
+///
+/// # Errors
+/// Only the writer's errors.
+pub fn write_body(
+    w: &mut dyn Write,
+    case: &Case,
+    r: &SaturableReport,
+    p: &Params,
+) -> io::Result<()> {
+    let u = case.drug.scale.unit.as_str();
+    let lv = |x: f64| case.drug.scale.to_level(x);
     writeln!(w, "{NO_FIRST_ORDER}")?;
     writeln!(w)?;
     writeln!(w, "Levels in use:")?;
