@@ -43,6 +43,14 @@ pub fn finished<'a>(a: &'a Analysis, name: &str) -> Result<(&'a Case, &'a Report
     if let Some(stop) = &a.stop {
         return Err(stop.to_error(a.profile.as_ref()).in_file(name));
     }
+    if a.saturable.is_some() {
+        return Err(Error::invalid(
+            "drug.profile",
+            "the drug's elimination is saturable (Michaelis-Menten): there is no first-order \
+             course to draw; `ebb report` and `ebb note` give its figures",
+        )
+        .in_file(name));
+    }
     match (&a.case, &a.report) {
         (Some(c), Some(r)) => Ok((c, r)),
         _ => Err(Error::Fit("the analysis did not finish".into()).in_file(name)),

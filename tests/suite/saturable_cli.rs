@@ -122,3 +122,23 @@ fn the_text_report_and_the_note_say_what_holds_and_what_does_not() {
         assert!(note.contains("albumin 2.5 g/dL, renal failure"), "{note}");
     }
 }
+
+#[test]
+fn the_plot_of_a_saturable_drug_is_refused_with_the_words_of_the_doc() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("p.svg");
+    let (_, err, code) = run(&[
+        "plot",
+        "tests/cases/valid/phenytoin_two_levels.toml",
+        "-o",
+        out.to_str().unwrap(),
+    ]);
+    assert_eq!(code, Some(2));
+    assert!(!out.exists());
+    let (_, message) = err.trim_end().split_once(": ").unwrap();
+    let doc = std::fs::read_to_string(
+        std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("docs/rejected-input.md"),
+    )
+    .unwrap();
+    assert!(doc.contains(&format!("p.toml: {message} |")), "{err}");
+}
