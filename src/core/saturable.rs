@@ -372,10 +372,10 @@ fn finish(
     if np == 2 {
         let det = jtj[0][0] * jtj[1][1] - jtj[0][1] * jtj[1][0];
         let tr = jtj[0][0] + jtj[1][1];
-        if !(det > 1e-8 * tr * tr) {
+        if det.is_nan() || det <= 1e-8 * tr * tr {
             return None;
         }
-    } else if !(jtj[0][0] > 1e-12) {
+    } else if jtj[0][0].is_nan() || jtj[0][0] <= 1e-12 {
         return None;
     }
     let ok = k.vmax_mg_per_day.is_finite()

@@ -340,7 +340,7 @@ pub fn analyse(case: &Case, p: &Params) -> Result<SaturableReport> {
         let first = case.doses.first().map_or(l.t, |d| d.t);
         readings.push(Reading {
             row: l.row,
-            time: l.time.clone(),
+            time: l.time,
             t: l.t,
             measured_mg_l: l.mg_l,
             decision_mg_l: decision,

@@ -847,20 +847,6 @@ fn range(r: &SourcedRange, field: &str) -> Result<(), FieldProblem> {
     Ok(())
 }
 
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn citations_are_read_from_text() {
-        assert_eq!(
-            citations("[Rybak20][Rybak06] and [Bauer3e-AG]; not [a b] nor [24.0]"),
-            vec!["Rybak20", "Rybak06", "Bauer3e-AG"]
-        );
-        assert!(citations("from memory, unverified").is_empty());
-    }
-}
-
 impl Saturable {
     /// The single numbers, by field name.
     pub fn numbers(&self) -> [(&'static str, &Sourced); 7] {
@@ -913,5 +899,19 @@ impl Saturable {
             positive(*x, "saturable.increase_steps")?;
         }
         Ok(())
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn citations_are_read_from_text() {
+        assert_eq!(
+            citations("[Rybak20][Rybak06] and [Bauer3e-AG]; not [a b] nor [24.0]"),
+            vec!["Rybak20", "Rybak06", "Bauer3e-AG"]
+        );
+        assert!(citations("from memory, unverified").is_empty());
     }
 }
