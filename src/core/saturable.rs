@@ -163,14 +163,20 @@ const B4: [f64; 7] = [
     1.0 / 40.0,
 ];
 
+/// The most steps one call of [`course`] may take: a stiff course (a volume or Km so small
+/// that the level changes in microseconds) gives NaN rather than running on.
+pub const STEP_BUDGET: u32 = 100_000;
+
 /// Integrate from `c` at `t0` to `t1` with a constant input rate (mg/h) by the adaptive
-/// Dormand-Prince 5(4) pair, relative tolerance 1e-10.
-fn step_span(k: &Kinetics, mut c: f64, t0: f64, t1: f64, rate: f64) -> f64 {
+/// Dormand-Prince 5(4) pair, relative tolerance 1e-10; NaN when `budget` runs out.
+fn step_span(k: &Kinetics, mut c: f64, t0: f64, t1: f64, rate: f64, budget: &mut u32) -> f64 {
     let mut t = t0;
     let mut h = ((t1 - t0) / 16.0).max(1e-9);
-    let mut guard = 0u32;
-    while t < t1 && guard < 1_000_000 {
-        guard += 1;
+    while t < t1 {
+        if *budget == 0 || !c.is_finite() {
+            return f64::NAN;
+        }
+        *budget -= 1;
         if t + h > t1 {
             h = t1 - t;
         }
@@ -193,7 +199,8 @@ fn step_span(k: &Kinetics, mut c: f64, t0: f64, t1: f64, rate: f64) -> f64 {
 }
 
 /// The level (mg/L) at each of `times` (any order) from the inputs, starting drug-free
-/// before the first input (or from `c0` at `t0`, inputs before `t0` ignored).
+/// before the first input (or from `c0` at `t0`, inputs before `t0` ignored). NaN from where
+/// the course needs more than [`STEP_BUDGET`] steps (a stiff, implausible case).
 pub fn course(k: &Kinetics, inputs: &[Input], c0: f64, t0: f64, times: &[f64]) -> Vec<f64> {
     // Breakpoints: every input start and infusion end after t0, and every asked time.
     let mut marks: Vec<f64> = inputs
@@ -206,6 +213,7 @@ pub fn course(k: &Kinetics, inputs: &[Input], c0: f64, t0: f64, times: &[f64]) -
     marks.dedup();
     let mut at: Vec<(f64, f64)> = Vec::with_capacity(marks.len());
     let (mut t, mut c) = (t0, c0);
+    let mut budget = STEP_BUDGET;
     // Instant inputs at t0 itself count as given at t0.
     c += inputs
         .iter()
@@ -218,7 +226,7 @@ pub fn course(k: &Kinetics, inputs: &[Input], c0: f64, t0: f64, times: &[f64]) -
             .filter(|d| d.hours > 0.0 && d.t <= t && t < d.t + d.hours)
             .map(|d| d.amount_mg / d.hours)
             .sum();
-        c = step_span(k, c, t, m, rate);
+        c = step_span(k, c, t, m, rate, &mut budget);
         t = m;
         // The level asked at an input's time is the level just before it.
         at.push((t, c));
@@ -297,6 +305,9 @@ pub fn fit_record(
     let mut p = [start.vmax_mg_per_day.ln(), start.km_mg_l.ln()];
     let mut r = resid(&p);
     let mut f = cost(&r);
+    if !f.is_finite() {
+        return None;
+    }
     let mut lambda = 1e-3;
     let mut jtj_last = [[0.0; 2]; 2];
     for _ in 0..200 {
@@ -378,7 +389,8 @@ fn finish(
     } else if jtj[0][0].is_nan() || jtj[0][0] <= 1e-12 {
         return None;
     }
-    let ok = k.vmax_mg_per_day.is_finite()
+    let ok = f.is_finite()
+        && k.vmax_mg_per_day.is_finite()
         && k.km_mg_l.is_finite()
         && (0.01..=1000.0).contains(&k.km_mg_l)
         && (1.0..=1e5).contains(&k.vmax_mg_per_day);
@@ -516,6 +528,23 @@ mod tests {
         }
         assert!((got[0] - c).abs() < 1e-6, "{} vs {c}", got[0]);
         assert!((got[1] - rk4(&PT, c, 10.0, 0.0)).abs() < 1e-6);
+    }
+
+    #[test]
+    fn a_stiff_course_stops_at_the_step_budget_with_nan() {
+        // A volume of 7e-11 L (a weight typed as 1e-10 kg): the level changes in nanoseconds.
+        let stiff = Kinetics {
+            volume_l: 7e-11,
+            ..PT
+        };
+        let inputs = [Input {
+            t: 0.0,
+            amount_mg: 1e-12,
+            hours: 0.0,
+        }];
+        let c = course(&stiff, &inputs, 0.0, -1.0, &[1000.0]);
+        assert!(c[0].is_nan() || c[0] >= 0.0);
+        assert_eq!(fit_record(&stiff, &inputs, &[(1000.0, 1.0)], false), None);
     }
 
     #[test]

@@ -739,68 +739,99 @@ pub fn analyse(case: &Case, p: &Params) -> Result<SaturableReport> {
     let mut fall_from = None;
     let mut threshold = None;
     if let (Some(k), Some(last_dose)) = (kin, case.doses.iter().map(|d| d.end()).reduce(f64::max)) {
-        let last_level = case.levels.last().map_or(last_dose, |l| l.t);
-        let t0 = last_dose.max(last_level);
-        let first = inputs.iter().map(|i| i.t).fold(f64::INFINITY, f64::min) - 1e-9;
-        let c0 = saturable::course(&k, &inputs, 0.0, first, &[t0])[0];
-        // The level just after the last instant dose, when the fall starts at it.
-        let c0 = c0
-            + inputs
-                .iter()
-                .filter(|i| i.hours == 0.0 && i.t == t0)
-                .map(|i| i.amount_mg / k.volume_l)
-                .sum::<f64>();
-        fall_from = Some((stamp(case, t0, "the fall after the last dose")?, c0));
-        let below = case
-            .threshold
-            .as_ref()
-            .map(|th| case.drug.scale.to_mg_l(th.below));
-        let half = |c: f64| {
-            std::f64::consts::LN_2 * k.volume_l * (k.km_mg_l + c)
-                / (k.vmax_mg_per_day / HOURS_PER_DAY)
-        };
-        let mut hours = 0.0;
-        let mut c = c0;
-        for n in 1..=14 {
-            let dt = if n == 1 { 12.0 } else { HOURS_PER_DAY };
-            c = saturable::course(&k, &[], c, 0.0, &[dt])[0];
-            hours += dt;
-            fall.push(FallRow {
-                at: stamp(case, t0 + hours, "the fall after the last dose")?,
-                hours,
-                level_mg_l: c,
-                half_life_here_h: half(c),
-            });
-            // Until the threshold is passed, or a tenth of the range's low end (8 rows
-            // without a range); at least 3 rows, at most 14.
-            let floor = below.or(range.map(|r| r[0] / 10.0));
-            let done = match floor {
-                None => n >= 8,
-                Some(b) => c <= b && n >= 3,
-            };
-            if done {
-                break;
+        'fall: {
+            let last_level = case.levels.last().map_or(last_dose, |l| l.t);
+            let t0 = last_dose.max(last_level);
+            let first = inputs.iter().map(|i| i.t).fold(f64::INFINITY, f64::min) - 1e-9;
+            let c0 = saturable::course(&k, &inputs, 0.0, first, &[t0])[0];
+            // The level just after the last instant dose, when the fall starts at it.
+            let c0 = c0
+                + inputs
+                    .iter()
+                    .filter(|i| i.hours == 0.0 && i.t == t0)
+                    .map(|i| i.amount_mg / k.volume_l)
+                    .sum::<f64>();
+            if !c0.is_finite() {
+                warnings.push(Warning::new(
+                    Code::SaturableEstimate,
+                    "the course of the level could not be integrated (the volume or Km is far too \
+                 small for any patient): check the weight; the fall after stopping is not given",
+                ));
+                break 'fall;
             }
-        }
-        if let (Some(th), Some(b)) = (&case.threshold, below) {
-            let h = saturable::hours_to_fall(&k, c0, b);
-            let reached_at = case.clock.at_minute_up(t0 + h).ok_or_else(|| {
-                Error::invalid(
-                    "threshold.below",
-                    "the time the level falls below it lies too far away for any calendar",
-                )
-            })?;
-            let level_at_procedure_mg_l = th
-                .procedure_t
-                .map(|pt| saturable::course(&k, &[], c0, t0, &[pt.max(t0)])[0]);
-            threshold = Some(FallThreshold {
-                below_mg_l: b,
-                reached_at,
-                level_at_procedure_mg_l,
-            });
+            fall_from = Some((stamp(case, t0, "the fall after the last dose")?, c0));
+            let below = case
+                .threshold
+                .as_ref()
+                .map(|th| case.drug.scale.to_mg_l(th.below));
+            let half = |c: f64| {
+                std::f64::consts::LN_2 * k.volume_l * (k.km_mg_l + c)
+                    / (k.vmax_mg_per_day / HOURS_PER_DAY)
+            };
+            let mut hours = 0.0;
+            let mut c = c0;
+            for n in 1..=14 {
+                let dt = if n == 1 { 12.0 } else { HOURS_PER_DAY };
+                c = saturable::course(&k, &[], c, 0.0, &[dt])[0];
+                if !c.is_finite() {
+                    break;
+                }
+                hours += dt;
+                fall.push(FallRow {
+                    at: stamp(case, t0 + hours, "the fall after the last dose")?,
+                    hours,
+                    level_mg_l: c,
+                    half_life_here_h: half(c),
+                });
+                // Until the threshold is passed, or a tenth of the range's low end (8 rows
+                // without a range); at least 3 rows, at most 14.
+                let floor = below.or(range.map(|r| r[0] / 10.0));
+                let done = match floor {
+                    None => n >= 8,
+                    Some(b) => c <= b && n >= 3,
+                };
+                if done {
+                    break;
+                }
+            }
+            if let (Some(th), Some(b)) = (&case.threshold, below) {
+                let h = saturable::hours_to_fall(&k, c0, b);
+                let reached_at = case.clock.at_minute_up(t0 + h).ok_or_else(|| {
+                    Error::invalid(
+                        "threshold.below",
+                        "the time the level falls below it lies too far away for any calendar",
+                    )
+                })?;
+                let level_at_procedure_mg_l = th
+                    .procedure_t
+                    .map(|pt| saturable::course(&k, &[], c0, t0, &[pt.max(t0)])[0]);
+                threshold = Some(FallThreshold {
+                    below_mg_l: b,
+                    reached_at,
+                    level_at_procedure_mg_l,
+                });
+            }
         }
     }
 
+    // A deciding level above the range: when holding the doses brings it back into range.
+    if let (Some(r), Some(k), Some((_, c0))) = (range, kin, &fall_from) {
+        if decision.decision_mg_l > r[1] && *c0 > r[1] {
+            let h = saturable::hours_to_fall(&k, *c0, r[1]);
+            warnings.push(Warning::new(
+                Code::OutsideRange,
+                format!(
+                    "the deciding level of {} {u} is above the range: with no further dose it \
+                     falls to {} {u} in about {} (the fall is slow at first, because \
+                     elimination is saturated)",
+                    num(case.drug.scale.to_level(decision.decision_mg_l)),
+                    num(case.drug.scale.to_level(r[1])),
+                    span_words(h),
+                    u = case.drug.scale.unit.as_str()
+                ),
+            ));
+        }
+    }
     Ok(SaturableReport {
         method,
         vmax_mg_per_day: vmax,
@@ -878,7 +909,10 @@ pub fn daily_words(d: &DailyDose, to_level: &dyn Fn(f64) -> f64, u: &str) -> Str
             num(d.written_mg_per_day),
             num(to_level(l)),
             d.time_to_90pct_h
-                .map(|h| format!(", 90 % of it in about {}", span_words(h)))
+                .map(|h| format!(
+                    ", 90 % of it about {} after starting from none",
+                    span_words(h)
+                ))
                 .unwrap_or_default()
         ),
     }
@@ -1010,9 +1044,14 @@ pub fn write_body(
     if let (Some(t), Some(dt)) = (r.target_mg_l, &r.dose_for_target) {
         writeln!(
             w,
-            "  for the target {} {u}: {}",
+            "  for the target {} {u}: {}{}",
             num(lv(t)),
-            daily_words(dt, &lv, u)
+            daily_words(dt, &lv, u),
+            if r.next_step.is_some() {
+                " — not in one step (below)"
+            } else {
+                ""
+            }
         )?;
     }
     if let Some(s) = &r.next_step {
