@@ -822,8 +822,8 @@ pub fn analyse(case: &Case, p: &Params) -> Result<SaturableReport> {
                 Code::OutsideRange,
                 format!(
                     "the deciding level of {} {u} is above the range: with no further dose it \
-                     falls to {} {u} in about {} (the fall is slow at first, because \
-                     elimination is saturated)",
+                     falls to {} {u} in about {} (nearly the same fall in mg/L each day at first, \
+                     because elimination is saturated)",
                     num(case.drug.scale.to_level(decision.decision_mg_l)),
                     num(case.drug.scale.to_level(r[1])),
                     span_words(h),
