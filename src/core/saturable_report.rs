@@ -583,9 +583,10 @@ pub fn analyse(case: &Case, p: &Params) -> Result<SaturableReport> {
             warnings.push(Warning::new(
                 Code::BindingUncertain,
                 format!(
-                    "{why} phenytoin binding, and the albumin adjustment is only an estimate \
+                    "{why} {} binding, and the albumin adjustment is only an estimate \
                      (biased and imprecise in critical care): measure a free level before acting \
-                     on it"
+                     on it",
+                    p.drug.to_lowercase()
                 ),
             ));
         }
@@ -1073,6 +1074,13 @@ pub fn write_body(
             from.readable(false),
             num(lv(*c0))
         )?;
+        if r.decision.basis != Basis::Total {
+            writeln!(
+                w,
+                "  (levels here are totals with normal binding, the deciding level's scale, not \
+                 the total the laboratory will measure)"
+            )?;
+        }
         for row in &r.fall {
             writeln!(
                 w,
