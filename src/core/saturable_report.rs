@@ -403,6 +403,13 @@ pub fn analyse(case: &Case, p: &Params) -> Result<SaturableReport> {
             (Method::OneLevel, vmax, p.km_mg_l, vec![last.row])
         }
     };
+    if !(alg_vmax.is_finite() && alg_km.is_finite()) {
+        return Err(Error::invalid(
+            format!("level {}", last.row),
+            "value: too small for the saturable algebra (Vmax would be infinite); check the \
+             value and its unit",
+        ));
+    }
     if alg_method == Method::OneLevel {
         let same: Vec<String> = dosed
             .iter()
