@@ -5,14 +5,16 @@
 //!
 //! The steps, always in this order: look up the profile the case names (once: the same entry
 //! gives the case its defaults and the report its warnings); validate the case with the
-//! profile's defaults; refuse first-order projections for a drug whose profile says they do
-//! not hold; fit; build the report; put the profile's warnings in front of the report's own.
+//! profile's defaults; for a drug whose profile says first-order kinetics does not hold, run
+//! the saturable (Michaelis-Menten) analysis when the profile has one and refuse otherwise;
+//! fit; build the report; put the profile's warnings in front of the report's own.
 
 use crate::core::case::Case;
 use crate::core::casefile::CaseFile;
 use crate::core::error::{Error, Result};
 use crate::core::fit::{self, Fit};
 use crate::core::report::{self, Report};
+use crate::core::saturable_report::{self, Params, SaturableReport};
 use crate::core::warning::{Code, Warning};
 use crate::profiles::{self, Catalog, Entry};
 
@@ -80,6 +82,18 @@ pub struct Analysis {
     pub report: Option<Report>,
     /// Why it stopped short of the report, when it did.
     pub stop: Option<Stop>,
+    /// The saturable (Michaelis-Menten) analysis, for a drug whose profile has one: then
+    /// `fit` and `report` (first-order) are `None` and `stop` is `None`.
+    pub saturable: Option<Saturable>,
+}
+
+/// The saturable analysis of a case and the profile values it used.
+#[derive(Debug, Clone)]
+pub struct Saturable {
+    /// What the profile gave.
+    pub params: Params,
+    /// The report.
+    pub report: SaturableReport,
 }
 
 /// A finished analysis: every part there.
@@ -103,6 +117,7 @@ impl Analysis {
             fit: None,
             report: None,
             stop: Some(stop),
+            saturable: None,
         }
     }
 
@@ -172,6 +187,31 @@ pub fn analyse_with_fit(
         Ok(c) => c,
         Err(e) => return Analysis::stopped(profile, None, Stop::Case(e)),
     };
+    let params = profile
+        .as_ref()
+        .and_then(|e| profiles::saturable_params(&e.profile, &case));
+    if let Some(params) = params {
+        return match saturable_report::analyse(&case, &params) {
+            Ok(report) => Analysis {
+                profile,
+                case: Some(case),
+                fit: None,
+                report: None,
+                stop: None,
+                saturable: Some(Saturable { params, report }),
+            },
+            Err(e @ Error::Invalid { .. }) => Analysis::stopped(profile, Some(case), Stop::Case(e)),
+            Err(e) => Analysis::stopped(profile, Some(case), Stop::Fit(e)),
+        };
+    }
+    if let Some(l) = case.levels.iter().find(|l| l.free) {
+        let e = Error::invalid(
+            format!("level {}", l.row),
+            "free: a free (unbound) level is read only for a drug whose profile has saturable \
+             elimination (phenytoin); enter the total level for this drug",
+        );
+        return Analysis::stopped(profile, Some(case), Stop::Case(e));
+    }
     if let Some(why) = profile.as_ref().and_then(|e| profiles::refusal(&e.profile)) {
         return Analysis::stopped(profile, Some(case), Stop::Refused(why));
     }
@@ -188,6 +228,7 @@ pub fn analyse_with_fit(
                 fit: Some(fit),
                 report: None,
                 stop: Some(Stop::Report(e)),
+                saturable: None,
             }
         }
     };
@@ -203,6 +244,7 @@ pub fn analyse_with_fit(
         fit: Some(fit),
         report: Some(report),
         stop: None,
+        saturable: None,
     }
 }
 
@@ -245,13 +287,59 @@ value = 2.0
     }
 
     #[test]
-    fn a_drug_whose_kinetics_are_not_first_order_is_refused_before_the_fit() {
+    fn a_saturable_drug_gets_the_saturable_analysis_and_no_first_order_fit() {
         let cat = Catalog::built_in().unwrap();
         let a = analyse(&parse(&DOSES.replace("PROFILE", "phenytoin")), &cat);
+        assert!(a.stop.is_none(), "{:?}", a.stop);
+        assert!(a.fit.is_none() && a.report.is_none());
+        let s = a.saturable.unwrap();
+        // One level on 400 mg/day with the population Km of 5.7 mg/L: Vmax = 400·(5.7 + C)/C
+        // for the last level, C = 2 mg/L (no weight: the algebra alone).
+        assert!((s.report.vmax_mg_per_day - 400.0 * 7.7 / 2.0).abs() < 1e-9);
+    }
+
+    struct One(Entry);
+
+    impl ProfileSource for One {
+        fn find(&self, _: &str) -> Result<&Entry> {
+            Ok(&self.0)
+        }
+    }
+
+    #[test]
+    fn a_drug_that_is_not_first_order_without_a_saturable_section_is_refused() {
+        let text = include_str!("../drug-profiles/phenytoin.toml");
+        let cut = text.find("\n[saturable]\n").unwrap();
+        let rest = &text[cut..];
+        let end = rest.find("\n[sources]\n").unwrap();
+        let text = format!("{}{}", &text[..cut], &rest[end..]);
+        let profile = profiles::parse_profile(&text, "phenytoin.toml").unwrap();
+        let entry = Entry {
+            name: "phenytoin".into(),
+            origin: profiles::Origin::BuiltIn,
+            profile: profile.into(),
+            text: text.into(),
+        };
+        let a = analyse(&parse(&DOSES.replace("PROFILE", "phenytoin")), &One(entry));
         assert!(matches!(a.stop, Some(Stop::Refused(_))));
-        assert!(a.case.is_some() && a.fit.is_none());
         let e = a.finished().unwrap_err().to_string();
         assert!(e.starts_with("drug.profile: \"phenytoin\": "), "{e}");
+    }
+
+    #[test]
+    fn a_free_level_of_a_first_order_drug_is_refused_by_row() {
+        let cat = Catalog::built_in().unwrap();
+        let text = DOSES
+            .replace("PROFILE", "gentamicin")
+            .replace("value = 2.0\n", "value = 2.0\nfree = true\n");
+        let e = analyse(&parse(&text), &cat)
+            .finished()
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.starts_with("level 2: free: a free (unbound) level"),
+            "{e}"
+        );
     }
 
     #[test]

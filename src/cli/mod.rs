@@ -90,6 +90,21 @@ pub fn validate_with_profile(file: &CaseFile, profiles_dir: Option<&Path>) -> Re
 /// The step that stopped the analysis, with `name` in front; a write error.
 pub fn write_report(out: &mut dyn Write, a: &Analysis, name: &str, as_json: bool) -> Result<()> {
     let output = |e: std::io::Error| Error::invalid("output", e.to_string());
+    if let (None, Some(case), Some(sat)) = (&a.stop, &a.case, &a.saturable) {
+        let written = if as_json {
+            writeln!(out, "{}", json::saturable_to_json(case, &sat.report))
+        } else {
+            crate::core::saturable_report::write_text(out, case, &sat.report, &sat.params).and_then(
+                |()| match &a.profile {
+                    Some(e) => {
+                        profiles::write_profile_note(out, e, case.regimen.strategy.as_deref())
+                    }
+                    None => Ok(()),
+                },
+            )
+        };
+        return written.map_err(output);
+    }
     match (&a.stop, &a.case, &a.profile, &a.report) {
         (Some(Stop::Refused(_)), Some(case), Some(entry), _) if !as_json => {
             profiles::write_refusal(out, case, entry).map_err(output)

@@ -17,7 +17,8 @@ pub fn meta_now(source: &str) -> NoteMeta {
 ///
 /// # Errors
 /// The step that stopped the analysis with `name` in front (a drug whose profile refuses
-/// first-order projections gets no note), or a write error.
+/// first-order projections without a saturable model gets no note), or a write error. A
+/// drug with saturable elimination gets the saturable note.
 pub fn write_note(
     out: &mut dyn Write,
     a: &Analysis,
@@ -25,6 +26,10 @@ pub fn write_note(
     format: NoteFormat,
     meta: &NoteMeta,
 ) -> Result<()> {
+    if let (None, Some(case), Some(s)) = (&a.stop, &a.case, &a.saturable) {
+        return note::write_saturable_note(out, case, &s.report, &s.params, meta, format)
+            .map_err(|e| Error::invalid("output", e.to_string()));
+    }
     let (case, r) = finished(a, name)?;
     note::write_note(out, case, r, meta, format)
         .map_err(|e| Error::invalid("output", e.to_string()))
@@ -37,6 +42,14 @@ pub fn write_note(
 pub fn finished<'a>(a: &'a Analysis, name: &str) -> Result<(&'a Case, &'a Report)> {
     if let Some(stop) = &a.stop {
         return Err(stop.to_error(a.profile.as_ref()).in_file(name));
+    }
+    if a.saturable.is_some() {
+        return Err(Error::invalid(
+            "drug.profile",
+            "the drug's elimination is saturable (Michaelis-Menten): there is no first-order \
+             course to draw; `ebb report` and `ebb note` give its figures",
+        )
+        .in_file(name));
     }
     match (&a.case, &a.report) {
         (Some(c), Some(r)) => Ok((c, r)),

@@ -31,6 +31,9 @@ pub struct Patient {
     pub albumin_g_l: Option<f64>,
     /// Whether the patient is on intermittent haemodialysis.
     pub dialysis: Option<bool>,
+    /// Renal failure (`[patient] renal_failure`), for the albumin adjustment of a saturable
+    /// drug's level (haemodialysis counts too).
+    pub renal_failure: Option<bool>,
 }
 
 /// Sex as used by creatinine-clearance equations.
@@ -53,6 +56,8 @@ pub struct Drug {
     pub scale: Scale,
     /// Molar mass in g/mol, when known.
     pub molar_mass_g_mol: Option<f64>,
+    /// The salt the doses are written as (`drug.salt`), when the case names one.
+    pub salt: Option<String>,
 }
 
 /// A dose actually given.
@@ -96,6 +101,8 @@ pub struct Level {
     pub below_limit: bool,
     /// Free text.
     pub note: Option<String>,
+    /// A free (unbound) level rather than a total one (saturable drug profiles only).
+    pub free: bool,
 }
 
 impl Level {

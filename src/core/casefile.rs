@@ -91,6 +91,10 @@ pub struct PatientFile {
     pub albumin_g_l: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub dialysis: Option<bool>,
+    /// Addition: renal failure (creatinine clearance below 10-20 mL/min or end-stage renal
+    /// disease): the albumin adjustment of a saturable drug's level takes its renal form.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub renal_failure: Option<bool>,
 }
 
 /// `[drug]` as written.
@@ -110,6 +114,10 @@ pub struct DrugFile {
     /// default: the profile's `default_strategy`.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub strategy: Option<String>,
+    /// Addition: the salt or pro-drug the doses are written as (a saturable drug profile's
+    /// `[[saturable.salt]]` names, e.g. "phenytoin-sodium"); default: the drug itself.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub salt: Option<String>,
 }
 
 /// One `[[dose]]` as written.
@@ -143,6 +151,8 @@ pub struct LevelFile {
     pub below_limit: bool,
     pub use_in_fit: Option<bool>,
     pub note: Option<String>,
+    /// Addition: a free (unbound) level rather than a total one.
+    pub free: Option<bool>,
 }
 
 /// `[[level]]` as the TOML spells it.
@@ -155,6 +165,8 @@ struct LevelRaw {
     use_in_fit: Option<bool>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     note: Option<String>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    free: Option<bool>,
 }
 
 impl From<LevelRaw> for LevelFile {
@@ -165,6 +177,7 @@ impl From<LevelRaw> for LevelFile {
             below_limit: r.value.below_limit,
             use_in_fit: r.use_in_fit,
             note: r.note,
+            free: r.free,
         }
     }
 }
@@ -179,6 +192,7 @@ impl From<LevelFile> for LevelRaw {
             },
             use_in_fit: l.use_in_fit,
             note: l.note,
+            free: l.free,
         }
     }
 }
@@ -552,11 +566,13 @@ impl CaseFile {
                 use_in_fit: l.use_in_fit.unwrap_or(true) && !l.below_limit,
                 below_limit: l.below_limit,
                 note: l.note.clone(),
+                free: l.free.unwrap_or(false),
             });
         }
         levels.sort_by(|a, b| a.t.total_cmp(&b.t));
         for w in levels.windows(2) {
-            if w[0].t == w[1].t {
+            // A free and a total level of one sample share its time.
+            if w[0].t == w[1].t && w[0].free == w[1].free {
                 let (a, b) = (w[0].row.min(w[1].row), w[0].row.max(w[1].row));
                 return Err(Error::invalid(
                     format!("level {b}"),
@@ -1088,6 +1104,7 @@ fn validate_patient(p: &PatientFile) -> Result<Patient> {
         albumin_g_dl: albumin,
         albumin_g_l: p.albumin_g_l,
         dialysis: p.dialysis,
+        renal_failure: p.renal_failure,
     })
 }
 
@@ -1133,6 +1150,15 @@ fn validate_drug(d: &DrugFile, defaults: &Defaults) -> Result<Drug> {
         profile: d.profile.clone(),
         scale: Scale { unit, per_mg_l },
         molar_mass_g_mol: molar_mass,
+        salt: match d.salt.as_deref() {
+            Some(s) if s.trim().is_empty() => {
+                return Err(Error::invalid(
+                    "drug.salt",
+                    "is empty; name the salt the doses are written as, or leave it out",
+                ))
+            }
+            other => other.map(str::to_string),
+        },
     })
 }
 

@@ -3,14 +3,16 @@
 
 use serde::Serialize;
 
+use crate::core::case::Case;
 use crate::core::report::Report;
+use crate::core::saturable_report::{Basis, SaturableReport};
 
 /// The whole report on the wire.
 #[derive(Debug, Serialize)]
 pub struct JsonReport {
     /// Addition: the caution every report carries, so it travels with the figures.
     caution: &'static str,
-    fit: JsonFit,
+    fit: Option<JsonFit>,
     plan: Option<JsonPlan>,
     threshold: Option<JsonThreshold>,
     washout: Vec<JsonWashout>,
@@ -29,6 +31,8 @@ pub struct JsonReport {
     auc24_methods: Option<JsonAuc>,
     /// Addition: the patient's covariates and what is derived from them.
     patient: JsonPatient,
+    /// Addition: the saturable (Michaelis-Menten) analysis; null for a first-order drug.
+    saturable: Option<JsonSaturable>,
 }
 
 #[derive(Debug, Serialize)]
@@ -44,6 +48,60 @@ struct JsonPatient {
     adjusted_weight_kg: Option<f64>,
     bmi: Option<f64>,
     creatinine_clearance_ml_min: Option<f64>,
+}
+
+#[derive(Debug, Serialize)]
+struct JsonSaturable {
+    method: &'static str,
+    vmax_mg_per_day: f64,
+    km_mg_l: f64,
+    volume_l: Option<f64>,
+    adjusted_level: Option<f64>,
+    free_level: Option<f64>,
+    dose_for_target_mg_per_day: Option<f64>,
+    level_at_plan_ss: Option<f64>,
+    time_to_90pct_ss_h: Option<f64>,
+    salt: String,
+    salt_factor: f64,
+    bioavailability: f64,
+    deciding_level: f64,
+    deciding_basis: &'static str,
+    algebraic: JsonAlgebraic,
+    record_fit: Option<JsonRecordFit>,
+    current_mg_per_day: Option<f64>,
+    target_level: Option<f64>,
+    level_at_target_dose_ss: Option<f64>,
+    next_step_mg_per_day: Option<f64>,
+    level_at_next_step_ss: Option<f64>,
+    max_increase_mg_per_day: Option<f64>,
+    plan_mg_per_day: Option<f64>,
+    fall: Vec<JsonFall>,
+    below_threshold_at: Option<String>,
+    level_at_procedure: Option<f64>,
+}
+
+#[derive(Debug, Serialize)]
+struct JsonAlgebraic {
+    method: &'static str,
+    vmax_mg_per_day: f64,
+    km_mg_l: f64,
+    levels: Vec<usize>,
+}
+
+#[derive(Debug, Serialize)]
+struct JsonRecordFit {
+    vmax_mg_per_day: f64,
+    km_mg_l: f64,
+    km_fitted: bool,
+    rms_log: f64,
+}
+
+#[derive(Debug, Serialize)]
+struct JsonFall {
+    at: String,
+    hours: f64,
+    level: f64,
+    half_life_here_h: f64,
 }
 
 #[derive(Debug, Serialize)]
@@ -202,24 +260,9 @@ impl From<&Report> for JsonReport {
         let pi = |x: Option<[f64; 2]>| if prior_only { x } else { None };
         let p = &r.patient;
         JsonReport {
-            patient: JsonPatient {
-                weight_kg: p.recorded.weight_kg,
-                height_cm: p.recorded.height_cm,
-                age_years: p.recorded.age_years,
-                sex: p.recorded.sex.map(|s| match s {
-                    crate::core::case::Sex::Female => "female",
-                    crate::core::case::Sex::Male => "male",
-                }),
-                creatinine_mg_dl: p.recorded.creatinine_mg_dl,
-                albumin_g_dl: p.recorded.albumin_g_dl,
-                dialysis: p.recorded.dialysis,
-                ideal_weight_kg: p.body.ideal_kg,
-                adjusted_weight_kg: p.body.adjusted_kg,
-                bmi: p.body.bmi,
-                creatinine_clearance_ml_min: p.crcl_ml_min,
-            },
+            patient: patient_json(p),
             caution: crate::core::report::CAUTION,
-            fit: JsonFit {
+            fit: Some(JsonFit {
                 method: r.fit.method,
                 levels_used: r.fit.level_rows.len(),
                 k_per_h: r.fit.k_per_h,
@@ -264,7 +307,7 @@ impl From<&Report> for JsonReport {
                     volume_shift_sd: s.volume_shift_sd,
                     sources: s.sources.clone(),
                 }),
-            },
+            }),
             plan: r.plan.as_ref().map(|p| JsonPlan {
                 accumulation_factor: p.accumulation_factor,
                 peak_ss: p.peak_ss,
@@ -357,8 +400,108 @@ impl From<&Report> for JsonReport {
                 by_levels: a.by_levels,
                 by_k_and_v: a.by_k_and_v,
             }),
+            saturable: None,
         }
     }
+}
+
+fn patient_json(p: &crate::core::report::PatientSection) -> JsonPatient {
+    JsonPatient {
+        weight_kg: p.recorded.weight_kg,
+        height_cm: p.recorded.height_cm,
+        age_years: p.recorded.age_years,
+        sex: p.recorded.sex.map(|s| match s {
+            crate::core::case::Sex::Female => "female",
+            crate::core::case::Sex::Male => "male",
+        }),
+        creatinine_mg_dl: p.recorded.creatinine_mg_dl,
+        albumin_g_dl: p.recorded.albumin_g_dl,
+        dialysis: p.recorded.dialysis,
+        ideal_weight_kg: p.body.ideal_kg,
+        adjusted_weight_kg: p.body.adjusted_kg,
+        bmi: p.body.bmi,
+        creatinine_clearance_ml_min: p.crcl_ml_min,
+    }
+}
+
+/// The saturable report as one line of JSON: the first-order sections are null or empty
+/// and `saturable` carries the figures (concentrations in the case's level unit, Km in mg/L,
+/// daily doses in mg/day as written in the case's salt form).
+pub fn saturable_to_json(case: &Case, r: &SaturableReport) -> String {
+    let lv = |x: f64| case.drug.scale.to_level(x);
+    let sat = JsonSaturable {
+        method: r.method.name(),
+        vmax_mg_per_day: r.vmax_mg_per_day,
+        km_mg_l: r.km_mg_l,
+        volume_l: r.volume_l,
+        adjusted_level: r.adjusted.map(|a| lv(a.adjusted_mg_l)),
+        free_level: r.free.map(|(_, f)| lv(f)),
+        dose_for_target_mg_per_day: r.dose_for_target.map(|d| d.written_mg_per_day),
+        level_at_plan_ss: r.plan.and_then(|p| p.level_ss_mg_l).map(lv),
+        time_to_90pct_ss_h: r.plan.and_then(|p| p.time_to_90pct_h),
+        salt: r.salt.0.clone(),
+        salt_factor: r.salt.1,
+        bioavailability: r.bioavailability,
+        deciding_level: lv(r.decision.decision_mg_l),
+        deciding_basis: match r.decision.basis {
+            Basis::Total => "total",
+            Basis::Adjusted => "adjusted",
+            Basis::Free => "free",
+        },
+        algebraic: JsonAlgebraic {
+            method: r.algebraic.0.name(),
+            vmax_mg_per_day: r.algebraic.1,
+            km_mg_l: r.algebraic.2,
+            levels: r.algebra_rows.clone(),
+        },
+        record_fit: r.record.map(|f| JsonRecordFit {
+            vmax_mg_per_day: f.kinetics.vmax_mg_per_day,
+            km_mg_l: f.kinetics.km_mg_l,
+            km_fitted: f.km_fitted,
+            rms_log: f.rms_log,
+        }),
+        current_mg_per_day: r.current_mg_per_day,
+        target_level: r.target_mg_l.map(lv),
+        level_at_target_dose_ss: r.dose_for_target.and_then(|d| d.level_ss_mg_l).map(lv),
+        next_step_mg_per_day: r.next_step.map(|d| d.written_mg_per_day),
+        level_at_next_step_ss: r.next_step.and_then(|d| d.level_ss_mg_l).map(lv),
+        max_increase_mg_per_day: r.max_increase_mg_per_day,
+        plan_mg_per_day: r.plan.map(|p| p.written_mg_per_day),
+        fall: r
+            .fall
+            .iter()
+            .map(|f| JsonFall {
+                at: f.at.iso_minute(),
+                hours: f.hours,
+                level: lv(f.level_mg_l),
+                half_life_here_h: f.half_life_here_h,
+            })
+            .collect(),
+        below_threshold_at: r.threshold.as_ref().map(|t| t.reached_at.iso_minute()),
+        level_at_procedure: r
+            .threshold
+            .as_ref()
+            .and_then(|t| t.level_at_procedure_mg_l)
+            .map(lv),
+    };
+    let whole = JsonReport {
+        caution: crate::core::saturable_report::CAUTION,
+        fit: None,
+        plan: None,
+        threshold: None,
+        washout: Vec::new(),
+        warnings: r.warnings.iter().map(|w| w.text().to_string()).collect(),
+        warning_codes: r.warnings.iter().map(|w| w.code().as_str()).collect(),
+        suggestions: Vec::new(),
+        loading_dose_mg: None,
+        switch: None,
+        proportional: None,
+        auc24_methods: None,
+        patient: patient_json(&crate::core::report::PatientSection::of(&case.patient)),
+        saturable: Some(sat),
+    };
+    serde_json::to_string(&whole)
+        .unwrap_or_else(|e| format!("{{\"error\":\"{}\"}}", e.to_string().replace('"', "'")))
 }
 
 /// The report as one line of JSON.

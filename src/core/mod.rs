@@ -23,6 +23,8 @@ pub mod projection;
 pub mod regimen;
 pub mod renal;
 pub mod report;
+pub mod saturable;
+pub mod saturable_report;
 pub mod spread;
 pub mod switch;
 pub mod text;
@@ -38,7 +40,7 @@ mod layering {
     //! is no cycle); nothing in the core reaches the shells or a terminal crate.
 
     /// Every core module, bottom to top: a module may use only modules listed before it.
-    const ORDER: [&str; 29] = [
+    const ORDER: [&str; 31] = [
         "text",
         "error",
         "units",
@@ -47,6 +49,7 @@ mod layering {
         "format",
         "model",
         "minimise",
+        "saturable",
         "prior",
         "case",
         "casefile",
@@ -64,6 +67,7 @@ mod layering {
         "procedure",
         "switch",
         "advice",
+        "saturable_report",
         "report",
         "json",
         "note",

@@ -381,3 +381,79 @@ pub fn write_note(
     )?;
     Ok(())
 }
+
+/// Write the record note of a drug with saturable elimination (phenytoin): the saturable
+/// caution, who made it, the patient, then the saturable report's body (in a fenced block in
+/// Markdown, so nothing in it becomes markup).
+///
+/// # Errors
+/// Only the writer's errors.
+pub fn write_saturable_note(
+    w: &mut dyn Write,
+    case: &Case,
+    r: &crate::core::saturable_report::SaturableReport,
+    params: &crate::core::saturable_report::Params,
+    meta: &NoteMeta,
+    format: NoteFormat,
+) -> io::Result<()> {
+    use crate::core::saturable_report::{write_body, CAUTION as SATURABLE_CAUTION};
+    let md = format == NoteFormat::Markdown;
+    let free = |s: &str| -> String {
+        if md {
+            text::markdown(s)
+        } else {
+            text::printable(s).into_owned()
+        }
+    };
+    let drug = if case.drug.name.is_empty() {
+        free(&params.drug)
+    } else {
+        free(&case.drug.name)
+    };
+    if md {
+        writeln!(w, "# Drug level note: {drug}\n")?;
+        writeln!(w, "> **CAUTION:** {SATURABLE_CAUTION}\n")?;
+    } else {
+        writeln!(w, "DRUG LEVEL NOTE: {drug}\n")?;
+        writeln!(w, "CAUTION: {SATURABLE_CAUTION}\n")?;
+    }
+    let item = if md { "- " } else { "  " };
+    writeln!(
+        w,
+        "{item}Made {} with ebb {} from {}",
+        free(&meta.made_at),
+        free(&meta.version),
+        free(&meta.source)
+    )?;
+    if let Some(l) = &case.patient.label {
+        writeln!(w, "{item}Patient: {}", free(l))?;
+    }
+    let p = &case.patient;
+    let mut facts = Vec::new();
+    if let Some(x) = p.weight_kg {
+        facts.push(format!("weight {} kg", num(x)));
+    }
+    match (p.albumin_g_l, p.albumin_g_dl) {
+        (Some(x), _) => facts.push(format!("albumin {} g/L", num(x))),
+        (None, Some(x)) => facts.push(format!("albumin {} g/dL", num(x))),
+        (None, None) => {}
+    }
+    if p.renal_failure == Some(true) {
+        facts.push("renal failure".into());
+    }
+    if p.dialysis == Some(true) {
+        facts.push("on intermittent haemodialysis".into());
+    }
+    if !facts.is_empty() {
+        writeln!(w, "{item}{}", facts.join(", "))?;
+    }
+    writeln!(w)?;
+    if md {
+        writeln!(w, "```text")?;
+    }
+    write_body(w, case, r, params)?;
+    if md {
+        writeln!(w, "```")?;
+    }
+    Ok(())
+}

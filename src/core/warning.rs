@@ -89,11 +89,21 @@ pub enum Code {
     /// The case's own targets contradict its dosing strategy's (a target the strategy does
     /// not use, or a bound outside the strategy's); the case's are the ones used.
     TargetsNotStrategy,
+    /// Saturable elimination: a dose increase larger than the small steps of common practice.
+    LargeDoseStep,
+    /// Saturable elimination: a level drawn before the dose rate could reach steady state.
+    NotSteadyState,
+    /// Saturable elimination: low albumin or renal failure without a measured free level.
+    BindingUncertain,
+    /// Saturable elimination: a daily dose at or above Vmax has no steady state.
+    AboveVmax,
+    /// Saturable elimination: how Vmax and Km were found and what limits them.
+    SaturableEstimate,
 }
 
 impl Code {
     /// Every code, in declaration order.
-    pub const ALL: [Code; 40] = [
+    pub const ALL: [Code; 45] = [
         Code::OutsideWindow,
         Code::DistributionPhase,
         Code::RisingLevels,
@@ -134,6 +144,11 @@ impl Code {
         Code::ClockChange,
         Code::BelowLimit,
         Code::TargetsNotStrategy,
+        Code::LargeDoseStep,
+        Code::NotSteadyState,
+        Code::BindingUncertain,
+        Code::AboveVmax,
+        Code::SaturableEstimate,
     ];
 
     /// The code as the JSON report spells it.
@@ -179,6 +194,11 @@ impl Code {
             Code::ClockChange => "clock-change",
             Code::BelowLimit => "below-limit",
             Code::TargetsNotStrategy => "targets-not-strategy",
+            Code::LargeDoseStep => "large-dose-step",
+            Code::NotSteadyState => "not-steady-state",
+            Code::BindingUncertain => "binding-uncertain",
+            Code::AboveVmax => "above-vmax",
+            Code::SaturableEstimate => "saturable-estimate",
         }
     }
 }

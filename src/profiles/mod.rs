@@ -13,6 +13,7 @@
 mod builtin;
 mod parse;
 mod prior;
+mod saturable;
 pub mod schema;
 mod text;
 mod warn;
@@ -28,6 +29,7 @@ use crate::core::units::LevelUnit;
 
 pub use parse::parse_profile;
 pub use prior::prior_of;
+pub use saturable::params_of as saturable_params;
 pub use schema::{FirstOrder, Profile, Strategy};
 pub use text::{write_list, write_profile_note, write_refusal, write_show};
 pub use warn::{apply, refusal, warnings};

@@ -83,6 +83,10 @@ pub struct Profile {
     /// A published population model (docs/profiles.md, `[model]`).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub model: Option<crate::profiles::prior::ModelFile>,
+    /// Saturable (Michaelis-Menten) elimination: a drug with `kinetics.first_order = "no"`
+    /// and this section gets the saturable analysis instead of a refusal.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub saturable: Option<Saturable>,
     /// Source keys (as cited, without brackets) and the reference written out.
     pub sources: BTreeMap<String, String>,
 }
@@ -310,6 +314,66 @@ pub struct Population {
     pub residual_error_percent: Option<Estimate>,
 }
 
+/// `[saturable]`: the values the Michaelis-Menten analysis needs, each with its source.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Saturable {
+    /// Population Km, mg/L (used when the levels cannot give Km).
+    pub km_mg_l: Sourced,
+    /// Population Vmax for a 70-kg adult, mg/day (the start of the record fit).
+    pub vmax_mg_per_day: Sourced,
+    /// Vmax scales with (weight/70)^this.
+    pub vmax_weight_exponent: Sourced,
+    /// The free (unbound) fraction with normal binding: a free level over it is the total
+    /// level the patient would have with normal albumin.
+    pub free_fraction: Sourced,
+    /// The albumin adjustment C/(slope·albumin[g/dL] + intercept).
+    pub albumin: AlbuminAdjustment,
+    /// The salts and pro-drugs doses may be written as, with the fraction of the drug itself.
+    #[serde(rename = "salt", default)]
+    pub salts: Vec<Salt>,
+    /// The largest daily dose increase by the level before it.
+    pub increase_steps: IncreaseSteps,
+}
+
+/// `[saturable.albumin]`.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct AlbuminAdjustment {
+    /// The albumin coefficient with normal renal function (0.2).
+    pub slope: Sourced,
+    /// The albumin coefficient in renal failure (0.1).
+    pub slope_renal_failure: Sourced,
+    /// The constant (0.1).
+    pub intercept: Sourced,
+}
+
+/// `[[saturable.salt]]`: a salt or pro-drug and the mg of the drug itself per mg written.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Salt {
+    /// The case-file name (`drug.salt`), e.g. "phenytoin-sodium".
+    pub name: String,
+    /// mg of the drug itself per mg of dose as written.
+    pub factor: Sourced,
+}
+
+/// `[saturable.increase_steps]`: at a level below `below_mg_l[i]` a daily dose rises by at
+/// most `max_mg_per_day[i]`; at or above the last bound by the last step.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct IncreaseSteps {
+    /// Level bounds, mg/L, rising.
+    pub below_mg_l: Vec<f64>,
+    /// Largest increase, mg/day: one more than the bounds.
+    pub max_mg_per_day: Vec<f64>,
+    /// Where the rule comes from.
+    pub source: String,
+    /// Optional plain words.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub note: Option<String>,
+}
+
 /// A problem found after parsing: the dotted field and what is wrong.
 #[derive(Debug, Clone, PartialEq)]
 pub struct FieldProblem {
@@ -463,6 +527,18 @@ impl Profile {
         }
         if let Some(m) = &self.model {
             out.push(("model.source".to_string(), &m.source));
+        }
+        if let Some(m) = &self.saturable {
+            for (name, x) in m.numbers() {
+                out.push((format!("saturable.{name}"), &x.source));
+            }
+            for (i, salt) in m.salts.iter().enumerate() {
+                out.push((
+                    format!("saturable.salt[{}].factor", i + 1),
+                    &salt.factor.source,
+                ));
+            }
+            out.push(("saturable.increase_steps".into(), &m.increase_steps.source));
         }
         out
     }
@@ -680,6 +756,9 @@ impl Profile {
                 .unwrap_or(1.0);
             crate::profiles::prior::model_of(m, per, &|k| vec![k.to_string()])?;
         }
+        if let Some(m) = &self.saturable {
+            m.validate()?;
+        }
         for (key, text) in &self.sources {
             if text.trim().is_empty() {
                 return Err(problem(format!("sources.{key}"), "write the reference out"));
@@ -766,6 +845,61 @@ fn range(r: &SourcedRange, field: &str) -> Result<(), FieldProblem> {
         ));
     }
     Ok(())
+}
+
+impl Saturable {
+    /// The single numbers, by field name.
+    pub fn numbers(&self) -> [(&'static str, &Sourced); 7] {
+        [
+            ("km_mg_l", &self.km_mg_l),
+            ("vmax_mg_per_day", &self.vmax_mg_per_day),
+            ("vmax_weight_exponent", &self.vmax_weight_exponent),
+            ("free_fraction", &self.free_fraction),
+            ("albumin.slope", &self.albumin.slope),
+            (
+                "albumin.slope_renal_failure",
+                &self.albumin.slope_renal_failure,
+            ),
+            ("albumin.intercept", &self.albumin.intercept),
+        ]
+    }
+
+    fn validate(&self) -> Result<(), FieldProblem> {
+        for (name, x) in self.numbers() {
+            positive(x.value, &format!("saturable.{name}"))?;
+        }
+        if self.free_fraction.value >= 1.0 {
+            return Err(problem(
+                "saturable.free_fraction",
+                format!("must be below 1, got {}", self.free_fraction.value),
+            ));
+        }
+        for (i, salt) in self.salts.iter().enumerate() {
+            let at = format!("saturable.salt[{}]", i + 1);
+            if salt.name.trim().is_empty() {
+                return Err(problem(format!("{at}.name"), "must not be empty"));
+            }
+            let f = salt.factor.value;
+            if !(f.is_finite() && f > 0.0 && f <= 1.0) {
+                return Err(problem(
+                    format!("{at}.factor"),
+                    format!("must be above 0 and at most 1, got {f}"),
+                ));
+            }
+        }
+        let st = &self.increase_steps;
+        let rising = st.below_mg_l.windows(2).all(|w| w[0] < w[1]);
+        if st.max_mg_per_day.len() != st.below_mg_l.len() + 1 || !rising {
+            return Err(problem(
+                "saturable.increase_steps",
+                "give rising level bounds and one more step than bounds",
+            ));
+        }
+        for x in st.below_mg_l.iter().chain(&st.max_mg_per_day) {
+            positive(*x, "saturable.increase_steps")?;
+        }
+        Ok(())
+    }
 }
 
 #[cfg(test)]

@@ -76,6 +76,9 @@ pub struct Figures {
     pub threshold_from: Option<ThresholdFrom>,
     /// The charts, sampled when first drawn.
     charts: Charts,
+    /// The saturable (Michaelis-Menten) analysis, for a drug such as phenytoin (then there
+    /// is no first-order fit or report).
+    pub saturable: Option<analysis::Saturable>,
 }
 
 fn problem(e: &Error, invalid_case: bool) -> Problem {
@@ -124,6 +127,18 @@ impl Figures {
 
     fn compute_keeping(file: &CaseFile, profiles: &Profiles, fit: Option<&Fit>) -> Figures {
         let a = analysis::analyse_with_fit(file, profiles, fit);
+        if let (Some(case), Some(s)) = (&a.case, &a.saturable) {
+            return Figures {
+                case: Some(case.clone()),
+                saturable: Some(s.clone()),
+                problem: Some(Problem {
+                    place: None,
+                    text: strings::SATURABLE_ELSEWHERE.into(),
+                    invalid_case: false,
+                }),
+                ..Figures::default()
+            };
+        }
         let problem = a.stop.as_ref().map(|stop| match stop {
             Stop::Refused(why) => Problem {
                 place: Some("drug.profile".into()),
@@ -159,6 +174,7 @@ impl Figures {
             problem: None,
             threshold_from,
             charts: Charts::default(),
+            saturable: None,
         }
     }
 

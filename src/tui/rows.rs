@@ -112,6 +112,7 @@ fn add_level(app: &mut App) {
             below_limit: false,
             use_in_fit: None,
             note: None,
+            free: None,
         });
         Ok(())
     }) {

@@ -1116,3 +1116,49 @@ pub fn switch_rule(basis: &str, value: &str, unit: &str, from: &str) -> String {
 pub fn switch_start(when: &str, level: &str, unit: &str) -> String {
     format!("Earliest start {when} (level then {level} {unit})")
 }
+
+// ---- saturable (Michaelis-Menten) elimination ---------------------------------------------
+
+/// Heading of the saturable figures.
+pub const SATURABLE_HEADING: &str = "Saturable (Michaelis-Menten) elimination";
+/// Why there is no k or half-life.
+pub const SATURABLE_NO_K: &str =
+    "No first-order k, half-life, AUC or washout: they do not hold for this drug.";
+/// The deciding level.
+pub const SATURABLE_DECIDING: &str = "Deciding";
+/// The measured total.
+pub const SATURABLE_TOTAL: &str = "Total";
+/// The albumin-adjusted total.
+pub const SATURABLE_ADJUSTED: &str = "Adjusted";
+/// The free level.
+pub const SATURABLE_FREE: &str = "Free";
+/// How Vmax and Km were found.
+pub const SATURABLE_HOW: &str = "From";
+/// The algebraic estimate.
+pub const SATURABLE_ALGEBRA: &str = "Algebra";
+/// The volume.
+pub const SATURABLE_VOLUME: &str = "Volume";
+/// No volume.
+pub const SATURABLE_NO_VOLUME: &str = "not known (no weight)";
+/// The current daily dose.
+pub const SATURABLE_CURRENT: &str = "Current";
+/// The first step.
+pub const SATURABLE_FIRST_STEP: &str = "First step";
+/// The plan's daily dose.
+pub const SATURABLE_PLAN: &str = "Plan";
+/// The warnings heading.
+pub const WARNINGS_HEADING: &str = "Warnings";
+/// Basis words.
+pub const SATURABLE_BASIS_TOTAL: &str = "measured total";
+/// Basis words.
+pub const SATURABLE_BASIS_ADJUSTED: &str = "adjusted for albumin";
+/// Basis words.
+pub const SATURABLE_BASIS_FREE: &str = "free level / free fraction";
+/// Where the saturable figures are, on the screens without them.
+pub const SATURABLE_ELSEWHERE: &str = "Saturable (Michaelis-Menten) elimination: Vmax, Km and \
+the doses are on the fit and plan screens; the fall after stopping is in `ebb report`. A \
+first-order threshold or washout does not hold for this drug.";
+/// The label of the dose for the target.
+pub fn saturable_for_target(level: &str, unit: &str) -> String {
+    format!("For {level} {unit}")
+}

@@ -25,7 +25,13 @@ pub fn draw(app: &App, frame: &mut Frame) {
     if area.width < MIN_WIDTH || area.height < MIN_HEIGHT {
         return too_small(area, buf);
     }
-    let banner_h = caution_lines(area.width).len() as u16;
+    // A saturable drug's figures do not assume linear kinetics: its own caution says so.
+    let caution = if app.figures.saturable.is_some() {
+        crate::core::saturable_report::CAUTION
+    } else {
+        crate::core::report::CAUTION
+    };
+    let banner_h = widgets::caution_lines_of(area.width, caution).len() as u16;
     // A long message wraps (up to three lines) rather than being cut.
     let message_h = message_text(app)
         .map(|(t, _)| widgets::wrap(&t, usize::from(area.width)).len().clamp(1, 3))
@@ -38,7 +44,7 @@ pub fn draw(app: &App, frame: &mut Frame) {
         Constraint::Length(1),
     ])
     .areas(area);
-    widgets::caution(banner, buf);
+    widgets::caution_of(banner, buf, caution);
     tab_line(app, tabs, buf);
     match app.screen {
         Screen::Case => screens::case::draw(app, body, buf),

@@ -144,3 +144,93 @@ fn sawchuk_zaske_example_by_a_long_dose_record() {
     check_sawchuk_zaske(&r, "dose record");
     assert_eq!(r.fit.pre_dose_row, None);
 }
+
+// ---- saturable (Michaelis-Menten) elimination: phenytoin fixtures through the analysis ----
+
+fn saturable_of(name: &str) -> ebb::analysis::Saturable {
+    let path = Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("tests/cases/valid")
+        .join(name);
+    let file = casefile::read(&path).unwrap();
+    let cat = ebb::profiles::Catalog::built_in().unwrap();
+    let a = ebb::analysis::analyse(&file, &cat);
+    assert!(
+        a.fit.is_none() && a.report.is_none(),
+        "{name}: a first-order fit"
+    );
+    a.saturable
+        .unwrap_or_else(|| panic!("{name}: {:?}", a.stop))
+}
+
+fn has(s: &ebb::analysis::Saturable, code: &str) -> bool {
+    s.report.warnings.iter().any(|w| w.code().as_str() == code)
+}
+
+// Two steady-state pairs: Km = (R2 − R1)/(R1/C1 − R2/C2), Vmax = R1 + Km·R1/C1 (the
+// Michaelis-Menten equation written R = Vmax − Km·R/C; the two-level method attributed to
+// Ludden TM et al., Clin Pharmacol Ther 1977;21:287-293 — citation from memory, unverified).
+// Hand-worked for 300 mg/day -> 8 mg/L and 400 mg/day -> 20 mg/L (phenytoin itself, F = 1):
+// Km = 100/(37.5 − 20) = 5.714286 mg/L, Vmax = 300 + 5.714286·37.5 = 514.2857 mg/day.
+#[test]
+fn phenytoin_two_levels_give_vmax_and_km_by_the_published_algebra() {
+    let s = saturable_of("phenytoin_two_levels.toml");
+    let (method, vmax, km) = s.report.algebraic;
+    assert_eq!(method.name(), "two-levels");
+    near(km, 5.714286, 5e-7, "Km");
+    near(vmax, 514.2857, 5e-5, "Vmax");
+    assert_eq!(s.report.algebra_rows, vec![1, 2]);
+    // Two parameters, two levels: the record fit passes through both.
+    let f = s.report.record.unwrap();
+    assert!(f.km_fitted && f.rms_log < 1e-6, "{f:?}");
+    assert_eq!(s.report.method.name(), "dose-record");
+    // The plan's steady state is the record fit's Css = Km·R/(Vmax − R), R = 350 mg/day.
+    let plan = s.report.plan.unwrap();
+    let want = f.kinetics.km_mg_l * 350.0 / (f.kinetics.vmax_mg_per_day - 350.0);
+    near(plan.level_ss_mg_l.unwrap(), want, 1e-9, "plan Css");
+}
+
+// Sheiner-Tozer: C/(0.2·albumin + 0.1) (Ann Pharmacother 2016;50(4):311-325, PMID
+// 26825643): 6 mg/L at 3.0 g/dL -> 6/0.7 = 8.571429 mg/L. Phenytoin sodium 300 mg/day by
+// mouth reaches the circulation as 300·0.92·0.86 = 237.36 mg/day; with the population Km of
+// 5.7 mg/L (Grasela TH et al., Clin Pharmacokinet 1983;8(4):355-364) Vmax = R·(Km + C)/C =
+// 237.36·14.271429/8.571429 = 395.2044 mg/day.
+#[test]
+fn phenytoin_one_level_with_low_albumin() {
+    let s = saturable_of("phenytoin_one_level_albumin.toml");
+    let a = s.report.adjusted.unwrap();
+    near(a.adjusted_mg_l, 8.571429, 5e-7, "adjusted");
+    near(s.report.decision.decision_mg_l, 8.571429, 5e-7, "deciding");
+    near(
+        s.report.decision.rate_mg_per_day,
+        237.36,
+        1e-9,
+        "daily rate",
+    );
+    let (method, vmax, km) = s.report.algebraic;
+    assert_eq!(method.name(), "one-level-population-km");
+    near(km, 5.7, 0.0, "Km");
+    near(vmax, 395.2044, 5e-5, "Vmax");
+    // The plan's 400 mg/day is 100 mg above the current 300 at 8.6 mg/L, where common
+    // practice allows 50 (the profile's increase steps); the low albumin wants a free level.
+    assert!(has(&s, "large-dose-step") && has(&s, "binding-uncertain"));
+    assert_eq!(s.report.max_increase_mg_per_day, Some(50.0));
+}
+
+// A free level decides over the total of the same sample: 1.4 mg/L over the free fraction
+// 0.1 (common practice) = 14 mg/L. The total, 9 mg/L at albumin 2.5 g/dL in renal failure,
+// adjusts to 9/(0.1·2.5 + 0.1) = 25.714 mg/L (the renal-failure form, [MedscapePHT] in the
+// profile) and is shown beside it.
+#[test]
+fn phenytoin_free_level_decides_and_the_adjusted_total_is_shown() {
+    let s = saturable_of("phenytoin_free_level.toml");
+    assert_eq!(s.report.decision.row, 2);
+    near(s.report.decision.decision_mg_l, 14.0, 1e-12, "deciding");
+    assert_eq!(s.report.free, Some((2, 1.4)));
+    let a = s.report.adjusted.unwrap();
+    near(a.adjusted_mg_l, 25.714286, 5e-7, "adjusted, renal form");
+    assert!(!has(&s, "binding-uncertain"));
+    // The threshold time is the exact integral of the fall from the fall's start.
+    let th = s.report.threshold.unwrap();
+    assert_eq!(th.below_mg_l, 10.0);
+    assert!(th.level_at_procedure_mg_l.unwrap() < 10.0);
+}

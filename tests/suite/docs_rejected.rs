@@ -117,7 +117,18 @@ fn scratch() -> tempfile::TempDir {
     fs::write(dir.join("bed4.toml"), CASE).unwrap();
     let named = |p: &str| CASE.replace("mg/L\"\n", &format!("mg/L\"\nprofile = \"{p}\"\n"));
     fs::write(dir.join("bed5.toml"), named("nosuch")).unwrap();
-    fs::write(dir.join("bed6.toml"), named("phenytoin")).unwrap();
+    // A profile that is not first-order and has no saturable model: a copy of phenytoin's
+    // without its [saturable] section, in a folder of its own.
+    fs::write(dir.join("bed6.toml"), named("nonlinear")).unwrap();
+    let text = include_str!("../../drug-profiles/phenytoin.toml");
+    let cut = text.find("\n[saturable]\n").unwrap();
+    let end = cut + text[cut..].find("\n[sources]\n").unwrap();
+    fs::create_dir_all(dir.join("nonlinear")).unwrap();
+    fs::write(
+        dir.join("nonlinear/nonlinear.toml"),
+        format!("{}{}", &text[..cut], &text[end..]),
+    )
+    .unwrap();
     fs::write(dir.join("bed7.toml"), named("local")).unwrap();
     fs::write(dir.join("profiles/local.toml"), "half_life_h = [\n").unwrap();
     // Levels that barely fall: a half-life of about 2.4 million years.
@@ -152,7 +163,11 @@ fn the_classes_without_a_fixture_say_what_the_doc_says() {
     ];
     // The refusal of a non-first-order profile in JSON: its reason is the profile's own
     // text, so the doc gives the start and the end.
-    let refusal = run(dir, &["report", "--json", "bed6.toml"]).1;
+    let refusal = run(
+        dir,
+        &["report", "--json", "--profiles", "nonlinear", "bed6.toml"],
+    )
+    .1;
     let (head, tail) = refusal.split_once("kinetics:").unwrap();
     messages.push(format!("{head}kinetics:"));
     messages.push(tail.rsplit_once(';').unwrap().1.to_string());

@@ -32,6 +32,7 @@ mod profiles_cli;
 mod regimen_auc;
 mod regimen_design;
 mod regimen_switch;
+mod saturable_cli;
 mod store_kill;
 mod time_zone_data;
 mod tui_entry;

@@ -535,7 +535,7 @@ route = "oral"
 "#;
 
 #[test]
-fn phenytoin_refuses_projections_but_shows_the_levels() {
+fn phenytoin_gets_the_saturable_report_and_no_first_order_figure() {
     let tmp = tempfile::tempdir().unwrap();
     let dir = tmp.path();
     let path = write(dir, "p.toml", PHENYTOIN);
@@ -548,30 +548,30 @@ fn phenytoin_refuses_projections_but_shows_the_levels() {
     )
     .unwrap();
     let text = String::from_utf8(out).unwrap();
-    assert!(text.contains("NO PROJECTION: Phenytoin does not follow first-order kinetics"));
-    assert!(text.contains("saturable (Michaelis-Menten)"));
-    assert!(text.contains("the half-life grows"));
-    assert!(text.contains("level 1") && text.contains("14.2 mg/L") && text.contains("pre-dose"));
+    assert!(text
+        .starts_with("CAUTION: Decision support only. Figures assume one-compartment saturable"));
+    assert!(text.contains("no first-order k, half-life, AUC or washout by half-lives"));
+    assert!(text.contains("level 1") && text.contains("14.2 mg/L"));
     assert!(text.contains("level 2") && text.contains("12.9 mg/L"));
-    assert!(!text.contains("Washout") && !text.contains("steady state  "));
+    assert!(text.contains("Vmax") && text.contains("Km 5.7 mg/L"));
+    assert!(
+        !text.contains("Washout") && !text.contains("  k    ") && !text.contains("accumulation")
+    );
 
     let mut out = Vec::new();
-    let e = ebb::cli::write_report(
+    ebb::cli::write_report(
         &mut out,
         &ebb::cli::analyse_file(&path, None).unwrap(),
         "p.toml",
         true,
     )
-    .unwrap_err()
-    .to_string();
-    assert!(out.is_empty(), "nothing on stdout in JSON");
-    assert!(
-        e.starts_with(
-            "p.toml: drug.profile: \"phenytoin\": Phenytoin does not follow first-order kinetics"
-        ),
-        "{e}"
-    );
-    assert!(!e.contains('\n'));
+    .unwrap();
+    let v: serde_json::Value = serde_json::from_slice(&out).unwrap();
+    assert!(v["fit"].is_null() && v["washout"].as_array().unwrap().is_empty());
+    // One level on 300 mg/day (x 0.86 by mouth = 258 mg/day) with Km 5.7 mg/L (Grasela
+    // 1983): Vmax = 258·(5.7 + 12.9)/12.9 = 372 mg/day.
+    let vmax = v["saturable"]["vmax_mg_per_day"].as_f64().unwrap();
+    assert!((vmax - 258.0 * 18.6 / 12.9).abs() < 1e-9, "{vmax}");
 }
 
 #[test]

@@ -159,7 +159,7 @@ value = 12.9
 "#;
 
 #[test]
-fn report_on_phenytoin_lists_levels_in_text_and_fails_in_json() {
+fn report_on_phenytoin_is_saturable_in_text_and_json() {
     let tmp = tempfile::tempdir().unwrap();
     let dir = tmp.path();
     let case = dir.join("p.toml");
@@ -169,16 +169,17 @@ fn report_on_phenytoin_lists_levels_in_text_and_fails_in_json() {
     let out = ebb(&["report", c], None);
     assert_eq!(out.status.code(), Some(0), "{}", text(&out.stderr));
     let s = text(&out.stdout);
-    assert!(s.contains("NO PROJECTION"));
+    assert!(s.contains("Saturable (Michaelis-Menten) elimination: no first-order k"));
     assert!(s.contains("14.2 mg/L") && s.contains("12.9 mg/L"));
+    assert!(!s.contains("NO PROJECTION") && !s.contains("k = "));
 
     let out = ebb(&["report", c, "--json"], None);
-    assert_eq!(out.status.code(), Some(2));
-    assert!(out.stdout.is_empty());
-    let e = text(&out.stderr);
-    assert!(
-        e.starts_with(&format!("{c}: drug.profile: \"phenytoin\": ")),
-        "{e}"
-    );
-    assert_eq!(e.lines().count(), 1);
+    assert_eq!(out.status.code(), Some(0), "{}", text(&out.stderr));
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert!(v["fit"].is_null() && v["plan"].is_null());
+    assert_eq!(v["saturable"]["method"], "one-level-population-km");
+    assert_eq!(v["saturable"]["km_mg_l"], 5.7);
+    // Both levels were drawn within a day of the first dose: not at steady state.
+    let codes = v["warning_codes"].as_array().unwrap();
+    assert!(codes.iter().any(|c| c == "not-steady-state"), "{codes:?}");
 }

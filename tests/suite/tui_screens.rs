@@ -126,3 +126,44 @@ fn every_valid_fixture_draws_on_every_screen() {
     }
     assert!(seen > 0);
 }
+
+#[test]
+fn phenytoin_fit_and_plan_screens_show_vmax_km_the_adjusted_level_and_the_dose() {
+    // A relative path (tests run in the crate's folder), so the title is the same anywhere.
+    let path = std::path::Path::new("tests/cases/valid/phenytoin_one_level_albumin.toml");
+    let mut app = App::open(path);
+    assert!(app.load_error.is_none());
+    assert!(app.figures.saturable.is_some(), "{:?}", app.figures.problem);
+    for (screen, name) in [(Screen::Fit, "fit"), (Screen::Plan, "plan")] {
+        app.screen = screen;
+        for (w, h) in [(80, 24), (160, 48)] {
+            let text = screen_text(&app, w, h);
+            assert!(text.contains("Saturable"), "{name} {w}x{h}\n{text}");
+            assert!(!text.contains("linear one-compartment"), "{text}");
+            if screen == Screen::Fit {
+                assert!(text.contains("Vmax") && text.contains("Km"), "{text}");
+                assert!(text.contains("8.571 mg/L"), "the adjusted level\n{text}");
+            }
+            assert!(
+                text.contains("For 15 mg/L"),
+                "the dose for the target\n{text}"
+            );
+            insta::assert_snapshot!(
+                format!("phenytoin_{name}_{w}x{h}"),
+                draw(&app, w, h).backend()
+            );
+        }
+    }
+    // The other screens never show a first-order threshold or washout.
+    for screen in [Screen::Threshold, Screen::Washout] {
+        app.screen = screen;
+        let text = screen_text(&app, 80, 24);
+        assert!(
+            !text.contains("half-lives") && !text.contains("reached"),
+            "{text}"
+        );
+        if screen == Screen::Washout {
+            assert!(text.contains("Saturable"), "{text}");
+        }
+    }
+}

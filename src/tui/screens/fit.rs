@@ -16,6 +16,11 @@ use crate::tui::widgets::{self, heading, problem_style, quiet};
 
 /// Draw the fit screen.
 pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
+    if let (Some(case), Some(s)) = (app.figures.case.as_ref(), app.figures.saturable.as_ref()) {
+        let w = usize::from(area.width.saturating_sub(1));
+        let lines = crate::tui::screens::saturable::fit_lines(case, s, w, true);
+        return Paragraph::new(lines).render(area, buf);
+    }
     let (Some(case), Some(fit), Some(r), Some(chart)) = (
         app.figures.case.as_ref(),
         app.figures.fit.as_ref(),

@@ -1,9 +1,10 @@
-//! The five screens, one file each, and what can be selected on each (shared with `update`).
+//! The five screens, one file each (and the saturable lines two of them share), and what can be selected on each (shared with `update`).
 
 pub mod case;
 pub mod fit;
 pub mod plan;
 pub mod profile;
+pub mod saturable;
 pub mod threshold;
 pub mod washout;
 

@@ -72,7 +72,17 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
         lines.push(Line::styled(strings::TARGETS_NOT_STRATEGY, problem_style()));
     }
     lines.push(Line::styled(strings::AT_STEADY_STATE, heading()));
+    let saturable = app
+        .figures
+        .case
+        .as_ref()
+        .zip(app.figures.saturable.as_ref());
     match (&app.file.plan, plan_part, &app.figures.problem) {
+        _ if saturable.is_some() => {
+            if let Some((case, s)) = saturable {
+                lines.extend(screens::saturable::dose_lines(case, s, usize::from(left_w)));
+            }
+        }
         (None, _, _) => {
             for l in widgets::wrap(strings::NO_PLAN, usize::from(left_w)) {
                 lines.push(Line::styled(l, quiet()));
@@ -172,6 +182,11 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
     };
     let lines: Vec<Line> = lines.into_iter().skip(skip).collect();
     Paragraph::new(lines).render(left, buf);
+    if let Some((case, s)) = saturable {
+        let w = usize::from(chart_area.width);
+        let lines = screens::saturable::fit_lines(case, s, w, false);
+        return Paragraph::new(lines).render(chart_area, buf);
+    }
     match app.figures.plan_chart() {
         Some(c) => SemiLogChart {
             data: c,

@@ -71,8 +71,14 @@ pub fn wrap(text: &str, width: usize) -> Vec<String> {
 /// The caution banner's lines for a width: the full caution when it fits on two lines,
 /// the short one otherwise.
 pub fn caution_lines(width: u16) -> Vec<String> {
+    caution_lines_of(width, CAUTION)
+}
+
+/// The caution banner's lines for a width, with `caution` as the full text (the saturable
+/// one for a drug such as phenytoin): the short one when the full text needs three lines.
+pub fn caution_lines_of(width: u16, caution: &str) -> Vec<String> {
     let w = usize::from(width);
-    let full = wrap(&format!("{} {CAUTION}", strings::CAUTION_WORD), w);
+    let full = wrap(&format!("{} {caution}", strings::CAUTION_WORD), w);
     if full.len() <= 2 {
         return full;
     }
@@ -81,11 +87,16 @@ pub fn caution_lines(width: u16) -> Vec<String> {
 
 /// Draw the caution banner into `area` (as many of its lines as fit).
 pub fn caution(area: Rect, buf: &mut Buffer) {
+    caution_of(area, buf, CAUTION);
+}
+
+/// Draw the caution banner with `caution` as its full text.
+pub fn caution_of(area: Rect, buf: &mut Buffer, caution: &str) {
     let style = Style::new()
         .fg(Color::Black)
         .bg(Color::Yellow)
         .add_modifier(Modifier::BOLD);
-    let lines: Vec<Line> = caution_lines(area.width)
+    let lines: Vec<Line> = caution_lines_of(area.width, caution)
         .into_iter()
         .map(|l| Line::from(l).style(style))
         .collect();
@@ -223,9 +234,11 @@ mod tests {
     #[test]
     fn the_caution_fits_two_lines_at_every_supported_width() {
         for w in 80..=200u16 {
-            let lines = caution_lines(w);
-            assert!(lines.len() <= 2, "{w}");
-            assert!(lines.iter().all(|l| l.chars().count() <= usize::from(w)));
+            for text in [CAUTION, crate::core::saturable_report::CAUTION] {
+                let lines = caution_lines_of(w, text);
+                assert!(lines.len() <= 2, "{w}");
+                assert!(lines.iter().all(|l| l.chars().count() <= usize::from(w)));
+            }
         }
     }
 }
