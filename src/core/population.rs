@@ -219,10 +219,35 @@ pub fn evaluate(
         (elimination, elimination * v)
     };
     if !(k.is_finite() && k > 0.0 && v.is_finite() && v > 0.0) {
+        // Name the patient's fields the model read: one of them is beyond its reach.
+        let mut fields: Vec<&str> = Vec::new();
+        for t in model.elimination.terms.iter().chain(&model.volume.terms) {
+            let f = match t.of {
+                Covariate::WeightKg => "patient.weight_kg",
+                Covariate::IdealWeightKg | Covariate::AdjustedWeightKg | Covariate::HeightCm => {
+                    "patient.height_cm"
+                }
+                Covariate::AgeYears => "patient.age_years",
+                Covariate::CrclMlMin | Covariate::CrclLPerH | Covariate::CreatinineUmolL => {
+                    "patient.creatinine_mg_dl"
+                }
+                Covariate::Dialysis => "patient.dialysis",
+                Covariate::Female | Covariate::Male => "patient.sex",
+                Covariate::DailyDoseMg => "plan",
+            };
+            if !fields.contains(&f) {
+                fields.push(f);
+            }
+        }
+        let place = if fields.is_empty() {
+            "patient".to_string()
+        } else {
+            fields.join(", ")
+        };
         return Err(Error::invalid(
-            "model",
+            place,
             format!(
-                "the population model {} gives no positive typical k and volume for this patient (check weight, age and creatinine)",
+                "the population model {} gives no positive typical k and volume for this patient; check these values",
                 model.name
             ),
         ));
