@@ -133,76 +133,8 @@ pub fn write_note(
     } else {
         free(&case.drug.name)
     };
-    if md {
-        writeln!(w, "# Drug level note: {drug}\n")?;
-        writeln!(w, "> **CAUTION:** {CAUTION}\n")?;
-    } else {
-        writeln!(w, "DRUG LEVEL NOTE: {drug}\n")?;
-        writeln!(w, "CAUTION: {CAUTION}\n")?;
-    }
-    let item = if md { "- " } else { "  " };
-    writeln!(
-        w,
-        "{item}Made {} with ebb {} from {}",
-        free(&meta.made_at),
-        free(&meta.version),
-        free(&meta.source)
-    )?;
-    let p = &case.patient;
-    if let Some(l) = &p.label {
-        writeln!(w, "{item}Patient: {}", free(l))?;
-    }
-    let mut facts = Vec::new();
-    if let Some(x) = p.weight_kg {
-        facts.push(format!("weight {} kg", num(x)));
-    }
-    if let Some(x) = p.age_years {
-        facts.push(format!("age {} years", num(x)));
-    }
-    if let Some(s) = p.sex {
-        facts.push(match s {
-            Sex::Female => "female".to_string(),
-            Sex::Male => "male".to_string(),
-        });
-    }
-    // In the unit it was entered in, as the laboratory reported it.
-    match (p.creatinine_umol_l, p.creatinine_mg_dl) {
-        (Some(x), _) => facts.push(format!("creatinine {} umol/L", num(x))),
-        (None, Some(x)) => facts.push(format!("creatinine {} mg/dL", num(x))),
-        (None, None) => {}
-    }
-    if let Some(x) = p.height_cm {
-        facts.push(format!("height {} cm", num(x)));
-    }
-    match (p.albumin_g_l, p.albumin_g_dl) {
-        (Some(x), _) => facts.push(format!("albumin {} g/L", num(x))),
-        (None, Some(x)) => facts.push(format!("albumin {} g/dL", num(x))),
-        (None, None) => {}
-    }
-    match p.dialysis {
-        Some(true) => facts.push("on intermittent haemodialysis".into()),
-        Some(false) => facts.push("not on dialysis".into()),
-        None => {}
-    }
-    let size = crate::core::renal::body_size(p);
-    if let Some(x) = size.ideal_kg {
-        facts.push(format!("ideal body weight {} kg (Devine)", num(x)));
-    }
-    if let Some(x) = size.adjusted_kg {
-        facts.push(format!("adjusted body weight {} kg", num(x)));
-    }
-    if let Some(x) = size.bmi {
-        facts.push(format!("BMI {}", num(x)));
-    }
-    if let Ok(c) = crate::core::renal::creatinine_clearance(p) {
-        facts.push(format!(
-            "creatinine clearance {} mL/min (Cockcroft-Gault, total weight)",
-            num(c.ml_min)
-        ));
-    }
-    if !facts.is_empty() {
-        writeln!(w, "{item}{}", facts.join(", "))?;
-    }
+    let item = write_head(w, md, &drug, CAUTION, meta, &free)?;
+    write_patient(w, case, item, &free)?;
     if let Some(pr) = &case.drug.profile {
         writeln!(w, "{item}Drug profile: {}", free(pr))?;
     }
@@ -382,6 +314,103 @@ pub fn write_note(
     Ok(())
 }
 
+/// The note's first lines: its title, the caution, and who made it from what; returns the
+/// list-item prefix of the format.
+fn write_head(
+    w: &mut dyn Write,
+    md: bool,
+    drug: &str,
+    caution: &str,
+    meta: &NoteMeta,
+    free: &dyn Fn(&str) -> String,
+) -> io::Result<&'static str> {
+    if md {
+        writeln!(w, "# Drug level note: {drug}\n")?;
+        writeln!(w, "> **CAUTION:** {caution}\n")?;
+    } else {
+        writeln!(w, "DRUG LEVEL NOTE: {drug}\n")?;
+        writeln!(w, "CAUTION: {caution}\n")?;
+    }
+    let item = if md { "- " } else { "  " };
+    writeln!(
+        w,
+        "{item}Made {} with ebb {} from {}",
+        free(&meta.made_at),
+        free(&meta.version),
+        free(&meta.source)
+    )?;
+    Ok(item)
+}
+
+/// The patient as recorded (label, covariates) and the body size and kidney function
+/// derived from them.
+fn write_patient(
+    w: &mut dyn Write,
+    case: &Case,
+    item: &str,
+    free: &dyn Fn(&str) -> String,
+) -> io::Result<()> {
+    let p = &case.patient;
+    if let Some(l) = &p.label {
+        writeln!(w, "{item}Patient: {}", free(l))?;
+    }
+    let mut facts = Vec::new();
+    if let Some(x) = p.weight_kg {
+        facts.push(format!("weight {} kg", num(x)));
+    }
+    if let Some(x) = p.age_years {
+        facts.push(format!("age {} years", num(x)));
+    }
+    if let Some(s) = p.sex {
+        facts.push(match s {
+            Sex::Female => "female".to_string(),
+            Sex::Male => "male".to_string(),
+        });
+    }
+    // In the unit it was entered in, as the laboratory reported it.
+    match (p.creatinine_umol_l, p.creatinine_mg_dl) {
+        (Some(x), _) => facts.push(format!("creatinine {} umol/L", num(x))),
+        (None, Some(x)) => facts.push(format!("creatinine {} mg/dL", num(x))),
+        (None, None) => {}
+    }
+    if let Some(x) = p.height_cm {
+        facts.push(format!("height {} cm", num(x)));
+    }
+    match (p.albumin_g_l, p.albumin_g_dl) {
+        (Some(x), _) => facts.push(format!("albumin {} g/L", num(x))),
+        (None, Some(x)) => facts.push(format!("albumin {} g/dL", num(x))),
+        (None, None) => {}
+    }
+    if p.renal_failure == Some(true) {
+        facts.push("renal failure".into());
+    }
+    match p.dialysis {
+        Some(true) => facts.push("on intermittent haemodialysis".into()),
+        Some(false) => facts.push("not on dialysis".into()),
+        None => {}
+    }
+    let size = crate::core::renal::body_size(p);
+    if let Some(x) = size.ideal_kg {
+        facts.push(format!("ideal body weight {} kg (Devine)", num(x)));
+    }
+    if let Some(x) = size.adjusted_kg {
+        facts.push(format!("adjusted body weight {} kg", num(x)));
+    }
+    if let Some(x) = size.bmi {
+        facts.push(format!("BMI {}", num(x)));
+    }
+    if let Ok(c) = crate::core::renal::creatinine_clearance(p) {
+        facts.push(format!(
+            "creatinine clearance {} mL/min (Cockcroft-Gault, total weight)",
+            num(c.ml_min)
+        ));
+    }
+    if !facts.is_empty() {
+        writeln!(w, "{item}{}", facts.join(", "))?;
+    }
+    Ok(())
+}
+
 /// Write the record note of a drug with saturable elimination (phenytoin): the saturable
 /// caution, who made it, the patient, then the saturable report's body (in a fenced block in
 /// Markdown, so nothing in it becomes markup).
@@ -410,43 +439,8 @@ pub fn write_saturable_note(
     } else {
         free(&case.drug.name)
     };
-    if md {
-        writeln!(w, "# Drug level note: {drug}\n")?;
-        writeln!(w, "> **CAUTION:** {SATURABLE_CAUTION}\n")?;
-    } else {
-        writeln!(w, "DRUG LEVEL NOTE: {drug}\n")?;
-        writeln!(w, "CAUTION: {SATURABLE_CAUTION}\n")?;
-    }
-    let item = if md { "- " } else { "  " };
-    writeln!(
-        w,
-        "{item}Made {} with ebb {} from {}",
-        free(&meta.made_at),
-        free(&meta.version),
-        free(&meta.source)
-    )?;
-    if let Some(l) = &case.patient.label {
-        writeln!(w, "{item}Patient: {}", free(l))?;
-    }
-    let p = &case.patient;
-    let mut facts = Vec::new();
-    if let Some(x) = p.weight_kg {
-        facts.push(format!("weight {} kg", num(x)));
-    }
-    match (p.albumin_g_l, p.albumin_g_dl) {
-        (Some(x), _) => facts.push(format!("albumin {} g/L", num(x))),
-        (None, Some(x)) => facts.push(format!("albumin {} g/dL", num(x))),
-        (None, None) => {}
-    }
-    if p.renal_failure == Some(true) {
-        facts.push("renal failure".into());
-    }
-    if p.dialysis == Some(true) {
-        facts.push("on intermittent haemodialysis".into());
-    }
-    if !facts.is_empty() {
-        writeln!(w, "{item}{}", facts.join(", "))?;
-    }
+    let item = write_head(w, md, &drug, SATURABLE_CAUTION, meta, &free)?;
+    write_patient(w, case, item, &free)?;
     writeln!(w)?;
     if md {
         writeln!(w, "```text")?;
