@@ -119,15 +119,7 @@ pub fn write_note(
             )
         }
     };
-    // Free text from the file is data: escaped for Markdown, or made printable for plain
-    // text, so it can neither start a line nor become markup.
-    let free = |s: &str| -> String {
-        if md {
-            text::markdown(s)
-        } else {
-            text::printable(s).into_owned()
-        }
-    };
+    let free = |s: &str| free_text(md, s);
     let drug = if case.drug.name.is_empty() {
         "drug not named".to_string()
     } else {
@@ -314,6 +306,16 @@ pub fn write_note(
     Ok(())
 }
 
+/// Free text from the file is data: escaped for Markdown, or made printable for plain text,
+/// so it can neither start a line nor become markup.
+fn free_text(md: bool, s: &str) -> String {
+    if md {
+        text::markdown(s)
+    } else {
+        text::printable(s).into_owned()
+    }
+}
+
 /// The note's first lines: its title, the caution, and who made it from what; returns the
 /// list-item prefix of the format.
 fn write_head(
@@ -427,13 +429,7 @@ pub fn write_saturable_note(
 ) -> io::Result<()> {
     use crate::core::saturable_report::{write_body, CAUTION as SATURABLE_CAUTION};
     let md = format == NoteFormat::Markdown;
-    let free = |s: &str| -> String {
-        if md {
-            text::markdown(s)
-        } else {
-            text::printable(s).into_owned()
-        }
-    };
+    let free = |s: &str| free_text(md, s);
     let drug = if case.drug.name.is_empty() {
         free(&params.drug)
     } else {
