@@ -48,11 +48,30 @@ pub fn run(app: App) -> io::Result<Ended> {
     for sig in STOPPING {
         signal_hook::flag::register_usize(sig, Arc::clone(&caught), sig as usize)?;
     }
+    watchdog(Arc::clone(&caught));
     // `init` installs a panic hook that restores the terminal before the panic is reported.
     let terminal = ratatui::init();
     let result = run_loop(terminal, app, &caught);
     ratatui::restore();
     result
+}
+
+/// How long the screen has to stop by itself after a signal.
+const GRACE: Duration = Duration::from_secs(3);
+
+/// After a signal the loop stops within a fraction of a second and writes the recovery file.
+/// When the terminal has gone (a closed window sends SIGHUP), reading it can block inside the
+/// terminal library for good and the loop never looks at the signal again: this thread then
+/// ends the process after `GRACE`, so a screen without a terminal never lingers or spins.
+fn watchdog(caught: Arc<AtomicUsize>) {
+    std::thread::spawn(move || loop {
+        std::thread::sleep(Duration::from_millis(200));
+        let signal = caught.load(Ordering::SeqCst);
+        if signal != 0 {
+            std::thread::sleep(GRACE);
+            std::process::exit(128 + i32::try_from(signal).unwrap_or(0));
+        }
+    });
 }
 
 fn run_loop(
