@@ -507,7 +507,14 @@ pub fn suggest_for(
         )
     };
     out.sort_by_key(key);
-    if let Some(c) = current {
+    // The current regimen is listed only on one of the strategy's intervals: a q8h regimen is
+    // no suggestion under extended-interval dosing, even when it meets the targets.
+    let on_strategy = |c: &Current| {
+        opts.intervals_h
+            .iter()
+            .any(|x| (x - c.interval_h).abs() < 1e-9)
+    };
+    if let Some(c) = current.filter(on_strategy) {
         if let Some(mut now) =
             candidate(c.dose_mg, c.route, c.interval_h, k, v, t, opts).filter(|s| !s.lengthened)
         {
@@ -829,6 +836,13 @@ mod tests {
         };
         let s2 = suggest_for(k, v, r, &gent_targets(), &opts, Some(high));
         assert!(s2.iter().all(|x| !x.current));
+        // Nor one on an interval outside the strategy's (q6h against 8 and 12 h).
+        let off = Current {
+            interval_h: 6.0,
+            ..current
+        };
+        let s3 = suggest_for(k, v, r, &gent_targets(), &opts, Some(off));
+        assert!(s3.iter().all(|x| !x.current && x.interval_h != 6.0));
         // Taking a suggestion changes the plan, not the record: the list is the same.
         assert_eq!(
             s,
