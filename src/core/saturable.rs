@@ -580,11 +580,7 @@ mod tests {
         }
         let times = [24.0 * 20.0, 24.0 * 50.0, 24.0 * 45.0];
         let truth = PT;
-        let obs: Vec<(f64, f64)> = times
-            .iter()
-            .zip(course(&truth, &inputs, 0.0, -1.0, &times))
-            .map(|(t, c)| (*t, c))
-            .collect();
+        let obs = observed(&truth, &inputs, &times);
         let start = Kinetics {
             vmax_mg_per_day: 500.0,
             km_mg_l: 3.0,
@@ -603,6 +599,15 @@ mod tests {
         assert!((f.kinetics.vmax_mg_per_day - 415.0).abs() < 0.01, "{f:?}");
     }
 
+    /// The exact levels of `truth` at `times` after `inputs`, from no drug on board.
+    fn observed(truth: &Kinetics, inputs: &[Input], times: &[f64]) -> Vec<(f64, f64)> {
+        times
+            .iter()
+            .zip(course(truth, inputs, 0.0, -1.0, times))
+            .map(|(t, c)| (*t, c))
+            .collect()
+    }
+
     #[test]
     fn two_levels_at_one_steady_dose_cannot_identify_both() {
         let inputs: Vec<Input> = (0..60)
@@ -613,11 +618,7 @@ mod tests {
             })
             .collect();
         let times = [24.0 * 59.0, 24.0 * 60.0];
-        let obs: Vec<(f64, f64)> = times
-            .iter()
-            .zip(course(&PT, &inputs, 0.0, -1.0, &times))
-            .map(|(t, c)| (*t, c))
-            .collect();
+        let obs = observed(&PT, &inputs, &times);
         let start = Kinetics {
             vmax_mg_per_day: 500.0,
             km_mg_l: 3.0,
