@@ -520,6 +520,353 @@ pub fn half_life(k: f64) -> f64 {
     std::f64::consts::LN_2 / k
 }
 
+/// The highest value of `f` on [a, b] and where, by golden-section search (exact for a
+/// function with one turn at most there), the ends included.
+pub fn golden_max(f: &dyn Fn(f64) -> f64, a: f64, b: f64) -> (f64, f64) {
+    let r = (5f64.sqrt() - 1.0) / 2.0;
+    let (mut lo, mut hi) = (a, b);
+    let mut x1 = hi - r * (hi - lo);
+    let mut x2 = lo + r * (hi - lo);
+    let (mut f1, mut f2) = (f(x1), f(x2));
+    for _ in 0..200 {
+        if hi - lo <= 1e-12 * (1.0 + lo.abs()) {
+            break;
+        }
+        if f1 < f2 {
+            lo = x1;
+            x1 = x2;
+            f1 = f2;
+            x2 = lo + r * (hi - lo);
+            f2 = f(x2);
+        } else {
+            hi = x2;
+            x2 = x1;
+            f2 = f1;
+            x1 = hi - r * (hi - lo);
+            f1 = f(x1);
+        }
+    }
+    [(a, f(a)), (b, f(b)), (x1, f1), (x2, f2)]
+        .into_iter()
+        .fold((a, f64::NEG_INFINITY), |m, x| if x.1 > m.1 { x } else { m })
+}
+
+/// The parameters of a two-compartment disposition: a central compartment (volume V1, where
+/// the levels are drawn and the drug is cleared) exchanging with a peripheral one (V2) at the
+/// intercompartmental clearance Q.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct TwoCompartment {
+    /// Clearance from the central compartment, L/h (> 0).
+    pub cl: f64,
+    /// Central volume, L (> 0).
+    pub v1: f64,
+    /// Intercompartmental clearance, L/h (> 0).
+    pub q: f64,
+    /// Peripheral volume, L (> 0).
+    pub v2: f64,
+}
+
+impl TwoCompartment {
+    /// The micro-constants (k10, k12, k21), 1/h: CL/V1, Q/V1, Q/V2.
+    pub fn micro(&self) -> (f64, f64, f64) {
+        (self.cl / self.v1, self.q / self.v1, self.q / self.v2)
+    }
+
+    /// The macro-constants (α, β), 1/h, α > β > 0: the roots of
+    /// λ² − (k10 + k12 + k21)·λ + k10·k21 = 0. β is found as k10·k21/α, which keeps its
+    /// digits when β is much smaller than α.
+    pub fn rates(&self) -> (f64, f64) {
+        let (k10, k12, k21) = self.micro();
+        let sum = k10 + k12 + k21;
+        // sum² − 4·k10·k21 written as a sum of squares, never negative.
+        let disc = (k10 + k12 - k21).powi(2) + 4.0 * k12 * k21;
+        let alpha = (sum + disc.sqrt()) / 2.0;
+        (alpha, k10 * k21 / alpha)
+    }
+
+    /// The two exponential modes of the level after a unit bolus (mg/L per mg):
+    /// A·e^(−α·t) + B·e^(−β·t), A = (α − k21)/(V1·(α − β)), B = (k21 − β)/(V1·(α − β)).
+    pub fn modes(&self) -> [Mode; 2] {
+        let (_, _, k21) = self.micro();
+        let (alpha, beta) = self.rates();
+        let d = self.v1 * (alpha - beta);
+        [
+            Mode {
+                rate: alpha,
+                per_l: (alpha - k21) / d,
+            },
+            Mode {
+                rate: beta,
+                per_l: (k21 - beta) / d,
+            },
+        ]
+    }
+}
+
+/// One exponential mode of a disposition: a unit bolus gives `per_l`·e^(−`rate`·t) mg/L per mg.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Mode {
+    /// Rate constant of the mode, 1/h.
+    pub rate: f64,
+    /// Level per mg of a bolus at t = 0 carried by this mode, 1/L.
+    pub per_l: f64,
+}
+
+/// How the body handles the drug once it is in the blood: the linear one-compartment model
+/// (rate constant k, volume V) or a two-compartment one. Both are sums of exponential modes,
+/// so every single-dose response is the one-compartment response of each mode, weighted by
+/// the mode's share, and superposition, steady state and the forward pass carry over.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Disposition {
+    /// One compartment: rate constant k (1/h) and volume V (L).
+    One {
+        /// Elimination rate constant, 1/h.
+        k: f64,
+        /// Volume of distribution, L.
+        v: f64,
+    },
+    /// Two compartments.
+    Two(TwoCompartment),
+}
+
+impl Disposition {
+    /// The exponential modes (one or two) of the unit bolus response.
+    pub fn modes(&self) -> Vec<Mode> {
+        match self {
+            Disposition::One { k, v } => vec![Mode {
+                rate: *k,
+                per_l: 1.0 / v,
+            }],
+            Disposition::Two(t) => t.modes().to_vec(),
+        }
+    }
+
+    /// 1 or 2.
+    pub fn compartments(&self) -> u8 {
+        match self {
+            Disposition::One { .. } => 1,
+            Disposition::Two(_) => 2,
+        }
+    }
+
+    /// The terminal rate constant, 1/h: k, or β of two compartments.
+    pub fn terminal_k(&self) -> f64 {
+        match self {
+            Disposition::One { k, .. } => *k,
+            Disposition::Two(t) => t.rates().1,
+        }
+    }
+
+    /// The distribution rate constant α, 1/h (two compartments only).
+    pub fn distribution_k(&self) -> Option<f64> {
+        match self {
+            Disposition::One { .. } => None,
+            Disposition::Two(t) => Some(t.rates().0),
+        }
+    }
+
+    /// Clearance, L/h: k·V, or CL.
+    pub fn clearance(&self) -> f64 {
+        match self {
+            Disposition::One { k, v } => k * v,
+            Disposition::Two(t) => t.cl,
+        }
+    }
+
+    /// The volume the levels are drawn from, L: V, or V1.
+    pub fn central_volume(&self) -> f64 {
+        match self {
+            Disposition::One { v, .. } => *v,
+            Disposition::Two(t) => t.v1,
+        }
+    }
+
+    /// The volume at steady state, L: V, or V1 + V2.
+    pub fn steady_volume(&self) -> f64 {
+        match self {
+            Disposition::One { v, .. } => *v,
+            Disposition::Two(t) => t.v1 + t.v2,
+        }
+    }
+
+    /// The parameters, in the order of `with_params`: (k, V) or (CL, V1, Q, V2).
+    pub fn params(&self) -> Vec<f64> {
+        match self {
+            Disposition::One { k, v } => vec![*k, *v],
+            Disposition::Two(t) => vec![t.cl, t.v1, t.q, t.v2],
+        }
+    }
+
+    /// The same kind of disposition with parameters `p` (in the order of `params`); values
+    /// missing from `p` are kept.
+    pub fn with_params(&self, p: &[f64]) -> Disposition {
+        let at = |i: usize, x: f64| p.get(i).copied().unwrap_or(x);
+        match self {
+            Disposition::One { k, v } => Disposition::One {
+                k: at(0, *k),
+                v: at(1, *v),
+            },
+            Disposition::Two(t) => Disposition::Two(TwoCompartment {
+                cl: at(0, t.cl),
+                v1: at(1, t.v1),
+                q: at(2, t.q),
+                v2: at(3, t.v2),
+            }),
+        }
+    }
+
+    /// Concentration (mg/L) `s` hours after the start of one dose (0 for `s <= 0`).
+    pub fn single_dose(&self, amount_mg: f64, route: Route, s: f64) -> f64 {
+        match self {
+            Disposition::One { k, v } => single_dose(amount_mg, route, *k, *v, s),
+            Disposition::Two(_) => self
+                .modes()
+                .iter()
+                .map(|m| m.per_l * unit_response(amount_mg, route, m.rate, s).0)
+                .sum(),
+        }
+    }
+
+    /// Concentration (mg/L) at time `t` from every dose given before it.
+    pub fn superpose<'a>(
+        &self,
+        doses: impl IntoIterator<Item = &'a Administration>,
+        t: f64,
+    ) -> f64 {
+        doses
+            .into_iter()
+            .map(|d| self.single_dose(d.amount_mg, d.route, t - d.t))
+            .sum()
+    }
+
+    /// Concentrations (mg/L) of `schedule` at each time of `ts`, in one forward pass per mode.
+    pub fn levels(&self, schedule: &Schedule, ts: &[f64]) -> Vec<f64> {
+        match self {
+            Disposition::One { k, v } => schedule.levels(*k, *v, ts),
+            Disposition::Two(_) => {
+                let mut out = vec![0.0; ts.len()];
+                for m in self.modes() {
+                    for (o, (c, _)) in out.iter_mut().zip(schedule.unit_levels(m.rate, ts)) {
+                        *o += m.per_l * c;
+                    }
+                }
+                out
+            }
+        }
+    }
+
+    /// The peak (mg/L) of one dose with nothing on board, and the hours after its start at
+    /// which it falls.
+    pub fn single_peak(&self, amount_mg: f64, route: Route) -> (f64, f64) {
+        match self {
+            Disposition::One { k, v } => (
+                single_peak(amount_mg, route, *k, *v),
+                single_peak_time(route, *k),
+            ),
+            Disposition::Two(_) => match route.absorption() {
+                // Both modes carry positive weight, so the level falls from the end of the
+                // input: the peak is there unless the dose is absorbed.
+                None => {
+                    let t = route.infusion_h();
+                    let c = match route {
+                        Route::Infusion { .. } => self.single_dose(amount_mg, route, t),
+                        r => r.bioavailability() * amount_mg / self.central_volume(),
+                    };
+                    (c, t)
+                }
+                Some(a) => {
+                    let k = self.terminal_k();
+                    // The peak comes no later than the one-compartment peak at β.
+                    let end = a.lag_h + 2.0 * single_peak_after_lag(k, a.ka_per_h);
+                    let (t, c) =
+                        golden_max(&|s| self.single_dose(amount_mg, route, s), a.lag_h, end);
+                    (c, t)
+                }
+            },
+        }
+    }
+
+    /// The steady-state level (mg/L) `s` hours after the start of a dose (0 ≤ s ≤ tau) of
+    /// `amount_mg` by `route` every `tau` hours: the sum of each mode's steady state.
+    pub fn steady_level(&self, amount_mg: f64, route: Route, tau: f64, s: f64) -> f64 {
+        match self {
+            Disposition::One { k, v } => steady_level(amount_mg, route, tau, *k, *v, s),
+            Disposition::Two(_) => self
+                .modes()
+                .iter()
+                .map(|m| steady_level(amount_mg, route, tau, m.rate, 1.0 / m.per_l, s))
+                .sum(),
+        }
+    }
+
+    /// Steady state of `amount_mg` by `route` every `tau` hours.
+    pub fn steady_state(&self, amount_mg: f64, route: Route, tau: f64) -> SteadyState {
+        match self {
+            Disposition::One { k, v } => steady_state(amount_mg, route, tau, *k, *v),
+            Disposition::Two(t) => {
+                let f = route.bioavailability();
+                let level = |s: f64| self.steady_level(amount_mg, route, tau, s);
+                let (peak_after, peak) = match route.absorption() {
+                    None => {
+                        let after = route.infusion_h();
+                        (after, level(after))
+                    }
+                    Some(a) => {
+                        // The level rises from the lag to one turn and falls after it;
+                        // search the interval after the lag.
+                        let lag = a.lag_h.rem_euclid(tau);
+                        let (x, c) = golden_max(&|u| level((lag + u).rem_euclid(tau)), 0.0, tau);
+                        ((lag + x).rem_euclid(tau), c)
+                    }
+                };
+                SteadyState {
+                    accumulation_factor: accumulation_factor(self.terminal_k(), tau),
+                    peak_mg_l: peak,
+                    peak_after_h: peak_after,
+                    trough_mg_l: level(tau),
+                    auc24_mg_h_l: f * amount_mg / t.cl * 24.0 / tau,
+                }
+            }
+        }
+    }
+
+    /// Hours of a constant input to reach `fraction` (0..1) of its steady-state level:
+    /// −ln(1 − f)/k with one compartment; with two, the root of
+    /// Σ wᵢ·e^(−λᵢ·t) = 1 − f, wᵢ the share of mode i in the steady-state level
+    /// ((Aᵢ/λᵢ)/Σ(Aⱼ/λⱼ)), found by bisection (the sum falls monotonically).
+    pub fn time_to_fraction_of_ss(&self, fraction: f64) -> f64 {
+        match self {
+            Disposition::One { k, .. } => time_to_fraction_of_ss(fraction, *k),
+            Disposition::Two(_) => {
+                let modes = self.modes();
+                let total: f64 = modes.iter().map(|m| m.per_l / m.rate).sum();
+                let left = |t: f64| -> f64 {
+                    modes
+                        .iter()
+                        .map(|m| m.per_l / m.rate / total * (-m.rate * t).exp())
+                        .sum()
+                };
+                let target = 1.0 - fraction;
+                // The terminal mode alone reaches it no later than this.
+                let mut hi = time_to_fraction_of_ss(fraction, self.terminal_k());
+                let mut lo = 0.0;
+                for _ in 0..200 {
+                    let mid = 0.5 * (lo + hi);
+                    if left(mid) > target {
+                        lo = mid;
+                    } else {
+                        hi = mid;
+                    }
+                    if hi - lo <= 1e-12 * hi {
+                        break;
+                    }
+                }
+                0.5 * (lo + hi)
+            }
+        }
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -255,36 +255,7 @@ impl Absorbing {
     }
 }
 
-/// The highest value of `f` on [a, b] and where, by golden-section search (exact for a
-/// function with one turn at most there), the ends included.
-pub fn golden_max(f: &dyn Fn(f64) -> f64, a: f64, b: f64) -> (f64, f64) {
-    let r = (5f64.sqrt() - 1.0) / 2.0;
-    let (mut lo, mut hi) = (a, b);
-    let mut x1 = hi - r * (hi - lo);
-    let mut x2 = lo + r * (hi - lo);
-    let (mut f1, mut f2) = (f(x1), f(x2));
-    for _ in 0..200 {
-        if hi - lo <= 1e-12 * (1.0 + lo.abs()) {
-            break;
-        }
-        if f1 < f2 {
-            lo = x1;
-            x1 = x2;
-            f1 = f2;
-            x2 = lo + r * (hi - lo);
-            f2 = f(x2);
-        } else {
-            hi = x2;
-            x2 = x1;
-            f2 = f1;
-            x1 = hi - r * (hi - lo);
-            f1 = f(x1);
-        }
-    }
-    [(a, f(a)), (b, f(b)), (x1, f1), (x2, f2)]
-        .into_iter()
-        .fold((a, f64::NEG_INFINITY), |m, x| if x.1 > m.1 { x } else { m })
-}
+pub use crate::core::model::golden_max;
 
 /// The plan at steady state.
 #[derive(Debug, Clone, PartialEq)]

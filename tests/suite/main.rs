@@ -42,3 +42,4 @@ mod tui_random_keys;
 mod tui_save_conflict;
 mod tui_screens;
 mod tui_tmux;
+mod two_compartment;
