@@ -280,6 +280,7 @@ pub fn fit_log_linear(case: &Case) -> Result<Fit> {
         volume_ci95: None,
         clearance_ci95: None,
         population: None,
+        two: None,
     };
     volume(case, &mut fit);
     for (w, v) in &windows {

@@ -5,6 +5,7 @@
 use statrs::distribution::{ContinuousCDF, StudentsT};
 
 use crate::core::case::Case;
+use crate::core::model::{Disposition, TwoCompartment};
 use crate::core::population::Summary;
 use crate::core::spread::Spread;
 use crate::core::warning::Warning;
@@ -115,9 +116,31 @@ pub struct Fit {
     pub clearance_ci95: Option<[f64; 2]>,
     /// The population values and how far the estimate moved from them (Bayesian fits).
     pub population: Option<Summary>,
+    /// The two-compartment disposition, when the fit is of one (a Bayesian fit with a
+    /// two-compartment population model). `k` is then its terminal rate constant β and
+    /// `volume_l` its central volume V1.
+    pub two: Option<TwoCompartment>,
 }
 
 impl Fit {
+    /// How the body handles the drug by this fit: the two-compartment disposition when the
+    /// fit is of one, else one compartment with k and the fitted volume (None without one).
+    pub fn disposition(&self) -> Option<Disposition> {
+        match self.two {
+            Some(t) => Some(Disposition::Two(t)),
+            None => self.volume_l.map(|v| Disposition::One { k: self.k, v }),
+        }
+    }
+
+    /// 1 or 2.
+    pub fn compartments(&self) -> u8 {
+        if self.two.is_some() {
+            2
+        } else {
+            1
+        }
+    }
+
     /// The fitted line's value (mg/L) at time `t`.
     pub fn line_mg_l(&self, t: f64) -> f64 {
         (self.ln_intercept - self.k * t).exp()

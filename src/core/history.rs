@@ -547,6 +547,7 @@ pub(crate) fn to_fit(
         volume_ci95: spread.map(|s| s.interval(v, [0.0, 1.0])),
         clearance_ci95: spread.map(|s| s.interval(k * v, [1.0, 1.0])),
         population,
+        two: None,
     }
 }
 
