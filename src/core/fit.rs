@@ -281,6 +281,7 @@ pub fn fit_log_linear(case: &Case) -> Result<Fit> {
         clearance_ci95: None,
         population: None,
         two: None,
+        param_spread: None,
     };
     volume(case, &mut fit);
     for (w, v) in &windows {

@@ -7,7 +7,7 @@ use statrs::distribution::{ContinuousCDF, StudentsT};
 use crate::core::case::Case;
 use crate::core::model::{Disposition, TwoCompartment};
 use crate::core::population::Summary;
-use crate::core::spread::Spread;
+use crate::core::spread::{ParamSpread, Spread};
 use crate::core::warning::Warning;
 
 /// The 0.975 quantile of Student's t with `df` degrees of freedom.
@@ -120,6 +120,8 @@ pub struct Fit {
     /// two-compartment population model). `k` is then its terminal rate constant β and
     /// `volume_l` its central volume V1.
     pub two: Option<TwoCompartment>,
+    /// Joint uncertainty of the two-compartment parameters (`spread` is then None).
+    pub param_spread: Option<ParamSpread>,
 }
 
 impl Fit {

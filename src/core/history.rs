@@ -548,6 +548,7 @@ pub(crate) fn to_fit(
         clearance_ci95: spread.map(|s| s.interval(k * v, [1.0, 1.0])),
         population,
         two: None,
+        param_spread: None,
     }
 }
 
