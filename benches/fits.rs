@@ -8,6 +8,7 @@ use std::hint::black_box;
 use criterion::{criterion_group, criterion_main, BenchmarkId, Criterion};
 use ebb::core::case::Case;
 use ebb::core::casefile::CaseFile;
+use ebb::core::model::Disposition;
 use ebb::core::regimen::{self, RegimenOptions};
 use ebb::core::{fit, history, report};
 use ebb::demo::DEMO_CASE;
@@ -118,8 +119,7 @@ fn bench_regimen(c: &mut Criterion) {
     c.bench_function("regimen search on the demo (k, V, targets)", |b| {
         b.iter(|| {
             let s = regimen::suggest(
-                black_box(fitted.k),
-                black_box(v),
+                &black_box(Disposition::One { k: fitted.k, v }),
                 route,
                 &targets,
                 &opts,
@@ -135,7 +135,15 @@ fn bench_regimen(c: &mut Criterion) {
         ..RegimenOptions::default()
     };
     c.bench_function("regimen search on the demo, six infusion times", |b| {
-        b.iter(|| regimen::suggest(black_box(fitted.k), v, route, &targets, &wide, Some(8.0)))
+        b.iter(|| {
+            regimen::suggest(
+                &black_box(Disposition::One { k: fitted.k, v }),
+                route,
+                &targets,
+                &wide,
+                Some(8.0),
+            )
+        })
     });
 }
 

@@ -163,8 +163,10 @@ pub fn auc_compare(p: &Patient) -> Option<AucSection> {
     let t_inf = dose.route.infusion_h();
     let two =
         auc::auc24_from_two_levels(la.t - dose.t, la.mg_l, lb.t - dose.t, lb.mg_l, t_inf, tau)?;
-    let by_kv = match (p.v(), dose.amount_mg) {
-        (Some(v), Some(d)) => Some(dose.route.bioavailability() * d / (fit.k * v) * 24.0 / tau),
+    let by_kv = match (p.disposition(), dose.amount_mg) {
+        (Some(disp), Some(d)) => {
+            Some(dose.route.bioavailability() * d / disp.clearance() * 24.0 / tau)
+        }
         _ => None,
     };
     let scale = case.drug.scale;

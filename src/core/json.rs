@@ -174,6 +174,12 @@ struct JsonFit {
     model: Option<String>,
     /// Addition: compartments of the model behind the fit.
     compartments: u8,
+    /// Addition (two compartments, else null): peripheral volume, L.
+    peripheral_volume_l: Option<f64>,
+    /// Addition (two compartments, else null): intercompartmental clearance, L/h.
+    intercompartmental_clearance_l_per_h: Option<f64>,
+    /// Addition (two compartments, else null): distribution half-life ln 2/α, h.
+    distribution_half_life_h: Option<f64>,
     /// Addition: the population's 90 % ranges (method "population" only, else null).
     k_pi90_per_h: Option<[f64; 2]>,
     half_life_pi90_h: Option<[f64; 2]>,
@@ -279,7 +285,13 @@ impl From<&Report> for JsonReport {
                     .population
                     .as_ref()
                     .map(|s| s.population.model.clone()),
-                compartments: 1,
+                compartments: r.fit.compartments,
+                peripheral_volume_l: r.fit.peripheral.map(|p| p.volume_l),
+                intercompartmental_clearance_l_per_h: r
+                    .fit
+                    .peripheral
+                    .map(|p| p.intercompartmental_l_per_h),
+                distribution_half_life_h: r.fit.peripheral.map(|p| p.distribution_half_life_h),
                 volume_l: r.fit.volume_l,
                 volume_method: r.fit.volume_method,
                 clearance_l_per_h: r.fit.clearance_l_per_h,

@@ -59,6 +59,9 @@ pub fn resume(
         if level(t) > below || c > below {
             let fall = if c <= below {
                 0.0
+            } else if p.two() {
+                // Two compartments: a sum of falling exponentials, found by bisection.
+                crate::core::projection::first_below(&level, from, below, p.fit.k) - from
             } else {
                 (c / below).ln() / p.fit.k
             };

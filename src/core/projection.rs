@@ -5,7 +5,7 @@
 
 use crate::core::case::{Case, Plan};
 use crate::core::fit::Fit;
-use crate::core::model::{self, Administration, Schedule, SteadyState};
+use crate::core::model::{self, Administration, Disposition, Schedule, SteadyState};
 
 /// The fitted patient as a model that can be evaluated at any time.
 #[derive(Debug, Clone)]
@@ -28,19 +28,36 @@ impl<'a> Patient<'a> {
         Patient { case, fit, given }
     }
 
-    /// Volume, when known.
+    /// Volume, when known (the central volume of two compartments).
     pub fn v(&self) -> Option<f64> {
         self.given.as_ref().and(self.fit.volume_l)
+    }
+
+    /// The fit's disposition, when the record's doses are known and V was found.
+    pub fn disposition(&self) -> Option<Disposition> {
+        self.given.as_ref().and(self.fit.disposition())
+    }
+
+    /// Whether the fit is of two compartments.
+    pub fn two(&self) -> bool {
+        self.fit.two.is_some()
     }
 
     /// The model's concentration (mg/L) at `t` with the recorded doses only (the fitted
     /// line without V).
     pub fn level_mg_l(&self, t: f64) -> f64 {
-        self.level_with_k(t, self.fit.k)
+        match (&self.given, self.fit.two) {
+            (Some(g), Some(two)) => Disposition::Two(two).superpose(g, t),
+            _ => self.level_with_k(t, self.fit.k),
+        }
     }
 
-    /// As `level_mg_l`, with another k (for intervals).
+    /// As `level_mg_l`, with another k (for the intervals of a one-compartment fit without a
+    /// joint spread; a two-compartment fit always has one, and is evaluated as fitted).
     pub fn level_with_k(&self, t: f64, k: f64) -> f64 {
+        if let (Some(g), Some(two)) = (&self.given, self.fit.two) {
+            return Disposition::Two(two).superpose(g, t);
+        }
         match (&self.given, self.fit.volume_l) {
             (Some(g), Some(v)) => model::superpose(g, k, v, t),
             _ => self.fit.line_mg_l(t),
@@ -50,10 +67,16 @@ impl<'a> Patient<'a> {
     /// The model's concentration (mg/L) at `t` with the recorded doses and the plan doses
     /// given up to and including the plan dose numbered `last` (0-based). `None` without V.
     pub fn level_with_plan(&self, t: f64, plan: &Plan, last: Option<usize>) -> Option<f64> {
-        let (g, v) = (self.given.as_ref()?, self.fit.volume_l?);
-        let k = self.fit.k;
-        let from_plan = last.map_or(0.0, |last| plan_level(plan, last, k, v, t));
-        Some(model::superpose(g, k, v, t) + from_plan)
+        let g = self.given.as_ref()?;
+        let d = self.fit.disposition()?;
+        // Each mode of the disposition is a one-compartment response of its own.
+        let from_plan = last.map_or(0.0, |last| {
+            d.modes()
+                .iter()
+                .map(|m| plan_level(plan, last, m.rate, 1.0 / m.per_l, t))
+                .sum()
+        });
+        Some(d.superpose(g, t) + from_plan)
     }
 
     /// When the record has absorbed oral doses (and V): the last time one of them starts
@@ -71,9 +94,13 @@ impl<'a> Patient<'a> {
     /// t0 and follows the model down.
     pub fn settles_below(&self, t0: f64, below_mg_l: f64, k: f64) -> f64 {
         let level = |t: f64| self.level_with_k(t, k);
-        match self.absorbing() {
-            None => t0 + hours_to_fall(level(t0), below_mg_l, k),
-            Some(a) => a.settles_below(&level, t0, below_mg_l, k),
+        match (self.absorbing(), self.two()) {
+            (None, false) => t0 + hours_to_fall(level(t0), below_mg_l, k),
+            // Two compartments: after the last dose has entered the level is a sum of
+            // falling exponentials (each mode carries a positive amount), so it falls
+            // through the threshold once; found by bisection.
+            (None, true) => first_below(&level, t0, below_mg_l, k),
+            (Some(a), _) => a.settles_below(&level, t0, below_mg_l, k),
         }
     }
 
@@ -229,30 +256,39 @@ impl Absorbing {
         if level(from) <= below {
             return t0;
         }
-        let slowest = k.min(self.slowest_ka);
-        let mut step = (std::f64::consts::LN_2 / slowest).clamp(0.01, 1e4);
-        let (mut lo, mut hi) = (from, from + step);
-        while level(hi) > below {
-            lo = hi;
-            step *= 2.0;
-            hi = from + step;
-            if !hi.is_finite() || step > 1e9 {
-                return hi;
-            }
-        }
-        for _ in 0..200 {
-            let mid = 0.5 * (lo + hi);
-            if mid <= lo || mid >= hi {
-                break;
-            }
-            if level(mid) > below {
-                lo = mid;
-            } else {
-                hi = mid;
-            }
-        }
-        hi
+        first_below(level, from, below, k.min(self.slowest_ka))
     }
+}
+
+/// The first time from `from` at which a `level` that only falls from there is at or below
+/// `below` (`from` itself when it already is): a bracket grown by doubling from one half-life
+/// of the `slowest` rate, then bisection to the last bit.
+pub fn first_below(level: &dyn Fn(f64) -> f64, from: f64, below: f64, slowest: f64) -> f64 {
+    if level(from) <= below {
+        return from;
+    }
+    let mut step = (std::f64::consts::LN_2 / slowest).clamp(0.01, 1e4);
+    let (mut lo, mut hi) = (from, from + step);
+    while level(hi) > below {
+        lo = hi;
+        step *= 2.0;
+        hi = from + step;
+        if !hi.is_finite() || step > 1e9 {
+            return hi;
+        }
+    }
+    for _ in 0..200 {
+        let mid = 0.5 * (lo + hi);
+        if mid <= lo || mid >= hi {
+            break;
+        }
+        if level(mid) > below {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    hi
 }
 
 pub use crate::core::model::golden_max;
@@ -271,13 +307,16 @@ pub struct PlanProjection {
 /// Project the plan to steady state.
 pub fn plan(p: &Patient, plan: &Plan) -> PlanProjection {
     let k = p.fit.k;
-    let steady = p
-        .v()
-        .map(|v| model::steady_state(plan.dose_mg, plan.route, plan.interval_h, k, v));
+    let d = p.disposition();
+    let steady = d.map(|d| d.steady_state(plan.dose_mg, plan.route, plan.interval_h));
+    let to_ss = |f: f64| match p.fit.disposition() {
+        Some(d) => d.time_to_fraction_of_ss(f),
+        None => model::time_to_fraction_of_ss(f, k),
+    };
     PlanProjection {
         accumulation_factor: model::accumulation_factor(k, plan.interval_h),
         steady,
-        time_to_ss_h: [0.90, 0.95, 0.97].map(|f| model::time_to_fraction_of_ss(f, k)),
+        time_to_ss_h: [0.90, 0.95, 0.97].map(to_ss),
     }
 }
 
@@ -480,7 +519,9 @@ pub fn window_max(
         .iter()
         .map(|&t| at(t))
         .fold(f64::NEG_INFINITY, f64::max);
-    if absorbed.is_some() {
+    // Two compartments: during an infusion the fast mode may still rise while the slow one
+    // falls, so a piece may turn once too.
+    if absorbed.is_some() || p.two() {
         for w in inside.windows(2) {
             best = best.max(golden_max(&at, w[0], w[1]).1);
         }
@@ -503,9 +544,9 @@ pub fn threshold_window(
     let StartPoint {
         t: t0, c_mg_l: c0, ..
     } = threshold_start(p);
-    let reached_t = match p.absorbing() {
-        None => t0 + hours_to_fall(c0, below_mg_l, fit.k),
-        Some(_) => p.settles_below(t0, below_mg_l, fit.k),
+    let reached_t = match (p.absorbing(), p.two()) {
+        (None, false) => t0 + hours_to_fall(c0, below_mg_l, fit.k),
+        _ => p.settles_below(t0, below_mg_l, fit.k),
     };
     let reached_ci95_t = k_crossing_range(p, t0, c0, below_mg_l);
     let (mut latest_plan_dose, mut level_at_procedure) = (None, None);
@@ -624,7 +665,11 @@ pub fn course_mg_l(
         // An absorbed oral dose starts after its lag and peaks later: sample both.
         for d in inside.iter().filter(|d| d.route.absorption().is_some()) {
             let lag = d.route.absorption().map_or(0.0, |a| a.lag_h);
-            let peak = d.t + model::single_peak_time(d.route, p.fit.k);
+            let peak = d.t
+                + match p.fit.disposition() {
+                    Some(disp) => disp.single_peak(d.amount_mg, d.route).1,
+                    None => model::single_peak_time(d.route, p.fit.k),
+                };
             times.extend(
                 [d.t + lag, peak]
                     .into_iter()
@@ -634,9 +679,9 @@ pub fn course_mg_l(
     }
     times.sort_by(f64::total_cmp);
     times.dedup();
-    match (p.given.is_some(), p.fit.volume_l) {
-        (true, Some(v)) => {
-            let levels = Schedule::new(&doses).levels(p.fit.k, v, &times);
+    match (p.given.is_some(), p.fit.disposition()) {
+        (true, Some(d)) => {
+            let levels = d.levels(&Schedule::new(&doses), &times);
             times.into_iter().zip(levels).collect()
         }
         _ => times.into_iter().map(|t| (t, p.level_mg_l(t))).collect(),
@@ -658,7 +703,8 @@ pub struct WashoutRow {
 
 /// The washout table: from the end of the last recorded dose (without V, the last fitted
 /// level), one row per half-life for five, then on until at or below the threshold (at most
-/// ten rows).
+/// ten rows). With two compartments the half-life is the terminal one, and the fraction
+/// remaining is that of the terminal phase (the level itself is the model's).
 pub fn washout(p: &Patient, below_mg_l: Option<f64>) -> Vec<WashoutRow> {
     let start = washout_start(p);
     let th = p.fit.half_life_h;

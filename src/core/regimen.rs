@@ -9,7 +9,7 @@ pub use crate::core::case::LoadingRule;
 pub use crate::core::case::RegimenOptions;
 use crate::core::case::{Case, Targets};
 use crate::core::fit::Fit;
-use crate::core::model::{self, Route, SteadyState};
+use crate::core::model::{self, Disposition, Route, SteadyState};
 use crate::core::projection::Patient;
 use crate::core::warning::{Code, Warning};
 
@@ -228,8 +228,29 @@ pub fn score(s: &SteadyState, t: &Targets) -> f64 {
 /// `after_h` hours after the end of the infusion (kept within the interval). For an absorbed
 /// oral dose that is the steady-state level `after_h` hours after the dose (the course still
 /// rises after the dose), and with `after_h` = 0 the absorbed peak itself.
-pub fn for_targets(s: SteadyState, route: Route, tau: f64, k: f64, after_h: f64) -> SteadyState {
+pub fn for_targets(
+    s: SteadyState,
+    route: Route,
+    tau: f64,
+    d: &Disposition,
+    after_h: f64,
+) -> SteadyState {
     let after = after_h.clamp(0.0, (tau - route.infusion_h()).max(0.0));
+    let k = match d {
+        Disposition::One { k, .. } => *k,
+        Disposition::Two(_) => {
+            if after <= 0.0 {
+                return s;
+            }
+            // Figures are proportional to the dose: scale the unit course to this one.
+            let unit = d.steady_state(1.0, route, tau);
+            let at = d.steady_level(1.0, route, tau, s.peak_after_h + after);
+            return SteadyState {
+                peak_mg_l: s.peak_mg_l * at / unit.peak_mg_l,
+                ..s
+            };
+        }
+    };
     if route.absorption().is_some() {
         if after <= 0.0 {
             return s;
@@ -250,10 +271,33 @@ pub fn for_targets(s: SteadyState, route: Route, tau: f64, k: f64, after_h: f64)
 
 /// Hours per steady-state interval with the level at or below `below` mg/L: the part of the
 /// infusion before the level climbs past it and the tail after it falls below it again.
-pub fn drug_free_h(dose: f64, route: Route, tau: f64, k: f64, v: f64, below: f64) -> f64 {
-    let s = model::steady_state(dose, route, tau, k, v);
+pub fn drug_free_h(dose: f64, route: Route, tau: f64, d: &Disposition, below: f64) -> f64 {
+    let s = d.steady_state(dose, route, tau);
+    let (k, v) = match d {
+        Disposition::One { k, v } => (*k, *v),
+        // Two compartments: the level rises to the peak and falls after it (see
+        // `crossings_free_h`).
+        Disposition::Two(_) => {
+            let start = route.absorption().map_or(0.0, |a| a.lag_h);
+            let level = |u: f64| d.steady_level(dose, route, tau, (u + start).rem_euclid(tau));
+            return crossings_free_h(
+                &level,
+                (s.peak_after_h - start).rem_euclid(tau),
+                tau,
+                below,
+                &s,
+            );
+        }
+    };
     if let Some(a) = route.absorption() {
-        return absorbed_drug_free_h(dose, route, a, tau, k, v, below, &s);
+        let level = |u: f64| model::steady_level(dose, route, tau, k, v, u + a.lag_h);
+        return crossings_free_h(
+            &level,
+            (s.peak_after_h - a.lag_h).rem_euclid(tau),
+            tau,
+            below,
+            &s,
+        );
     }
     let t_inf = route.infusion_h();
     if s.peak_mg_l <= below {
@@ -275,25 +319,23 @@ pub fn drug_free_h(dose: f64, route: Route, tau: f64, k: f64, v: f64, below: f64
 /// steady-state level rises to its peak and falls after it, so it is at or below `below`
 /// before the crossing on the way up and after the crossing on the way down (each found by
 /// bisection).
-#[allow(clippy::too_many_arguments)]
-fn absorbed_drug_free_h(
-    dose: f64,
-    route: Route,
-    a: model::Absorption,
+///
+/// The same holds for a two-compartment course from the start of the dose: `level(u)` is the
+/// steady-state level `u` hours after the start of the input (the end of the lag), rising to
+/// the peak at `peak_u` and falling after it.
+fn crossings_free_h(
+    level: &dyn Fn(f64) -> f64,
+    peak_u: f64,
     tau: f64,
-    k: f64,
-    v: f64,
     below: f64,
     s: &SteadyState,
 ) -> f64 {
     if s.peak_mg_l <= below {
         return tau;
     }
-    let level = |u: f64| model::steady_level(dose, route, tau, k, v, u + a.lag_h);
     if s.trough_mg_l.max(level(0.0)) > below {
         return 0.0;
     }
-    let peak_u = (s.peak_after_h - a.lag_h).rem_euclid(tau);
     let cross = |mut lo: f64, mut hi: f64, rising: bool| {
         for _ in 0..200 {
             let mid = 0.5 * (lo + hi);
@@ -338,6 +380,23 @@ fn routes(route: Route, opts: &RegimenOptions) -> Vec<Route> {
     }
 }
 
+/// The level per mg of one dose with nothing on board, where a loading dose is judged: the
+/// model's peak with one compartment; `after_h` hours after the end of the input (or after
+/// the absorbed peak) with two.
+pub fn single_peak_for_targets(d: &Disposition, route: Route, after_h: f64) -> f64 {
+    match d {
+        Disposition::One { k, v } => model::single_peak(1.0, route, *k, *v),
+        Disposition::Two(_) => {
+            let (peak, at) = d.single_peak(1.0, route);
+            if after_h > 0.0 {
+                d.single_dose(1.0, route, at + after_h)
+            } else {
+                peak
+            }
+        }
+    }
+}
+
 /// The regimen the patient is on: dose, interval and route.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Current {
@@ -367,8 +426,7 @@ fn candidate(
     d: f64,
     route: Route,
     tau: f64,
-    k: f64,
-    v: f64,
+    disp: &Disposition,
     t: &Targets,
     opts: &RegimenOptions,
 ) -> Option<Suggestion> {
@@ -376,8 +434,8 @@ fn candidate(
     if d <= 0.0 || !d.is_finite() || r.infusion_h() >= tau || !within_limits(d, r, tau, opts) {
         return None;
     }
-    let steady = model::steady_state(d, r, tau, k, v);
-    let checked = for_targets(steady, r, tau, k, opts.peak_sampled_after_h);
+    let steady = disp.steady_state(d, r, tau);
+    let checked = for_targets(steady, r, tau, disp, opts.peak_sampled_after_h);
     if !meets(&checked, t) {
         return None;
     }
@@ -390,27 +448,26 @@ fn candidate(
         peak_sampled_mg_l: checked.peak_mg_l,
         current: false,
         drug_free_h: match (opts.drug_free_time, t.trough_max) {
-            (true, Some(m)) => Some(drug_free_h(d, r, tau, k, v, m)),
+            (true, Some(m)) => Some(drug_free_h(d, r, tau, disp, m)),
             _ => None,
         },
         lengthened,
     })
 }
 
-/// Search the practical regimens for `k` (1/h) and `v` (L) that meet every target (in mg/L).
+/// Search the practical regimens for the disposition `d` that meet every target (in mg/L).
 /// See `suggest_for`; here with no current regimen.
 pub fn suggest(
-    k: f64,
-    v: f64,
+    d: &Disposition,
     route: Route,
     t: &Targets,
     opts: &RegimenOptions,
     _current_interval_h: Option<f64>,
 ) -> Vec<Suggestion> {
-    suggest_for(k, v, route, t, opts, None)
+    suggest_for(d, route, t, opts, None)
 }
 
-/// Search the practical regimens for `k` (1/h) and `v` (L) that meet every target (in mg/L),
+/// Search the practical regimens for the disposition `disp` that meet every target (in mg/L),
 /// ranked by this rule: only the strategy's usual intervals (`opts.intervals_h`); the
 /// regimen the patient is on first when it meets every target; then closest to the middle of
 /// the target ranges (scores equal to two decimals tie); then the shorter interval. One
@@ -421,8 +478,7 @@ pub fn suggest(
 /// a dose. The order depends on the record, the targets and the options only (not on the
 /// plan), so taking a suggestion into the plan does not re-sort the list.
 pub fn suggest_for(
-    k: f64,
-    v: f64,
+    disp: &Disposition,
     route: Route,
     t: &Targets,
     opts: &RegimenOptions,
@@ -430,7 +486,8 @@ pub fn suggest_for(
 ) -> Vec<Suggestion> {
     let base_step = forms_step(&opts.dose_forms_mg).unwrap_or(opts.dose_step_mg);
     let rs = ranges(t);
-    if rs.is_empty() || !(base_step.is_finite() && base_step > 0.0 && k > 0.0 && v > 0.0) {
+    let usable = disp.params().iter().all(|x| x.is_finite() && *x > 0.0);
+    if rs.is_empty() || !(base_step.is_finite() && base_step > 0.0 && usable) {
         return Vec::new();
     }
     let mut out: Vec<Suggestion> = Vec::new();
@@ -449,10 +506,10 @@ pub fn suggest_for(
                 }
                 // Every figure is proportional to the dose: value = a·D.
                 let unit = for_targets(
-                    model::steady_state(1.0, r, tau, k, v),
+                    disp.steady_state(1.0, r, tau),
                     r,
                     tau,
-                    k,
+                    disp,
                     opts.peak_sampled_after_h,
                 );
                 let (mut lo, mut hi) = (0.0f64, f64::INFINITY);
@@ -485,7 +542,7 @@ pub fn suggest_for(
                 };
                 let n = (d_star / step).floor();
                 for d in [n * step, (n + 1.0) * step] {
-                    if let Some(c) = candidate(d, r, tau, k, v, t, opts) {
+                    if let Some(c) = candidate(d, r, tau, disp, t, opts) {
                         if best.as_ref().is_none_or(|b| c.score < b.score) {
                             best = Some(c);
                         }
@@ -516,7 +573,7 @@ pub fn suggest_for(
     };
     if let Some(c) = current.filter(on_strategy) {
         if let Some(mut now) =
-            candidate(c.dose_mg, c.route, c.interval_h, k, v, t, opts).filter(|s| !s.lengthened)
+            candidate(c.dose_mg, c.route, c.interval_h, disp, t, opts).filter(|s| !s.lengthened)
         {
             now.current = true;
             out.retain(|s| {
@@ -533,16 +590,18 @@ pub fn suggest_for(
 
 /// The dose that reaches `target_peak_mg_l` at once in a patient with no drug on board,
 /// rounded to the nearest `step` mg. `None` when that rounds to nothing or the inputs are
-/// not usable.
+/// not usable. With two compartments the peak is the level `after_h` hours after the end of
+/// the input (where the peak target is drawn), since the level falls fast while the drug
+/// distributes; with one it is the peak of the model, as the targets are compared.
 pub fn loading_dose(
-    k: f64,
-    v: f64,
+    d: &Disposition,
     route: Route,
     target_peak_mg_l: f64,
     step: f64,
     basis: LoadingBasis,
+    after_h: f64,
 ) -> Option<LoadingDose> {
-    let per = model::single_peak(1.0, route, k, v);
+    let per = single_peak_for_targets(d, route, after_h);
     let exact = target_peak_mg_l / per;
     if !(exact.is_finite() && exact > 0.0 && step > 0.0) {
         return None;
@@ -650,11 +709,10 @@ pub fn advise(p: &Patient, plan_peak_mg_l: Option<f64>, opts: &RegimenOptions) -
         return advice;
     };
     let has_range = t.peak.is_some() || t.auc24.is_some();
-    match p.v() {
-        Some(v) => {
-            let k = p.fit.k;
+    match p.disposition() {
+        Some(disp) => {
             if has_range {
-                advice.suggestions = suggest_for(k, v, route, &t, opts, current_regimen(case));
+                advice.suggestions = suggest_for(&disp, route, &t, opts, current_regimen(case));
                 if advice.suggestions.is_empty() {
                     advice.notes.push(Warning::new(Code::NoSuggestion,
                         "no regimen among the usual intervals and dose steps meets every target; review the targets or consider other intervals",
@@ -701,8 +759,14 @@ pub fn advise(p: &Patient, plan_peak_mg_l: Option<f64>, opts: &RegimenOptions) -
                     )));
                 }
                 (LoadingRule::Kinetic, Some((peak, basis))) => {
+                    // A peak target is drawn `peak_sampled_after_h` after the input; a
+                    // suggestion's or the plan's peak is the model's own.
+                    let after = match basis {
+                        LoadingBasis::PeakTarget => opts.peak_sampled_after_h,
+                        _ => 0.0,
+                    };
                     advice.loading =
-                        loading_dose(k, v, load_route, peak, opts.dose_step_mg, basis);
+                        loading_dose(&disp, load_route, peak, opts.dose_step_mg, basis, after);
                 }
                 (LoadingRule::PerKg { mg_per_kg, max_mg }, _) => {
                     match case.patient.weight_kg {
@@ -722,7 +786,8 @@ pub fn advise(p: &Patient, plan_peak_mg_l: Option<f64>, opts: &RegimenOptions) -
                                 }
                             }
                             let (r, _) = keep_to_rate(load_route, dose, opts.max_rate_mg_per_min);
-                            let per = model::single_peak(1.0, r, k, v);
+                            let per =
+                                single_peak_for_targets(&disp, r, opts.peak_sampled_after_h);
                             if dose > 0.0 && per.is_finite() {
                                 advice.loading = Some(LoadingDose {
                                     dose_mg: dose,
@@ -780,7 +845,7 @@ mod tests {
             dose_step_mg: 0.1,
             ..RegimenOptions::default()
         };
-        let s = suggest(k, v, r, &t, &opts, None);
+        let s = suggest(&Disposition::One { k, v }, r, &t, &opts, None);
         assert_eq!(s.len(), 1);
         assert!((s[0].dose_mg - 139.4).abs() < 0.15, "{}", s[0].dose_mg);
     }
@@ -792,8 +857,7 @@ mod tests {
             ..Targets::default()
         };
         let s = suggest(
-            0.2,
-            20.0,
+            &Disposition::One { k: 0.2, v: 20.0 },
             Route::Bolus,
             &t,
             &RegimenOptions::default(),
@@ -820,7 +884,13 @@ mod tests {
             interval_h: 8.0,
             route: r,
         };
-        let s = suggest_for(k, v, r, &gent_targets(), &opts, Some(current));
+        let s = suggest_for(
+            &Disposition::One { k, v },
+            r,
+            &gent_targets(),
+            &opts,
+            Some(current),
+        );
         assert!(s
             .iter()
             .all(|x| x.interval_h == 8.0 || x.interval_h == 12.0));
@@ -834,19 +904,37 @@ mod tests {
             dose_mg: 400.0,
             ..current
         };
-        let s2 = suggest_for(k, v, r, &gent_targets(), &opts, Some(high));
+        let s2 = suggest_for(
+            &Disposition::One { k, v },
+            r,
+            &gent_targets(),
+            &opts,
+            Some(high),
+        );
         assert!(s2.iter().all(|x| !x.current));
         // Nor one on an interval outside the strategy's (q6h against 8 and 12 h).
         let off = Current {
             interval_h: 6.0,
             ..current
         };
-        let s3 = suggest_for(k, v, r, &gent_targets(), &opts, Some(off));
+        let s3 = suggest_for(
+            &Disposition::One { k, v },
+            r,
+            &gent_targets(),
+            &opts,
+            Some(off),
+        );
         assert!(s3.iter().all(|x| !x.current && x.interval_h != 6.0));
         // Taking a suggestion changes the plan, not the record: the list is the same.
         assert_eq!(
             s,
-            suggest_for(k, v, r, &gent_targets(), &opts, Some(current))
+            suggest_for(
+                &Disposition::One { k, v },
+                r,
+                &gent_targets(),
+                &opts,
+                Some(current)
+            )
         );
     }
 
@@ -856,7 +944,15 @@ mod tests {
         // must not become 10 mg on a 10 mg step.
         assert_eq!(fitting_step(6.25, 10.0), 0.5);
         assert_eq!(fitting_step(100.0, 10.0), 10.0);
-        let l = loading_dose(0.1, 1.0, Route::Bolus, 6.25, 10.0, LoadingBasis::PeakTarget).unwrap();
+        let l = loading_dose(
+            &Disposition::One { k: 0.1, v: 1.0 },
+            Route::Bolus,
+            6.25,
+            10.0,
+            LoadingBasis::PeakTarget,
+            0.0,
+        )
+        .unwrap();
         assert_eq!(l.dose_mg, 6.5);
         // Tablet strengths of 200 and 400 mg make doses in 200 mg steps.
         assert_eq!(forms_step(&[400.0, 200.0]), Some(200.0));
@@ -880,7 +976,13 @@ mod tests {
             max_rate_mg_per_min: Some(10.0),
             ..RegimenOptions::default()
         };
-        let s = suggest_for(0.08, 50.0, Route::Infusion { hours: 1.0 }, &t, &opts, None);
+        let s = suggest_for(
+            &Disposition::One { k: 0.08, v: 50.0 },
+            Route::Infusion { hours: 1.0 },
+            &t,
+            &opts,
+            None,
+        );
         assert!(!s.is_empty());
         for x in &s {
             assert!(
@@ -896,7 +998,7 @@ mod tests {
         // Self-consistency: sample the steady-state course and count the time at or below.
         let (d, r, tau, k, v, below) =
             (500.0, Route::Infusion { hours: 0.5 }, 24.0, 0.3, 20.0, 1.0);
-        let h = drug_free_h(d, r, tau, k, v, below);
+        let h = drug_free_h(d, r, tau, &Disposition::One { k, v }, below);
         let ss = model::steady_state(d, r, tau, k, v);
         let n = 240_000;
         let mut free = 0.0;
@@ -912,9 +1014,25 @@ mod tests {
 
     #[test]
     fn loading_dose_rounds_to_the_step() {
-        let l = loading_dose(0.1, 20.0, Route::Bolus, 8.0, 10.0, LoadingBasis::PeakTarget).unwrap();
+        let l = loading_dose(
+            &Disposition::One { k: 0.1, v: 20.0 },
+            Route::Bolus,
+            8.0,
+            10.0,
+            LoadingBasis::PeakTarget,
+            0.0,
+        )
+        .unwrap();
         assert_eq!(l.dose_mg, 160.0);
         assert!((l.peak_mg_l - 8.0).abs() < 1e-12);
-        assert!(loading_dose(0.1, 20.0, Route::Bolus, 0.0, 10.0, LoadingBasis::Plan).is_none());
+        assert!(loading_dose(
+            &Disposition::One { k: 0.1, v: 20.0 },
+            Route::Bolus,
+            0.0,
+            10.0,
+            LoadingBasis::Plan,
+            0.0
+        )
+        .is_none());
     }
 }

@@ -10,6 +10,7 @@ use crate::core::clock::{span_words, ClockTime};
 use crate::core::error::{Error, Result};
 use crate::core::fit::{self, Fit};
 use crate::core::fitted;
+use crate::core::model::Disposition;
 use crate::core::population::Summary;
 use crate::core::projection::{self, Patient};
 use crate::core::uncertainty;
@@ -57,6 +58,24 @@ pub struct FitSection {
     pub clearance_ci95_l_per_h: Option<[f64; 2]>,
     /// The population values and the move from them (Bayesian fits).
     pub population: Option<Summary>,
+    /// 1 or 2.
+    pub compartments: u8,
+    /// The second compartment of a two-compartment fit (`k_per_h` and `half_life_h` are then
+    /// the terminal ones, `volume_l` the central volume).
+    pub peripheral: Option<Peripheral>,
+}
+
+/// What a two-compartment fit adds to the fit section.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Peripheral {
+    /// Peripheral volume V2, L.
+    pub volume_l: f64,
+    /// Intercompartmental clearance Q, L/h.
+    pub intercompartmental_l_per_h: f64,
+    /// The distribution rate constant α, 1/h.
+    pub alpha_per_h: f64,
+    /// ln 2 / α, hours.
+    pub distribution_half_life_h: f64,
 }
 
 /// One target and whether the plan meets it.
@@ -247,6 +266,9 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
     let to = |mg_l: f64| scale.to_level(mg_l);
     let patient = Patient::new(case, fit);
     let mut warnings = fit.warnings.clone();
+    if fit.two.is_some() {
+        two_compartment_phase(&mut warnings);
+    }
     shape_warnings(case, fit, &mut warnings);
 
     let fit_part = FitSection {
@@ -265,6 +287,16 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
         volume_ci95_l: patient.v().and(fit.volume_ci95),
         clearance_ci95_l_per_h: patient.v().and(fit.clearance_ci95),
         population: fit.population.clone(),
+        compartments: fit.compartments(),
+        peripheral: fit.two.map(|t| {
+            let (alpha, _) = t.rates();
+            Peripheral {
+                volume_l: t.v2,
+                intercompartmental_l_per_h: t.q,
+                alpha_per_h: alpha,
+                distribution_half_life_h: crate::core::model::half_life(alpha),
+            }
+        }),
     };
 
     let plan = match &case.plan {
@@ -291,19 +323,21 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
             // Peak targets are defined at the strategy's sampling time after the end of the
             // infusion: report that peak beside the end-of-infusion one and check it.
             let after = case.regimen.peak_sampled_after_h;
+            // The course's shape (per litre when no volume is known: only ratios are used).
+            let shape = fit
+                .disposition()
+                .unwrap_or(Disposition::One { k: fit.k, v: 1.0 });
             let sampled = pp.steady.map(|s| {
-                crate::core::regimen::for_targets(s, pl.route, pl.interval_h, fit.k, after)
+                crate::core::regimen::for_targets(s, pl.route, pl.interval_h, &shape, after)
                     .peak_mg_l
             });
             let peak_sampled = sampled.filter(|_| after > 0.0).map(to);
-            let level_12h_ss = match (pp.steady, patient.v()) {
-                (Some(_), Some(v)) if (after - LEVEL_12H_AFTER_H).abs() < 1e-9 => {
-                    Some(to(crate::core::model::steady_level(
+            let level_12h_ss = match (pp.steady, patient.disposition()) {
+                (Some(_), Some(d)) if (after - LEVEL_12H_AFTER_H).abs() < 1e-9 => {
+                    Some(to(d.steady_level(
                         pl.dose_mg,
                         pl.route,
                         pl.interval_h,
-                        fit.k,
-                        v,
                         // With a shorter interval, 12 h after a dose falls in a later one.
                         match LEVEL_12H_AFTER_H.rem_euclid(pl.interval_h) {
                             s if s > 0.0 => s,
@@ -314,15 +348,14 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
                 _ => None,
             };
             let checks = target_checks(&case.targets, peak_sampled.or(peak), trough, auc);
-            if let Some(v) = patient.v() {
+            if let Some(d) = patient.disposition() {
                 plan_limit_warnings(case, pl, &mut warnings);
                 let drug_free = match (case.regimen.drug_free_time, case.targets.trough_max) {
                     (true, Some(m)) => Some(crate::core::regimen::drug_free_h(
                         pl.dose_mg,
                         pl.route,
                         pl.interval_h,
-                        fit.k,
-                        v,
+                        &d,
                         scale.to_mg_l(m),
                     )),
                     _ => None,
@@ -348,14 +381,9 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
                 peak_sampled_ss: peak_sampled,
                 peak_sampled_after_h: after,
                 drug_free_h,
-                peak_after_dose_h: crate::core::model::steady_state(
-                    pl.dose_mg,
-                    pl.route,
-                    pl.interval_h,
-                    fit.k,
-                    1.0,
-                )
-                .peak_after_h,
+                peak_after_dose_h: shape
+                    .steady_state(pl.dose_mg, pl.route, pl.interval_h)
+                    .peak_after_h,
                 peak_absorbed: pl.route.absorption().is_some(),
                 level_12h_ss,
                 trough_ss: trough,
@@ -643,6 +671,28 @@ fn shape_warnings(case: &Case, fit: &Fit, warnings: &mut Vec<Warning>) {
     }
 }
 
+/// With a two-compartment fit a level drawn in the distribution phase is described by the
+/// model: the warnings that it may bias k are replaced by one saying it is used as drawn.
+fn two_compartment_phase(warnings: &mut Vec<Warning>) {
+    let rows: Vec<usize> = warnings
+        .iter()
+        .filter(|w| w.code() == Code::DistributionPhase)
+        .filter_map(|w| w.level_row())
+        .collect();
+    warnings.retain(|w| !(w.code() == Code::DistributionPhase && w.level_row().is_some()));
+    if !rows.is_empty() {
+        let names: Vec<String> = rows.iter().map(|r| format!("level {r}")).collect();
+        warnings.push(Warning::new(
+            Code::DistributionPhase,
+            format!(
+                "{} drawn in the distribution phase: the two-compartment model describes that phase, so {} used as drawn (the fit still rests on when each was drawn: check the times)",
+                names.join(", "),
+                if rows.len() == 1 { "it is" } else { "they are" }
+            ),
+        ));
+    }
+}
+
 /// Flag a plan that breaks one of the profile's limits: the infusion rate, the single or the
 /// daily dose.
 fn plan_limit_warnings(case: &Case, pl: &crate::core::case::Plan, warnings: &mut Vec<Warning>) {
@@ -879,15 +929,27 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
         Some([a, b]) => format!("({range_words} {} to {})", num(a), num(b)),
         None => "(no interval)".into(),
     };
+    let terminal = if f.peripheral.is_some() {
+        " (terminal)"
+    } else {
+        ""
+    };
+    if let Some(pe) = &f.peripheral {
+        writeln!(
+            w,
+            "  model       two compartments: distribution half-life {} h, then the terminal phase below",
+            num(pe.distribution_half_life_h)
+        )?;
+    }
     writeln!(
         w,
-        "  k           {} /h  {}",
+        "  k           {} /h  {}{terminal}",
         num(f.k_per_h),
         ci(f.k_ci95_per_h)
     )?;
     writeln!(
         w,
-        "  half-life   {} h  {}",
+        "  half-life   {} h  {}{terminal}",
         num(f.half_life_h),
         ci(f.half_life_ci95_h)
     )?;
@@ -913,7 +975,18 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
                 }
                 _ => format!("by {m}"),
             };
-            writeln!(w, "  volume      {} L  ({by})", num(v))?;
+            match &f.peripheral {
+                Some(pe) => {
+                    writeln!(w, "  volume      {} L central  ({by})", num(v))?;
+                    writeln!(
+                        w,
+                        "              {} L peripheral, exchanging at {} L/h (the model's typical values)",
+                        num(pe.volume_l),
+                        num(pe.intercompartmental_l_per_h)
+                    )?;
+                }
+                None => writeln!(w, "  volume      {} L  ({by})", num(v))?,
+            }
         }
         _ if case.given().is_err() => writeln!(w, "  volume      not known (no dose amounts)")?,
         _ => writeln!(

@@ -12,8 +12,8 @@
 use crate::core::case::{Case, Plan};
 use crate::core::fit::Fit;
 use crate::core::history;
-use crate::core::model::{self, Administration, Schedule};
-use crate::core::spread::Spread;
+use crate::core::model::{self, Administration, Disposition, Schedule};
+use crate::core::spread::{ParamSpread, Spread};
 
 /// Step in ln k and ln V for numerical gradients.
 const STEP: f64 = 1e-6;
@@ -47,8 +47,56 @@ pub struct SteadyRanges {
     pub auc24: [f64; 2],
 }
 
+/// The gradient of ln q(d) in the logs of the parameters of `d` (`Disposition::params`) that
+/// vary in `spread`, by central differences (zero for a fixed one); None if q is not positive
+/// and finite near `d`.
+pub fn ln_gradient_of(
+    q: impl Fn(&Disposition) -> f64,
+    d: &Disposition,
+    spread: &ParamSpread,
+) -> Option<Vec<f64>> {
+    let ln = |x: f64| (x.is_finite() && x > 0.0).then(|| x.ln());
+    let p = d.params();
+    let mut g = vec![0.0; p.len()];
+    for (i, gi) in g.iter_mut().enumerate() {
+        let var = spread
+            .cov
+            .get(i)
+            .and_then(|r| r.get(i))
+            .copied()
+            .unwrap_or(0.0);
+        if var <= 0.0 {
+            continue;
+        }
+        let at = |step: f64| {
+            let mut x = p.clone();
+            x[i] *= step.exp();
+            ln(q(&d.with_params(&x)))
+        };
+        *gi = (at(STEP)? - at(-STEP)?) / (2.0 * STEP);
+    }
+    g.iter().all(|x| x.is_finite()).then_some(g)
+}
+
+/// The range of a positive quantity q of a two-compartment fit's disposition.
+pub fn range_of(fit: &Fit, q: impl Fn(&Disposition) -> f64) -> Option<[f64; 2]> {
+    let spread = fit.param_spread.as_ref()?;
+    let d = fit.disposition()?;
+    let g = ln_gradient_of(&q, &d, spread)?;
+    let r = spread.interval(q(&d), &g);
+    (r[0].is_finite() && r[1].is_finite()).then_some(r)
+}
+
 /// The steady-state ranges of `plan` for a fit with a joint spread and a volume.
 pub fn steady_ranges(fit: &Fit, plan: &Plan) -> Option<SteadyRanges> {
+    if fit.two.is_some() {
+        let ss = |d: &Disposition| d.steady_state(plan.dose_mg, plan.route, plan.interval_h);
+        return Some(SteadyRanges {
+            peak: range_of(fit, |d| ss(d).peak_mg_l)?,
+            trough: range_of(fit, |d| ss(d).trough_mg_l)?,
+            auc24: range_of(fit, |d| ss(d).auc24_mg_h_l)?,
+        });
+    }
     let spread = fit.spread.as_ref()?;
     let v = fit.volume_l?;
     let ss = |k: f64, v: f64| model::steady_state(plan.dose_mg, plan.route, plan.interval_h, k, v);
@@ -81,6 +129,9 @@ fn ln_level(given: &[Administration], k: f64, v: f64, t: f64) -> Option<(f64, [f
 /// amounts) the fitted line is given, without a band. For a chart of the fit screen.
 pub fn band(case: &Case, fit: &Fit, ts: &[f64]) -> Vec<BandPoint> {
     let given = case.given().ok();
+    if let (Some(g), Some(d), true) = (&given, fit.disposition(), fit.two.is_some()) {
+        return two_band(g, &d, fit.param_spread.as_ref(), ts);
+    }
     match (&given, fit.volume_l) {
         (Some(g), Some(v)) => {
             // One forward pass over the record for every time at once.
@@ -117,6 +168,93 @@ pub fn band(case: &Case, fit: &Fit, ts: &[f64]) -> Vec<BandPoint> {
     }
 }
 
+/// `band` for a two-compartment fit: the level by one forward pass per mode, its gradient in
+/// the log parameters that vary by central differences (two more passes each).
+fn two_band(
+    given: &[Administration],
+    d: &Disposition,
+    spread: Option<&ParamSpread>,
+    ts: &[f64],
+) -> Vec<BandPoint> {
+    let schedule = Schedule::new(given);
+    let levels = d.levels(&schedule, ts);
+    let p = d.params();
+    // Per varying parameter: the levels a step up and a step down.
+    let steps: Vec<(usize, Vec<f64>, Vec<f64>)> = spread
+        .map(|sp| {
+            (0..p.len())
+                .filter(|&i| {
+                    sp.cov
+                        .get(i)
+                        .and_then(|r| r.get(i))
+                        .is_some_and(|v| *v > 0.0)
+                })
+                .map(|i| {
+                    let at = |step: f64| {
+                        let mut x = p.clone();
+                        x[i] *= step.exp();
+                        d.with_params(&x).levels(&schedule, ts)
+                    };
+                    (i, at(STEP), at(-STEP))
+                })
+                .collect()
+        })
+        .unwrap_or_default();
+    ts.iter()
+        .enumerate()
+        .map(|(j, &t)| {
+            let c = levels[j];
+            if !(c > 0.0 && c.is_finite()) {
+                return BandPoint {
+                    t,
+                    mg_l: 0.0,
+                    band: None,
+                };
+            }
+            let band = spread.and_then(|sp| {
+                let mut g = vec![0.0; p.len()];
+                for (i, up, dn) in &steps {
+                    if !(up[j] > 0.0 && dn[j] > 0.0) {
+                        return None;
+                    }
+                    g[*i] = (up[j].ln() - dn[j].ln()) / (2.0 * STEP);
+                }
+                Some(sp.interval(c, &g))
+            });
+            BandPoint { t, mg_l: c, band }
+        })
+        .collect()
+}
+
+/// The 95 % range of the time a two-compartment fit's level falls to `below_mg_l` from `t0`:
+/// where each edge of its band reaches the threshold, by bisection to the reported minute.
+fn two_threshold_range(case: &Case, fit: &Fit, t0: f64, below_mg_l: f64) -> Option<[f64; 2]> {
+    let spread = fit.param_spread.as_ref()?;
+    let d = fit.disposition()?;
+    let given = case.given().ok()?;
+    if !(below_mg_l > 0.0 && below_mg_l.is_finite()) {
+        return None;
+    }
+    let ln_x = below_mg_l.ln();
+    let level = |x: &Disposition, t: f64| x.superpose(&given, t);
+    let edge = |t: f64, sign: f64| -> Option<f64> {
+        let c = level(&d, t);
+        let g = ln_gradient_of(|x| level(x, t), &d, spread)?;
+        Some(c.ln() + sign * spread.quantile * spread.se_ln(&g))
+    };
+    let start = match crate::core::projection::Absorbing::of(given.iter().map(|x| (x.t, x.route))) {
+        None => t0,
+        Some(a) => a.peak_after(&|t| level(&d, t), t0, fit.k),
+    };
+    let cross = |sign: f64| -> Option<f64> {
+        if edge(start, sign)? <= ln_x {
+            return Some(t0);
+        }
+        bisect_crossing(|t| edge(t, sign), start, fit.half_life_h, ln_x)
+    };
+    Some([cross(-1.0)?, cross(1.0)?])
+}
+
 /// The 95 % range of the time (hours on the axis) the level falls to `below_mg_l`, from `t0`
 /// (at or after the end of the last recorded dose, no dose after): the earliest is where the
 /// band's lower edge reaches the threshold, the latest where its upper edge does. None
@@ -128,6 +266,9 @@ pub fn band(case: &Case, fit: &Fit, ts: &[f64]) -> Vec<BandPoint> {
 /// checked against the model at the time found, and only where the model is not one
 /// exponential there is the crossing bisected, to the minute it is reported to.
 pub fn threshold_range(case: &Case, fit: &Fit, t0: f64, below_mg_l: f64) -> Option<[f64; 2]> {
+    if fit.two.is_some() {
+        return two_threshold_range(case, fit, t0, below_mg_l);
+    }
     let spread = fit.spread.as_ref()?;
     let v = fit.volume_l?;
     let given = case.given().ok()?;
@@ -250,7 +391,7 @@ pub fn crossing_range(
     c0: f64,
     below_mg_l: f64,
 ) -> Option<[f64; 2]> {
-    if p.fit.spread.is_some() {
+    if p.fit.spread.is_some() || p.fit.param_spread.is_some() {
         threshold_range(p.case, p.fit, t0, below_mg_l)
     } else {
         crate::core::projection::k_crossing_range(p, t0, c0, below_mg_l)

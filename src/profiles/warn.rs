@@ -120,7 +120,12 @@ pub fn warnings(profile: &Profile, case: &Case, report: &Report) -> Vec<Warning>
         )));
     }
 
-    if let Some(w) = &profile.level_valid_after_h {
+    // A two-compartment fit describes the distribution phase: its levels need no window.
+    if let Some(w) = profile
+        .level_valid_after_h
+        .as_ref()
+        .filter(|_| report.fit.compartments == 1)
+    {
         let phase = w
             .note
             .as_deref()

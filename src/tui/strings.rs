@@ -578,6 +578,16 @@ pub fn fit_heading(method: &str, rows: &str, dose: usize) -> String {
 pub const K: &str = "k";
 /// Label.
 pub const HALF_LIFE: &str = "half-life";
+/// Label of the model's compartments on the fit screen.
+pub const COMPARTMENTS: &str = "model";
+
+/// A two-compartment fit: the distribution half-life, the peripheral volume and the exchange;
+/// k and the half-life shown are the terminal ones.
+pub fn two_compartments(distribution_h: &str, v2: &str, q: &str) -> String {
+    format!(
+        "two compartments: distribution half-life {distribution_h} h, peripheral {v2} L at {q} L/h; k, half-life and volume below are terminal and central"
+    )
+}
 /// Label.
 pub const R_SQUARED: &str = "r²";
 /// Label.

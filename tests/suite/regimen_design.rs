@@ -4,7 +4,7 @@
 use ebb::core::case::Targets;
 use ebb::core::casefile::CaseFile;
 use ebb::core::json;
-use ebb::core::model::Route;
+use ebb::core::model::{Disposition, Route};
 use ebb::core::regimen::{self, LoadingBasis, RegimenOptions, MAX_SUGGESTIONS};
 use ebb::core::report;
 use proptest::prelude::*;
@@ -116,7 +116,13 @@ fn aminoglycoside_style_targets_are_met_over_twenty_doses() {
     };
     let (k, v) = (0.27566, 18.29);
     let route = Route::Infusion { hours: 0.5 };
-    let s = regimen::suggest(k, v, route, &t, &RegimenOptions::default(), Some(8.0));
+    let s = regimen::suggest(
+        &Disposition::One { k, v },
+        route,
+        &t,
+        &RegimenOptions::default(),
+        Some(8.0),
+    );
     assert!(!s.is_empty() && s.len() <= MAX_SUGGESTIONS);
     // Ranking (docs/methods-regimen.md): closest to the middle, scores equal to two decimals
     // tie, then the shorter interval.
@@ -144,7 +150,13 @@ fn auc_targets_are_met_over_twenty_doses() {
         infusion_h: vec![1.0, 2.0],
         ..RegimenOptions::default()
     };
-    let s = regimen::suggest(k, v, Route::Infusion { hours: 1.0 }, &t, &opts, Some(12.0));
+    let s = regimen::suggest(
+        &Disposition::One { k, v },
+        Route::Infusion { hours: 1.0 },
+        &t,
+        &opts,
+        Some(12.0),
+    );
     assert!(!s.is_empty());
     for x in &s {
         check_meets(x, &t, k, v);
@@ -163,8 +175,7 @@ fn targets_no_regimen_can_meet_give_none() {
         auc24: None,
     };
     let s = regimen::suggest(
-        0.05,
-        20.0,
+        &Disposition::One { k: 0.05, v: 20.0 },
         Route::Bolus,
         &t,
         &RegimenOptions::default(),
@@ -193,7 +204,7 @@ proptest! {
     ) {
         let t = Targets { peak: Some([lo, lo * width]), trough_max: Some(lo * trough_frac), auc24: None };
         let route = if bolus { Route::Bolus } else { Route::Infusion { hours: 0.5 } };
-        for s in regimen::suggest(k, v, route, &t, &RegimenOptions::default(), None) {
+        for s in regimen::suggest(&Disposition::One { k, v }, route, &t, &RegimenOptions::default(), None) {
             check_meets(&s, &t, k, v);
         }
     }
@@ -208,8 +219,15 @@ fn loading_dose_reaches_the_target_peak_within_rounding() {
         Route::Infusion { hours: 2.0 },
     ] {
         for target in [4.0, 8.0, 25.0] {
-            let l =
-                regimen::loading_dose(k, v, route, target, step, LoadingBasis::PeakTarget).unwrap();
+            let l = regimen::loading_dose(
+                &Disposition::One { k, v },
+                route,
+                target,
+                step,
+                LoadingBasis::PeakTarget,
+                0.0,
+            )
+            .unwrap();
             let peak = one_dose(l.dose_mg, route, k, v, route.infusion_h().max(1e-12));
             let per_mg = one_dose(1.0, route, k, v, route.infusion_h().max(1e-12));
             assert!(

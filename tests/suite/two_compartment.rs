@@ -307,3 +307,173 @@ fn macro_constants_satisfy_their_defining_relations() {
         assert!(ma.per_l > 0.0 && mb.per_l > 0.0 && a > b && b > 0.0);
     }
 }
+
+/// A case of `n` doses of 1000 mg over 1 h every 12 h, two levels after the last, a plan and a
+/// threshold; its fit replaced by the two-compartment disposition `p` (the check is of the
+/// projections, not of the fit).
+fn case_with(
+    p: TwoCompartment,
+) -> (
+    ebb::core::case::Case,
+    ebb::core::fit::Fit,
+    Vec<Administration>,
+) {
+    let mut s = String::from("[drug]\nlevel_unit = \"mg/L\"\n");
+    let base = chrono::NaiveDate::from_ymd_opt(2027, 1, 30)
+        .unwrap()
+        .and_hms_opt(6, 0, 0)
+        .unwrap();
+    let at = |h: f64| {
+        let t = base + chrono::Duration::seconds((h * 3600.0).round() as i64);
+        t.format("%Y-%m-%dT%H:%M:%S").to_string()
+    };
+    for j in 0..8 {
+        s += &format!(
+            "[[dose]]\ntime = {}\namount_mg = 1000.0\nroute = \"infusion\"\ninfusion_h = 1.0\n",
+            at(j as f64 * 12.0)
+        );
+    }
+    for (dt, value) in [(86.0, 30.0), (95.0, 15.0)] {
+        s += &format!("[[level]]\ntime = {}\nvalue = {value}\n", at(dt));
+    }
+    s += &format!(
+        "[plan]\ndose_mg = 1250.0\ninterval_h = 12.0\nroute = \"infusion\"\ninfusion_h = 1.5\nstart = {}\n[threshold]\nbelow = 5.0\nprocedure = {}\n",
+        at(96.0),
+        at(150.0)
+    );
+    let case = ebb::core::casefile::CaseFile::parse(&s)
+        .unwrap()
+        .validate()
+        .unwrap();
+    let mut f = ebb::core::fit::fit(&case).unwrap();
+    let d = Disposition::Two(p);
+    f.two = Some(p);
+    f.k = d.terminal_k();
+    f.half_life_h = std::f64::consts::LN_2 / f.k;
+    f.volume_l = Some(p.v1);
+    f.clearance_l_per_h = Some(p.cl);
+    f.k_ci95 = None;
+    f.half_life_ci95 = None;
+    f.spread = None;
+    f.param_spread = Some(ebb::core::spread::ParamSpread {
+        cov: vec![
+            vec![0.04, 0.0, 0.0, 0.0],
+            vec![0.0, 0.09, 0.0, 0.0],
+            vec![0.0, 0.0, 0.0, 0.0],
+            vec![0.0, 0.0, 0.0, 0.05],
+        ],
+        quantile: 1.959964,
+    });
+    let given = case.given().unwrap();
+    (case, f, given)
+}
+
+#[test]
+fn every_projection_of_a_two_compartment_fit_follows_the_ode() {
+    use ebb::core::projection::{self, Patient};
+    let p = dispositions()[0];
+    let (case, f, given) = case_with(p);
+    let pt = Patient::new(&case, &f);
+    // The course with the record.
+    let ts = [90.0, 97.5, 110.0];
+    let ode = integrate(&given, p, &ts);
+    for (t, o) in ts.iter().zip(&ode) {
+        close(pt.level_mg_l(*t), o.0, &format!("record at {t}"));
+    }
+    // With plan doses 0..=3 given.
+    let pl = case.plan.as_ref().unwrap();
+    let mut all = given.clone();
+    for j in 0..4 {
+        all.push(Administration {
+            t: pl.start_t + j as f64 * 12.0,
+            amount_mg: 1250.0,
+            route: Route::Infusion { hours: 1.5 },
+        });
+    }
+    let at = pl.start_t + 3.0 * 12.0 + 7.3;
+    close(
+        pt.level_with_plan(at, pl, Some(3)).unwrap(),
+        integrate(&all, p, &[at])[0].0,
+        "record and plan",
+    );
+    // The threshold crossing with no further dose, against a bisection of the ODE.
+    let th = projection::threshold(&pt, 5.0, None);
+    let (mut lo, mut hi) = (th.t0, th.t0 + 400.0);
+    for _ in 0..60 {
+        let mid = 0.5 * (lo + hi);
+        if integrate(&given, p, &[mid])[0].0 > 5.0 {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    assert!(
+        (th.reached_t - 0.5 * (lo + hi)).abs() < 1e-6 * (hi - th.t0),
+        "{} vs {}",
+        th.reached_t,
+        0.5 * (lo + hi)
+    );
+    // Steady state and time to steady state through the disposition.
+    let pp = projection::plan(&pt, pl);
+    let d = Disposition::Two(p);
+    let ss = pp.steady.unwrap();
+    assert_eq!(
+        ss,
+        d.steady_state(1250.0, Route::Infusion { hours: 1.5 }, 12.0)
+    );
+    assert_eq!(pp.time_to_ss_h[0], d.time_to_fraction_of_ss(0.9));
+    // The washout counts terminal half-lives.
+    let rows = projection::washout(&pt, None);
+    close(
+        rows[0].t - pt.last_dose_end(),
+        std::f64::consts::LN_2 / d.terminal_k(),
+        "washout step",
+    );
+    // The band holds the level and widens with the spread.
+    let band = ebb::core::uncertainty::band(&case, &f, &ts);
+    for (b, o) in band.iter().zip(&ode) {
+        let [lo, hi] = b.band.unwrap();
+        close(b.mg_l, o.0, "band centre");
+        assert!(lo < b.mg_l && b.mg_l < hi, "{b:?}");
+    }
+    let r = ebb::core::uncertainty::steady_ranges(&f, pl).unwrap();
+    assert!(r.auc24[0] < ss.auc24_mg_h_l && ss.auc24_mg_h_l < r.auc24[1]);
+    // AUC24 = dose/CL: its log moves with ln CL only, so its range is e^(±1.96·0.2).
+    close(
+        r.auc24[1] / ss.auc24_mg_h_l,
+        (1.959964f64 * 0.2).exp(),
+        "AUC range",
+    );
+}
+
+#[test]
+fn the_report_of_a_two_compartment_fit_says_so() {
+    let p = dispositions()[1];
+    let (case, f, _) = case_with(p);
+    let r = ebb::core::report::build_from_fit(&case, &f).unwrap();
+    assert_eq!(r.fit.compartments, 2);
+    let pe = r.fit.peripheral.unwrap();
+    close(
+        pe.distribution_half_life_h,
+        std::f64::consts::LN_2 / p.rates().0,
+        "distribution half-life",
+    );
+    let json: serde_json::Value = serde_json::from_str(&ebb::core::json::to_json(&r)).unwrap();
+    assert_eq!(json["fit"]["compartments"], 2);
+    assert_eq!(json["fit"]["peripheral_volume_l"], p.v2);
+    assert_eq!(json["fit"]["intercompartmental_clearance_l_per_h"], p.q);
+    let mut text = Vec::new();
+    ebb::core::report::write_text(&mut text, &case, &r).unwrap();
+    let text = String::from_utf8(text).unwrap();
+    assert!(
+        text.contains("two compartments: distribution half-life"),
+        "{text}"
+    );
+    assert!(text.contains("(terminal)"), "{text}");
+    // The one-compartment report of the same case says nothing of it.
+    let one = ebb::core::report::build(&case).unwrap();
+    assert_eq!(one.fit.compartments, 1);
+    let json: serde_json::Value = serde_json::from_str(&ebb::core::json::to_json(&one)).unwrap();
+    assert_eq!(json["fit"]["compartments"], 1);
+    assert!(json["fit"]["distribution_half_life_h"].is_null());
+}

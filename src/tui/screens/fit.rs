@@ -98,6 +98,20 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
             },
         ),
     ];
+    if let Some(pe) = &f.peripheral {
+        lines.insert(
+            2,
+            kv(
+                strings::COMPARTMENTS,
+                strings::two_compartments(
+                    &num(pe.distribution_half_life_h),
+                    &num(pe.volume_l),
+                    &num(pe.intercompartmental_l_per_h),
+                ),
+                String::new(),
+            ),
+        );
+    }
     if let Some(s) = &f.population {
         let p = &s.population;
         let (what, typical, u) = if p.on_clearance {
