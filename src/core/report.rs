@@ -1229,6 +1229,13 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
 
     if !r.washout.is_empty() {
         writeln!(w, "Washout from {}", when(&r.washout_from))?;
+        if r.fit.peripheral.is_some() {
+            writeln!(
+                w,
+                "  by the terminal half-life ({} h): the level is the two-compartment model's; \"remaining\" is the terminal phase's share",
+                num(r.fit.half_life_h)
+            )?;
+        }
         writeln!(w, "  half-lives  at                 level       remaining")?;
         for row in &r.washout {
             writeln!(
