@@ -612,6 +612,20 @@ pub struct Mode {
     pub per_l: f64,
 }
 
+/// The one or two modes of a disposition, without a heap allocation (used as a slice).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Modes {
+    m: [Mode; 2],
+    n: usize,
+}
+
+impl std::ops::Deref for Modes {
+    type Target = [Mode];
+    fn deref(&self) -> &[Mode] {
+        &self.m[..self.n]
+    }
+}
+
 /// How the body handles the drug once it is in the blood: the linear one-compartment model
 /// (rate constant k, volume V) or a two-compartment one. Both are sums of exponential modes,
 /// so every single-dose response is the one-compartment response of each mode, weighted by
@@ -631,13 +645,16 @@ pub enum Disposition {
 
 impl Disposition {
     /// The exponential modes (one or two) of the unit bolus response.
-    pub fn modes(&self) -> Vec<Mode> {
+    pub fn modes(&self) -> Modes {
         match self {
-            Disposition::One { k, v } => vec![Mode {
-                rate: *k,
-                per_l: 1.0 / v,
-            }],
-            Disposition::Two(t) => t.modes().to_vec(),
+            Disposition::One { k, v } => {
+                let m = Mode {
+                    rate: *k,
+                    per_l: 1.0 / v,
+                };
+                Modes { m: [m, m], n: 1 }
+            }
+            Disposition::Two(t) => Modes { m: t.modes(), n: 2 },
         }
     }
 
@@ -745,7 +762,7 @@ impl Disposition {
             Disposition::One { k, v } => schedule.levels(*k, *v, ts),
             Disposition::Two(_) => {
                 let mut out = vec![0.0; ts.len()];
-                for m in self.modes() {
+                for m in self.modes().iter() {
                     for (o, (c, _)) in out.iter_mut().zip(schedule.unit_levels(m.rate, ts)) {
                         *o += m.per_l * c;
                     }
