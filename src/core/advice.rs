@@ -154,6 +154,11 @@ pub fn auc_compare(p: &Patient) -> Option<AucSection> {
         .filter(|&i| fit::window_of(case, case.levels[i].t) == Some(w))
         .collect();
     let (&a, &b) = (in_window.first()?, in_window.last()?);
+    // The trapezoid extrapolates the falling line back to the end of the input; an absorbed
+    // oral dose rises for hours after it is taken, so that would overstate the area.
+    if dose.route.absorption().is_some() {
+        return None;
+    }
     // A measured figure: the interval actually given; the plan's only when the record holds
     // a single dose (and the report says so).
     let recorded = regimen::recorded_interval(case, fit);

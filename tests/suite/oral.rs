@@ -201,3 +201,15 @@ proptest! {
         }
     }
 }
+
+#[test]
+fn no_auc_from_two_levels_is_given_for_an_absorbed_oral_dose() {
+    // The trapezoid from two levels extrapolates the falling line back to the dose time, where
+    // an absorbed dose has given nothing yet: it would overstate the area. The AUC24 of the
+    // plan (dose / clearance) stays.
+    let text = lithium(800.0, &[(12, 0.62), (22, 0.47)], 800.0, "");
+    let a = analyse(&text);
+    let j = json(&a);
+    assert!(j["auc24_methods"].is_null(), "{}", j["auc24_methods"]);
+    assert!(j["plan"]["auc24_ss"].as_f64().unwrap() > 0.0);
+}
