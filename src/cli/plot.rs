@@ -39,8 +39,11 @@ const CAUTION_HEIGHT: u32 = 40;
 
 /// The caution in two lines that fit the width: "CAUTION:" and its first sentences, then
 /// the rest.
-pub fn caution_lines() -> [String; 2] {
-    let text = format!("CAUTION: {}", crate::core::report::CAUTION);
+pub fn caution_lines(compartments: u8) -> [String; 2] {
+    let text = format!(
+        "CAUTION: {}",
+        crate::core::report::caution_for(compartments).0
+    );
     let half = text.len() / 2;
     // Break after the sentence end nearest the middle.
     let cut = text
@@ -192,7 +195,7 @@ pub fn plot_svg_from(case: &Case, fit: &Fit, r: &Report) -> Result<String> {
         // The caution goes with the drawing wherever it is copied: two lines at the foot.
         let (root, foot) = whole.split_vertically(SIZE.1 - CAUTION_HEIGHT);
         let style = ("sans-serif", 13).into_font().color(&BLACK);
-        for (i, line) in caution_lines().iter().enumerate() {
+        for (i, line) in caution_lines(r.fit.compartments).iter().enumerate() {
             foot.draw(&Text::new(
                 line.clone(),
                 (14, 4 + 16 * i as i32),

@@ -375,10 +375,14 @@ pub fn write_regimen_text(w: &mut dyn Write, a: &AdviceSection, u: &str) -> io::
         } else {
             auc_unit(u)
         };
+        let basis = if q.basis == "peak" && q.peak_after_h > 0.0 {
+            format!("level {} h after the end of the dose", num(q.peak_after_h))
+        } else {
+            q.basis.to_string()
+        };
         write!(
             w,
-            "Proportional adjustment (no volume): {} measured {} {unit}, aim {} {unit}, factor {}",
-            q.basis,
+            "Proportional adjustment (no volume): {basis} measured {} {unit}, aim {} {unit}, factor {}",
             num(q.measured),
             num(q.target),
             num(q.factor)

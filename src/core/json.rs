@@ -267,7 +267,7 @@ impl From<&Report> for JsonReport {
         let p = &r.patient;
         JsonReport {
             patient: patient_json(p),
-            caution: crate::core::report::CAUTION,
+            caution: crate::core::report::caution_for(r.fit.compartments).0,
             fit: Some(JsonFit {
                 method: r.fit.method,
                 levels_used: r.fit.level_rows.len(),

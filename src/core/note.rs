@@ -4,7 +4,7 @@
 use std::io::{self, Write};
 
 use crate::core::case::{Case, Sex};
-use crate::core::report::{self, num, Report, CAUTION};
+use crate::core::report::{self, num, Report};
 use crate::core::text;
 use crate::core::units::auc_unit;
 
@@ -125,7 +125,14 @@ pub fn write_note(
     } else {
         free(&case.drug.name)
     };
-    let item = write_head(w, md, &drug, CAUTION, meta, &free)?;
+    let item = write_head(
+        w,
+        md,
+        &drug,
+        report::caution_for(r.fit.compartments).0,
+        meta,
+        &free,
+    )?;
     write_patient(w, case, item, &free)?;
     if let Some(pr) = &case.drug.profile {
         writeln!(w, "{item}Drug profile: {}", free(pr))?;

@@ -136,6 +136,9 @@ pub struct Proportional {
     pub basis: &'static str,
     /// The measured figure (from the fitted line).
     pub measured: f64,
+    /// For a peak: the hours after the end of the dose at which the line is read (the
+    /// strategy's `peak_sampled_after_h`; 0 at the end of the dose).
+    pub peak_after_h: f64,
     /// The figure aimed at (the middle of its target range), same unit.
     pub target: f64,
     /// target / measured.
@@ -650,11 +653,26 @@ pub fn proportional(case: &Case, fit: &Fit, t: &Targets, step: f64) -> Option<Pr
     let tau = observed_interval(case, fit)?;
     let dose = case.doses.get(fit.window_dose)?;
     let (start, end) = (dose.t, dose.end());
+    // The peak target is for a level drawn `peak_sampled_after_h` after the end of the dose
+    // (lithium: 12 h): the fitted line is read there, not at the end of the dose.
+    let after = case
+        .regimen
+        .peak_sampled_after_h
+        .clamp(0.0, (tau - (end - start)).max(0.0));
+    let absorbed = dose.route.absorption().is_some();
     let peak = fit.line_mg_l(end);
     let trough = fit.line_mg_l(start + tau);
     let (basis, measured, target) = if let Some([lo, hi]) = t.peak {
-        ("peak", peak, (lo + hi) / 2.0)
+        // An absorbed oral dose is still rising at the dose time: the falling line read there
+        // would overstate the peak.
+        if absorbed && after <= 0.0 {
+            return None;
+        }
+        ("peak", fit.line_mg_l(end + after), (lo + hi) / 2.0)
     } else if let Some([lo, hi]) = t.auc24 {
+        if absorbed {
+            return None;
+        }
         let a = auc::auc24_from_two_levels(end - start, peak, tau, trough, end - start, tau)?;
         ("AUC24", a.auc24, (lo + hi) / 2.0)
     } else {
@@ -673,6 +691,7 @@ pub fn proportional(case: &Case, fit: &Fit, t: &Targets, step: f64) -> Option<Pr
         interval_h: tau,
         basis,
         measured,
+        peak_after_h: if basis == "peak" { after } else { 0.0 },
         target,
         factor,
         dose_given_mg: given,

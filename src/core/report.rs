@@ -25,6 +25,24 @@ Check them against local protocols, with pharmacist or prescriber review, before
 pub const CAUTION_SHORT: &str =
     "Decision support only; one-compartment model; check local protocol and review before acting.";
 
+/// The caution of a report whose fit is of a two-compartment model.
+pub const CAUTION_TWO: &str =
+    "Decision support only. Figures assume linear two-compartment kinetics. \
+Check them against local protocols, with pharmacist or prescriber review, before acting.";
+
+/// The short form of `CAUTION_TWO`.
+pub const CAUTION_SHORT_TWO: &str =
+    "Decision support only; two-compartment model; check local protocol and review before acting.";
+
+/// The caution (full, short) for a fit of `compartments` compartments.
+pub fn caution_for(compartments: u8) -> (&'static str, &'static str) {
+    if compartments == 2 {
+        (CAUTION_TWO, CAUTION_SHORT_TWO)
+    } else {
+        (CAUTION, CAUTION_SHORT)
+    }
+}
+
 /// The fit, as reported.
 #[derive(Debug, Clone, PartialEq)]
 pub struct FitSection {
@@ -887,7 +905,7 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
         (None, "") => "case".into(),
         (None, d) => d.to_string(),
     };
-    writeln!(w, "CAUTION: {CAUTION}")?;
+    writeln!(w, "CAUTION: {}", caution_for(r.fit.compartments).0)?;
     writeln!(w)?;
     writeln!(w, "ebb report: {title} (levels in {u})")?;
     writeln!(w)?;

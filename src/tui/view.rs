@@ -29,7 +29,12 @@ pub fn draw(app: &App, frame: &mut Frame) {
     let caution = if app.figures.saturable.is_some() {
         crate::core::saturable_report::CAUTION
     } else {
-        crate::core::report::CAUTION
+        let compartments = app
+            .figures
+            .report
+            .as_ref()
+            .map_or(1, |r| r.fit.compartments);
+        crate::core::report::caution_for(compartments).0
     };
     let banner_h = widgets::caution_lines_of(area.width, caution).len() as u16;
     // A long message wraps (up to three lines) rather than being cut.

@@ -213,3 +213,27 @@ fn no_auc_from_two_levels_is_given_for_an_absorbed_oral_dose() {
     assert!(j["auc24_methods"].is_null(), "{}", j["auc24_methods"]);
     assert!(j["plan"]["auc24_ss"].as_f64().unwrap() > 0.0);
 }
+
+#[test]
+fn the_proportional_adjustment_reads_the_line_where_the_target_is_drawn() {
+    // Lithium's range is for the level 12 h after the dose (the profile's strategy). Without
+    // the dose amounts there is no volume and the adjustment is proportional: the measured
+    // figure must be the fitted line 12 h after the dose (here a level drawn then), not the
+    // line extrapolated back to the dose time.
+    let text =
+        lithium(800.0, &[(12, 0.62), (22, 0.47)], 800.0, "").replace("amount_mg = 800.0\n", "");
+    let a = analyse(&text);
+    let j = json(&a);
+    let q = &j["proportional"];
+    assert!((q["measured"].as_f64().unwrap() - 0.62).abs() < 1e-9, "{q}");
+    // The standard strategy's range 0.6-0.8 mmol/L (NICE quality standard 95, in the profile).
+    assert!((q["target"].as_f64().unwrap() - 0.7).abs() < 1e-12);
+    assert!((q["factor"].as_f64().unwrap() - 0.7 / 0.62).abs() < 1e-9);
+    let mut out = Vec::new();
+    ebb::cli::write_report(&mut out, &a, "case.toml", false).unwrap();
+    let text = String::from_utf8(out).unwrap();
+    assert!(
+        text.contains("level 12 h after the end of the dose measured 0.62 mmol/L"),
+        "{text}"
+    );
+}

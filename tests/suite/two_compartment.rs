@@ -470,6 +470,14 @@ fn the_report_of_a_two_compartment_fit_says_so() {
         "{text}"
     );
     assert!(text.contains("(terminal)"), "{text}");
+    // The caution names the model the figures assume.
+    assert!(text.contains("Figures assume linear two-compartment kinetics"));
+    assert!(json["caution"]
+        .as_str()
+        .unwrap()
+        .contains("two-compartment kinetics"));
+    let svg = ebb::cli::plot::plot_svg_from(&case, &f, &r).unwrap();
+    assert!(svg.contains("two-compartment kinetics"));
     // The one-compartment report of the same case says nothing of it.
     let one = ebb::core::report::build(&case).unwrap();
     assert_eq!(one.fit.compartments, 1);

@@ -9,7 +9,7 @@ use ratatui::style::{Color, Modifier, Style};
 use ratatui::text::{Line, Span};
 use ratatui::widgets::{Block, Borders, Clear, Paragraph, Widget, Wrap};
 
-use crate::core::report::{CAUTION, CAUTION_SHORT};
+use crate::core::report::{CAUTION, CAUTION_SHORT, CAUTION_SHORT_TWO, CAUTION_TWO};
 use crate::tui::app::{App, Editor, Mode, Target};
 use crate::tui::fields::Field;
 use crate::tui::strings;
@@ -82,7 +82,12 @@ pub fn caution_lines_of(width: u16, caution: &str) -> Vec<String> {
     if full.len() <= 2 {
         return full;
     }
-    wrap(&format!("{} {CAUTION_SHORT}", strings::CAUTION_WORD), w)
+    let short = if caution == CAUTION_TWO {
+        CAUTION_SHORT_TWO
+    } else {
+        CAUTION_SHORT
+    };
+    wrap(&format!("{} {short}", strings::CAUTION_WORD), w)
 }
 
 /// Draw the caution banner into `area` (as many of its lines as fit).
@@ -234,7 +239,7 @@ mod tests {
     #[test]
     fn the_caution_fits_two_lines_at_every_supported_width() {
         for w in 80..=200u16 {
-            for text in [CAUTION, crate::core::saturable_report::CAUTION] {
+            for text in [CAUTION, CAUTION_TWO, crate::core::saturable_report::CAUTION] {
                 let lines = caution_lines_of(w, text);
                 assert!(lines.len() <= 2, "{w}");
                 assert!(lines.iter().all(|l| l.chars().count() <= usize::from(w)));
