@@ -247,7 +247,13 @@ pub fn for_targets(
             }
             // Figures are proportional to the dose: scale the unit course to this one.
             let unit = d.steady_state(1.0, route, tau);
-            let at = d.steady_level(1.0, route, tau, s.peak_after_h + after);
+            // After the end of the infusion; for an absorbed oral dose, after the dose.
+            let from = if route.absorption().is_some() {
+                0.0
+            } else {
+                route.infusion_h()
+            };
+            let at = d.steady_level(1.0, route, tau, from + after);
             return SteadyState {
                 peak_mg_l: s.peak_mg_l * at / unit.peak_mg_l,
                 ..s
@@ -1029,6 +1035,31 @@ mod tests {
             }
         }
         assert!((h - free).abs() < 1e-3, "{h} vs {free}");
+    }
+
+    #[test]
+    fn a_two_compartment_peak_is_read_where_the_target_is_drawn() {
+        // Self-consistency: the peak for the targets is the steady-state level itself, after
+        // the end of an infusion, and after the dose for an absorbed oral dose (lithium's
+        // 12-hour level).
+        let d = Disposition::Two(model::TwoCompartment {
+            cl: 3.4,
+            v1: 17.6,
+            q: 1.45,
+            v2: 10.9,
+        });
+        let inf = Route::Infusion { hours: 1.0 };
+        let s = d.steady_state(400.0, inf, 12.0);
+        let p = for_targets(s, inf, 12.0, &d, 0.5).peak_mg_l;
+        let want = d.steady_level(400.0, inf, 12.0, 1.5);
+        assert!((p - want).abs() < 1e-12 * want, "{p} {want}");
+        let oral = Route::oral_absorbed(0.9, 0.3, 0.0);
+        let s = d.steady_state(800.0, oral, 24.0);
+        let p = for_targets(s, oral, 24.0, &d, 12.0).peak_mg_l;
+        let want = d.steady_level(800.0, oral, 24.0, 12.0);
+        assert!((p - want).abs() < 1e-12 * want, "{p} {want}");
+        // No sampling delay: the model's own peak.
+        assert_eq!(for_targets(s, oral, 24.0, &d, 0.0), s);
     }
 
     #[test]
