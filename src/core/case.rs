@@ -230,6 +230,29 @@ pub struct Case {
     pub fit_method: Option<FitChoice>,
     /// The drug profile's population model, when it has one.
     pub prior: Option<Model>,
+    /// Haemodialysis sessions (`[[dialysis_session]]`), sorted by start (rows keep their file
+    /// numbers); marked on the course, not modelled.
+    pub dialysis_sessions: Vec<DialysisSession>,
+}
+
+/// One haemodialysis session (`[[dialysis_session]]`): marked on the course, not modelled.
+#[derive(Debug, Clone, PartialEq)]
+pub struct DialysisSession {
+    /// Row in the file, counting from 1.
+    pub row: usize,
+    /// When it started.
+    pub start: ClockTime,
+    /// Start, hours on the case's axis.
+    pub t: f64,
+    /// How long it ran, hours (above 0, at most 12).
+    pub duration_h: f64,
+}
+
+impl DialysisSession {
+    /// When it ended, hours on the axis.
+    pub fn end(&self) -> f64 {
+        self.t + self.duration_h
+    }
 }
 
 impl Case {
@@ -295,6 +318,21 @@ pub struct RegimenOptions {
     pub loading: LoadingRule,
     /// Tablet or capsule strengths, mg: doses are made of them.
     pub dose_forms_mg: Vec<f64>,
+    /// The strategy's haemodialysis rules (a pre-dialysis range, dosing after each session).
+    pub dialysis: DialysisRule,
+}
+
+/// A dosing strategy's haemodialysis rules, from the drug profile.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct DialysisRule {
+    /// The acceptable level drawn before a session, in the case's level unit, inclusive.
+    pub pre_dialysis: Option<[f64; 2]>,
+    /// The source of `pre_dialysis`, as the profile cites it.
+    pub pre_dialysis_source: String,
+    /// Whether the strategy gives each maintenance dose after a session.
+    pub dose_after_session: bool,
+    /// The source of `dose_after_session`, as the profile cites it.
+    pub dose_after_session_source: String,
 }
 
 impl Default for RegimenOptions {
@@ -314,6 +352,7 @@ impl Default for RegimenOptions {
             max_daily_dose_mg: None,
             loading: LoadingRule::Kinetic,
             dose_forms_mg: Vec::new(),
+            dialysis: DialysisRule::default(),
         }
     }
 }

@@ -7,8 +7,8 @@ use serde::{Deserialize, Serialize};
 use toml::value::{Datetime, Offset};
 
 use crate::core::case::{
-    Case, Dose, Drug, FitChoice, Level, Patient, Plan, RegimenOptions, Sex, Switch, SwitchRule,
-    Targets, Threshold,
+    Case, DialysisSession, Dose, Drug, FitChoice, Level, Patient, Plan, RegimenOptions, Sex,
+    Switch, SwitchRule, Targets, Threshold,
 };
 use crate::core::clock::{Clock, ClockTime};
 use crate::core::error::{Error, Result};
@@ -40,6 +40,13 @@ pub struct CaseFile {
     /// Levels measured.
     #[serde(default, rename = "level", skip_serializing_if = "Vec::is_empty")]
     pub levels: Vec<LevelFile>,
+    /// Haemodialysis sessions (addition: `[[dialysis_session]]`), marked, not modelled.
+    #[serde(
+        default,
+        rename = "dialysis_session",
+        skip_serializing_if = "Vec::is_empty"
+    )]
+    pub dialysis_sessions: Vec<DialysisSessionFile>,
     /// The regimen to project.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub plan: Option<PlanFile>,
@@ -257,6 +264,22 @@ pub fn parse_below_limit(text: &str) -> Option<f64> {
     rest.trim().replace(',', ".").parse::<f64>().ok()
 }
 
+/// One `[[dialysis_session]]` as written (addition): when a haemodialysis session started
+/// and how long it ran.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct DialysisSessionFile {
+    /// When the session started (a date-time, local or with an offset like the doses).
+    pub start: Datetime,
+    /// How long it ran, hours (above 0, at most `MAX_SESSION_H`).
+    pub duration_h: f64,
+}
+
+/// The longest haemodialysis session a case may record, hours: intermittent sessions run a
+/// few hours (common practice); a longer one is a typing slip or a continuous therapy, which
+/// `[[dialysis_session]]` does not describe.
+pub const MAX_SESSION_H: f64 = 12.0;
+
 /// `[plan]` as written.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -451,6 +474,18 @@ impl CaseFile {
         for (place, s) in stamps.iter_mut() {
             *s = in_zone(place, *s)?;
         }
+        let mut sessions_at = Vec::with_capacity(self.dialysis_sessions.len());
+        for (i, d) in self.dialysis_sessions.iter().enumerate() {
+            let place = format!("dialysis_session {}", i + 1);
+            let s = to_stamp(&d.start, &format!("{place}: start"))?;
+            // As a dose's time: through the case's zone, an impossible wall time named.
+            let s = match (zone, s) {
+                (Some(z), ClockTime::Local(wall)) => crate::core::clock::place_in_zone(wall, z)
+                    .map_err(|m| Error::invalid(format!("{place}: start"), m))?,
+                _ => s,
+            };
+            sessions_at.push((place, s));
+        }
         let plan_start = plan_start.map(|s| in_zone("plan.start", s)).transpose()?;
         let procedure = procedure
             .map(|s| in_zone("threshold.procedure", s))
@@ -462,6 +497,7 @@ impl CaseFile {
         if let Some(p) = procedure {
             all.push(("threshold.procedure".into(), p));
         }
+        all.extend(sessions_at.iter().cloned());
         let clock = build_clock(&all)?;
         let clock = match zone {
             Some(z) => Clock::in_zone(
@@ -680,8 +716,10 @@ impl CaseFile {
         };
 
         let switch = self.switch.as_ref().map(validate_switch).transpose()?;
+        let dialysis_sessions = validate_sessions(&self.dialysis_sessions, &sessions_at, &clock)?;
 
         Ok(Case {
+            dialysis_sessions,
             switch,
             regimen: defaults.regimen.clone().unwrap_or_default(),
             patient,
@@ -763,6 +801,7 @@ impl CaseFile {
         for (n, max, what) in [
             (self.doses.len(), MAX_DOSES, "dose"),
             (self.levels.len(), MAX_LEVELS, "level"),
+            (self.dialysis_sessions.len(), MAX_LEVELS, "dialysis_session"),
         ] {
             if n > max {
                 return Err(Error::invalid(
@@ -773,6 +812,51 @@ impl CaseFile {
         }
         Ok(())
     }
+}
+
+/// `[[dialysis_session]]` rows with their stamps (placed in the case's zone): a duration
+/// above 0 and at most `MAX_SESSION_H`, and no two sessions overlapping.
+fn validate_sessions(
+    rows: &[DialysisSessionFile],
+    stamps: &[(String, ClockTime)],
+    clock: &Clock,
+) -> Result<Vec<DialysisSession>> {
+    let mut out = Vec::with_capacity(rows.len());
+    for (i, (d, (place, start))) in rows.iter().zip(stamps).enumerate() {
+        let field = format!("{place}: duration_h");
+        positive(d.duration_h, &field)?;
+        if d.duration_h > MAX_SESSION_H {
+            return Err(Error::invalid(
+                field,
+                format!(
+                    "must be at most {MAX_SESSION_H} hours (an intermittent session), got {}",
+                    d.duration_h
+                ),
+            ));
+        }
+        out.push(DialysisSession {
+            row: i + 1,
+            start: *start,
+            t: clock.hours(start),
+            duration_h: d.duration_h,
+        });
+    }
+    out.sort_by(|a, b| a.t.total_cmp(&b.t));
+    for w in out.windows(2) {
+        if w[1].t < w[0].end() {
+            return Err(Error::invalid(
+                format!("dialysis_session {}", w[1].row),
+                format!(
+                    "starts at {}, before dialysis_session {} (from {}, {} h) has ended; sessions cannot overlap",
+                    w[1].start.iso_minute(),
+                    w[0].row,
+                    w[0].start.iso_minute(),
+                    crate::core::format::num(w[0].duration_h)
+                ),
+            ));
+        }
+    }
+    Ok(out)
 }
 
 /// The resume fields of `[threshold]`: each optional, above 0 (a delay may be 0), and only
@@ -1473,8 +1557,14 @@ fn build_clock(stamps: &[(String, ClockTime)]) -> Result<Clock> {
             } else {
                 ("an offset time", "local times")
             };
+            // A session's time is its `start`; every other row's is `time`.
+            let field = if place.starts_with("dialysis_session") {
+                "start"
+            } else {
+                "time"
+            };
             return Err(Error::invalid(
-                format!("{place}: time"),
+                format!("{place}: {field}"),
                 format!(
                     "is {this} but {} uses {other}; use local times throughout or offsets throughout",
                     stamps[0].0
@@ -1514,5 +1604,82 @@ mod stamp_tests {
             let stamp = to_stamp(&dt, "x").unwrap();
             assert_eq!(from_stamp(&stamp).to_string(), text);
         }
+    }
+}
+
+#[cfg(test)]
+mod session_tests {
+    use super::*;
+
+    const CASE: &str = r#"time_zone = "Europe/Paris"
+[drug]
+level_unit = "mg/L"
+[[dose]]
+time = 2027-03-27T12:30:00
+amount_mg = 1000.0
+route = "infusion"
+infusion_h = 2.0
+[[level]]
+time = 2027-03-27T16:00:00
+value = 30.0
+[[level]]
+time = 2027-03-29T07:30:00
+value = 20.0
+[[dialysis_session]]
+start = 2027-03-29T08:00:00
+duration_h = 4.0
+[[dialysis_session]]
+start = 2027-03-27T08:00:00
+duration_h = 3.5
+"#;
+
+    #[test]
+    fn sessions_are_sorted_and_placed_through_the_case_zone() {
+        let c = CaseFile::parse(CASE).unwrap().validate().unwrap();
+        let s = &c.dialysis_sessions;
+        assert_eq!((s[0].row, s[1].row), (2, 1));
+        // Origin: session 2's start, 27 March 08:00. Europe/Paris moves to summer time in
+        // the night of 28 March 2027, so 29 March 08:00 is 47 hours later, not 48 (tz
+        // database, Europe/Paris rules).
+        assert_eq!(s[0].t, 0.0);
+        assert_eq!(s[1].t, 47.0);
+        assert_eq!(s[1].end(), 51.0);
+        assert_eq!(s[0].duration_h, 3.5);
+        assert_eq!(c.levels[1].t, 46.5);
+    }
+
+    #[test]
+    fn sessions_write_back_as_they_were_read() {
+        let file = CaseFile::parse(CASE).unwrap();
+        let text = file.to_toml().unwrap();
+        assert!(text.contains("[[dialysis_session]]"), "{text}");
+        let again = CaseFile::parse(&text).unwrap();
+        assert_eq!(again, file);
+        assert_eq!(
+            again.dialysis_sessions[1].start.to_string(),
+            "2027-03-27T08:00:00"
+        );
+        assert_eq!(again.dialysis_sessions[1].duration_h, 3.5);
+    }
+
+    #[test]
+    fn sessions_that_only_touch_do_not_overlap() {
+        let text = CASE
+            .replace("duration_h = 3.5", "duration_h = 12.0")
+            .replace("start = 2027-03-29T08:00:00", "start = 2027-03-27T20:00:00");
+        let c = CaseFile::parse(&text).unwrap().validate().unwrap();
+        assert_eq!(c.dialysis_sessions[0].end(), c.dialysis_sessions[1].t);
+        let text = text.replace("start = 2027-03-27T20:00:00", "start = 2027-03-27T19:59:00");
+        let e = CaseFile::parse(&text)
+            .unwrap()
+            .validate()
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.starts_with(
+                "dialysis_session 1: starts at 2027-03-27T19:59+01:00, before dialysis_session 2"
+            ),
+            "{e}"
+        );
     }
 }
