@@ -33,6 +33,78 @@ pub struct JsonReport {
     patient: JsonPatient,
     /// Addition: the saturable (Michaelis-Menten) analysis; null for a first-order drug.
     saturable: Option<JsonSaturable>,
+    /// Addition: the case's haemodialysis sessions in time order (empty without any).
+    dialysis_sessions: Vec<JsonSession>,
+    /// Addition: what the report says about the sessions (null without any).
+    dialysis: Option<JsonDialysis>,
+}
+
+#[derive(Debug, Serialize)]
+struct JsonSession {
+    start: String,
+    end: String,
+    duration_h: f64,
+}
+
+#[derive(Debug, Serialize)]
+struct JsonDialysis {
+    modelled: bool,
+    statement: &'static str,
+    pre_dialysis_level: Option<JsonPreDialysis>,
+    next_dose_due: Option<JsonNextDose>,
+}
+
+#[derive(Debug, Serialize)]
+struct JsonPreDialysis {
+    level: usize,
+    value: f64,
+    session: usize,
+    hours_before: f64,
+    range: Option<[f64; 2]>,
+    within: Option<bool>,
+}
+
+#[derive(Debug, Serialize)]
+struct JsonNextDose {
+    session: Option<usize>,
+    at: Option<String>,
+    source: String,
+}
+
+/// The sessions and the dialysis object of a report's dialysis section.
+fn dialysis_json(
+    d: Option<&crate::core::dialysis::DialysisSection>,
+) -> (Vec<JsonSession>, Option<JsonDialysis>) {
+    let Some(d) = d else {
+        return (Vec::new(), None);
+    };
+    let sessions = d
+        .sessions
+        .iter()
+        .map(|s| JsonSession {
+            start: s.start.iso_minute(),
+            end: s.end.iso_minute(),
+            duration_h: s.duration_h,
+        })
+        .collect();
+    let dialysis = JsonDialysis {
+        modelled: false,
+        statement: crate::core::dialysis::NOT_MODELLED,
+        pre_dialysis_level: d.pre_dialysis.as_ref().map(|p| JsonPreDialysis {
+            level: p.level,
+            value: p.value,
+            session: p.session,
+            hours_before: p.hours_before,
+            range: p.range.as_ref().map(|(r, _)| *r),
+            within: p.within,
+        }),
+        next_dose_due: d.next_dose.as_ref().map(|n| JsonNextDose {
+            session: n.session,
+            at: n.at.as_ref().map(|a| a.iso_minute()),
+            source: n.source.clone(),
+        }),
+    };
+    (sessions, Some(dialysis))
 }
 
 #[derive(Debug, Serialize)]
@@ -265,7 +337,10 @@ impl From<&Report> for JsonReport {
         let ci = |x: Option<[f64; 2]>| if prior_only { None } else { x };
         let pi = |x: Option<[f64; 2]>| if prior_only { x } else { None };
         let p = &r.patient;
+        let (dialysis_sessions, dialysis) = dialysis_json(r.dialysis.as_ref());
         JsonReport {
+            dialysis_sessions,
+            dialysis,
             patient: patient_json(p),
             caution: crate::core::report::caution_for(r.fit.compartments).0,
             fit: Some(JsonFit {
@@ -496,7 +571,11 @@ pub fn saturable_to_json(case: &Case, r: &SaturableReport) -> String {
             .and_then(|t| t.level_at_procedure_mg_l)
             .map(lv),
     };
+    let (dialysis_sessions, dialysis) =
+        dialysis_json(crate::core::dialysis::section(case).as_ref());
     let whole = JsonReport {
+        dialysis_sessions,
+        dialysis,
         caution: crate::core::saturable_report::CAUTION,
         fit: None,
         plan: None,

@@ -220,6 +220,8 @@ pub struct Report {
     pub advice: crate::core::advice::AdviceSection,
     /// The patient's covariates and what is derived from them.
     pub patient: PatientSection,
+    /// Haemodialysis sessions (marked, not modelled), when the case records any.
+    pub dialysis: Option<crate::core::dialysis::DialysisSection>,
 }
 
 /// The patient's covariates as recorded and the body size and kidney function derived from
@@ -288,6 +290,11 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
         two_compartment_phase(&mut warnings);
     }
     shape_warnings(case, fit, &mut warnings);
+    warnings.extend(crate::core::dialysis::warnings(
+        case,
+        &fit.used,
+        scale.unit.as_str(),
+    ));
 
     let fit_part = FitSection {
         method: fit.method.name(),
@@ -538,6 +545,7 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
         warnings,
         advice,
         patient: PatientSection::of(&case.patient),
+        dialysis: crate::core::dialysis::section(case),
     };
     check_finite(&report)?;
     Ok(report)
@@ -1076,6 +1084,9 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
         }
     }
     writeln!(w)?;
+    if let Some(d) = &r.dialysis {
+        crate::core::dialysis::write_text(w, d, u)?;
+    }
 
     if let (Some(p), Some(pl)) = (&r.plan, &case.plan) {
         let route = match pl.route {

@@ -99,11 +99,19 @@ pub enum Code {
     AboveVmax,
     /// Saturable elimination: how Vmax and Km were found and what limits them.
     SaturableEstimate,
+    /// Haemodialysis sessions are marked, not modelled: projections after one are too high.
+    DialysisNotModelled,
+    /// A level drawn during a dialysis session or in the rebound after it: not pre-dialysis.
+    NotPreDialysis,
+    /// The fitted levels span a dialysis session.
+    FitAcrossSession,
+    /// The last pre-dialysis level is outside the strategy's pre-dialysis range.
+    PreDialysisRange,
 }
 
 impl Code {
     /// Every code, in declaration order.
-    pub const ALL: [Code; 45] = [
+    pub const ALL: [Code; 49] = [
         Code::OutsideWindow,
         Code::DistributionPhase,
         Code::RisingLevels,
@@ -149,6 +157,10 @@ impl Code {
         Code::BindingUncertain,
         Code::AboveVmax,
         Code::SaturableEstimate,
+        Code::DialysisNotModelled,
+        Code::NotPreDialysis,
+        Code::FitAcrossSession,
+        Code::PreDialysisRange,
     ];
 
     /// The code as the JSON report spells it.
@@ -199,6 +211,10 @@ impl Code {
             Code::BindingUncertain => "binding-uncertain",
             Code::AboveVmax => "above-vmax",
             Code::SaturableEstimate => "saturable-estimate",
+            Code::DialysisNotModelled => "dialysis-not-modelled",
+            Code::NotPreDialysis => "not-pre-dialysis",
+            Code::FitAcrossSession => "fit-across-session",
+            Code::PreDialysisRange => "pre-dialysis-range",
         }
     }
 }

@@ -383,12 +383,24 @@ pub fn defaults_for_strategy(
         .and_then(|u| unit_factor(profile, u, case_molar_mass))
         .and_then(|f| chosen.map(|s| targets_of(s, f)))
         .unwrap_or_default();
+    let mut regimen = regimen_of(profile, chosen);
+    // The pre-dialysis range converts to the case's unit as the targets do (left out when
+    // it cannot be converted; the unit warning says why).
+    if let (Some(r), Some(f)) = (
+        chosen.and_then(|s| s.pre_dialysis.as_ref()),
+        case_unit
+            .and_then(|u| LevelUnit::parse(u, "drug.level_unit").ok())
+            .and_then(|u| unit_factor(profile, u, case_molar_mass)),
+    ) {
+        regimen.dialysis.pre_dialysis = Some([r.low * f, r.high * f]);
+        regimen.dialysis.pre_dialysis_source = r.source.clone();
+    }
     Defaults {
         molar_mass_g_mol: profile.molar_mass_g_mol.as_ref().map(|m| m.value),
         bioavailability: profile.bioavailability.as_ref().map(|f| f.value),
         targets,
         prior: prior_of(profile),
-        regimen: Some(regimen_of(profile, chosen)),
+        regimen: Some(regimen),
         strategies: profile.strategies.iter().map(|s| s.name.clone()).collect(),
         formulations: profile
             .absorption
@@ -438,6 +450,10 @@ fn regimen_of(profile: &Profile, strategy: Option<&Strategy>) -> RegimenOptions 
     opts.peak_sampled_after_h = strategy
         .and_then(|s| s.peak_sampled_after_h.as_ref())
         .map_or(0.0, |x| x.value);
+    if let Some(r) = strategy.and_then(|s| s.dose_after_session.as_ref()) {
+        opts.dialysis.dose_after_session = true;
+        opts.dialysis.dose_after_session_source = r.source.clone();
+    }
     opts.max_rate_mg_per_min = profile
         .max_infusion_rate_mg_per_min
         .as_ref()

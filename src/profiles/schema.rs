@@ -268,6 +268,24 @@ pub struct Strategy {
     /// Show the drug-free time per interval (hours at or below the trough ceiling).
     #[serde(default, skip_serializing_if = "std::ops::Not::not")]
     pub drug_free_time: bool,
+    /// Haemodialysis: the acceptable level drawn before a session starts (profile unit).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub pre_dialysis: Option<SourcedRange>,
+    /// Haemodialysis: the strategy gives each maintenance dose after a session (present:
+    /// yes; its `source` says who says so).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub dose_after_session: Option<SourcedRule>,
+}
+
+/// A rule that holds because the table is there, with its source (`{ source, note? }`).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SourcedRule {
+    /// Where it comes from: `[Key]` citations, or "from memory, unverified".
+    pub source: String,
+    /// Optional plain words.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub note: Option<String>,
 }
 
 /// One oral formulation's first-order absorption (`[[absorption]]`).
@@ -510,6 +528,12 @@ impl Profile {
             if let Some(x) = &s.peak_sampled_after_h {
                 out.push((at("peak_sampled_after_h"), &x.source));
             }
+            if let Some(r) = &s.pre_dialysis {
+                out.push((at("pre_dialysis"), &r.source));
+            }
+            if let Some(r) = &s.dose_after_session {
+                out.push((at("dose_after_session"), &r.source));
+            }
         }
         for (i, a) in self.absorption.iter().enumerate() {
             out.push((
@@ -667,6 +691,10 @@ impl Profile {
             }
             if let Some(r) = &s.range {
                 range(r, &at("range"))?;
+            }
+            if let Some(r) = &s.pre_dialysis {
+                range(r, &at("pre_dialysis"))?;
+                positive(r.low, &at("pre_dialysis"))?;
             }
             if let Some(l) = &s.usual_intervals_h {
                 if l.values.is_empty() {
