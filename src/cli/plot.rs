@@ -34,6 +34,9 @@ pub const LEGEND: [&str; 6] = [
     "threshold",
 ];
 
+/// The legend label of the shaded haemodialysis sessions (marked, not modelled).
+pub const SESSION_LEGEND: &str = "dialysis session (marked, not modelled)";
+
 /// The height of the caution at the foot of the drawing, in SVG pixels.
 const CAUTION_HEIGHT: u32 = 40;
 
@@ -95,6 +98,10 @@ pub fn plot_svg_from(case: &Case, fit: &Fit, r: &Report) -> Result<String> {
     }
     if let Some(s) = &r.advice.switch {
         last = last.max(case.clock.hours(&s.start_at));
+    }
+    // Every recorded session after the first dose is in view.
+    for s in case.dialysis_sessions.iter().filter(|s| s.end() > first) {
+        last = last.max(s.end());
     }
     let span = (last - first).clamp(1.0, MAX_SPAN_H);
     let (x0, x1) = (first - 0.03 * span, first + 1.05 * span);
@@ -229,6 +236,32 @@ pub fn plot_svg_from(case: &Case, fit: &Fit, r: &Report) -> Result<String> {
             .light_line_style(WHITE)
             .draw()
             .map_err(draw_err)?;
+
+        // Haemodialysis sessions first, as shaded bands under the curves, each labelled.
+        let band = RGBColor(200, 200, 200).mix(0.6);
+        let bands: Vec<(usize, f64, f64)> = case
+            .dialysis_sessions
+            .iter()
+            .map(|s| (s.row, s.t.max(x0), s.end().min(x1)))
+            .filter(|(_, a, b)| a < b)
+            .collect();
+        if !bands.is_empty() {
+            chart
+                .draw_series(
+                    bands
+                        .iter()
+                        .map(|&(_, a, b)| Rectangle::new([(a, y0), (b, y1)], band.filled())),
+                )
+                .map_err(draw_err)?
+                .label(SESSION_LEGEND)
+                .legend(move |(x, y)| Rectangle::new([(x, y - 5), (x + 16, y + 5)], band.filled()));
+            let font = ("sans-serif", 12).into_font().color(&BLACK);
+            chart
+                .draw_series(bands.iter().map(|&(row, a, _)| {
+                    Text::new(format!("dialysis {row}"), (a, y1 / 1.6), font.clone())
+                }))
+                .map_err(draw_err)?;
+        }
 
         let black = BLACK.stroke_width(2);
         let grey = RGBColor(90, 90, 90).stroke_width(2);
