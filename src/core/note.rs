@@ -200,6 +200,9 @@ pub fn write_note(
         }
     }
     writeln!(w)?;
+    if let Some(d) = &r.dialysis {
+        write_sessions(w, md, d, &heading)?;
+    }
 
     heading(w, "Method")?;
     writeln!(
@@ -311,6 +314,45 @@ pub fn write_note(
         "{item}Checked by: ______________________   Date/time: ______________"
     )?;
     Ok(())
+}
+
+/// The haemodialysis sessions on the course, with clock times, and the sentence that they are
+/// marked, not modelled.
+fn write_sessions(
+    w: &mut dyn Write,
+    md: bool,
+    d: &crate::core::dialysis::DialysisSection,
+    heading: &dyn Fn(&mut dyn Write, &str) -> io::Result<()>,
+) -> io::Result<()> {
+    heading(w, "Dialysis sessions")?;
+    let indent = if md { "" } else { "  " };
+    writeln!(w, "{indent}{}", crate::core::dialysis::NOT_MODELLED)?;
+    writeln!(w)?;
+    if md {
+        writeln!(w, "| session | start | end | hours |\n|---|---|---|---|")?;
+    }
+    for s in &d.sessions {
+        if md {
+            writeln!(
+                w,
+                "| {} | {} | {} | {} |",
+                s.row,
+                s.start.readable(true),
+                s.end.readable(true),
+                num(s.duration_h)
+            )?;
+        } else {
+            writeln!(
+                w,
+                "  session {}  {} to {}  {} h",
+                s.row,
+                s.start.readable(true),
+                s.end.readable(true),
+                num(s.duration_h)
+            )?;
+        }
+    }
+    writeln!(w)
 }
 
 /// Free text from the file is data: escaped for Markdown, or made printable for plain text,
