@@ -251,6 +251,14 @@ fn threshold_guide(case: &Case) -> Option<Guide> {
     })
 }
 
+/// The haemodialysis sessions as bands of hours on the axis (marked, not modelled).
+fn session_bands(case: &Case) -> Vec<[f64; 2]> {
+    case.dialysis_sessions
+        .iter()
+        .map(|s| [s.t, s.end()])
+        .collect()
+}
+
 fn fit_chart(case: &Case, fit: &Fit, p: &Patient) -> ChartData {
     let first = case.doses.first().map(|d| d.t).unwrap_or(0.0);
     let last_level = case.levels.iter().map(|l| l.t).fold(first, f64::max);
@@ -321,6 +329,7 @@ fn fit_chart(case: &Case, fit: &Fit, p: &Patient) -> ChartData {
         marks,
         guide: threshold_guide(case),
         vline: None,
+        bands: session_bands(case),
     }
 }
 
@@ -351,6 +360,7 @@ fn plan_chart(case: &Case, r: &Report, p: &Patient) -> Option<ChartData> {
             role: GuideRole::TroughTarget,
         }),
         vline: None,
+        bands: session_bands(case),
     })
 }
 
@@ -383,6 +393,7 @@ fn threshold_chart(case: &Case, p: &Patient) -> Option<ChartData> {
         }],
         guide: threshold_guide(case),
         vline: th.procedure_t,
+        bands: session_bands(case),
     })
 }
 
@@ -433,6 +444,7 @@ fn washout_chart(case: &Case, r: &Report, p: &Patient) -> Option<ChartData> {
         marks,
         guide: threshold_guide(case),
         vline: None,
+        bands: session_bands(case),
     })
 }
 

@@ -681,6 +681,12 @@ pub const LEGEND_THRESHOLD: &str = "threshold";
 pub const LEGEND_TROUGH_TARGET: &str = "trough max";
 /// Legend.
 pub const LEGEND_PROCEDURE: &str = "procedure";
+/// Chart legend: a haemodialysis session, shaded (marked on the course, not modelled).
+pub const LEGEND_DIALYSIS: &str = "dialysis (marked, not modelled)";
+/// The shade of a haemodialysis session in the chart's free cells.
+pub const BAND_SHADE: &str = "░";
+/// The time axis under a haemodialysis session.
+pub const BAND_AXIS: &str = "━";
 /// Legend.
 pub const LEGEND_BAND: &str = "95 % band";
 /// Legend.

@@ -167,3 +167,20 @@ fn phenytoin_fit_and_plan_screens_show_vmax_km_the_adjusted_level_and_the_dose()
         }
     }
 }
+
+#[test]
+fn dialysis_sessions_are_shaded_on_the_charts() {
+    // A relative path (tests run in the crate's folder), so the title is the same anywhere.
+    let path = std::path::Path::new("tests/cases/valid/vancomycin_haemodialysis.toml");
+    let mut app = App::open(path);
+    assert!(app.load_error.is_none());
+    app.screen = Screen::Fit;
+    for (w, h) in [(80, 24), (160, 48)] {
+        let text = screen_text(&app, w, h);
+        assert!(text.contains("░ dialysis (marked, not modelled)"), "{text}");
+        // Shade in the plot and the heavy rule on the time axis under each session.
+        assert!(text.matches('░').count() > 2, "{text}");
+        assert!(text.contains('━'), "{text}");
+        insta::assert_snapshot!(format!("dialysis_fit_{w}x{h}"), draw(&app, w, h).backend());
+    }
+}

@@ -96,6 +96,8 @@ pub struct ChartData {
     pub guide: Option<Guide>,
     /// A vertical line at a time (the procedure), hours on the axis.
     pub vline: Option<f64>,
+    /// Spans of time shaded behind the curves (haemodialysis sessions), hours on the axis.
+    pub bands: Vec<[f64; 2]>,
 }
 
 /// The chart widget: data plus the unit for the legend.
@@ -113,6 +115,10 @@ fn curve_style(role: CurveRole) -> Style {
         CurveRole::Plan => Style::new().fg(Color::Green),
         CurveRole::Band => Style::new().fg(Color::Blue),
     }
+}
+
+fn band_style() -> Style {
+    Style::new().fg(Color::DarkGray)
 }
 
 fn guide_style(role: GuideRole) -> Style {
@@ -316,6 +322,28 @@ impl SemiLogChart<'_> {
         Vec::new()
     }
 
+    /// The columns the bands cover (each band at least one column), or `None` when no band
+    /// is in view. Without a frame, whether any band overlaps the time span.
+    fn band_columns(&self, f: Option<&Frame>) -> Option<Vec<u16>> {
+        let d = self.data;
+        let mut cols = Vec::new();
+        for &[a, b] in &d.bands {
+            let (a, b) = (a.max(d.x[0]), b.min(d.x[1]));
+            if a.is_nan() || b.is_nan() || a > b {
+                continue;
+            }
+            match f {
+                None => return Some(Vec::new()),
+                Some(f) => {
+                    if let (Some(ca), Some(cb)) = (f.col(a), f.col(b)) {
+                        cols.extend(ca..=cb);
+                    }
+                }
+            }
+        }
+        (!cols.is_empty()).then_some(cols)
+    }
+
     /// The legend, packed into lines no wider than `width`.
     fn legend(&self, width: u16) -> Vec<Line<'static>> {
         let mut lines: Vec<Vec<Span<'static>>> = vec![Vec::new()];
@@ -390,6 +418,12 @@ impl SemiLogChart<'_> {
             items.push(vec![
                 Span::styled("╌", guide_style(g.role)),
                 Span::raw(format!(" {name} {}", num(g.value))),
+            ]);
+        }
+        if self.band_columns(None).is_some() {
+            items.push(vec![
+                Span::styled(strings::BAND_SHADE, band_style()),
+                Span::raw(format!(" {}", strings::LEGEND_DIALYSIS)),
             ]);
         }
         if d.vline.is_some() {
@@ -500,6 +534,16 @@ impl Widget for SemiLogChart<'_> {
                 }
             }
         }
+        // Haemodialysis sessions: light shade in the free cells of their columns, and a
+        // heavy rule on the time axis under them.
+        let band_cols = self.band_columns(Some(&f)).unwrap_or_default();
+        for &c in &band_cols {
+            for y in plot.top()..plot.bottom() {
+                if blank(buf, c, y) {
+                    buf.set_string(c, y, strings::BAND_SHADE, band_style());
+                }
+            }
+        }
         if let Some(t) = d.vline {
             if let Some(c) = f.col(t) {
                 for y in plot.top()..plot.bottom() {
@@ -526,6 +570,9 @@ impl Widget for SemiLogChart<'_> {
         buf.set_string(axis_x, bottom, "└", axis);
         for x in plot.left()..plot.right() {
             buf.set_string(x, bottom, "─", axis);
+        }
+        for &c in &band_cols {
+            buf.set_string(c, bottom, strings::BAND_AXIS, band_style());
         }
         let mut placed: Vec<u16> = Vec::new();
         for rank in 0..3u8 {
