@@ -16,6 +16,7 @@ mod core_nist;
 mod core_ode;
 mod core_props;
 mod core_time_zone;
+mod dialysis;
 mod docs_rejected;
 mod files_safety;
 mod history_cases;
