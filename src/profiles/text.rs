@@ -189,6 +189,21 @@ pub fn write_show(w: &mut dyn Write, e: &Entry) -> io::Result<()> {
         if let Some(r) = &s.range {
             writeln!(w, "    range       {} (shown, not checked)", range(r, &u))?;
         }
+        if let Some(r) = &s.pre_dialysis {
+            writeln!(w, "    pre-dialysis {}", range(r, &u))?;
+        }
+        if let Some(r) = &s.dose_after_session {
+            let note = r
+                .note
+                .as_deref()
+                .map(|n| format!("; {n}"))
+                .unwrap_or_default();
+            writeln!(
+                w,
+                "    dosing      after each haemodialysis session {}{note}",
+                r.source
+            )?;
+        }
         writeln!(w, "    sampling    {}", s.sampling)?;
         if let Some(n) = &s.note {
             writeln!(w, "    note        {n}")?;
