@@ -192,14 +192,22 @@ pub fn analyse_with_fit(
         .and_then(|e| profiles::saturable_params(&e.profile, &case));
     if let Some(params) = params {
         return match saturable_report::analyse(&case, &params) {
-            Ok(report) => Analysis {
-                profile,
-                case: Some(case),
-                fit: None,
-                report: None,
-                stop: None,
-                saturable: Some(Saturable { params, report }),
-            },
+            Ok(mut report) => {
+                // Sessions are marked, not modelled, in the saturable analysis too.
+                report.warnings.extend(crate::core::dialysis::warnings(
+                    &case,
+                    &[],
+                    case.drug.scale.unit.as_str(),
+                ));
+                Analysis {
+                    profile,
+                    case: Some(case),
+                    fit: None,
+                    report: None,
+                    stop: None,
+                    saturable: Some(Saturable { params, report }),
+                }
+            }
             Err(e @ Error::Invalid { .. }) => Analysis::stopped(profile, Some(case), Stop::Case(e)),
             Err(e) => Analysis::stopped(profile, Some(case), Stop::Fit(e)),
         };

@@ -158,3 +158,30 @@ fn the_plot_shades_each_session_with_a_label() {
     let ratio = (bands[1].0 - bands[0].0) / bands[1].1;
     assert!((ratio - 12.0).abs() < 1.0, "{bands:?}");
 }
+
+#[test]
+fn a_saturable_report_says_the_sessions_are_not_modelled_too() {
+    let tmp = tempfile::tempdir().unwrap();
+    let path = tmp.path().join("phenytoin.toml");
+    let text = std::fs::read_to_string("tests/cases/valid/phenytoin_two_levels.toml").unwrap()
+        + "\n[[dialysis_session]]\nstart = 2027-01-06T13:00:00\nduration_h = 3.5\n";
+    std::fs::write(&path, text).unwrap();
+    let v: serde_json::Value =
+        serde_json::from_str(&stdout(&["report", path.to_str().unwrap(), "--json"])).unwrap();
+    assert_eq!(
+        v["dialysis_sessions"],
+        serde_json::json!([{ "start": "2027-01-06T13:00", "end": "2027-01-06T16:30",
+                             "duration_h": 3.5 }])
+    );
+    assert_eq!(v["dialysis"]["statement"], NOT_MODELLED);
+    assert!(
+        v["warning_codes"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .any(|c| c == "dialysis-not-modelled"),
+        "{v}"
+    );
+    let text = stdout(&["report", path.to_str().unwrap()]);
+    assert!(text.contains(NOT_MODELLED), "{text}");
+}
