@@ -114,8 +114,10 @@ pub struct DialysisSection {
 
 /// Where a level drawn at `t` (hours on the axis) falls relative to the sessions.
 pub fn timing(sessions: &[DialysisSession], t: f64) -> Timing {
+    // A sample drawn at the very start is taken before the session runs (common practice
+    // draws the pre-dialysis sample from the line as the session starts).
     for s in sessions {
-        if t >= s.t && t <= s.end() {
+        if t > s.t && t <= s.end() {
             return Timing::During { session: s.row };
         }
     }
@@ -134,7 +136,7 @@ pub fn timing(sessions: &[DialysisSession], t: f64) -> Timing {
     }
     if let Some(s) = sessions
         .iter()
-        .filter(|s| s.t > t && s.t - t <= PRE_WINDOW_H)
+        .filter(|s| s.t >= t && s.t - t <= PRE_WINDOW_H)
         .min_by(|a, b| a.t.total_cmp(&b.t))
     {
         return Timing::PreDialysis {
@@ -446,6 +448,13 @@ duration_h = 4.0
             }
         );
         assert_eq!(timing(s, 50.0), Timing::During { session: 2 });
+        assert_eq!(
+            timing(s, 48.0),
+            Timing::PreDialysis {
+                session: 2,
+                hours_before: 0.0
+            }
+        );
         assert_eq!(timing(s, 52.0), Timing::During { session: 2 });
         assert_eq!(
             timing(s, 54.0),
@@ -508,6 +517,22 @@ duration_h = 4.0
         let n = section(&c).unwrap().next_dose.unwrap();
         assert_eq!(n.session, Some(2));
         assert_eq!(n.at.unwrap().iso_minute(), "2027-03-03T12:00");
+        assert_eq!(n.plan_at_end, None);
+        // A plan whose first dose is 12 h after the end of session 2 is flagged.
+        let text = format!(
+            "{CASE}[plan]\ndose_mg = 750.0\ninterval_h = 48.0\nroute = \"bolus\"\nstart = 2027-03-04T00:00:00\n"
+        );
+        let mut later = case(&text);
+        later.regimen.dialysis.dose_after_session = true;
+        let n = section(&later).unwrap().next_dose.unwrap();
+        assert_eq!(n.plan_at_end, Some(false));
+        let mut out = Vec::new();
+        write_text(&mut out, &section(&later).unwrap(), "mg/L").unwrap();
+        let out = String::from_utf8(out).unwrap();
+        assert!(
+            out.contains("  the plan's first dose is not at the end of that session;"),
+            "{out}"
+        );
         // With no rule, nothing is said about the next dose.
         c.regimen.dialysis.dose_after_session = false;
         assert!(section(&c).unwrap().next_dose.is_none());
