@@ -185,3 +185,26 @@ fn a_saturable_report_says_the_sessions_are_not_modelled_too() {
     let text = stdout(&["report", path.to_str().unwrap()]);
     assert!(text.contains(NOT_MODELLED), "{text}");
 }
+
+#[test]
+fn saving_the_case_keeps_its_sessions_and_their_comments() {
+    let original = std::fs::read_to_string(CASE)
+        .unwrap()
+        .replace(
+            "[[dialysis_session]]\nstart = 2027-03-03T08:00:00",
+            "[[dialysis_session]]  # Wednesday, high-flux\nstart = 2027-03-03T08:00:00",
+        );
+    let mut file = ebb::core::casefile::CaseFile::parse(&original).unwrap();
+    // An edit on screen: the plan's dose.
+    file.plan.as_mut().unwrap().dose_mg = 1000.0;
+    let saved = ebb::files::toml_keep::render(&file, Some(&original)).unwrap();
+    assert!(saved.contains("# Wednesday, high-flux"), "{saved}");
+    let again = ebb::core::casefile::CaseFile::parse(&saved).unwrap();
+    assert_eq!(again, file);
+    let starts: Vec<String> = again
+        .dialysis_sessions
+        .iter()
+        .map(|s| format!("{} {}", s.start, s.duration_h))
+        .collect();
+    assert_eq!(starts, ["2027-03-01T08:00:00 4", "2027-03-03T08:00:00 4"]);
+}
