@@ -741,6 +741,8 @@ impl CaseFile {
 pub const MAX_DOSES: usize = 100_000;
 /// The most `[[level]]` rows a case may hold (as `MAX_DOSES`).
 pub const MAX_LEVELS: usize = 100_000;
+/// The most `[[dialysis_session]]` rows a case may hold (as `MAX_DOSES`).
+pub const MAX_SESSIONS: usize = 100_000;
 /// The largest case file read, in bytes (16 MiB; a real case is a few kilobytes).
 pub const MAX_CASE_BYTES: u64 = 16 * 1024 * 1024;
 
