@@ -681,6 +681,15 @@ pub const LEGEND_THRESHOLD: &str = "threshold";
 pub const LEGEND_TROUGH_TARGET: &str = "trough max";
 /// Legend.
 pub const LEGEND_PROCEDURE: &str = "procedure";
+/// Case screen: the heading of the haemodialysis sessions (read-only on screen).
+pub const DIALYSIS_SESSIONS: &str =
+    "Dialysis sessions (marked, not modelled; edit them in the file)";
+
+/// Case screen: one haemodialysis session, its row, start, end and hours.
+pub fn dialysis_session_row(row: usize, start: &str, end: &str, hours: &str) -> String {
+    format!("  {row:<3} {start} to {end}  {hours} h")
+}
+
 /// Chart legend: a haemodialysis session, shaded (marked on the course, not modelled).
 pub const LEGEND_DIALYSIS: &str = "dialysis (marked, not modelled)";
 /// The shade of a haemodialysis session in the chart's free cells.

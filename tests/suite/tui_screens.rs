@@ -183,4 +183,12 @@ fn dialysis_sessions_are_shaded_on_the_charts() {
         assert!(text.contains('━'), "{text}");
         insta::assert_snapshot!(format!("dialysis_fit_{w}x{h}"), draw(&app, w, h).backend());
     }
+    // The case screen lists them, read-only, with their clock times.
+    app.screen = Screen::Case;
+    let text = screen_text(&app, 160, 48);
+    assert!(
+        text.contains("  2   Wed 3 Mar 08:00 to Wed 12:00  4 h"),
+        "{text}"
+    );
+    insta::assert_snapshot!("dialysis_case_160x48", draw(&app, 160, 48).backend());
 }

@@ -270,6 +270,32 @@ fn table_rows(app: &App, lines: &[CaseLine], selected: CaseLine) -> Vec<Row> {
         out.push((Line::from(spans), index_of(lines, line)));
     }
     out.push(add(CaseLine::AddLevel, strings::ADD_LEVEL));
+    // Haemodialysis sessions, read-only here: marked on the course, not modelled.
+    if let Some(case) = app
+        .figures
+        .case
+        .as_ref()
+        .filter(|c| !c.dialysis_sessions.is_empty())
+    {
+        out.push((Line::styled(strings::DIALYSIS_SESSIONS, heading()), None));
+        for s in &case.dialysis_sessions {
+            let end = case
+                .stamp(s.end())
+                .map_or(String::new(), |e| e.weekday_time());
+            out.push((
+                Line::styled(
+                    strings::dialysis_session_row(
+                        s.row,
+                        &s.start.readable(false),
+                        &end,
+                        &num(s.duration_h),
+                    ),
+                    quiet(),
+                ),
+                None,
+            ));
+        }
+    }
     out
 }
 
