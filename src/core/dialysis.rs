@@ -87,7 +87,7 @@ pub struct PreDialysis {
 /// When the strategy's dose after a session is due.
 #[derive(Debug, Clone, PartialEq)]
 pub struct NextDose {
-    /// The first session ending after the last recorded dose, when one is recorded.
+    /// The first session starting after the last recorded dose, when one is recorded.
     pub session: Option<usize>,
     /// Its end: the time the next dose is due.
     pub at: Option<ClockTime>,
@@ -198,7 +198,9 @@ pub fn section(case: &Case) -> Option<DialysisSection> {
         });
     let next_dose = rule.dose_after_session.then(|| {
         let last_dose = case.doses.last().map_or(f64::NEG_INFINITY, |d| d.t);
-        let next = case.dialysis_sessions.iter().find(|s| s.end() > last_dose);
+        // The first session that starts after the last dose: a dose given during a session
+        // (or at its end) is that session's dose.
+        let next = case.dialysis_sessions.iter().find(|s| s.t > last_dose);
         NextDose {
             session: next.map(|s| s.row),
             at: next.and_then(|s| case.stamp(s.end())),
@@ -533,6 +535,16 @@ duration_h = 4.0
             out.contains("  the plan's first dose is not at the end of that session;"),
             "{out}"
         );
+        // A dose given during session 2 is that session's: the next is after a later one,
+        // and none is recorded.
+        let text = CASE.replace(
+            "[[level]]\ntime = 2027-03-01T16:30:00",
+            "[[dose]]\ntime = 2027-03-03T11:00:00\namount_mg = 500.0\nroute = \"bolus\"\n[[level]]\ntime = 2027-03-01T16:30:00",
+        );
+        let mut during = case(&text);
+        during.regimen.dialysis.dose_after_session = true;
+        let n = section(&during).unwrap().next_dose.unwrap();
+        assert_eq!((n.session, n.at), (None, None));
         // With no rule, nothing is said about the next dose.
         c.regimen.dialysis.dose_after_session = false;
         assert!(section(&c).unwrap().next_dose.is_none());
