@@ -188,12 +188,10 @@ fn a_saturable_report_says_the_sessions_are_not_modelled_too() {
 
 #[test]
 fn saving_the_case_keeps_its_sessions_and_their_comments() {
-    let original = std::fs::read_to_string(CASE)
-        .unwrap()
-        .replace(
-            "[[dialysis_session]]\nstart = 2027-03-03T08:00:00",
-            "[[dialysis_session]]  # Wednesday, high-flux\nstart = 2027-03-03T08:00:00",
-        );
+    let original = std::fs::read_to_string(CASE).unwrap().replace(
+        "[[dialysis_session]]\nstart = 2027-03-03T08:00:00",
+        "[[dialysis_session]]  # Wednesday, high-flux\nstart = 2027-03-03T08:00:00",
+    );
     let mut file = ebb::core::casefile::CaseFile::parse(&original).unwrap();
     // An edit on screen: the plan's dose.
     file.plan.as_mut().unwrap().dose_mg = 1000.0;
@@ -207,4 +205,85 @@ fn saving_the_case_keeps_its_sessions_and_their_comments() {
         .map(|s| format!("{} {}", s.start, s.duration_h))
         .collect();
     assert_eq!(starts, ["2027-03-01T08:00:00 4", "2027-03-03T08:00:00 4"]);
+}
+
+mod properties {
+    use ebb::core::casefile::CaseFile;
+    use ebb::core::dialysis::{self, Timing};
+    use proptest::prelude::*;
+    use proptest::test_runner::FileFailurePersistence;
+
+    fn config() -> ProptestConfig {
+        ProptestConfig {
+            failure_persistence: Some(Box::new(FileFailurePersistence::Direct(
+                "proptest-regressions/dialysis.txt",
+            ))),
+            ..ProptestConfig::default()
+        }
+    }
+
+    /// A case with sessions starting `starts` minutes after 2027-03-01 00:00, lasting
+    /// `minutes` each, and one level `level_min` minutes after that origin.
+    fn case_text(sessions: &[(u32, u32)], level_min: u32) -> String {
+        let at = |m: u32| {
+            let t = chrono::NaiveDate::from_ymd_opt(2027, 3, 1)
+                .unwrap()
+                .and_hms_opt(0, 0, 0)
+                .unwrap()
+                + chrono::Duration::minutes(i64::from(m));
+            t.format("%Y-%m-%dT%H:%M:00").to_string()
+        };
+        let mut s = format!(
+            "[drug]\nlevel_unit = \"mg/L\"\n[[dose]]\ntime = {}\namount_mg = 1000.0\nroute = \"bolus\"\n[[level]]\ntime = {}\nvalue = 10.0\n",
+            at(0),
+            at(level_min)
+        );
+        for (start, minutes) in sessions {
+            s += &format!(
+                "[[dialysis_session]]\nstart = {}\nduration_h = {}\n",
+                at(*start),
+                f64::from(*minutes) / 60.0
+            );
+        }
+        s
+    }
+
+    proptest! {
+        #![proptest_config(config())]
+
+        /// Sessions are accepted exactly when no two overlap (checked here pair by pair),
+        /// come out in time order, and a level is placed during a session exactly when it
+        /// falls after a start and up to its end.
+        #[test]
+        fn sessions_validate_sort_and_place_levels(
+            sessions in prop::collection::vec((0u32..20_000, 1u32..=720), 1..6),
+            level_min in 0u32..21_000,
+        ) {
+            let text = case_text(&sessions, level_min);
+            let result = CaseFile::parse(&text).unwrap().validate();
+            let overlap = sessions.iter().enumerate().any(|(i, a)| {
+                sessions.iter().skip(i + 1).any(|b| a.0 < b.0 + b.1 && b.0 < a.0 + a.1)
+            });
+            match result {
+                Err(e) => {
+                    prop_assert!(overlap, "{e}");
+                    prop_assert!(e.to_string().contains("sessions cannot overlap"), "{e}");
+                }
+                Ok(case) => {
+                    prop_assert!(!overlap);
+                    let s = &case.dialysis_sessions;
+                    prop_assert!(s.windows(2).all(|w| w[0].end() <= w[1].t));
+                    let l = case.levels[0].t;
+                    let during = s.iter().any(|x| l > x.t && l <= x.end());
+                    let placed = dialysis::timing(s, l);
+                    prop_assert_eq!(matches!(placed, Timing::During { .. }), during);
+                    if let Timing::PreDialysis { session, hours_before } = placed {
+                        let x = s.iter().find(|x| x.row == session).unwrap();
+                        prop_assert!((x.t - l - hours_before).abs() < 1e-9);
+                        prop_assert!((0.0..=dialysis::PRE_WINDOW_H).contains(&hours_before));
+                    }
+                }
+            }
+        }
+    }
 }
