@@ -250,6 +250,12 @@ pub fn warnings(case: &Case, used: &[usize], unit: &str) -> Vec<Warning> {
             "{NOT_MODELLED} So {what} too high by what the sessions remove; a level drawn after a session is needed before a projection past it is relied on"
         ),
     ));
+    if case.patient.dialysis != Some(true) {
+        out.push(Warning::new(
+            Code::DialysisCovariate,
+            "the case records dialysis sessions but [patient] dialysis is not true, so the patient is taken as not on haemodialysis wherever that counts (a population model's dialysis covariate, the albumin adjustment of a saturable drug); set dialysis = true if the patient is on intermittent haemodialysis",
+        ));
+    }
     for (row, t) in &sec.timings {
         let Some(l) = case.levels.iter().find(|l| l.row == *row) else {
             continue;
@@ -492,6 +498,7 @@ duration_h = 4.0
             texts,
             vec![
                 (Code::DialysisNotModelled, None),
+                (Code::DialysisCovariate, None),
                 // 4.5 h after the end of session 1: in its rebound.
                 (Code::NotPreDialysis, Some(1)),
                 (Code::NotPreDialysis, Some(3)),
@@ -501,14 +508,14 @@ duration_h = 4.0
         );
         assert!(w[0].text().starts_with(NOT_MODELLED), "{}", w[0].text());
         assert_eq!(
-            w[4].text(),
+            w[5].text(),
             "the last pre-dialysis level, level 2 (22 mg/L before dialysis_session 2), is above the strategy's pre-dialysis range 15-20 mg/L [Src]"
         );
         assert!(
-            w[3].text()
+            w[4].text()
                 .contains("2 h after the end of dialysis_session 2"),
             "{}",
-            w[2].text()
+            w[4].text()
         );
     }
 
@@ -567,6 +574,22 @@ duration_h = 4.0
         assert!(warnings(&c, &[0, 1], "mg/L")
             .iter()
             .all(|w| w.code() != Code::FitAcrossSession));
+    }
+
+    #[test]
+    fn sessions_without_the_dialysis_covariate_are_warned_about() {
+        let covariate = |c: &Case| {
+            warnings(c, &[], "mg/L")
+                .iter()
+                .filter(|w| w.code() == Code::DialysisCovariate)
+                .count()
+        };
+        let mut c = case(CASE);
+        assert_eq!(covariate(&c), 1);
+        c.patient.dialysis = Some(false);
+        assert_eq!(covariate(&c), 1);
+        c.patient.dialysis = Some(true);
+        assert_eq!(covariate(&c), 0);
     }
 
     #[test]

@@ -107,11 +107,13 @@ pub enum Code {
     FitAcrossSession,
     /// The last pre-dialysis level is outside the strategy's pre-dialysis range.
     PreDialysisRange,
+    /// Dialysis sessions are recorded but `[patient] dialysis` is not true.
+    DialysisCovariate,
 }
 
 impl Code {
     /// Every code, in declaration order.
-    pub const ALL: [Code; 49] = [
+    pub const ALL: [Code; 50] = [
         Code::OutsideWindow,
         Code::DistributionPhase,
         Code::RisingLevels,
@@ -161,6 +163,7 @@ impl Code {
         Code::NotPreDialysis,
         Code::FitAcrossSession,
         Code::PreDialysisRange,
+        Code::DialysisCovariate,
     ];
 
     /// The code as the JSON report spells it.
@@ -215,6 +218,7 @@ impl Code {
             Code::NotPreDialysis => "not-pre-dialysis",
             Code::FitAcrossSession => "fit-across-session",
             Code::PreDialysisRange => "pre-dialysis-range",
+            Code::DialysisCovariate => "dialysis-covariate",
         }
     }
 }

@@ -83,6 +83,8 @@ fn the_json_carries_the_sessions_and_the_pre_dialysis_level() {
     // Levels 1 and 2 lie between the sessions: no session inside the fit.
     assert!(!codes.contains(&"fit-across-session"), "{codes:?}");
     assert!(!codes.contains(&"pre-dialysis-range"), "{codes:?}");
+    // The case sets [patient] dialysis = true: no covariate warning.
+    assert!(!codes.contains(&"dialysis-covariate"), "{codes:?}");
     // The fit is the two-point one over levels 1 and 2 (26 and 18.4 mg/L, 33.5 h apart):
     // k = ln(26/18.4)/33.5 (the contract's two-point formula).
     let k = v["fit"]["k_per_h"].as_f64().unwrap();
@@ -180,6 +182,16 @@ fn a_saturable_report_says_the_sessions_are_not_modelled_too() {
             .unwrap()
             .iter()
             .any(|c| c == "dialysis-not-modelled"),
+        "{v}"
+    );
+    // The fixture does not set [patient] dialysis = true, so the albumin adjustment is not
+    // in its renal form: the report says so.
+    assert!(
+        v["warning_codes"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .any(|c| c == "dialysis-covariate"),
         "{v}"
     );
     let text = stdout(&["report", path.to_str().unwrap()]);
