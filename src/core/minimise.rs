@@ -46,6 +46,12 @@ fn gradient_hessian(f: &dyn Fn(&[f64]) -> f64, x: &[f64], fx: f64) -> (Vec<f64>,
     (g, h)
 }
 
+/// The Hessian of `f` at `x` by the same central differences (the curvature of an objective
+/// at a minimum found by another method).
+pub fn hessian(f: &dyn Fn(&[f64]) -> f64, x: &[f64]) -> Vec<Vec<f64>> {
+    gradient_hessian(f, x, f(x)).1
+}
+
 /// Solve `a·x = b` by Gaussian elimination with partial pivoting; None when singular.
 pub fn solve(a: &[Vec<f64>], b: &[f64]) -> Option<Vec<f64>> {
     let n = b.len();
