@@ -150,6 +150,24 @@ struct JsonSaturable {
     fall: Vec<JsonFall>,
     below_threshold_at: Option<String>,
     level_at_procedure: Option<f64>,
+    bayesian: Option<JsonBayesian>,
+    ranges_from: Option<&'static str>,
+    vmax_ci95: Option<[f64; 2]>,
+    km_ci95: Option<[f64; 2]>,
+    level_at_plan_ss_ci95: Option<[Option<f64>; 2]>,
+    level_at_target_dose_ss_ci95: Option<[Option<f64>; 2]>,
+    dose_for_target_ci95_mg_per_day: Option<[f64; 2]>,
+}
+
+#[derive(Debug, Serialize)]
+struct JsonBayesian {
+    vmax_mg_per_day: f64,
+    km_mg_l: f64,
+    prior_vmax_mg_per_day: f64,
+    prior_km_mg_l: f64,
+    omega_vmax: f64,
+    omega_km: f64,
+    sigma_log: f64,
 }
 
 #[derive(Debug, Serialize)]
@@ -511,6 +529,15 @@ fn patient_json(p: &crate::core::report::PatientSection) -> JsonPatient {
     }
 }
 
+/// A 95 % range of a steady-state level in the level unit; the upper end null when there may
+/// be no steady state.
+fn level_range(c: [f64; 2], lv: &dyn Fn(f64) -> f64) -> [Option<f64>; 2] {
+    [
+        Some(lv(c[0])).filter(|x| x.is_finite()),
+        Some(lv(c[1])).filter(|x| x.is_finite()),
+    ]
+}
+
 /// The saturable report as one line of JSON: the first-order sections are null or empty
 /// and `saturable` carries the figures (concentrations in the case's level unit, Km in mg/L,
 /// daily doses in mg/day as written in the case's salt form).
@@ -570,6 +597,27 @@ pub fn saturable_to_json(case: &Case, r: &SaturableReport) -> String {
             .as_ref()
             .and_then(|t| t.level_at_procedure_mg_l)
             .map(lv),
+        bayesian: r.bayesian.zip(r.prior).map(|(b, p)| JsonBayesian {
+            vmax_mg_per_day: b.kinetics.vmax_mg_per_day,
+            km_mg_l: b.kinetics.km_mg_l,
+            prior_vmax_mg_per_day: p.vmax_mg_per_day,
+            prior_km_mg_l: p.km_mg_l,
+            omega_vmax: p.omega_vmax,
+            omega_km: p.omega_km,
+            sigma_log: p.sigma_log,
+        }),
+        ranges_from: r.ranges.map(|g| g.source.name()),
+        vmax_ci95: r.ranges.map(|g| g.vmax),
+        km_ci95: r.ranges.map(|g| g.km),
+        level_at_plan_ss_ci95: r
+            .plan
+            .and_then(|d| d.level_ss_ci95)
+            .map(|c| level_range(c, &lv)),
+        level_at_target_dose_ss_ci95: r
+            .dose_for_target
+            .and_then(|d| d.level_ss_ci95)
+            .map(|c| level_range(c, &lv)),
+        dose_for_target_ci95_mg_per_day: r.ranges.and_then(|g| g.dose_for_target_mg_per_day),
     };
     let (dialysis_sessions, dialysis) =
         dialysis_json(crate::core::dialysis::section(case).as_ref());

@@ -11,7 +11,7 @@ use crate::core::clock::{span_words, ClockTime};
 use crate::core::error::{Error, Result};
 use crate::core::format::num;
 use crate::core::saturable::{
-    self, AlbuminForm, AlbuminRule, Input, Kinetics, RecordFit, HOURS_PER_DAY,
+    self, AlbuminForm, AlbuminRule, Input, Kinetics, Posterior, Prior, RecordFit, HOURS_PER_DAY,
 };
 use crate::core::warning::{Code, Warning};
 
@@ -43,6 +43,19 @@ pub struct Params {
     pub range_mg_l: Option<[f64; 2]>,
     /// Tablet or capsule strengths, mg.
     pub dose_forms_mg: Vec<f64>,
+    /// The spreads of the Bayesian estimate, when the profile gives them.
+    pub spread: Option<PriorSpread>,
+}
+
+/// The spreads that make the population values a prior (fractions, e.g. 0.2 for 20 %).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PriorSpread {
+    /// Between-patient coefficient of variation of Vmax.
+    pub vmax_cv: f64,
+    /// Between-patient coefficient of variation of Km.
+    pub km_cv: f64,
+    /// Proportional residual error of a measured level.
+    pub residual_cv: f64,
 }
 
 /// How Vmax and Km were found.
@@ -58,6 +71,9 @@ pub enum Method {
         /// Whether Km was fitted too.
         km_fitted: bool,
     },
+    /// Bayesian (maximum a posteriori): Vmax and Km from the levels over the dose record with
+    /// the population values as priors.
+    Bayesian,
 }
 
 impl Method {
@@ -68,6 +84,7 @@ impl Method {
             Method::TwoLevels => "two-levels",
             Method::Record { km_fitted: true } => "dose-record",
             Method::Record { km_fitted: false } => "dose-record-population-km",
+            Method::Bayesian => "bayesian",
         }
     }
 
@@ -80,6 +97,7 @@ impl Method {
             Method::Record { km_fitted: false } => {
                 "fit to the dose record (Vmax; Km the population value)"
             }
+            Method::Bayesian => "Bayesian fit to the dose record with population priors",
         }
     }
 }
@@ -140,6 +158,51 @@ pub struct DailyDose {
     pub level_ss_mg_l: Option<f64>,
     /// Hours to 90 % of that steady state from a level of zero (needs the volume).
     pub time_to_90pct_h: Option<f64>,
+    /// The 95 % range of the steady-state level, mg/L (the upper end +∞ when Vmax may be at
+    /// or below the dose: no steady state), when Vmax and Km have a range.
+    pub level_ss_ci95: Option<[f64; 2]>,
+}
+
+/// Where the 95 % ranges of Vmax and Km come from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum RangeSource {
+    /// The Laplace approximation at the Bayesian estimate.
+    Laplace,
+    /// The curvature of the fit to the dose record (residual error from the profile).
+    RecordCurvature,
+}
+
+impl RangeSource {
+    /// The JSON name.
+    pub fn name(self) -> &'static str {
+        match self {
+            RangeSource::Laplace => "bayesian-laplace",
+            RangeSource::RecordCurvature => "dose-record-curvature",
+        }
+    }
+
+    /// In words.
+    pub fn words(self) -> &'static str {
+        match self {
+            RangeSource::Laplace => "Laplace approximation at the Bayesian estimate",
+            RangeSource::RecordCurvature => "curvature of the fit to the dose record",
+        }
+    }
+}
+
+/// The 95 % ranges of Vmax and Km and of what follows from them.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Ranges {
+    /// Where they come from.
+    pub source: RangeSource,
+    /// Covariance of (ln Vmax, ln Km).
+    pub cov_log: [[f64; 2]; 2],
+    /// Vmax, mg/day.
+    pub vmax: [f64; 2],
+    /// Km, mg/L.
+    pub km: [f64; 2],
+    /// The (unrounded) daily dose for the target, mg/day as written.
+    pub dose_for_target_mg_per_day: Option<[f64; 2]>,
 }
 
 /// One row of the fall after the doses stop.
@@ -181,6 +244,12 @@ pub struct SaturableReport {
     pub algebraic: (Method, f64, f64),
     /// The record fit, when made.
     pub record: Option<RecordFit>,
+    /// The Bayesian estimate, when made (needs the volume and the profile's spreads).
+    pub bayesian: Option<Posterior>,
+    /// The prior of the Bayesian estimate.
+    pub prior: Option<Prior>,
+    /// The 95 % ranges of Vmax, Km and the doses' steady states, when they can be given.
+    pub ranges: Option<Ranges>,
     /// Rows of the levels the algebra used.
     pub algebra_rows: Vec<usize>,
     /// The salt named and its factor.
@@ -410,6 +479,43 @@ pub fn analyse(case: &Case, p: &Params) -> Result<SaturableReport> {
              value and its unit",
         ));
     }
+    // The record fit and the Bayesian estimate, when the volume is known.
+    let volume = case.patient.weight_kg.map(|w| w * p.volume_l_per_kg);
+    let weight = case.patient.weight_kg.unwrap_or(70.0);
+    let typical = p.vmax_70kg_mg_per_day * (weight / 70.0).powf(p.vmax_weight_exponent);
+    let obs: Vec<(f64, f64)> = readings.iter().map(|r| (r.t, r.decision_mg_l)).collect();
+    let prior = p.spread.map(|sp| Prior {
+        vmax_mg_per_day: typical,
+        km_mg_l: p.km_mg_l,
+        omega_vmax: saturable::log_sd_of_cv(sp.vmax_cv),
+        omega_km: saturable::log_sd_of_cv(sp.km_cv),
+        sigma_log: saturable::log_sd_of_cv(sp.residual_cv),
+    });
+    let mut record = None;
+    let mut bayesian = None;
+    if let Some(v) = volume {
+        let start = Kinetics {
+            vmax_mg_per_day: alg_vmax,
+            km_mg_l: alg_km,
+            volume_l: v,
+        };
+        let fit_km = alg_method == Method::TwoLevels;
+        record = saturable::fit_record(&start, &inputs, &obs, fit_km);
+        bayesian = prior.and_then(|pr| saturable::fit_map(&pr, v, &inputs, &obs));
+    }
+    // The rule: the levels alone when they identify both Vmax and Km (levels on two daily
+    // doses and a record fit of both that settles); otherwise the Bayesian estimate, which
+    // takes what the levels cannot give from the population; failing both, the record fit
+    // with the population Km, and failing that the algebra.
+    let method = match (&record, &bayesian) {
+        (Some(f), _) if f.km_fitted => Method::Record { km_fitted: true },
+        (_, Some(_)) => Method::Bayesian,
+        (Some(f), None) => Method::Record {
+            km_fitted: f.km_fitted,
+        },
+        (None, None) => alg_method,
+    };
+    let method_words = method.words();
     if alg_method == Method::OneLevel {
         let same: Vec<String> = dosed
             .iter()
@@ -424,33 +530,41 @@ pub fn analyse(case: &Case, p: &Params) -> Result<SaturableReport> {
                 same.join(", ")
             )
         };
-        warnings.push(Warning::new(
-            Code::SaturableEstimate,
-            format!(
+        let text = match (method, prior) {
+            (Method::Bayesian, Some(pr)) => format!(
+                "the levels are all on one daily dose, so they cannot give both Vmax and Km: the \
+                 Bayesian estimate takes what they cannot give from the population values (Vmax \
+                 {} mg/day for {} kg, Km {} mg/L, which varies about {} % between patients); a \
+                 level on a second, different daily dose at steady state would give both{more}",
+                num(pr.vmax_mg_per_day),
+                num(weight),
+                num(p.km_mg_l),
+                num(100.0 * p.spread.map_or(0.0, |sp| sp.km_cv))
+            ),
+            _ => format!(
                 "Km is the population value ({} mg/L) and only Vmax comes from this patient: a \
                  level on a second, different daily dose at steady state would give both{more}",
                 num(p.km_mg_l)
             ),
-        ));
-    }
-
-    // The record fit, when the volume is known.
-    let volume = case.patient.weight_kg.map(|w| w * p.volume_l_per_kg);
-    let mut record = None;
-    if let Some(v) = volume {
-        let start = Kinetics {
-            vmax_mg_per_day: alg_vmax,
-            km_mg_l: alg_km,
-            volume_l: v,
         };
-        let obs: Vec<(f64, f64)> = readings.iter().map(|r| (r.t, r.decision_mg_l)).collect();
-        let fit_km = alg_method == Method::TwoLevels;
-        record = saturable::fit_record(&start, &inputs, &obs, fit_km);
+        let code = if method == Method::Bayesian {
+            Code::PriorWeighs
+        } else {
+            Code::SaturableEstimate
+        };
+        warnings.push(Warning::new(code, text));
+    }
+    if volume.is_some() {
         match &record {
             None => warnings.push(Warning::new(
                 Code::SaturableEstimate,
-                "the fit to the dose record did not settle, so Vmax and Km come from the \
-                 steady-state algebra alone",
+                if method == Method::Bayesian {
+                    "the fit to the dose record alone did not settle, so the Bayesian estimate is \
+                     used"
+                } else {
+                    "the fit to the dose record did not settle, so Vmax and Km come from the \
+                     steady-state algebra alone"
+                },
             )),
             Some(f) => {
                 let off = |a: f64, b: f64| (a / b - 1.0).abs() > 0.25;
@@ -463,7 +577,7 @@ pub fn analyse(case: &Case, p: &Params) -> Result<SaturableReport> {
                              than 25 %: the algebra takes each level as the steady-state average \
                              (no swing within the dosing interval) and the record fit takes the \
                              record to start drug-free, so enter any earlier doses and check that \
-                             the levels were at steady state; the record fit is used",
+                             the levels were at steady state; the {method_words} is used",
                             num(f.kinetics.vmax_mg_per_day),
                             num(f.kinetics.km_mg_l),
                             num(alg_vmax),
@@ -487,23 +601,43 @@ pub fn analyse(case: &Case, p: &Params) -> Result<SaturableReport> {
         warnings.push(Warning::new(
             Code::SaturableEstimate,
             "no weight, so no volume: Vmax and Km come from the steady-state algebra alone, and \
-             the time to steady state and the fall after stopping are not given",
+             the time to steady state, the fall after stopping and the 95 % ranges are not given",
         ));
     }
-    let (method, vmax, km) = match &record {
-        Some(f) => (
-            Method::Record {
-                km_fitted: f.km_fitted,
-            },
-            f.kinetics.vmax_mg_per_day,
-            f.kinetics.km_mg_l,
-        ),
-        None => (alg_method, alg_vmax, alg_km),
+    let (vmax, km) = match (method, &record, &bayesian) {
+        (Method::Bayesian, _, Some(b)) => (b.kinetics.vmax_mg_per_day, b.kinetics.km_mg_l),
+        (Method::Record { .. }, Some(f), _) => (f.kinetics.vmax_mg_per_day, f.kinetics.km_mg_l),
+        _ => (alg_vmax, alg_km),
     };
+    // The 95 % ranges: the Laplace approximation at the Bayesian estimate, or the curvature
+    // of the record fit of both (its residual error from the profile's spreads).
+    let cov = match (method, &bayesian, volume, prior) {
+        (Method::Bayesian, Some(b), _, _) => Some((RangeSource::Laplace, b.cov_log)),
+        (Method::Record { km_fitted: true }, _, Some(v), Some(pr)) => {
+            let k = Kinetics {
+                vmax_mg_per_day: vmax,
+                km_mg_l: km,
+                volume_l: v,
+            };
+            saturable::data_covariance(&k, &inputs, &obs, pr.sigma_log)
+                .map(|c| (RangeSource::RecordCurvature, c))
+        }
+        _ => None,
+    };
+    if volume.is_some() && cov.is_none() {
+        warnings.push(Warning::new(
+            Code::SaturableEstimate,
+            if p.spread.is_none() {
+                "the drug profile gives no spreads for Vmax and Km, so no 95 % range is given: \
+                 follow every change with a level at the new steady state"
+            } else {
+                "no 95 % range of Vmax and Km could be found from these levels: follow every \
+                 change with a level at the new steady state"
+            },
+        ));
+    }
     // A Vmax far from the population's (whose between-patient spread is 10-20 %) points to
     // missed doses, a wrong dose record or unit, or a level drawn at the wrong time.
-    let weight = case.patient.weight_kg.unwrap_or(70.0);
-    let typical = p.vmax_70kg_mg_per_day * (weight / 70.0).powf(p.vmax_weight_exponent);
     if vmax > 2.0 * typical || vmax < 0.5 * typical {
         warnings.push(Warning::new(
             Code::SaturableEstimate,
@@ -615,6 +749,9 @@ pub fn analyse(case: &Case, p: &Params) -> Result<SaturableReport> {
             time_to_90pct_h: volume
                 .and_then(|v| saturable::days_to_90pct(vmax, km, v, r))
                 .map(|d| d * HOURS_PER_DAY),
+            level_ss_ci95: cov.map(|(_, c)| {
+                saturable::range95(vmax, km, &c, &|v, k| saturable::ss_level_or_inf(v, k, r))
+            }),
         }
     };
     let current = case.doses.last().map(|d| {
@@ -742,6 +879,60 @@ pub fn analyse(case: &Case, p: &Params) -> Result<SaturableReport> {
         }
     }
 
+    let ranges = cov.map(|(source, c)| Ranges {
+        source,
+        cov_log: c,
+        vmax: saturable::range95(vmax, km, &c, &|v, _| v),
+        km: saturable::range95(vmax, km, &c, &|_, k| k),
+        dose_for_target_mg_per_day: target.map(|t| {
+            saturable::range95(vmax, km, &c, &|v, k| {
+                saturable::rate_for_level(v, k, t) / per_written
+            })
+        }),
+    });
+    // Near Vmax a small error in Vmax or Km is a large error in the steady state.
+    if let Some(rg) = &ranges {
+        let doses = [
+            ("the plan", plan),
+            ("the dose for the target", dose_for_target),
+        ];
+        for (what, d) in doses {
+            let Some((d, [lo, hi])) = d.and_then(|d| d.level_ss_ci95.map(|c| (d, c))) else {
+                continue;
+            };
+            if d.level_ss_mg_l.is_none() || (hi.is_finite() && hi <= 2.0 * lo) {
+                continue;
+            }
+            let span = if hi.is_finite() {
+                format!(
+                    "{}–{} {u}",
+                    num(case.drug.scale.to_level(lo)),
+                    num(case.drug.scale.to_level(hi)),
+                    u = case.drug.scale.unit.as_str()
+                )
+            } else {
+                format!(
+                    "from {} {} to no steady state at all",
+                    num(case.drug.scale.to_level(lo)),
+                    case.drug.scale.unit.as_str()
+                )
+            };
+            warnings.push(Warning::new(
+                Code::NearVmax,
+                format!(
+                    "{what} ({} mg/day) gives {} mg/day reaching the circulation, near this \
+                     patient's Vmax (95 % range {}–{} mg/day): there a small error in Vmax or Km \
+                     makes a large error in the level, and its steady state could be {span}; \
+                     treat the projected level as uncertain and confirm it with levels",
+                    num(d.written_mg_per_day),
+                    num(d.written_mg_per_day * per_written),
+                    num(rg.vmax[0]),
+                    num(rg.vmax[1])
+                ),
+            ));
+        }
+    }
+
     // The fall after the doses stop.
     let mut fall = Vec::new();
     let mut fall_from = None;
@@ -847,6 +1038,9 @@ pub fn analyse(case: &Case, p: &Params) -> Result<SaturableReport> {
         volume_l: volume,
         algebraic: (alg_method, alg_vmax, alg_km),
         record,
+        bayesian,
+        prior,
+        ranges,
         algebra_rows,
         salt,
         bioavailability: f_route,
@@ -913,9 +1107,12 @@ pub fn daily_words(d: &DailyDose, to_level: &dyn Fn(f64) -> f64, u: &str) -> Str
             num(d.written_mg_per_day)
         ),
         Some(l) => format!(
-            "{} mg/day: steady state {} {u}{}",
+            "{} mg/day: steady state {} {u}{}{}",
             num(d.written_mg_per_day),
             num(to_level(l)),
+            d.level_ss_ci95
+                .map(|r| format!(" ({})", range_words(r, to_level, u)))
+                .unwrap_or_default(),
             d.time_to_90pct_h
                 .map(|h| format!(
                     ", 90 % of it about {} after starting from none",
@@ -923,6 +1120,23 @@ pub fn daily_words(d: &DailyDose, to_level: &dyn Fn(f64) -> f64, u: &str) -> Str
                 ))
                 .unwrap_or_default()
         ),
+    }
+}
+
+/// A 95 % range of a steady-state level in words: `95 % range 11.6–31.9 mg/L`, or
+/// `95 % range from 20.8 mg/L to no steady state` when Vmax may be at or below the dose.
+pub fn range_words(r: [f64; 2], to_level: &dyn Fn(f64) -> f64, u: &str) -> String {
+    if r[1].is_finite() {
+        format!(
+            "95 % range {}–{} {u}",
+            num(to_level(r[0])),
+            num(to_level(r[1]))
+        )
+    } else {
+        format!(
+            "95 % range from {} {u} to no steady state",
+            num(to_level(r[0]))
+        )
     }
 }
 
@@ -1021,6 +1235,41 @@ pub fn write_body(
             .map(|v| format!(", volume {} L ({} L/kg)", num(v), num(p.volume_l_per_kg)))
             .unwrap_or_else(|| ", volume not known (no weight)".into())
     )?;
+    if let Some(rg) = &r.ranges {
+        writeln!(
+            w,
+            "  95 % range ({}): Vmax {}–{} mg/day, Km {}–{} mg/L",
+            rg.source.words(),
+            num(rg.vmax[0]),
+            num(rg.vmax[1]),
+            num(rg.km[0]),
+            num(rg.km[1])
+        )?;
+    }
+    if let (Some(b), false) = (&r.bayesian, r.method == Method::Bayesian) {
+        writeln!(
+            w,
+            "  {}: Vmax {} mg/day, Km {} mg/L",
+            Method::Bayesian.words(),
+            num(b.kinetics.vmax_mg_per_day),
+            num(b.kinetics.km_mg_l)
+        )?;
+    }
+    if let Some(f) = r
+        .record
+        .filter(|_| !matches!(r.method, Method::Record { .. }))
+    {
+        writeln!(
+            w,
+            "  {}: Vmax {} mg/day, Km {} mg/L",
+            Method::Record {
+                km_fitted: f.km_fitted
+            }
+            .words(),
+            num(f.kinetics.vmax_mg_per_day),
+            num(f.kinetics.km_mg_l)
+        )?;
+    }
     let (am, av, ak) = r.algebraic;
     let rows: Vec<String> = r.algebra_rows.iter().map(|x| x.to_string()).collect();
     writeln!(
@@ -1031,6 +1280,18 @@ pub fn write_body(
         num(av),
         num(ak)
     )?;
+    if let (Some(pr), Some(sp), Some(_)) = (&r.prior, &p.spread, &r.bayesian) {
+        writeln!(
+            w,
+            "  priors (population values): Vmax {} mg/day (CV {} % between patients), Km {} mg/L \
+             (CV {} %); residual error {} % of a level (on the log scale)",
+            num(pr.vmax_mg_per_day),
+            num(100.0 * sp.vmax_cv),
+            num(pr.km_mg_l),
+            num(100.0 * sp.km_cv),
+            num(100.0 * sp.residual_cv)
+        )?;
+    }
     writeln!(
         w,
         "  doses as {} (x {} for mg of {}){}; Vmax in mg of {} reaching the circulation per day",
@@ -1052,9 +1313,17 @@ pub fn write_body(
     if let (Some(t), Some(dt)) = (r.target_mg_l, &r.dose_for_target) {
         writeln!(
             w,
-            "  for the target {} {u}: {}{}",
+            "  for the target {} {u}: {}{}{}",
             num(lv(t)),
             daily_words(dt, &lv, u),
+            r.ranges
+                .and_then(|rg| rg.dose_for_target_mg_per_day)
+                .map(|d| format!(
+                    "; the exact dose for it lies in {}–{} mg/day (95 % range)",
+                    num(d[0]),
+                    num(d[1])
+                ))
+                .unwrap_or_default(),
             if r.next_step.is_some() {
                 " — not in one step (below)"
             } else {

@@ -109,11 +109,13 @@ pub enum Code {
     PreDialysisRange,
     /// Dialysis sessions are recorded but `[patient] dialysis` is not true.
     DialysisCovariate,
+    /// Saturable elimination: a dose near Vmax, whose steady state is very uncertain.
+    NearVmax,
 }
 
 impl Code {
     /// Every code, in declaration order.
-    pub const ALL: [Code; 50] = [
+    pub const ALL: [Code; 51] = [
         Code::OutsideWindow,
         Code::DistributionPhase,
         Code::RisingLevels,
@@ -164,6 +166,7 @@ impl Code {
         Code::FitAcrossSession,
         Code::PreDialysisRange,
         Code::DialysisCovariate,
+        Code::NearVmax,
     ];
 
     /// The code as the JSON report spells it.
@@ -219,6 +222,7 @@ impl Code {
             Code::FitAcrossSession => "fit-across-session",
             Code::PreDialysisRange => "pre-dialysis-range",
             Code::DialysisCovariate => "dialysis-covariate",
+            Code::NearVmax => "near-vmax",
         }
     }
 }

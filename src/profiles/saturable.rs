@@ -3,7 +3,7 @@
 
 use crate::core::case::Case;
 use crate::core::saturable::AlbuminRule;
-use crate::core::saturable_report::Params;
+use crate::core::saturable_report::{Params, PriorSpread};
 use crate::profiles::schema::{FirstOrder, Profile};
 
 /// The saturable parameters of a profile whose kinetics are not first-order and which has a
@@ -57,5 +57,10 @@ pub fn params_of(profile: &Profile, case: &Case) -> Option<Params> {
             .as_ref()
             .map(|l| l.values.clone())
             .unwrap_or_default(),
+        spread: m.prior.as_ref().map(|pr| PriorSpread {
+            vmax_cv: pr.vmax_cv_percent.value / 100.0,
+            km_cv: pr.km_cv_percent.value / 100.0,
+            residual_cv: pr.residual_percent.value / 100.0,
+        }),
     })
 }

@@ -352,6 +352,33 @@ pub struct Saturable {
     pub salts: Vec<Salt>,
     /// The largest daily dose increase by the level before it.
     pub increase_steps: IncreaseSteps,
+    /// The spreads that make `km_mg_l` and `vmax_mg_per_day` the priors of a Bayesian
+    /// estimate; without them there is none.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub prior: Option<SaturablePrior>,
+}
+
+/// `[saturable.prior]`: between-patient and residual spreads, per cent.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SaturablePrior {
+    /// Between-patient coefficient of variation of Vmax, %.
+    pub vmax_cv_percent: Sourced,
+    /// Between-patient coefficient of variation of Km, %.
+    pub km_cv_percent: Sourced,
+    /// Proportional residual error of a measured level, %.
+    pub residual_percent: Sourced,
+}
+
+impl SaturablePrior {
+    /// The numbers, by field name.
+    pub fn numbers(&self) -> [(&'static str, &Sourced); 3] {
+        [
+            ("vmax_cv_percent", &self.vmax_cv_percent),
+            ("km_cv_percent", &self.km_cv_percent),
+            ("residual_percent", &self.residual_percent),
+        ]
+    }
 }
 
 /// `[saturable.albumin]`.
@@ -563,6 +590,9 @@ impl Profile {
                 ));
             }
             out.push(("saturable.increase_steps".into(), &m.increase_steps.source));
+            for (name, x) in m.prior.iter().flat_map(SaturablePrior::numbers) {
+                out.push((format!("saturable.prior.{name}"), &x.source));
+            }
         }
         out
     }
@@ -925,6 +955,16 @@ impl Saturable {
         }
         for x in st.below_mg_l.iter().chain(&st.max_mg_per_day) {
             positive(*x, "saturable.increase_steps")?;
+        }
+        for (name, x) in self.prior.iter().flat_map(SaturablePrior::numbers) {
+            let at = format!("saturable.prior.{name}");
+            positive(x.value, &at)?;
+            if x.value > 1000.0 {
+                return Err(problem(
+                    at,
+                    format!("must be at most 1000 %, got {}", x.value),
+                ));
+            }
         }
         Ok(())
     }

@@ -142,3 +142,70 @@ fn the_plot_of_a_saturable_drug_is_refused_with_the_words_of_the_doc() {
     .unwrap();
     assert!(doc.contains(&format!("p.toml: {message} |")), "{err}");
 }
+
+#[test]
+fn one_daily_dose_uses_the_bayesian_estimate_and_two_use_the_record_with_ranges() {
+    // One level (Km cannot come from the levels): the Bayesian estimate, beside the record fit
+    // with the population Km and the algebra, with the priors of the profile.
+    let v = json("phenytoin_one_level_albumin.toml");
+    let s = &v["saturable"];
+    assert_eq!(s["method"], "bayesian");
+    assert_eq!(s["ranges_from"], "bayesian-laplace");
+    assert_eq!(
+        num(&s["bayesian"]["vmax_mg_per_day"]),
+        num(&s["vmax_mg_per_day"])
+    );
+    assert_eq!(s["record_fit"]["km_fitted"], false);
+    // Priors: 415·(60/70)^0.6 mg/day and 5.7 mg/L (Grasela TH et al., Clin Pharmacokinet
+    // 1983;8(4):355-364); ω = √ln(1 + CV²) for CV 20 % and 50 %, σ for 17.1 % (Ku LC et al.,
+    // Ther Drug Monit 2016;38(6):728-737, Table 2), hand-worked.
+    let b = &s["bayesian"];
+    assert!((num(&b["prior_vmax_mg_per_day"]) - 415.0 * (60.0f64 / 70.0).powf(0.6)).abs() < 1e-9);
+    assert_eq!(num(&b["prior_km_mg_l"]), 5.7);
+    assert!((num(&b["omega_vmax"]) - 0.198_042_2).abs() < 1e-6);
+    assert!((num(&b["omega_km"]) - 0.472_380_7).abs() < 1e-6);
+    assert!((num(&b["sigma_log"]) - 0.169_769_4).abs() < 1e-6);
+    // The ranges hold the estimates; the plan's 400 mg/day may be at or above Vmax, so its
+    // steady state has no upper end, and the warning says so.
+    let within = |r: &Value, x: f64| num(&r[0]) < x && x < num(&r[1]);
+    assert!(within(&s["vmax_ci95"], num(&s["vmax_mg_per_day"])));
+    assert!(within(&s["km_ci95"], num(&s["km_mg_l"])));
+    assert!(within(
+        &s["level_at_target_dose_ss_ci95"],
+        num(&s["level_at_target_dose_ss"])
+    ));
+    assert!(num(&s["level_at_plan_ss_ci95"][0]) < num(&s["level_at_plan_ss"]));
+    assert!(s["level_at_plan_ss_ci95"][1].is_null());
+    // The plan's daily dose reaching the circulation (400·0.92·0.86) lies inside Vmax's range.
+    assert!(within(&s["vmax_ci95"], 400.0 * 0.92 * 0.86));
+    let codes: Vec<&str> = v["warning_codes"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|c| c.as_str().unwrap())
+        .collect();
+    assert!(
+        codes.contains(&"near-vmax") && codes.contains(&"prior-weighs"),
+        "{codes:?}"
+    );
+    // The exact dose for the target, by R = Vmax·C/(Km + C), lies in its range
+    // (self-consistency).
+    let exact = num(&s["vmax_mg_per_day"]) * 15.0 / (num(&s["km_mg_l"]) + 15.0) / (0.92 * 0.86);
+    assert!(
+        within(&s["dose_for_target_ci95_mg_per_day"], exact),
+        "{exact}"
+    );
+
+    // Levels on two daily doses identify both: the record fit, its curvature for the ranges,
+    // the Bayesian estimate beside it.
+    let v = json("phenytoin_two_levels.toml");
+    let s = &v["saturable"];
+    assert_eq!(s["method"], "dose-record");
+    assert_eq!(s["ranges_from"], "dose-record-curvature");
+    assert!(s["bayesian"].is_object());
+    assert!(within(&s["vmax_ci95"], num(&s["vmax_mg_per_day"])));
+    assert!(within(
+        &s["level_at_plan_ss_ci95"],
+        num(&s["level_at_plan_ss"])
+    ));
+}
