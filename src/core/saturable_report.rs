@@ -324,6 +324,115 @@ fn grid(dose_forms: &[f64]) -> f64 {
         .max(if dose_forms.is_empty() { 10.0 } else { 0.0 })
 }
 
+/// The recorded doses as inputs: mg of the drug itself reaching the circulation.
+fn inputs_of(case: &Case, salt_factor: f64) -> Vec<Input> {
+    case.doses
+        .iter()
+        .map(|d| Input {
+            t: d.t,
+            amount_mg: d.amount_mg.unwrap_or(0.0) * salt_factor * d.route.bioavailability(),
+            hours: d.route.infusion_h(),
+        })
+        .collect()
+}
+
+/// Points of a curve: (hours on the case's axis, mg/L).
+pub type Points = Vec<(f64, f64)>;
+
+/// The most plan doses a chart integrates.
+const MAX_CHART_PLAN_DOSES: usize = 400;
+
+/// The model's course for a chart, as (hours on the case's axis, mg/L) on the deciding level's
+/// scale: the recorded doses alone from `span[0]` (to the plan's start when there is a plan,
+/// else to `span[1]`, the fall after the last dose), and from the plan's start to `span[1]` the
+/// record followed by the plan's doses. `n` evenly spaced times plus each dose's time and
+/// the moment after it, so the rise at each dose shows. Both empty without a volume.
+pub fn chart_course(
+    case: &Case,
+    r: &SaturableReport,
+    span: [f64; 2],
+    n: usize,
+) -> (Points, Points) {
+    let Some(volume_l) = r.volume_l else {
+        return (Vec::new(), Vec::new());
+    };
+    let k = Kinetics {
+        vmax_mg_per_day: r.vmax_mg_per_day,
+        km_mg_l: r.km_mg_l,
+        volume_l,
+    };
+    let mut inputs = inputs_of(case, r.salt.1);
+    let first = inputs.iter().map(|i| i.t).fold(span[0], f64::min) - 1e-9;
+    let times = |a: f64, b: f64, inputs: &[Input]| -> Vec<f64> {
+        let mut ts: Vec<f64> = (0..n.max(2))
+            .map(|i| a + (b - a) * i as f64 / (n.max(2) - 1) as f64)
+            .collect();
+        for i in inputs.iter().filter(|i| i.t >= a && i.t <= b) {
+            ts.extend([i.t, i.t + 1e-6, i.t + i.hours]);
+        }
+        ts.retain(|t| *t >= a && *t <= b);
+        ts.sort_by(f64::total_cmp);
+        ts.dedup();
+        ts
+    };
+    let sample = |a: f64, b: f64, inputs: &[Input]| -> Vec<(f64, f64)> {
+        let ts = times(a, b, inputs);
+        let cs = saturable::course(&k, inputs, 0.0, first, &ts);
+        ts.into_iter()
+            .zip(cs)
+            .filter(|(_, c)| c.is_finite())
+            .collect()
+    };
+    let Some(pl) = case.plan.as_ref().filter(|pl| pl.start_t < span[1]) else {
+        return (sample(span[0], span[1], &inputs), Vec::new());
+    };
+    let record = sample(span[0], pl.start_t.max(span[0]), &inputs);
+    let per_dose = pl.dose_mg * r.salt.1 * pl.route.bioavailability();
+    let mut t = pl.start_t;
+    let mut count = 0;
+    while t < span[1] && count < MAX_CHART_PLAN_DOSES {
+        inputs.push(Input {
+            t,
+            amount_mg: per_dose,
+            hours: pl.route.infusion_h(),
+        });
+        t += pl.interval_h;
+        count += 1;
+    }
+    let plan = sample(pl.start_t.max(span[0]), span[1], &inputs);
+    (record, plan)
+}
+
+/// The time span of the course chart, hours on the case's axis: from the first dose to a
+/// little past the last dose or level, or with a plan to its 90 % of steady state (at least
+/// a week, at most four weeks after its start).
+pub fn chart_span(case: &Case, r: &SaturableReport) -> [f64; 2] {
+    let first = case.doses.iter().map(|d| d.t).fold(f64::INFINITY, f64::min);
+    let data_end = case
+        .doses
+        .iter()
+        .map(|d| d.end())
+        .chain(case.levels.iter().map(|l| l.t))
+        .fold(first, f64::max);
+    let first = if first.is_finite() { first } else { 0.0 };
+    let data_end = if data_end.is_finite() {
+        data_end
+    } else {
+        first
+    };
+    let end = match (&case.plan, &r.plan) {
+        (Some(pl), Some(d)) => {
+            let reach = d
+                .time_to_90pct_h
+                .unwrap_or(f64::INFINITY)
+                .clamp(7.0 * HOURS_PER_DAY, 28.0 * HOURS_PER_DAY);
+            (pl.start_t + reach).max(data_end)
+        }
+        _ => data_end + (0.12 * (data_end - first)).max(HOURS_PER_DAY),
+    };
+    [first, end.max(first + 1.0)]
+}
+
 /// Analyse a validated case of a drug with saturable elimination.
 ///
 /// # Errors
@@ -364,15 +473,7 @@ pub fn analyse(case: &Case, p: &Params) -> Result<SaturableReport> {
         ));
     }
     // Effective inputs: mg of the drug itself reaching the circulation.
-    let inputs: Vec<Input> = case
-        .doses
-        .iter()
-        .map(|d| Input {
-            t: d.t,
-            amount_mg: d.amount_mg.unwrap_or(0.0) * salt.1 * d.route.bioavailability(),
-            hours: d.route.infusion_h(),
-        })
-        .collect();
+    let inputs = inputs_of(case, salt.1);
     let starts: Vec<(f64, f64)> = inputs.iter().map(|i| (i.t, i.amount_mg)).collect();
     let albumin = case.patient.albumin_g_dl;
     let renal = case.patient.renal_failure == Some(true) || case.patient.dialysis == Some(true);

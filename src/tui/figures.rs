@@ -16,6 +16,7 @@ use crate::core::error::Error;
 use crate::core::fit::{Fit, Method};
 use crate::core::projection::{self, Patient};
 use crate::core::report::Report;
+use crate::core::saturable_report;
 use crate::core::uncertainty;
 use crate::tui::catalog::Profiles;
 use crate::tui::strings;
@@ -59,6 +60,8 @@ struct Charts {
     threshold: OnceCell<Option<ChartData>>,
     /// The washout, with each half-life marked.
     washout: OnceCell<Option<ChartData>>,
+    /// The integrated Michaelis-Menten course of a saturable drug, with its levels.
+    saturable: OnceCell<Option<ChartData>>,
 }
 
 /// Everything computed from one state of the case file.
@@ -215,6 +218,15 @@ impl Figures {
         self.chart(&self.charts.washout, |c, _, r, p| washout_chart(c, r, p))
     }
 
+    /// The integrated Michaelis-Menten course over the dose record and the plan, with the
+    /// deciding levels (a drug with saturable elimination; screen 2).
+    pub fn saturable_chart(&self) -> Option<&ChartData> {
+        self.charts
+            .saturable
+            .get_or_init(|| saturable_chart(self.case.as_ref()?, self.saturable.as_ref()?))
+            .as_ref()
+    }
+
     /// Which charts have been sampled so far: fit, plan, threshold, washout.
     pub fn charts_built(&self) -> [bool; 4] {
         let c = &self.charts;
@@ -331,6 +343,43 @@ fn fit_chart(case: &Case, fit: &Fit, p: &Patient) -> ChartData {
         vline: None,
         bands: session_bands(case),
     }
+}
+
+fn saturable_chart(case: &Case, s: &analysis::Saturable) -> Option<ChartData> {
+    let r = &s.report;
+    let span = saturable_report::chart_span(case, r);
+    let (record, plan) = saturable_report::chart_course(case, r, span, SAMPLES);
+    let mut curves = Vec::new();
+    if !record.is_empty() {
+        curves.push(Curve {
+            role: CurveRole::Model,
+            points: to_level(case, record),
+        });
+    }
+    if !plan.is_empty() {
+        curves.push(Curve {
+            role: CurveRole::Plan,
+            points: to_level(case, plan),
+        });
+    }
+    let marks = r
+        .readings
+        .iter()
+        .map(|x| Mark {
+            t: x.t,
+            value: case.drug.scale.to_level(x.decision_mg_l),
+            kind: MarkKind::InFit,
+        })
+        .collect();
+    Some(ChartData {
+        clock: case.clock,
+        x: span,
+        curves,
+        marks,
+        guide: threshold_guide(case),
+        vline: case.threshold.as_ref().and_then(|t| t.procedure_t),
+        bands: session_bands(case),
+    })
 }
 
 fn plan_chart(case: &Case, r: &Report, p: &Patient) -> Option<ChartData> {

@@ -1183,6 +1183,14 @@ pub const SATURABLE_BASIS_FREE: &str = "free level / free fraction";
 pub const SATURABLE_ELSEWHERE: &str = "Saturable (Michaelis-Menten) elimination: Vmax, Km and \
 the doses are on the fit and plan screens; the fall after stopping is in `ebb report`. A \
 first-order threshold or washout does not hold for this drug.";
+/// The Bayesian estimate, shown beside the one used.
+pub const SATURABLE_BAYESIAN: &str = "Bayesian";
+/// The record fit, shown beside the one used.
+pub const SATURABLE_RECORD: &str = "Record fit";
+/// A 95 % range after a saturable value.
+pub fn saturable_range95(lo: &str, hi: &str) -> String {
+    format!("(95 % {lo}–{hi})")
+}
 /// The label of the dose for the target.
 pub fn saturable_for_target(level: &str, unit: &str) -> String {
     format!("For {level} {unit}")

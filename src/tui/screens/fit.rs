@@ -1,5 +1,6 @@
 //! Screen 2, the fit: the semi-log chart of the levels, fitted line and model course, and
-//! k, half-life, r², residuals, volume and warnings.
+//! k, half-life, r², residuals, volume and warnings (for a saturable drug: the integrated
+//! Michaelis-Menten course beside Vmax, Km and their ranges).
 
 use ratatui::buffer::Buffer;
 use ratatui::layout::{Constraint, Layout, Rect};
@@ -17,9 +18,28 @@ use crate::tui::widgets::{self, heading, problem_style, quiet};
 /// Draw the fit screen.
 pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
     if let (Some(case), Some(s)) = (app.figures.case.as_ref(), app.figures.saturable.as_ref()) {
-        let w = usize::from(area.width.saturating_sub(1));
-        let lines = crate::tui::screens::saturable::fit_lines(case, s, w, true);
-        return Paragraph::new(lines).render(area, buf);
+        // The integrated Michaelis-Menten course beside the figures (no chart without a
+        // volume: the course cannot be integrated).
+        let (text_area, chart) = match app.figures.saturable_chart() {
+            Some(chart) if !chart.curves.is_empty() => {
+                let pct = if area.width >= 120 { 55 } else { 45 };
+                let [left, right] =
+                    Layout::horizontal([Constraint::Percentage(pct), Constraint::Min(1)])
+                        .spacing(1)
+                        .areas(area);
+                (right, Some((left, chart)))
+            }
+            _ => (area, None),
+        };
+        // Beside a chart on a narrow screen the doses give way to it: the plan screen has them.
+        let with_doses = chart.is_none() || area.width >= 120;
+        if let Some((left, chart)) = chart {
+            let unit = case.drug.scale.unit.as_str();
+            SemiLogChart { data: chart, unit }.render(left, buf);
+        }
+        let w = usize::from(text_area.width.saturating_sub(1));
+        let lines = crate::tui::screens::saturable::fit_lines(case, s, w, with_doses);
+        return Paragraph::new(lines).render(text_area, buf);
     }
     let (Some(case), Some(fit), Some(r), Some(chart)) = (
         app.figures.case.as_ref(),

@@ -8,7 +8,7 @@ use ratatui::text::{Line, Span};
 use crate::analysis::Saturable;
 use crate::core::case::Case;
 use crate::core::report::num;
-use crate::core::saturable_report::{daily_words, Basis};
+use crate::core::saturable_report::{daily_words, Basis, Method};
 use crate::tui::strings;
 use crate::tui::widgets::{self, heading, problem_style, quiet};
 
@@ -80,17 +80,55 @@ pub fn fit_lines(case: &Case, s: &Saturable, width: usize, with_doses: bool) -> 
             width,
         ));
     }
+    let range = |x: Option<[f64; 2]>| {
+        x.map(|[a, b]| format!(" {}", strings::saturable_range95(&num(a), &num(b))))
+            .unwrap_or_default()
+    };
     out.extend(kv(
         "Vmax",
-        format!("{} mg/day", num(r.vmax_mg_per_day)),
+        format!(
+            "{} mg/day{}",
+            num(r.vmax_mg_per_day),
+            range(r.ranges.map(|g| g.vmax))
+        ),
         width,
     ));
-    out.extend(kv("Km", format!("{} mg/L", num(r.km_mg_l)), width));
+    out.extend(kv(
+        "Km",
+        format!("{} mg/L{}", num(r.km_mg_l), range(r.ranges.map(|g| g.km))),
+        width,
+    ));
     out.extend(kv(
         strings::SATURABLE_HOW,
         r.method.words().to_string(),
         width,
     ));
+    if let (Some(b), false) = (&r.bayesian, r.method == Method::Bayesian) {
+        out.extend(kv(
+            strings::SATURABLE_BAYESIAN,
+            format!(
+                "Vmax {} mg/day, Km {} mg/L",
+                num(b.kinetics.vmax_mg_per_day),
+                num(b.kinetics.km_mg_l)
+            ),
+            width,
+        ));
+    }
+    if let Some(f) = r
+        .record
+        .filter(|_| !matches!(r.method, Method::Record { .. }))
+    {
+        out.extend(kv(
+            strings::SATURABLE_RECORD,
+            format!(
+                "Vmax {} mg/day, Km {} mg/L{}",
+                num(f.kinetics.vmax_mg_per_day),
+                num(f.kinetics.km_mg_l),
+                if f.km_fitted { "" } else { " (Km held)" }
+            ),
+            width,
+        ));
+    }
     let (m, v, k) = r.algebraic;
     out.extend(kv(
         strings::SATURABLE_ALGEBRA,
