@@ -1,6 +1,7 @@
 //! The plot: the semi-log course of one case as SVG — levels, the fitted line, the model
-//! through the dose record, the projected plan, the threshold and the procedure time — told
-//! apart by dash pattern and marker shape so it reads in black and white.
+//! through the dose record, the projected plan, the threshold and the procedure time (for a
+//! saturable drug the integrated Michaelis-Menten course) — told apart by dash pattern and
+//! marker shape so it reads in black and white.
 
 use plotters::prelude::*;
 
@@ -11,6 +12,7 @@ use crate::core::fit::Fit;
 use crate::core::format::num;
 use crate::core::projection::{self, Patient};
 use crate::core::report::Report;
+use crate::core::saturable_report::{self, SaturableReport};
 
 /// Width and height of the drawing, in SVG pixels.
 pub const SIZE: (u32, u32) = (960, 600);
@@ -43,10 +45,12 @@ const CAUTION_HEIGHT: u32 = 40;
 /// The caution in two lines that fit the width: "CAUTION:" and its first sentences, then
 /// the rest.
 pub fn caution_lines(compartments: u8) -> [String; 2] {
-    let text = format!(
-        "CAUTION: {}",
-        crate::core::report::caution_for(compartments).0
-    );
+    caution_lines_of(crate::core::report::caution_for(compartments).0)
+}
+
+/// `caution` after "CAUTION:" in two lines, broken after the sentence end nearest the middle.
+fn caution_lines_of(caution: &str) -> [String; 2] {
+    let text = format!("CAUTION: {caution}");
     let half = text.len() / 2;
     // Break after the sentence end nearest the middle.
     let cut = text
@@ -67,6 +71,9 @@ fn draw_err(e: impl std::fmt::Display) -> Error {
 /// # Errors
 /// The step that stopped the analysis (with `name` in front), or a drawing error.
 pub fn plot_svg(a: &Analysis, name: &str) -> Result<String> {
+    if let (None, Some(case), Some(s)) = (&a.stop, &a.case, &a.saturable) {
+        return plot_saturable_svg(case, &s.report).map_err(|e| e.in_file(name));
+    }
     let (case, r) = crate::cli::note::finished(a, name)?;
     match &a.fit {
         Some(fit) => plot_svg_from(case, fit, r).map_err(|e| e.in_file(name)),
@@ -306,6 +313,179 @@ pub fn plot_svg_from(case: &Case, fit: &Fit, r: &Report) -> Result<String> {
                 .label(LEGEND[4])
                 .legend(|(x, y)| Cross::new((x + 10, y), 6, BLACK.stroke_width(2)));
         }
+        if let Some(b) = threshold.filter(|b| *b >= y0) {
+            chart
+                .draw_series(DashedLineSeries::new([(x0, b), (x1, b)], 16, 4, grey))
+                .map_err(draw_err)?
+                .label(format!("{} ({} {u})", LEGEND[5], num(b)))
+                .legend(move |(x, y)| Rectangle::new([(x, y - 1), (x + 16, y + 1)], grey.filled()));
+        }
+        if let Some(tp) = procedure.filter(|t| *t >= x0 && *t <= x1) {
+            chart
+                .draw_series(DashedLineSeries::new([(tp, y0), (tp, y1)], 2, 5, grey))
+                .map_err(draw_err)?
+                .label("procedure")
+                .legend(move |(x, y)| {
+                    Rectangle::new([(x + 8, y - 6), (x + 10, y + 6)], grey.filled())
+                });
+        }
+        chart
+            .configure_series_labels()
+            .position(SeriesLabelPosition::UpperRight)
+            .background_style(WHITE.mix(0.9))
+            .border_style(BLACK)
+            .draw()
+            .map_err(draw_err)?;
+        whole.present().map_err(draw_err)?;
+    }
+    Ok(svg)
+}
+
+/// The legend of the saturable plot's levels: they are the deciding levels (adjusted for
+/// albumin, or a free level over the free fraction, when the case has them).
+pub const LEGEND_DECIDING: &str = "level (as it decides)";
+
+/// Draw the course of a drug with saturable (Michaelis-Menten) elimination: the integrated
+/// model over the dose record and the plan (the core's `chart_course`), the deciding levels,
+/// the threshold and the procedure, with the saturable caution at the foot.
+///
+/// # Errors
+/// No volume (no weight: the course cannot be integrated), nothing above zero to draw, or a
+/// drawing error.
+pub fn plot_saturable_svg(case: &Case, r: &SaturableReport) -> Result<String> {
+    if r.volume_l.is_none() {
+        return Err(Error::invalid(
+            "patient.weight_kg",
+            "needed to draw the course of a drug with saturable elimination (the volume comes \
+             from the weight); `ebb report` gives the figures without it",
+        ));
+    }
+    let to = |x: f64| case.drug.scale.to_level(x);
+    let u = case.drug.scale.unit.as_str();
+    let [first, last] = saturable_report::chart_span(case, r);
+    let (x0, x1) = (first - 0.02 * (last - first), last);
+    let (record, plan) = saturable_report::chart_course(case, r, [first, last], SAMPLES);
+    let in_unit = |pts: Vec<(f64, f64)>| -> Vec<(f64, f64)> {
+        pts.into_iter().map(|(t, c)| (t, to(c))).collect()
+    };
+    let (record, plan) = (in_unit(record), in_unit(plan));
+    let levels: Vec<(f64, f64)> = r
+        .readings
+        .iter()
+        .map(|x| (x.t, to(x.decision_mg_l)))
+        .collect();
+    let threshold = case.threshold.as_ref().map(|t| t.below);
+    let procedure = case.threshold.as_ref().and_then(|t| t.procedure_t);
+    let top = record
+        .iter()
+        .chain(&plan)
+        .chain(&levels)
+        .map(|p| p.1)
+        .chain(threshold)
+        .filter(|y| y.is_finite())
+        .fold(0.0, f64::max);
+    if top <= 0.0 {
+        return Err(Error::invalid("plot", "no level above zero to draw"));
+    }
+    if top > MAX_LEVEL_DRAWN {
+        return Err(Error::invalid(
+            "plot",
+            format!(
+                "the highest value to draw is {} {u}; levels above {MAX_LEVEL_DRAWN:e} cannot be drawn, check the values",
+                num(top)
+            ),
+        ));
+    }
+    let low = levels
+        .iter()
+        .map(|p| p.1)
+        .chain(threshold)
+        .fold(top, f64::min);
+    let (y0, y1) = ((low / 3.0).max(top / 1e4), top * 4.0);
+    let keep = |v: &[(f64, f64)]| -> Vec<(f64, f64)> {
+        v.iter()
+            .copied()
+            .filter(|&(t, c)| c.is_finite() && c >= y0 && t >= x0 && t <= x1)
+            .collect()
+    };
+    let clock = case.clock;
+    let label_x = move |h: &f64| -> String {
+        clock
+            .at_minute(*h)
+            .map_or(String::new(), |s| s.axis_label())
+    };
+    let mut svg = String::new();
+    {
+        let whole = SVGBackend::with_string(&mut svg, SIZE).into_drawing_area();
+        whole.fill(&WHITE).map_err(draw_err)?;
+        let (root, foot) = whole.split_vertically(SIZE.1 - CAUTION_HEIGHT);
+        let style = ("sans-serif", 13).into_font().color(&BLACK);
+        for (i, line) in caution_lines_of(saturable_report::CAUTION)
+            .iter()
+            .enumerate()
+        {
+            foot.draw(&Text::new(
+                line.clone(),
+                (14, 4 + 16 * i as i32),
+                style.clone(),
+            ))
+            .map_err(draw_err)?;
+        }
+        let title = match (&case.patient.label, case.drug.name.as_str()) {
+            (Some(l), "") => l.clone(),
+            (Some(l), d) => format!("{l}: {d}"),
+            (None, d) => d.to_string(),
+        };
+        let title = format!(
+            "{} (saturable elimination: Vmax {} mg/day, Km {} mg/L)",
+            crate::core::text::printable(&title),
+            num(r.vmax_mg_per_day),
+            num(r.km_mg_l)
+        );
+        let mut chart = ChartBuilder::on(&root)
+            .caption(title, ("sans-serif", 20))
+            .margin(12)
+            .x_label_area_size(50)
+            .y_label_area_size(70)
+            .build_cartesian_2d(x0..x1, (y0..y1).log_scale())
+            .map_err(draw_err)?;
+        chart
+            .configure_mesh()
+            .x_labels(8)
+            .y_labels(10)
+            .x_label_formatter(&label_x)
+            .y_label_formatter(&|y: &f64| num(*y))
+            .x_desc("clock time")
+            .y_desc(format!("level ({u}, log scale)"))
+            .light_line_style(WHITE)
+            .draw()
+            .map_err(draw_err)?;
+        let black = BLACK.stroke_width(2);
+        let grey = RGBColor(90, 90, 90).stroke_width(2);
+        chart
+            .draw_series(LineSeries::new(keep(&record), black))
+            .map_err(draw_err)?
+            .label(LEGEND[0])
+            .legend(move |(x, y)| PathElement::new([(x, y), (x + 30, y)], black));
+        if !plan.is_empty() {
+            let style = RGBColor(0, 70, 160).stroke_width(2);
+            chart
+                .draw_series(DashedLineSeries::new(keep(&plan), 12, 6, style))
+                .map_err(draw_err)?
+                .label(LEGEND[1])
+                .legend(move |(x, y)| {
+                    Rectangle::new([(x, y - 1), (x + 12, y + 1)], style.filled())
+                });
+        }
+        chart
+            .draw_series(
+                keep(&levels)
+                    .into_iter()
+                    .map(|pt| Circle::new(pt, 5, BLACK.filled())),
+            )
+            .map_err(draw_err)?
+            .label(LEGEND_DECIDING)
+            .legend(|(x, y)| Circle::new((x + 10, y), 5, BLACK.filled()));
         if let Some(b) = threshold.filter(|b| *b >= y0) {
             chart
                 .draw_series(DashedLineSeries::new([(x0, b), (x1, b)], 16, 4, grey))

@@ -138,6 +138,9 @@ fn scratch() -> tempfile::TempDir {
     )
     .unwrap();
     fs::write(dir.join("bed9.txt"), "the ward's own notes\n").unwrap();
+    // Phenytoin without a weight: no volume, so no course to draw.
+    let pht = include_str!("../cases/valid/phenytoin_one_level_albumin.toml");
+    fs::write(dir.join("p.toml"), pht.replace("weight_kg = 60.0\n", "")).unwrap();
     tmp
 }
 
@@ -155,6 +158,7 @@ fn the_classes_without_a_fixture_say_what_the_doc_says() {
         run(dir, &["note", "bed4.toml", "-o", "bed4.toml"]).1,
         run(dir, &["note", "bed4.toml", "-o", "bed9.txt"]).1,
         run(dir, &["plot", "bed4.toml", "-o", "bed4.png"]).1,
+        run(dir, &["plot", "p.toml", "-o", "p.svg"]).1,
         run(dir, &["open", "bed4.toml"]).1,
         ebb::files::store::SaveError::ChangedOnDisk {
             path: "bed4.toml".into(),

@@ -80,3 +80,80 @@ value = 4.0
     let e = plot::plot_svg(&a, "case.toml").unwrap_err().to_string();
     assert!(e.contains("level"), "{e}");
 }
+
+#[test]
+fn a_phenytoin_plot_draws_the_integrated_course_the_plan_and_the_deciding_level() {
+    let text =
+        std::fs::read_to_string("tests/cases/valid/phenytoin_one_level_albumin.toml").unwrap();
+    let svg = svg_of(&text);
+    let doc = roxmltree::Document::parse(&svg).expect("the SVG parses as XML");
+    let t = texts(&doc);
+    for label in [LEGEND[0], LEGEND[1], plot::LEGEND_DECIDING] {
+        assert!(t.iter().any(|x| x == label), "legend {label}: {t:?}");
+    }
+    // No first-order fitted line, and the saturable caution at the foot.
+    assert!(!t.iter().any(|x| x == LEGEND[2]), "{t:?}");
+    assert!(
+        t.iter()
+            .any(|x| x.contains("one-compartment saturable (Michaelis-Menten)")),
+        "{t:?}"
+    );
+    assert!(
+        t.iter()
+            .any(|x| x.contains("saturable elimination: Vmax 366.8 mg/day, Km 6.071 mg/L")),
+        "{t:?}"
+    );
+    // One level, drawn as its albumin-adjusted value (plus the legend's circle): 6 mg/L at
+    // albumin 3 g/dL is 6/(0.2·3 + 0.1) = 8.571 mg/L (Sheiner-Tozer, as in methods-saturable).
+    let circles: Vec<_> = doc
+        .descendants()
+        .filter(|n| n.has_tag_name("circle"))
+        .collect();
+    assert_eq!(circles.len(), 1 + 1);
+    // The course over 28 daily doses has a rise at each: a long polyline of the record.
+    let longest = doc
+        .descendants()
+        .filter(|n| n.has_tag_name("polyline"))
+        .filter_map(|n| n.attribute("points"))
+        .map(|p| p.split_whitespace().count())
+        .max()
+        .unwrap_or(0);
+    assert!(longest > 300, "{longest}");
+
+    // Without a weight there is no volume and no course: a clear error, no picture.
+    let file = CaseFile::parse(&text.replace("weight_kg = 60.0\n", "")).unwrap();
+    let e = plot::plot_svg(&ebb::cli::analyse_parsed(&file, None).unwrap(), "case.toml")
+        .unwrap_err()
+        .to_string();
+    assert!(
+        e.contains("case.toml: patient.weight_kg: needed to draw"),
+        "{e}"
+    );
+}
+
+#[test]
+fn the_saturable_chart_course_rises_by_dose_over_volume_at_each_plan_dose() {
+    // Self-consistency of the sampled course: continuous into the plan, and at each plan
+    // dose (instant, by mouth) a rise of dose x salt factor x F / V.
+    let text =
+        std::fs::read_to_string("tests/cases/valid/phenytoin_one_level_albumin.toml").unwrap();
+    let file = CaseFile::parse(&text).unwrap();
+    let a = ebb::cli::analyse_parsed(&file, None).unwrap();
+    let (case, s) = (a.case.as_ref().unwrap(), a.saturable.as_ref().unwrap());
+    let r = &s.report;
+    let span = ebb::core::saturable_report::chart_span(case, r);
+    let (record, plan) = ebb::core::saturable_report::chart_course(case, r, span, 50);
+    let pl = case.plan.as_ref().unwrap();
+    let (tr, cr) = *record.last().unwrap();
+    let (tp, cp) = plan[0];
+    assert_eq!(tr, pl.start_t);
+    assert_eq!(tp, pl.start_t);
+    assert!((cr - cp).abs() < 1e-8, "{cr} {cp}");
+    let rise = 400.0 * 0.92 * 0.86 / r.volume_l.unwrap();
+    let at = |t: f64| plan.iter().find(|p| p.0 == t).unwrap().1;
+    for n in 0..5 {
+        let t = pl.start_t + 24.0 * f64::from(n);
+        let jump = at(t + 1e-6) - at(t);
+        assert!((jump - rise).abs() < 1e-4, "{n}: {jump} vs {rise}");
+    }
+}
