@@ -1065,6 +1065,27 @@ mod tests {
                 let back = rate_for_level(vmax, km, c1);
                 prop_assert!((back - r1).abs() <= 1e-9 * r1.max(1.0));
             }
+
+            #[test]
+            fn the_95_percent_ranges_hold_the_estimate_and_widen_with_the_spread(
+                vmax in 200.0f64..900.0, km in 1.0f64..20.0, f1 in 0.05f64..0.95,
+                sv in 0.01f64..0.5, sk in 0.01f64..1.0, rho in -0.9f64..0.9,
+            ) {
+                let cov = [[sv * sv, rho * sv * sk], [rho * sv * sk, sk * sk]];
+                let r = vmax * f1;
+                let css = ss_level(vmax, km, r).unwrap();
+                let f = |v: f64, k: f64| ss_level_or_inf(v, k, r);
+                let [lo, hi] = range95(vmax, km, &cov, &f);
+                prop_assert!(lo < css && css < hi);
+                // Twice the spread: a range at least as wide at both ends.
+                let wide = [[4.0 * cov[0][0], 4.0 * cov[0][1]], [4.0 * cov[1][0], 4.0 * cov[1][1]]];
+                let [lo2, hi2] = range95(vmax, km, &wide, &f);
+                prop_assert!(lo2 <= lo * (1.0 + 1e-12) && hi2 >= hi * (1.0 - 1e-12));
+                // Vmax alone: exactly exp(ln Vmax ± 1.96 SD), up to the 720-point ellipse.
+                let [a, b] = range95(vmax, km, &cov, &|v, _| v);
+                prop_assert!((a.ln() - (vmax.ln() - Z95 * sv)).abs() < 1e-4 * sv.max(1e-3));
+                prop_assert!((b.ln() - (vmax.ln() + Z95 * sv)).abs() < 1e-4 * sv.max(1e-3));
+            }
         }
     }
 }
