@@ -943,6 +943,47 @@ mod tests {
     }
 
     #[test]
+    fn one_level_at_steady_state_gives_the_estimate_of_the_steady_state_equation() {
+        // 300 mg/day as a constant infusion for 200 days (steady state, no swing) and one
+        // level of 12 mg/L: the estimate over the integrated record equals the minimum of the
+        // same objective with ŷ = Css = Km·R/(Vmax − R), found by Nelder-Mead here.
+        let inputs: Vec<Input> = (0..200)
+            .map(|d| Input {
+                t: 24.0 * d as f64,
+                amount_mg: 300.0,
+                hours: 24.0,
+            })
+            .collect();
+        let pr = grasela();
+        let obs = [(24.0 * 200.0, 12.0)];
+        let ss = |x: &[f64]| -> f64 {
+            let (v, k) = (x[0].exp(), x[1].exp());
+            let css = if v > 300.0 {
+                k * 300.0 / (v - 300.0)
+            } else {
+                1e12
+            };
+            ((12f64.ln() - css.ln()) / pr.sigma_log).powi(2)
+                + ((x[0] - 415f64.ln()) / pr.omega_vmax).powi(2)
+                + ((x[1] - 5.7f64.ln()) / pr.omega_km).powi(2)
+        };
+        let nm = nelder_mead(&ss, [415f64.ln(), 5.7f64.ln()]);
+        let map = fit_map(&pr, 49.0, &inputs, &obs).unwrap();
+        assert!(
+            (map.kinetics.vmax_mg_per_day.ln() - nm[0]).abs() < 1e-5,
+            "{map:?} {nm:?}"
+        );
+        assert!(
+            (map.kinetics.km_mg_l.ln() - nm[1]).abs() < 1e-5,
+            "{map:?} {nm:?}"
+        );
+        // The estimate's own steady state lies between the prior's (14.87 mg/L, hand-worked
+        // from 5.7·300/115 with Grasela 1983's values) and the level.
+        let c = ss_level(map.kinetics.vmax_mg_per_day, map.kinetics.km_mg_l, 300.0).unwrap();
+        assert!(c > 12.0 && c < 14.87, "{c}");
+    }
+
+    #[test]
     fn with_many_exact_levels_the_bayesian_estimate_approaches_the_truth() {
         // The truth lies well away from the prior (Vmax 500 mg/day, Km 3.5 mg/L).
         let truth = Kinetics {
