@@ -345,6 +345,9 @@ pub fn plot_svg_from(case: &Case, fit: &Fit, r: &Report) -> Result<String> {
 /// albumin, or a free level over the free fraction, when the case has them).
 pub const LEGEND_DECIDING: &str = "level (as it decides)";
 
+/// The legend of the saturable plot's band: the edges of the model's 95 % range.
+pub const LEGEND_BAND: &str = "95 % range of the model";
+
 /// Draw the course of a drug with saturable (Michaelis-Menten) elimination: the integrated
 /// model over the dose record and the plan (the core's `chart_course`), the deciding levels,
 /// the threshold and the procedure, with the saturable caution at the foot.
@@ -364,11 +367,12 @@ pub fn plot_saturable_svg(case: &Case, r: &SaturableReport) -> Result<String> {
     let u = case.drug.scale.unit.as_str();
     let [first, last] = saturable_report::chart_span(case, r);
     let (x0, x1) = (first - 0.02 * (last - first), last);
-    let (record, plan) = saturable_report::chart_course(case, r, [first, last], SAMPLES);
+    let course = saturable_report::chart_course(case, r, [first, last], SAMPLES);
     let in_unit = |pts: Vec<(f64, f64)>| -> Vec<(f64, f64)> {
         pts.into_iter().map(|(t, c)| (t, to(c))).collect()
     };
-    let (record, plan) = (in_unit(record), in_unit(plan));
+    let (record, plan) = (in_unit(course.record), in_unit(course.plan));
+    let band: Vec<Vec<(f64, f64)>> = course.band.into_iter().flatten().map(in_unit).collect();
     let levels: Vec<(f64, f64)> = r
         .readings
         .iter()
@@ -379,6 +383,7 @@ pub fn plot_saturable_svg(case: &Case, r: &SaturableReport) -> Result<String> {
     let top = record
         .iter()
         .chain(&plan)
+        .chain(band.iter().flatten())
         .chain(&levels)
         .map(|p| p.1)
         .chain(threshold)
@@ -462,6 +467,17 @@ pub fn plot_saturable_svg(case: &Case, r: &SaturableReport) -> Result<String> {
             .map_err(draw_err)?;
         let black = BLACK.stroke_width(2);
         let grey = RGBColor(90, 90, 90).stroke_width(2);
+        let light = RGBColor(150, 150, 150).stroke_width(1);
+        for (i, edge) in band.iter().enumerate() {
+            let series = chart
+                .draw_series(LineSeries::new(keep(edge), light))
+                .map_err(draw_err)?;
+            if i == 0 {
+                series
+                    .label(LEGEND_BAND)
+                    .legend(move |(x, y)| PathElement::new([(x, y), (x + 30, y)], light));
+            }
+        }
         chart
             .draw_series(LineSeries::new(keep(&record), black))
             .map_err(draw_err)?

@@ -596,16 +596,10 @@ pub fn range95(
     cov_log: &[[f64; 2]; 2],
     f: &dyn Fn(f64, f64) -> f64,
 ) -> [f64; 2] {
-    let a = cov_log[0][0].max(0.0).sqrt();
-    let b = if a > 0.0 { cov_log[0][1] / a } else { 0.0 };
-    let c = (cov_log[1][1] - b * b).max(0.0).sqrt();
-    let (x0, y0) = (vmax_mg_per_day.ln(), km_mg_l.ln());
     let mut lo = f(vmax_mg_per_day, km_mg_l);
     let mut hi = lo;
-    for i in 0..720 {
-        let th = f64::from(i) * std::f64::consts::PI / 360.0;
-        let (u, v) = (Z95 * th.cos(), Z95 * th.sin());
-        let value = f((x0 + a * u).exp(), (y0 + b * u + c * v).exp());
+    for (v, k) in ellipse95(vmax_mg_per_day, km_mg_l, cov_log, 720) {
+        let value = f(v, k);
         if value.is_nan() {
             continue;
         }
@@ -613,6 +607,27 @@ pub fn range95(
         hi = hi.max(value);
     }
     [lo, hi]
+}
+
+/// `count` (Vmax, Km) pairs evenly around the ellipse (ln Vmax, ln Km) = centre +
+/// 1.96·L·(cos θ, sin θ), L the Cholesky factor of `cov_log`, from θ = 0.
+pub fn ellipse95(
+    vmax_mg_per_day: f64,
+    km_mg_l: f64,
+    cov_log: &[[f64; 2]; 2],
+    count: u32,
+) -> Vec<(f64, f64)> {
+    let a = cov_log[0][0].max(0.0).sqrt();
+    let b = if a > 0.0 { cov_log[0][1] / a } else { 0.0 };
+    let c = (cov_log[1][1] - b * b).max(0.0).sqrt();
+    let (x0, y0) = (vmax_mg_per_day.ln(), km_mg_l.ln());
+    (0..count)
+        .map(|i| {
+            let th = f64::from(i) * 2.0 * std::f64::consts::PI / f64::from(count.max(1));
+            let (u, v) = (Z95 * th.cos(), Z95 * th.sin());
+            ((x0 + a * u).exp(), (y0 + b * u + c * v).exp())
+        })
+        .collect()
 }
 
 /// The steady-state level (mg/L) on `r` mg/day, +∞ at or above Vmax (for [`range95`]).

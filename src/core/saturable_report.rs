@@ -342,65 +342,97 @@ pub type Points = Vec<(f64, f64)>;
 /// The most plan doses a chart integrates.
 const MAX_CHART_PLAN_DOSES: usize = 400;
 
-/// The model's course for a chart, as (hours on the case's axis, mg/L) on the deciding level's
-/// scale: the recorded doses alone from `span[0]` (to the plan's start when there is a plan,
-/// else to `span[1]`, the fall after the last dose), and from the plan's start to `span[1]` the
-/// record followed by the plan's doses. `n` evenly spaced times plus each dose's time and
-/// the moment after it, so the rise at each dose shows. Both empty without a volume.
-pub fn chart_course(
-    case: &Case,
-    r: &SaturableReport,
-    span: [f64; 2],
-    n: usize,
-) -> (Points, Points) {
+/// The model's course for a chart, on the deciding level's scale.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct ChartCourse {
+    /// The recorded doses alone, to the plan's start (without a plan to the span's end: the
+    /// fall after the last dose), (hours on the case's axis, mg/L).
+    pub record: Points,
+    /// From the plan's start: the record followed by the plan's doses.
+    pub plan: Points,
+    /// The lower and upper edges of the 95 % range of the course at the same times, when
+    /// Vmax and Km have a range.
+    pub band: Option<[Points; 2]>,
+}
+
+/// Points on the ellipse of the 95 % range a chart's band is drawn from (the course moves one
+/// way with Vmax and one way with Km, so its extremes at each time lie on the ellipse).
+const BAND_POINTS: u32 = 48;
+
+/// The model's course for a chart over `span`: `n` evenly spaced times plus each dose's time
+/// and the moment after it (so the rise at each dose shows), integrated over the record and
+/// the plan's doses from its start; with the 95 % band when there are ranges. Empty without a
+/// volume.
+pub fn chart_course(case: &Case, r: &SaturableReport, span: [f64; 2], n: usize) -> ChartCourse {
     let Some(volume_l) = r.volume_l else {
-        return (Vec::new(), Vec::new());
-    };
-    let k = Kinetics {
-        vmax_mg_per_day: r.vmax_mg_per_day,
-        km_mg_l: r.km_mg_l,
-        volume_l,
+        return ChartCourse::default();
     };
     let mut inputs = inputs_of(case, r.salt.1);
+    let plan_start = case
+        .plan
+        .as_ref()
+        .filter(|pl| pl.start_t < span[1])
+        .map(|pl| {
+            let per_dose = pl.dose_mg * r.salt.1 * pl.route.bioavailability();
+            let mut t = pl.start_t;
+            let mut count = 0;
+            while t < span[1] && count < MAX_CHART_PLAN_DOSES {
+                inputs.push(Input {
+                    t,
+                    amount_mg: per_dose,
+                    hours: pl.route.infusion_h(),
+                });
+                t += pl.interval_h;
+                count += 1;
+            }
+            pl.start_t.max(span[0])
+        });
     let first = inputs.iter().map(|i| i.t).fold(span[0], f64::min) - 1e-9;
-    let times = |a: f64, b: f64, inputs: &[Input]| -> Vec<f64> {
-        let mut ts: Vec<f64> = (0..n.max(2))
-            .map(|i| a + (b - a) * i as f64 / (n.max(2) - 1) as f64)
-            .collect();
-        for i in inputs.iter().filter(|i| i.t >= a && i.t <= b) {
-            ts.extend([i.t, i.t + 1e-6, i.t + i.hours]);
-        }
-        ts.retain(|t| *t >= a && *t <= b);
-        ts.sort_by(f64::total_cmp);
-        ts.dedup();
-        ts
+    let n = n.max(2);
+    let mut ts: Vec<f64> = (0..n)
+        .map(|i| span[0] + (span[1] - span[0]) * i as f64 / (n - 1) as f64)
+        .chain(plan_start)
+        .collect();
+    for i in &inputs {
+        ts.extend([i.t, i.t + 1e-6, i.t + i.hours]);
+    }
+    ts.retain(|t| *t >= span[0] && *t <= span[1]);
+    ts.sort_by(f64::total_cmp);
+    ts.dedup();
+    let at = |vmax: f64, km: f64| {
+        let k = Kinetics {
+            vmax_mg_per_day: vmax,
+            km_mg_l: km,
+            volume_l,
+        };
+        saturable::course(&k, &inputs, 0.0, first, &ts)
     };
-    let sample = |a: f64, b: f64, inputs: &[Input]| -> Vec<(f64, f64)> {
-        let ts = times(a, b, inputs);
-        let cs = saturable::course(&k, inputs, 0.0, first, &ts);
-        ts.into_iter()
+    let centre = at(r.vmax_mg_per_day, r.km_mg_l);
+    let points = |cs: &[f64], keep: &dyn Fn(f64) -> bool| -> Points {
+        ts.iter()
             .zip(cs)
-            .filter(|(_, c)| c.is_finite())
+            .filter(|(t, c)| c.is_finite() && keep(**t))
+            .map(|(t, c)| (*t, *c))
             .collect()
     };
-    let Some(pl) = case.plan.as_ref().filter(|pl| pl.start_t < span[1]) else {
-        return (sample(span[0], span[1], &inputs), Vec::new());
+    let (record, plan) = match plan_start {
+        Some(s) => (points(&centre, &|t| t <= s), points(&centre, &|t| t >= s)),
+        None => (points(&centre, &|_| true), Vec::new()),
     };
-    let record = sample(span[0], pl.start_t.max(span[0]), &inputs);
-    let per_dose = pl.dose_mg * r.salt.1 * pl.route.bioavailability();
-    let mut t = pl.start_t;
-    let mut count = 0;
-    while t < span[1] && count < MAX_CHART_PLAN_DOSES {
-        inputs.push(Input {
-            t,
-            amount_mg: per_dose,
-            hours: pl.route.infusion_h(),
-        });
-        t += pl.interval_h;
-        count += 1;
-    }
-    let plan = sample(pl.start_t.max(span[0]), span[1], &inputs);
-    (record, plan)
+    let band = r.ranges.map(|g| {
+        let mut lo = centre.clone();
+        let mut hi = centre.clone();
+        for (v, k) in saturable::ellipse95(r.vmax_mg_per_day, r.km_mg_l, &g.cov_log, BAND_POINTS) {
+            for (i, c) in at(v, k).into_iter().enumerate() {
+                if c.is_finite() {
+                    lo[i] = lo[i].min(c);
+                    hi[i] = hi[i].max(c);
+                }
+            }
+        }
+        [points(&lo, &|_| true), points(&hi, &|_| true)]
+    });
+    ChartCourse { record, plan, band }
 }
 
 /// The time span of the course chart, hours on the case's axis: from the first dose to a

@@ -348,8 +348,15 @@ fn fit_chart(case: &Case, fit: &Fit, p: &Patient) -> ChartData {
 fn saturable_chart(case: &Case, s: &analysis::Saturable) -> Option<ChartData> {
     let r = &s.report;
     let span = saturable_report::chart_span(case, r);
-    let (record, plan) = saturable_report::chart_course(case, r, span, SAMPLES);
+    let saturable_report::ChartCourse { record, plan, band } =
+        saturable_report::chart_course(case, r, span, SAMPLES);
     let mut curves = Vec::new();
+    for edge in band.into_iter().flatten() {
+        curves.push(Curve {
+            role: CurveRole::Band,
+            points: to_level(case, edge),
+        });
+    }
     if !record.is_empty() {
         curves.push(Curve {
             role: CurveRole::Model,

@@ -88,7 +88,12 @@ fn a_phenytoin_plot_draws_the_integrated_course_the_plan_and_the_deciding_level(
     let svg = svg_of(&text);
     let doc = roxmltree::Document::parse(&svg).expect("the SVG parses as XML");
     let t = texts(&doc);
-    for label in [LEGEND[0], LEGEND[1], plot::LEGEND_DECIDING] {
+    for label in [
+        LEGEND[0],
+        LEGEND[1],
+        plot::LEGEND_DECIDING,
+        plot::LEGEND_BAND,
+    ] {
         assert!(t.iter().any(|x| x == label), "legend {label}: {t:?}");
     }
     // No first-order fitted line, and the saturable caution at the foot.
@@ -142,7 +147,23 @@ fn the_saturable_chart_course_rises_by_dose_over_volume_at_each_plan_dose() {
     let (case, s) = (a.case.as_ref().unwrap(), a.saturable.as_ref().unwrap());
     let r = &s.report;
     let span = ebb::core::saturable_report::chart_span(case, r);
-    let (record, plan) = ebb::core::saturable_report::chart_course(case, r, span, 50);
+    let ebb::core::saturable_report::ChartCourse { record, plan, band } =
+        ebb::core::saturable_report::chart_course(case, r, span, 50);
+    // The band holds the course at every time.
+    let [lo, hi] = band.unwrap();
+    let all: Vec<(f64, f64)> = record.iter().chain(&plan).copied().collect();
+    for (t, c) in &all {
+        let i = lo.iter().position(|p| p.0 == *t).unwrap();
+        assert!(lo[i].1 <= *c + 1e-9 && *c <= hi[i].1 + 1e-9, "{t}");
+    }
+    // Near Vmax the band widens: by the plan's end its top is over twice its bottom.
+    let last = lo.len() - 1;
+    assert!(
+        hi[last].1 > 2.0 * lo[last].1,
+        "{:?} {:?}",
+        lo[last],
+        hi[last]
+    );
     let pl = case.plan.as_ref().unwrap();
     let (tr, cr) = *record.last().unwrap();
     let (tp, cp) = plan[0];
