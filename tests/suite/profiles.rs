@@ -774,3 +774,17 @@ fn a_broken_profile_fails_a_case_that_uses_any_profile() {
     assert!(e.contains("gentamicin.toml: line 1: "), "{e}");
     assert!(e.contains("missing field"), "{e}");
 }
+
+#[test]
+fn a_saturable_prior_spread_of_zero_is_refused_by_its_field() {
+    // The shipped phenytoin profile with its Km spread set to 0 %: no prior could follow.
+    let text = include_str!("../../drug-profiles/phenytoin.toml").replace(
+        "km_cv_percent = { value = 50.0",
+        "km_cv_percent = { value = 0.0",
+    );
+    let e = broken(&text);
+    assert!(
+        e.contains("field saturable.prior.km_cv_percent: must be above 0, got 0"),
+        "{e}"
+    );
+}
