@@ -201,6 +201,9 @@ fn step_span(k: &Kinetics, mut c: f64, t0: f64, t1: f64, rate: f64, budget: &mut
 /// The level (mg/L) at each of `times` (any order) from the inputs, starting drug-free
 /// before the first input (or from `c0` at `t0`, inputs before `t0` ignored). NaN from where
 /// the course needs more than [`STEP_BUDGET`] steps (a stiff, implausible case).
+///
+/// One sweep over the sorted breakpoints: instant inputs by a pointer, the infusion rate by
+/// a running sum of start and end events, so a long record costs O((inputs + times) log).
 pub fn course(k: &Kinetics, inputs: &[Input], c0: f64, t0: f64, times: &[f64]) -> Vec<f64> {
     // Breakpoints: every input start and infusion end after t0, and every asked time.
     let mut marks: Vec<f64> = inputs
@@ -211,30 +214,56 @@ pub fn course(k: &Kinetics, inputs: &[Input], c0: f64, t0: f64, times: &[f64]) -
         .collect();
     marks.sort_by(f64::total_cmp);
     marks.dedup();
+    // Instant inputs in time order; infusion rate changes (time, change in mg/h) in order.
+    let mut instant: Vec<(f64, f64)> = inputs
+        .iter()
+        .filter(|d| d.hours == 0.0)
+        .map(|d| (d.t, d.amount_mg))
+        .collect();
+    instant.sort_by(|a, b| a.0.total_cmp(&b.0));
+    let mut events: Vec<(f64, f64)> = inputs
+        .iter()
+        .filter(|d| d.hours > 0.0)
+        .flat_map(|d| {
+            let rate = d.amount_mg / d.hours;
+            [(d.t, rate), (d.t + d.hours, -rate)]
+        })
+        .collect();
+    events.sort_by(|a, b| a.0.total_cmp(&b.0));
     let mut at: Vec<(f64, f64)> = Vec::with_capacity(marks.len());
     let (mut t, mut c) = (t0, c0);
     let mut budget = STEP_BUDGET;
     // Instant inputs at t0 itself count as given at t0.
-    c += inputs
-        .iter()
-        .filter(|d| d.hours == 0.0 && d.t == t0)
-        .map(|d| d.amount_mg / k.volume_l)
-        .sum::<f64>();
+    let mut next_instant = instant.partition_point(|d| d.0 < t0);
+    while let Some(d) = instant.get(next_instant).filter(|d| d.0 == t0) {
+        c += d.1 / k.volume_l;
+        next_instant += 1;
+    }
+    let (mut next_event, mut rate, mut running) = (0, 0.0, 0usize);
     for &m in &marks {
-        let rate: f64 = inputs
-            .iter()
-            .filter(|d| d.hours > 0.0 && d.t <= t && t < d.t + d.hours)
-            .map(|d| d.amount_mg / d.hours)
-            .sum();
-        c = step_span(k, c, t, m, rate, &mut budget);
+        // The rate over [t, m): every infusion with start <= t < end.
+        while let Some(e) = events.get(next_event).filter(|e| e.0 <= t) {
+            rate += e.1;
+            running = if e.1 > 0.0 {
+                running + 1
+            } else {
+                running.saturating_sub(1)
+            };
+            next_event += 1;
+        }
+        if running == 0 {
+            rate = 0.0; // no rounding left over once every infusion has ended
+        }
+        c = step_span(k, c, t, m, rate.max(0.0), &mut budget);
         t = m;
         // The level asked at an input's time is the level just before it.
         at.push((t, c));
-        c += inputs
-            .iter()
-            .filter(|d| d.hours == 0.0 && d.t == t)
-            .map(|d| d.amount_mg / k.volume_l)
-            .sum::<f64>();
+        while let Some(d) = instant.get(next_instant).filter(|d| d.0 <= t) {
+            if d.0 == t {
+                c += d.1 / k.volume_l;
+            }
+            next_instant += 1;
+        }
     }
     times
         .iter()
@@ -748,6 +777,41 @@ mod tests {
         }
         assert!((got[0] - c).abs() < 1e-6, "{} vs {c}", got[0]);
         assert!((got[1] - rk4(&PT, c, 10.0, 0.0)).abs() < 1e-6);
+    }
+
+    #[test]
+    fn overlapping_infusions_and_a_bolus_match_rk4_piece_by_piece() {
+        // 100 mg over 0-2 h, 200 mg over 1-3 h and 300 mg at once at 2 h: 50 mg/h, then
+        // 150, then 100 (after the bolus), then nothing.
+        let inputs = [
+            Input {
+                t: 1.0,
+                amount_mg: 200.0,
+                hours: 2.0,
+            },
+            Input {
+                t: 2.0,
+                amount_mg: 300.0,
+                hours: 0.0,
+            },
+            Input {
+                t: 0.0,
+                amount_mg: 100.0,
+                hours: 2.0,
+            },
+        ];
+        let got = course(&PT, &inputs, 0.0, -1.0, &[2.0, 5.0, 1.5]);
+        let c1 = rk4(&PT, 0.0, 1.0, 50.0);
+        let c15 = rk4(&PT, c1, 0.5, 150.0);
+        let c2 = rk4(&PT, c1, 1.0, 150.0);
+        let c3 = rk4(&PT, c2 + 300.0 / 49.0, 1.0, 100.0);
+        let c5 = rk4(&PT, c3, 2.0, 0.0);
+        assert!((got[0] - c2).abs() < 1e-6, "{} vs {c2}", got[0]);
+        assert!((got[1] - c5).abs() < 1e-6, "{} vs {c5}", got[1]);
+        assert!((got[2] - c15).abs() < 1e-6, "{} vs {c15}", got[2]);
+        // Started from a level at 1.5 h: the infusions still running carry on.
+        let from = course(&PT, &inputs, c15, 1.5, &[5.0])[0];
+        assert!((from - c5).abs() < 1e-6, "{from} vs {c5}");
     }
 
     #[test]
