@@ -202,3 +202,31 @@ fn dialysis_sessions_are_shaded_on_the_charts() {
     );
     insta::assert_snapshot!("dialysis_case_160x48", draw(&app, 160, 48).backend());
 }
+
+#[test]
+fn phenytoin_on_two_daily_doses_charts_the_record_fit_with_its_band() {
+    // Levels on two daily doses identify Vmax and Km: the record fit is used, the Bayesian
+    // estimate shown beside it, and the chart carries the 95 % band from the fit's curvature.
+    let path = std::path::Path::new("tests/cases/valid/phenytoin_two_levels.toml");
+    let mut app = App::open(path);
+    assert!(app.load_error.is_none());
+    app.screen = Screen::Fit;
+    let text = screen_text(&app, 160, 48);
+    assert!(
+        text.contains("fit to the dose record (Vmax and Km)"),
+        "{text}"
+    );
+    assert!(text.contains("Bayesian     Vmax"), "{text}");
+    assert!(
+        !text.contains("Record fit"),
+        "the fit used is not repeated\n{text}"
+    );
+    assert!(
+        text.contains("┈ 95 % band") && text.contains("● in fit"),
+        "{text}"
+    );
+    insta::assert_snapshot!(
+        "phenytoin_two_levels_fit_160x48",
+        draw(&app, 160, 48).backend()
+    );
+}
