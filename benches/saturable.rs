@@ -11,7 +11,7 @@ use ebb::core::casefile::CaseFile;
 use ebb::core::saturable_report;
 
 /// An invented case: `days` daily oral doses of 300 mg phenytoin sodium for a 70-kg patient,
-/// five levels a month apart ending on the last day, and a plan of 325 mg/day.
+/// five levels ending on the last day, and a plan of 325 mg/day.
 fn case(days: usize) -> CaseFile {
     let start = chrono::NaiveDate::from_ymd_opt(2026, 1, 1)
         .and_then(|d| d.and_hms_opt(8, 0, 0))
@@ -28,9 +28,16 @@ fn case(days: usize) -> CaseFile {
             at(d)
         );
     }
+    // Five levels a month apart (or a week apart on a short record), the last on the last day.
+    let gap = if days > 150 { 30 } else { 7 };
     for j in (0..5i64).rev() {
-        let day = (days as i64 - 1 - 30 * j).max(1);
-        let _ = write!(s, "[[level]]\ntime = {}\nvalue = {}\n", at(day), 11.0 + j as f64 * 0.2);
+        let day = days as i64 - 1 - gap * j;
+        let _ = write!(
+            s,
+            "[[level]]\ntime = {}\nvalue = {}\n",
+            at(day),
+            11.0 + j as f64 * 0.2
+        );
     }
     s.push_str("[plan]\ndose_mg = 325.0\ninterval_h = 24.0\nroute = \"oral\"\n");
     CaseFile::parse(&s).expect("the invented case parses")
