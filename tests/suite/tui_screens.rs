@@ -151,6 +151,15 @@ fn phenytoin_fit_and_plan_screens_show_vmax_km_the_adjusted_level_and_the_dose()
                     "the dose for the target\n{text}"
                 );
             }
+            // The plan screen charts the projected course when it is tall enough, with every
+            // warning still in view.
+            if screen == Screen::Plan && h >= 48 {
+                assert!(
+                    text.contains("━ plan") && text.contains("┈ 95 % band"),
+                    "{text}"
+                );
+                assert!(text.contains("confirm it with levels"), "{text}");
+            }
             if screen == Screen::Fit {
                 assert!(
                     text.contains("━ model") && text.contains("━ plan"),

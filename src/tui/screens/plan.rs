@@ -183,9 +183,33 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
     let lines: Vec<Line> = lines.into_iter().skip(skip).collect();
     Paragraph::new(lines).render(left, buf);
     if let Some((case, s)) = saturable {
-        let w = usize::from(chart_area.width);
-        let lines = screens::saturable::fit_lines(case, s, w, false);
-        return Paragraph::new(lines).render(chart_area, buf);
+        // On a tall screen the projected course of the plan (with its 95 % band) above the
+        // figures and warnings; on a short one the warnings keep the room.
+        let mut text_area = chart_area;
+        let mut charted = false;
+        if let Some(c) = app
+            .figures
+            .saturable_chart()
+            .filter(|c| !c.curves.is_empty() && chart_area.height >= 30)
+        {
+            let [top, rest] = Layout::vertical([Constraint::Percentage(45), Constraint::Min(1)])
+                .spacing(1)
+                .areas(chart_area);
+            SemiLogChart {
+                data: c,
+                unit: &unit,
+            }
+            .render(top, buf);
+            text_area = rest;
+            charted = true;
+        }
+        let w = usize::from(text_area.width);
+        let lines = if charted {
+            screens::saturable::summary_lines(s, w)
+        } else {
+            screens::saturable::fit_lines(case, s, w, false)
+        };
+        return Paragraph::new(lines).render(text_area, buf);
     }
     match app.figures.plan_chart() {
         Some(c) => SemiLogChart {

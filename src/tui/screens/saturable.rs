@@ -146,14 +146,49 @@ pub fn fit_lines(case: &Case, s: &Saturable, width: usize, with_doses: bool) -> 
     if with_doses {
         out.extend(dose_lines(case, s, width));
     }
-    if !r.warnings.is_empty() {
+    out.extend(warning_lines(s, width));
+    out
+}
+
+/// The warnings, under their heading (none without warnings).
+fn warning_lines(s: &Saturable, width: usize) -> Vec<Line<'static>> {
+    let mut out = Vec::new();
+    if !s.report.warnings.is_empty() {
         out.push(Line::styled(strings::WARNINGS_HEADING, heading()));
-        for w in &r.warnings {
+        for w in &s.report.warnings {
             for l in widgets::wrap(&format!("- {w}"), width) {
                 out.push(Line::styled(l, problem_style()));
             }
         }
     }
+    out
+}
+
+/// Under the plan screen's chart: Vmax and Km with their ranges and how they were found (the
+/// rest is on the fit screen), then the warnings.
+pub fn summary_lines(s: &Saturable, width: usize) -> Vec<Line<'static>> {
+    let r = &s.report;
+    let range = |x: Option<[f64; 2]>| {
+        x.map(|[a, b]| format!(" {}", strings::saturable_range95(&num(a), &num(b))))
+            .unwrap_or_default()
+    };
+    let mut out: Vec<Line<'static>> = widgets::wrap(strings::SATURABLE_HEADING, width)
+        .into_iter()
+        .map(|l| Line::styled(l, heading()))
+        .collect();
+    out.extend(kv(
+        "Vmax, Km",
+        format!(
+            "{} mg/day{}, {} mg/L{}; {}",
+            num(r.vmax_mg_per_day),
+            range(r.ranges.map(|g| g.vmax)),
+            num(r.km_mg_l),
+            range(r.ranges.map(|g| g.km)),
+            r.method.words()
+        ),
+        width,
+    ));
+    out.extend(warning_lines(s, width));
     out
 }
 
