@@ -120,6 +120,16 @@ fn the_text_report_and_the_note_say_what_holds_and_what_does_not() {
         );
         assert!(note.contains("free level 1.4 mg/L"), "{note}");
         assert!(note.contains("albumin 2.5 g/dL, renal failure"), "{note}");
+        // The record note carries the estimate used, its ranges and the priors.
+        assert!(
+            note.contains("used: Bayesian fit to the dose record with population priors"),
+            "{note}"
+        );
+        assert!(
+            note.contains("95 % range (Laplace approximation at the Bayesian estimate)"),
+            "{note}"
+        );
+        assert!(note.contains("Km 5.7 mg/L (CV 50 %)"), "{note}");
     }
 }
 
