@@ -1,6 +1,6 @@
-//! Bayesian (maximum a posteriori) estimate of k and V from a published population model and
-//! any number of levels — none gives the population values for this patient (the a-priori
-//! estimate).
+//! Bayesian (maximum a posteriori) estimate of k and V — or, with a two-compartment model,
+//! of CL, V1, Q and V2 — from a published population model and any number of levels — none
+//! gives the population values for this patient (the a-priori estimate).
 //!
 //! The objective (η: the patient's log-deviations from the typical clearance or k and from
 //! the typical volume; Ω: their between-patient covariance; y: the levels; ŷ(η): the model's
@@ -14,6 +14,13 @@
 //! of η is the inverse of half the Hessian of OBJ at the minimum (the Laplace approximation);
 //! carried to (ln k, ln V) it gives the 95 % intervals (normal quantile 1.96). With no level
 //! the covariance is Ω itself and the intervals are the population's 90 % range (1.645).
+//!
+//! A two-compartment model has an η for each of (CL, V1, Q, V2) that has a between-patient
+//! variability (the others stay at their typical values); ŷ is the two-compartment level
+//! over the whole dose record (`Disposition::levels`), so a level drawn in the distribution
+//! phase counts as drawn. The posterior covariance of η is that of ln(CL, V1, Q, V2) (zero for
+//! a fixed parameter), from which the intervals of β (the terminal k), V1 and CL follow by
+//! the delta method.
 
 use statrs::distribution::{ContinuousCDF, Normal};
 
@@ -22,9 +29,9 @@ use crate::core::error::{Error, Result};
 use crate::core::fitted::{Fit, Method};
 use crate::core::history::{self, Solution};
 use crate::core::minimise;
-use crate::core::model::{Administration, Route, Schedule};
+use crate::core::model::{self, Administration, Disposition, Route, Schedule, TwoCompartment};
 pub use crate::core::population::{Population, Summary};
-use crate::core::spread::Spread;
+use crate::core::spread::{ParamSpread, Spread};
 use crate::core::warning::{Code, Warning};
 
 /// The two-sided normal quantile for a central range holding `p`.
@@ -69,12 +76,27 @@ pub fn objective(
     below: &[(f64, f64)],
     x: &[f64],
 ) -> f64 {
+    if pop.two.is_some() {
+        return objective_two(pop, schedule, points, below, x);
+    }
     let eta = eta_of(x);
     let (k, v) = pop.k_and_v(eta);
     let ts: Vec<f64> = points.iter().chain(below).map(|p| p.0).collect();
     let predicted = schedule.levels(k, v, &ts);
+    data_term(pop, points, below, &predicted) + prior_term(pop, x)
+}
+
+/// The levels' part of OBJ: Σ [(y − ŷ)²/Var + ln Var] over `points`, − 2 ln Φ((L − ŷ)/√Var)
+/// over the levels `below` the assay's limit; `predicted` holds ŷ at the points, then at
+/// the bounds.
+fn data_term(
+    pop: &Population,
+    points: &[(f64, f64)],
+    below: &[(f64, f64)],
+    predicted: &[f64],
+) -> f64 {
     let mut total = 0.0;
-    for ((_, y), yhat) in points.iter().zip(&predicted) {
+    for ((_, y), yhat) in points.iter().zip(predicted) {
         let var = pop.residual.variance(*yhat);
         total += (y - yhat).powi(2) / var + var.ln();
     }
@@ -84,7 +106,7 @@ pub fn objective(
         let p = normal.as_ref().map_or(f64::NAN, |n| n.cdf(z));
         total -= 2.0 * p.max(1e-300).ln();
     }
-    total + prior_term(pop, x)
+    total
 }
 
 /// ηᵀ Ω⁻¹ η over the free η.
@@ -97,6 +119,185 @@ fn prior_term(pop: &Population, x: &[f64]) -> f64 {
     let r = pop.correlation;
     let (a, b) = (x[0] / w0, x[1] / w1);
     (a * a - 2.0 * r * a * b + b * b) / (1.0 - r * r)
+}
+
+/// The parameters of a two-compartment model that have a between-patient variability, as
+/// indices into (CL, V1, Q, V2).
+pub fn free_two(pop: &Population) -> Vec<usize> {
+    pop.omega_two()
+        .iter()
+        .enumerate()
+        .filter(|(_, w)| w.is_some())
+        .map(|(i, _)| i)
+        .collect()
+}
+
+/// The η of (CL, V1, Q, V2) for the free values `x` (in the order of [`free_two`]); 0 for a
+/// fixed parameter.
+fn eta_two(free: &[usize], x: &[f64]) -> [f64; 4] {
+    let mut eta = [0.0; 4];
+    for (&i, &xi) in free.iter().zip(x) {
+        eta[i] = xi;
+    }
+    eta
+}
+
+/// Ω over the free η of a two-compartment model, and its inverse.
+fn omega_free(pop: &Population, free: &[usize]) -> (Vec<Vec<f64>>, Option<Vec<Vec<f64>>>) {
+    let full = pop.omega_two_matrix();
+    let om: Vec<Vec<f64>> = free
+        .iter()
+        .map(|&i| free.iter().map(|&j| full[i][j]).collect())
+        .collect();
+    let inv = minimise::inverse(&om);
+    (om, inv)
+}
+
+/// OBJ(η) for a two-compartment model, `x` the free η in the order of [`free_two`].
+pub fn objective_two(
+    pop: &Population,
+    schedule: &Schedule,
+    points: &[(f64, f64)],
+    below: &[(f64, f64)],
+    x: &[f64],
+) -> f64 {
+    let free = free_two(pop);
+    let (_, inv) = omega_free(pop, &free);
+    let Some(inv) = inv else {
+        return f64::NAN;
+    };
+    objective_two_with(pop, schedule, points, below, &free, &inv, x)
+}
+
+fn objective_two_with(
+    pop: &Population,
+    schedule: &Schedule,
+    points: &[(f64, f64)],
+    below: &[(f64, f64)],
+    free: &[usize],
+    inv: &[Vec<f64>],
+    x: &[f64],
+) -> f64 {
+    let d = pop.disposition(&eta_two(free, x));
+    let ts: Vec<f64> = points.iter().chain(below).map(|p| p.0).collect();
+    let predicted = d.levels(schedule, &ts);
+    let mut prior = 0.0;
+    for (i, xi) in x.iter().enumerate() {
+        for (j, xj) in x.iter().enumerate() {
+            prior += xi * inv[i][j] * xj;
+        }
+    }
+    data_term(pop, points, below, &predicted) + prior
+}
+
+/// A maximum a posteriori estimate of a two-compartment model.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TwoEstimate {
+    /// CL, V1, Q and V2 at the estimate.
+    pub two: TwoCompartment,
+    /// η of (CL, V1, Q, V2) at the minimum (0 for a fixed parameter).
+    pub eta: [f64; 4],
+    /// Posterior covariance of η, which is that of ln(CL, V1, Q, V2) (zero rows and columns
+    /// for a fixed parameter); Ω itself with no level.
+    pub cov_eta: [[f64; 4]; 4],
+    /// Two-sided quantile of the intervals: 1.959964 (95 %) after levels, 1.644854 (the
+    /// population's 90 % range) with none.
+    pub quantile: f64,
+    /// The model's level at each point, mg/L.
+    pub predicted: Vec<f64>,
+    /// ln(measured) − ln(predicted), per point.
+    pub residuals: Vec<f64>,
+}
+
+impl TwoEstimate {
+    /// The joint uncertainty of ln(CL, V1, Q, V2).
+    pub fn param_spread(&self) -> ParamSpread {
+        ParamSpread {
+            cov: self.cov_eta.iter().map(|r| r.to_vec()).collect(),
+            quantile: self.quantile,
+        }
+    }
+}
+
+/// The gradient of ln β (the terminal rate constant) in ln(CL, V1, Q, V2), by central
+/// differences (step 1e-6 in each log).
+pub fn terminal_gradient(two: &TwoCompartment) -> [f64; 4] {
+    let d = Disposition::Two(*two);
+    let p = d.params();
+    let h = 1e-6;
+    let mut g = [0.0; 4];
+    for (i, gi) in g.iter_mut().enumerate() {
+        let at = |s: f64| {
+            let mut q = p.clone();
+            q[i] *= s.exp();
+            d.with_params(&q).terminal_k().ln()
+        };
+        *gi = (at(h) - at(-h)) / (2.0 * h);
+    }
+    g
+}
+
+/// The two-compartment estimate from points `(t, mg/L)` after `doses` and levels `below`
+/// `(t, limit mg/L)` reported below the assay's limit (none of either: the population
+/// values with Ω).
+///
+/// # Errors
+/// None found (the objective is not finite at the population values, or does not settle),
+/// or a terminal half-life outside what the levels can have determined.
+pub fn estimate_two(
+    doses: &[Administration],
+    points: &[(f64, f64)],
+    below: &[(f64, f64)],
+    pop: &Population,
+) -> std::result::Result<TwoEstimate, history::Failure> {
+    let schedule = Schedule::new(doses);
+    let free = free_two(pop);
+    let (om, inv) = omega_free(pop, &free);
+    let inv = inv.ok_or(history::Failure::NotSeparable)?;
+    let none = points.is_empty() && below.is_empty();
+    let (x, cov_free) = if none || free.is_empty() {
+        (vec![0.0; free.len()], om)
+    } else {
+        let f = |x: &[f64]| objective_two_with(pop, &schedule, points, below, &free, &inv, x);
+        let m = minimise::minimise(&f, &vec![0.0; free.len()])
+            .ok_or(history::Failure::NoElimination)?;
+        let half: Vec<Vec<f64>> = m
+            .hessian
+            .iter()
+            .map(|r| r.iter().map(|v| v / 2.0).collect())
+            .collect();
+        let cov = minimise::inverse(&half).ok_or(history::Failure::NotSeparable)?;
+        if (0..free.len()).any(|i| cov[i][i].is_nan() || cov[i][i] <= 0.0) {
+            return Err(history::Failure::NotSeparable);
+        }
+        (m.x, cov)
+    };
+    let eta = eta_two(&free, &x);
+    let mut cov_eta = [[0.0; 4]; 4];
+    for (a, &i) in free.iter().enumerate() {
+        for (b, &j) in free.iter().enumerate() {
+            cov_eta[i][j] = cov_free[a][b];
+        }
+    }
+    let Disposition::Two(two) = pop.disposition(&eta) else {
+        return Err(history::Failure::NoElimination);
+    };
+    history::check_plausible(two.rates().1.ln())?;
+    let ts: Vec<f64> = points.iter().map(|p| p.0).collect();
+    let predicted = Disposition::Two(two).levels(&schedule, &ts);
+    let residuals = points
+        .iter()
+        .zip(&predicted)
+        .map(|((_, y), yhat)| y.ln() - yhat.ln())
+        .collect();
+    Ok(TwoEstimate {
+        two,
+        eta,
+        cov_eta,
+        quantile: normal_quantile(if none { 0.90 } else { 0.95 }),
+        predicted,
+        residuals,
+    })
 }
 
 /// The estimate from points `(t, mg/L)` after `doses` (any number of points; none gives the
@@ -194,6 +395,25 @@ pub fn summarise(pop: &Population, est: &Estimate, sources: &[String]) -> Summar
         elimination_shift_sd: shift(0),
         volume_shift_sd: shift(1),
         prior_share: [share(0), share(1)],
+        peripheral_shift_sd: [None, None],
+        peripheral_prior_share: [None, None],
+        sources: sources.to_vec(),
+    }
+}
+
+/// As [`summarise`], for a two-compartment estimate: CL stands for the elimination and V1 for
+/// the volume, and Q and V2 have their own shift and share.
+pub fn summarise_two(pop: &Population, est: &TwoEstimate, sources: &[String]) -> Summary {
+    let w = pop.omega_two();
+    let shift = |i: usize| w[i].map(|w| est.eta[i] / w);
+    let share = |i: usize| w[i].map(|w| est.cov_eta[i][i] / (w * w));
+    Summary {
+        population: pop.clone(),
+        elimination_shift_sd: shift(0).unwrap_or(0.0),
+        volume_shift_sd: shift(1).unwrap_or(0.0),
+        prior_share: [share(0), share(1)],
+        peripheral_shift_sd: [shift(2), shift(3)],
+        peripheral_prior_share: [share(2), share(3)],
         sources: sources.to_vec(),
     }
 }
@@ -287,7 +507,8 @@ pub fn population_of(case: &Case) -> Result<Population> {
 pub fn fit(case: &Case) -> Result<Fit> {
     let model = case.prior.as_ref();
     let pop = population_of(case)?;
-    let (used, mut warnings) = history::usable_levels(case);
+    let two_name = pop.two.map(|_| pop.model.as_str());
+    let (used, mut warnings) = history::usable_levels_with(case, two_name);
     let given = if used.is_empty() && case.doses.is_empty() {
         Vec::new()
     } else {
@@ -310,7 +531,7 @@ pub fn fit(case: &Case) -> Result<Fit> {
                 .map(|l| (l.t, l.mg_l))
                 .collect()
         };
-    let est = estimate_with_bounds(&given, &points, &below, &pop).map_err(|_| {
+    let no_estimate = |_| {
         let names: Vec<String> = used.iter().map(|&i| case.level_name(i)).collect();
         let (place, which) = if names.is_empty() {
             ("dose".to_string(), "the dose record".to_string())
@@ -324,9 +545,18 @@ pub fn fit(case: &Case) -> Result<Fit> {
                 pop.model
             ),
         )
-    })?;
+    };
+    let sources = model.map_or(&[][..], |m| &m.sources);
+    let (est, summary) = if pop.two.is_some() {
+        let e = estimate_two(&given, &points, &below, &pop).map_err(no_estimate)?;
+        let summary = summarise_two(&pop, &e, sources);
+        (Estimated::Two(e), summary)
+    } else {
+        let e = estimate_with_bounds(&given, &points, &below, &pop).map_err(no_estimate)?;
+        let summary = summarise(&pop, &e, sources);
+        (Estimated::One(e), summary)
+    };
     warnings.extend(pop.warnings.iter().cloned());
-    let summary = summarise(&pop, &est, model.map_or(&[][..], |m| &m.sources));
     if used.is_empty() && below.is_empty() && !model.is_none_or(|m| m.a_priori) {
         return Err(Error::invalid(
             "level",
@@ -337,13 +567,21 @@ pub fn fit(case: &Case) -> Result<Fit> {
             ),
         ));
     }
+    let two = pop.two.is_some();
     let method = if used.is_empty() && below.is_empty() {
         warnings.push(Warning::new(
             Code::PriorWeighs,
-            format!(
-                "no level is in the fit: k and V are the typical values of the population model {} for this patient, not measured ones; the ranges are the population's 90 % range",
-                pop.model
-            ),
+            if two {
+                format!(
+                    "no level is in the fit: CL, V1, Q and V2 are the typical values of the two-compartment population model {} for this patient, not measured ones; the ranges are the population's 90 % range",
+                    pop.model
+                )
+            } else {
+                format!(
+                    "no level is in the fit: k and V are the typical values of the population model {} for this patient, not measured ones; the ranges are the population's 90 % range",
+                    pop.model
+                )
+            },
         ));
         Method::Population
     } else {
@@ -370,6 +608,16 @@ pub fn fit(case: &Case) -> Result<Fit> {
                     (1.0 - share) * 100.0
                 ),
             ));
+        } else if two {
+            warnings.push(Warning::new(
+                Code::PriorWeighs,
+                format!(
+                    "CL, V1, Q and V2 are a Bayesian estimate from {levels} and the two-compartment population model {} ({} from the levels, the rest at the model's typical values); the levels carry {:.0} % of what is known of this patient's clearance, the model the rest",
+                    pop.model,
+                    varied_words(&pop),
+                    (1.0 - share) * 100.0
+                ),
+            ));
         } else {
             warnings.push(Warning::new(
                 Code::PriorWeighs,
@@ -380,7 +628,11 @@ pub fn fit(case: &Case) -> Result<Fit> {
                 ),
             ));
         }
-        warnings.extend(unexpected_levels(case, &used, &given, &points, &pop));
+        if two {
+            warnings.extend(unexpected_levels_two(case, &used, &given, &points, &pop));
+        } else {
+            warnings.extend(unexpected_levels(case, &used, &given, &points, &pop));
+        }
         Method::Bayesian
     };
     warnings.extend(dose_dependence(case, &pop));
@@ -388,14 +640,152 @@ pub fn fit(case: &Case) -> Result<Fit> {
         Code::PopulationCovariates,
         covariate_words(&pop),
     ));
-    Ok(history::to_fit(
-        case,
-        method,
-        used,
-        &est.solution,
-        warnings,
-        Some(summary),
-    ))
+    if let Some(reason) = &case.prior_reason {
+        warnings.push(Warning::new(
+            Code::ModelChoice,
+            format!(
+                "population model {} ({}): {reason}",
+                pop.model,
+                if two {
+                    "two compartments"
+                } else {
+                    "one compartment"
+                }
+            ),
+        ));
+    }
+    Ok(match est {
+        Estimated::One(e) => {
+            history::to_fit(case, method, used, &e.solution, warnings, Some(summary))
+        }
+        Estimated::Two(e) => to_fit_two(case, method, used, &given, &e, warnings, summary),
+    })
+}
+
+/// The estimate of either kind of model.
+enum Estimated {
+    One(Estimate),
+    Two(TwoEstimate),
+}
+
+/// Which of CL, V1, Q and V2 the levels can move, in words ("CL, V1 and V2").
+fn varied_words(pop: &Population) -> String {
+    let names = ["CL", "V1", "Q", "V2"];
+    let free: Vec<&str> = free_two(pop).iter().map(|&i| names[i]).collect();
+    match free.split_last() {
+        None => "none".to_string(),
+        Some((last, [])) => (*last).to_string(),
+        Some((last, rest)) => format!("{} and {last}", rest.join(", ")),
+    }
+}
+
+/// A `Fit` from a two-compartment estimate: the disposition itself, k = β (the terminal rate
+/// constant) and its half-life, V1 as the volume, CL, the joint spread of ln(CL, V1, Q, V2) and
+/// the intervals of β, its half-life, V1 and CL by the delta method on it.
+fn to_fit_two(
+    case: &Case,
+    method: Method,
+    used: Vec<usize>,
+    given: &[Administration],
+    est: &TwoEstimate,
+    warnings: Vec<Warning>,
+    summary: Summary,
+) -> Fit {
+    let two = est.two;
+    let beta = two.rates().1;
+    let sol = history::Solution {
+        k: beta,
+        v: two.v1,
+        spread: None,
+        residuals: est.residuals.clone(),
+        iterations: 0,
+    };
+    let mut fit = history::to_fit(case, method, used, &sol, warnings, Some(summary));
+    let d = Disposition::Two(two);
+    // The terminal line through the model's level at the last fitted level (else the end of
+    // the last dose), as the one-compartment fits leave it.
+    let t_ref = fit
+        .used
+        .last()
+        .map(|&i| case.levels[i].t)
+        .unwrap_or_else(|| given.iter().map(|g| g.end()).fold(0.0, f64::max));
+    let c_ref = Some(d.superpose(given, t_ref))
+        .filter(|c| *c > 0.0)
+        .unwrap_or(1.0);
+    fit.ln_intercept = c_ref.ln() + beta * t_ref;
+    fit.half_life_h = model::half_life(beta);
+    fit.clearance_l_per_h = Some(two.cl);
+    fit.two = Some(two);
+    let spread = est.param_spread();
+    let g_beta = terminal_gradient(&two);
+    let k_ci = spread.interval(beta, &g_beta);
+    let v_ci = spread.interval(two.v1, &[0.0, 1.0, 0.0, 0.0]);
+    let cl_ci = spread.interval(two.cl, &[1.0, 0.0, 0.0, 0.0]);
+    let finite = [k_ci, v_ci, cl_ci]
+        .iter()
+        .flatten()
+        .all(|x| x.is_finite() && *x > 0.0);
+    if finite {
+        fit.se_k = Some(beta * spread.se_ln(&g_beta));
+        fit.k_ci95 = Some(k_ci);
+        fit.half_life_ci95 = Some([model::half_life(k_ci[1]), model::half_life(k_ci[0])]);
+        // A central volume the model holds at its typical value has no interval.
+        fit.volume_ci95 = (est.cov_eta[1][1] > 0.0).then_some(v_ci);
+        fit.clearance_ci95 = Some(cl_ci);
+        fit.param_spread = Some(spread);
+    } else {
+        fit.warnings.push(Warning::new(
+            Code::WideIntervals,
+            "the levels barely bound the clearance and volumes: their 95 % intervals are too wide to give",
+        ));
+    }
+    fit
+}
+
+/// As [`unexpected_levels`], for a two-compartment model: the between-patient spread of every
+/// free η of (CL, V1, Q, V2) carried to each level's log by central differences.
+fn unexpected_levels_two(
+    case: &Case,
+    used: &[usize],
+    given: &[Administration],
+    points: &[(f64, f64)],
+    pop: &Population,
+) -> Vec<Warning> {
+    let schedule = Schedule::new(given);
+    let ts: Vec<f64> = points.iter().map(|p| p.0).collect();
+    let at = |eta: [f64; 4]| pop.disposition(&eta).levels(&schedule, &ts);
+    let base = at([0.0; 4]);
+    let h = 1e-5;
+    let free = free_two(pop);
+    let moved: Vec<Vec<f64>> = free
+        .iter()
+        .map(|&i| {
+            let mut eta = [0.0; 4];
+            eta[i] = h;
+            at(eta)
+        })
+        .collect();
+    let om = pop.omega_two_matrix();
+    let mut out = Vec::new();
+    for (j, &i) in used.iter().enumerate() {
+        let (y, yhat) = (points[j].1, base[j]);
+        if yhat.is_nan() || yhat <= 0.0 {
+            continue;
+        }
+        let g: Vec<f64> = moved.iter().map(|m| (m[j].ln() - yhat.ln()) / h).collect();
+        let mut between = 0.0;
+        for (a, &p) in free.iter().enumerate() {
+            for (b, &q) in free.iter().enumerate() {
+                between += g[a] * om[p][q] * g[b];
+            }
+        }
+        let var = between + pop.residual.variance(yhat) / (yhat * yhat);
+        let z = (y.ln() - yhat.ln()) / var.sqrt();
+        if z.abs() > 3.0 {
+            out.push(far_level(case, i, y, yhat, z, &pop.model));
+        }
+    }
+    out
 }
 
 /// Levels far from the population model's prediction for this patient: more than 3 SDs on
@@ -430,25 +820,29 @@ fn unexpected_levels(
         let var = between + pop.residual.variance(yhat) / (yhat * yhat);
         let z = (y.ln() - yhat.ln()) / var.sqrt();
         if z.abs() > 3.0 {
-            let scale = case.drug.scale;
-            out.push(Warning::about_level(
-                Code::LevelUnexpected,
-                case.levels[i].row,
-                format!(
-                    "{} ({} {}) is far from what the population model {} predicts for this patient ({} {}, {:.1} SDs {}): check the sample time, the dose times and where the sample was drawn",
-                    case.level_name(i),
-                    crate::core::format::num(scale.to_level(y)),
-                    scale.unit.as_str(),
-                    pop.model,
-                    crate::core::format::num(scale.to_level(yhat)),
-                    scale.unit.as_str(),
-                    z.abs(),
-                    if z > 0.0 { "above" } else { "below" }
-                ),
-            ));
+            out.push(far_level(case, i, y, yhat, z, &pop.model));
         }
     }
     out
+}
+
+/// The warning for level `i` (`y` mg/L) lying `z` SDs from the model's `yhat`.
+fn far_level(case: &Case, i: usize, y: f64, yhat: f64, z: f64, model: &str) -> Warning {
+    let scale = case.drug.scale;
+    Warning::about_level(
+        Code::LevelUnexpected,
+        case.levels[i].row,
+        format!(
+            "{} ({} {}) is far from what the population model {model} predicts for this patient ({} {}, {:.1} SDs {}): check the sample time, the dose times and where the sample was drawn",
+            case.level_name(i),
+            crate::core::format::num(scale.to_level(y)),
+            scale.unit.as_str(),
+            crate::core::format::num(scale.to_level(yhat)),
+            scale.unit.as_str(),
+            z.abs(),
+            if z > 0.0 { "above" } else { "below" }
+        ),
+    )
 }
 
 /// Which covariates the population values used, in words.

@@ -228,11 +228,15 @@ pub struct Case {
     pub regimen: RegimenOptions,
     /// The fit method the case asks for (`[fit] method`); None lets the fit choose.
     pub fit_method: Option<FitChoice>,
-    /// The drug profile's population model, when it has one.
+    /// The population model: the one the case names (`[fit] model`), else the drug profile's
+    /// default, when it has one.
     pub prior: Option<Model>,
     /// Haemodialysis sessions (`[[dialysis_session]]`), sorted by start (rows keep their file
     /// numbers); marked on the course, not modelled.
     pub dialysis_sessions: Vec<DialysisSession>,
+    /// Why `prior` is the case's model, when the profile offers more than one (the profile's
+    /// reason for its default, or that the case chose it).
+    pub prior_reason: Option<String>,
 }
 
 /// One haemodialysis session (`[[dialysis_session]]`): marked on the course, not modelled.

@@ -71,6 +71,10 @@ pub struct FitFile {
     /// "log-linear", "dose-history" or "bayesian"; unset lets the fit choose.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub method: Option<String>,
+    /// The drug profile's population model by name (first author and year, e.g.
+    /// "goti-2018"); unset: the profile's default.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub model: Option<String>,
 }
 
 /// `[patient]` as written.
@@ -357,8 +361,13 @@ pub struct Defaults {
     pub bioavailability: Option<f64>,
     /// Targets, used when the case has no `[targets]`.
     pub targets: Targets,
-    /// The profile's population model.
+    /// The profile's default population model.
     pub prior: Option<Model>,
+    /// Every population model the profile offers (a case's `[fit] model` names one of them;
+    /// empty: only `prior`, if any).
+    pub models: Vec<Model>,
+    /// Why the default model is the default (shown when the profile offers several).
+    pub model_reason: Option<String>,
     /// The practical choices regimen suggestions are searched over (usual intervals, dose
     /// rounding); `None` keeps `RegimenOptions::default()`.
     pub regimen: Option<RegimenOptions>,
@@ -717,6 +726,8 @@ impl CaseFile {
 
         let switch = self.switch.as_ref().map(validate_switch).transpose()?;
         let dialysis_sessions = validate_sessions(&self.dialysis_sessions, &sessions_at, &clock)?;
+        let (prior, prior_reason) =
+            choose_model(self.fit.as_ref().and_then(|f| f.model.as_deref()), defaults)?;
 
         Ok(Case {
             dialysis_sessions,
@@ -731,9 +742,62 @@ impl CaseFile {
             threshold,
             clock,
             fit_method,
-            prior: defaults.prior.clone(),
+            prior,
+            prior_reason,
         })
     }
+}
+
+/// The case's population model: the one `[fit] model` names among the profile's, else the
+/// profile's default; and why, when the profile offers more than one.
+fn choose_model(
+    named: Option<&str>,
+    defaults: &Defaults,
+) -> Result<(Option<Model>, Option<String>)> {
+    let offered: Vec<&Model> = if defaults.models.is_empty() {
+        defaults.prior.iter().collect()
+    } else {
+        defaults.models.iter().collect()
+    };
+    let several = offered.len() > 1;
+    let default_reason = || {
+        defaults
+            .model_reason
+            .as_ref()
+            .filter(|_| several)
+            .map(|r| format!("the drug profile's default: {r}"))
+    };
+    let Some(name) = named else {
+        return Ok((defaults.prior.clone(), default_reason()));
+    };
+    if offered.is_empty() {
+        return Err(Error::invalid(
+            "fit.model",
+            format!(
+                "the case names the population model {}, but no drug profile with a population model is named (drug.profile)",
+                text::quoted(name)
+            ),
+        ));
+    }
+    let Some(m) = offered.iter().find(|m| m.name == name) else {
+        let names: Vec<&str> = offered.iter().map(|m| m.name.as_str()).collect();
+        return Err(Error::invalid(
+            "fit.model",
+            format!(
+                "the drug profile has no population model {}; it has {}",
+                text::quoted(name),
+                names.join(", ")
+            ),
+        ));
+    };
+    let reason = match &defaults.prior {
+        Some(d) if several && d.name != name => Some(format!(
+            "chosen in the case ([fit] model) over the drug profile's default {}",
+            d.name
+        )),
+        _ => default_reason(),
+    };
+    Ok((Some((*m).clone()), reason))
 }
 
 /// The most `[[dose]]` rows a case may hold: far above any real record (a dose every hour
@@ -783,6 +847,7 @@ impl CaseFile {
         }
         if let Some(f) = &self.fit {
             push(&mut out, "fit.method".into(), f.method.as_ref());
+            push(&mut out, "fit.model".into(), f.model.as_ref());
         }
         out
     }

@@ -1,10 +1,12 @@
 //! A population model evaluated for one patient: the covariates it uses (creatinine clearance
-//! by the model's own rule, body size), the typical k, V and CL, the between-patient spread,
+//! by the model's own rule, body size), the typical k, V and CL (and, for two compartments,
+//! CL, V1, Q and V2), the between-patient spread,
 //! the residual error, where the patient lies outside the population studied — and, after an
 //! estimate, how far it moved from the typical values.
 
 use crate::core::case::{Patient, Sex};
 use crate::core::error::{Error, Result};
+use crate::core::model::{Disposition, TwoCompartment};
 use crate::core::prior::{Covariate, Elimination, Form, Model, Residual};
 use crate::core::renal::{self, BodySize, CreatinineClearance};
 use crate::core::warning::{Code, Warning};
@@ -16,9 +18,9 @@ pub struct Population {
     pub model: String,
     /// The model in words.
     pub label: String,
-    /// Typical k for this patient, 1/h.
+    /// Typical k for this patient, 1/h (two compartments: the terminal rate constant β).
     pub k_per_h: f64,
-    /// Typical V for this patient, L.
+    /// Typical V for this patient, L (two compartments: the central volume V1).
     pub volume_l: f64,
     /// Typical CL for this patient, L/h.
     pub clearance_l_per_h: f64,
@@ -28,6 +30,11 @@ pub struct Population {
     pub omega: [Option<f64>; 2],
     /// Correlation of the two.
     pub correlation: f64,
+    /// The typical two-compartment disposition (CL, V1, Q, V2) for this patient; None for a
+    /// one-compartment model.
+    pub two: Option<TwoCompartment>,
+    /// Between-patient SD of ln Q and of ln V2 (None: fixed; both None for one compartment).
+    pub omega_peripheral: [Option<f64>; 2],
     /// Residual error of a level.
     pub residual: Residual,
     /// The creatinine clearance used, when the model uses one.
@@ -62,6 +69,47 @@ impl Population {
         }
     }
 
+    /// The between-patient SDs of the logs of (CL, V1, Q, V2) of a two-compartment model, in
+    /// the order of `Disposition::params` (None: held at the typical value).
+    pub fn omega_two(&self) -> [Option<f64>; 4] {
+        [
+            self.omega[0],
+            self.omega[1],
+            self.omega_peripheral[0],
+            self.omega_peripheral[1],
+        ]
+    }
+
+    /// The prior covariance of the η of (CL, V1, Q, V2); a fixed parameter has no variance,
+    /// and only CL and V1 may be correlated.
+    pub fn omega_two_matrix(&self) -> [[f64; 4]; 4] {
+        let w = self.omega_two().map(|w| w.unwrap_or(0.0));
+        let mut m = [[0.0; 4]; 4];
+        for (i, wi) in w.iter().enumerate() {
+            m[i][i] = wi * wi;
+        }
+        m[0][1] = self.correlation * w[0] * w[1];
+        m[1][0] = m[0][1];
+        m
+    }
+
+    /// The disposition for between-patient deviations `eta` of the logs of (CL, V1, Q, V2)
+    /// (two compartments), or of (elimination, V) (one; the rest of `eta` unused).
+    pub fn disposition(&self, eta: &[f64; 4]) -> Disposition {
+        match self.two {
+            Some(t) => Disposition::Two(TwoCompartment {
+                cl: t.cl * eta[0].exp(),
+                v1: t.v1 * eta[1].exp(),
+                q: t.q * eta[2].exp(),
+                v2: t.v2 * eta[3].exp(),
+            }),
+            None => {
+                let (k, v) = self.k_and_v([eta[0], eta[1]]);
+                Disposition::One { k, v }
+            }
+        }
+    }
+
     /// d(ln k, ln V)/d(η elimination, η V).
     pub fn jacobian(&self) -> [[f64; 2]; 2] {
         if self.on_clearance {
@@ -85,6 +133,12 @@ pub struct Summary {
     /// Posterior variance over prior variance of η (elimination, volume): 1 when the levels
     /// add nothing, near 0 when they decide; None for a fixed parameter.
     pub prior_share: [Option<f64>; 2],
+    /// For a two-compartment model, how far Q and V2 moved, in between-patient SDs (None for
+    /// a fixed parameter or one compartment).
+    pub peripheral_shift_sd: [Option<f64>; 2],
+    /// For a two-compartment model, the posterior over prior variance of the η of Q and V2
+    /// (None for a fixed parameter or one compartment).
+    pub peripheral_prior_share: [Option<f64>; 2],
     /// Where the model comes from.
     pub sources: Vec<String>,
 }
@@ -105,9 +159,10 @@ pub fn evaluate(
     model.check()?;
     let body = renal::body_size(patient);
     let in_terms = |c: Covariate| {
-        [&model.elimination, &model.volume]
+        model
+            .parameters()
             .iter()
-            .any(|p| p.terms.iter().any(|t| t.of == c))
+            .any(|(_, p)| p.terms.iter().any(|t| t.of == c))
     };
     let uses = |c: Covariate| in_terms(c) || model.envelope.iter().any(|r| r.of == c);
     // Needed by a term: an error when it cannot be formed; only checked against the
@@ -204,6 +259,10 @@ pub fn evaluate(
     };
     let mut elimination = eval(&model.elimination)?;
     let mut v = eval(&model.volume)?;
+    let mut peripheral = match &model.peripheral {
+        Some(p) => Some((eval(&p.q)?, eval(&p.v2)?)),
+        None => None,
+    };
     if model.apparent {
         elimination *= if model.elimination_kind == Elimination::Clearance {
             oral_f
@@ -211,17 +270,27 @@ pub fn evaluate(
             1.0
         };
         v *= oral_f;
+        peripheral = peripheral.map(|(q, v2)| (q * oral_f, v2 * oral_f));
     }
     let on_clearance = model.elimination_kind == Elimination::Clearance;
-    let (k, cl) = if on_clearance {
-        (elimination / v, elimination)
-    } else {
-        (elimination, elimination * v)
+    let two = peripheral.map(|(q, v2)| TwoCompartment {
+        cl: elimination,
+        v1: v,
+        q,
+        v2,
+    });
+    let (k, cl) = match two {
+        // The terminal rate constant β stands for k wherever one rate is asked for.
+        Some(t) => (t.rates().1, elimination),
+        None if on_clearance => (elimination / v, elimination),
+        None => (elimination, elimination * v),
     };
-    if !(k.is_finite() && k > 0.0 && v.is_finite() && v > 0.0) {
+    let peripheral_ok =
+        two.is_none_or(|t| t.q.is_finite() && t.q > 0.0 && t.v2.is_finite() && t.v2 > 0.0);
+    if !(k.is_finite() && k > 0.0 && v.is_finite() && v > 0.0 && peripheral_ok) {
         // Name the patient's fields the model read: one of them is beyond its reach.
         let mut fields: Vec<&str> = Vec::new();
-        for t in model.elimination.terms.iter().chain(&model.volume.terms) {
+        for t in model.parameters().iter().flat_map(|(_, p)| p.terms.iter()) {
             let f = match t.of {
                 Covariate::WeightKg => "patient.weight_kg",
                 Covariate::IdealWeightKg | Covariate::AdjustedWeightKg | Covariate::HeightCm => {
@@ -330,6 +399,11 @@ pub fn evaluate(
         } else {
             0.0
         },
+        two,
+        omega_peripheral: model
+            .peripheral
+            .as_ref()
+            .map_or([None, None], |p| [p.q.omega, p.v2.omega]),
         residual: model.residual,
         creatinine_clearance: crcl,
         weight_kg: patient.weight_kg,

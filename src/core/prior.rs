@@ -189,7 +189,19 @@ pub struct Range {
     pub high: f64,
 }
 
-/// A published one-compartment population model.
+/// The peripheral compartment of a two-compartment model: the intercompartmental clearance Q
+/// (L/h) and the peripheral volume V2 (L), each a parameter like the others.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Peripheral {
+    /// Intercompartmental clearance, L/h.
+    pub q: Parameter,
+    /// Peripheral volume, L.
+    pub v2: Parameter,
+}
+
+/// A published population model: one compartment (clearance or k, and volume), or two (with
+/// a `peripheral` compartment; the elimination is then the central clearance and the volume
+/// the central volume V1).
 #[derive(Debug, Clone, PartialEq)]
 pub struct Model {
     /// The first author and year, lower case (e.g. "buelga-2005"); the case's `[fit] model`.
@@ -200,9 +212,11 @@ pub struct Model {
     pub elimination_kind: Elimination,
     /// Clearance or k.
     pub elimination: Parameter,
-    /// Volume, L.
+    /// Volume, L (the central volume V1 of a two-compartment model).
     pub volume: Parameter,
-    /// Correlation of the two η (0 when none was published).
+    /// The peripheral compartment of a two-compartment model; None for one compartment.
+    pub peripheral: Option<Peripheral>,
+    /// Correlation of the elimination and volume η (0 when none was published).
     pub correlation: f64,
     /// The residual error.
     pub residual: Residual,
@@ -232,13 +246,38 @@ impl Model {
         self.volume.omega.is_some()
     }
 
+    /// 1 or 2.
+    pub fn compartments(&self) -> u8 {
+        if self.peripheral.is_some() {
+            2
+        } else {
+            1
+        }
+    }
+
+    /// Every parameter with its name in messages: elimination, volume, then q and v2.
+    pub fn parameters(&self) -> Vec<(&'static str, &Parameter)> {
+        let mut out = vec![("elimination", &self.elimination), ("volume", &self.volume)];
+        if let Some(p) = &self.peripheral {
+            out.push(("q", &p.q));
+            out.push(("v2", &p.v2));
+        }
+        out
+    }
+
     /// Check every number.
     ///
     /// # Errors
     /// The first impossible value, named as `model.FIELD`.
     pub fn check(&self) -> Result<()> {
         let bad = |field: &str, why: String| Err(Error::invalid(format!("model.{field}"), why));
-        for (name, p) in [("elimination", &self.elimination), ("volume", &self.volume)] {
+        if self.peripheral.is_some() && self.elimination_kind != Elimination::Clearance {
+            return bad(
+                "k",
+                "a two-compartment model gives the central clearance, not k".into(),
+            );
+        }
+        for (name, p) in self.parameters() {
             let adds = p.terms.iter().any(|t| matches!(t.form, Form::Add { .. }));
             if !(p.typical.is_finite() && (p.typical > 0.0 || adds && p.typical >= 0.0)) {
                 return bad(name, format!("typical must be above 0, got {}", p.typical));

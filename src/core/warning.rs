@@ -111,11 +111,13 @@ pub enum Code {
     DialysisCovariate,
     /// Saturable elimination: a dose near Vmax, whose steady state is very uncertain.
     NearVmax,
+    /// Which of the drug profile's population models the estimate used, and why.
+    ModelChoice,
 }
 
 impl Code {
     /// Every code, in declaration order.
-    pub const ALL: [Code; 51] = [
+    pub const ALL: [Code; 52] = [
         Code::OutsideWindow,
         Code::DistributionPhase,
         Code::RisingLevels,
@@ -167,6 +169,7 @@ impl Code {
         Code::PreDialysisRange,
         Code::DialysisCovariate,
         Code::NearVmax,
+        Code::ModelChoice,
     ];
 
     /// The code as the JSON report spells it.
@@ -223,6 +226,7 @@ impl Code {
             Code::PreDialysisRange => "pre-dialysis-range",
             Code::DialysisCovariate => "dialysis-covariate",
             Code::NearVmax => "near-vmax",
+            Code::ModelChoice => "model-choice",
         }
     }
 }

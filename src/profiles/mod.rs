@@ -400,6 +400,8 @@ pub fn defaults_for_strategy(
         bioavailability: profile.bioavailability.as_ref().map(|f| f.value),
         targets,
         prior: prior_of(profile),
+        models: prior::models_of(profile),
+        model_reason: profile.default_model_reason.clone(),
         regimen: Some(regimen),
         strategies: profile.strategies.iter().map(|s| s.name.clone()).collect(),
         formulations: profile

@@ -1,5 +1,6 @@
-//! Turn a profile's `[model]` (a published population model, written declaratively) — or,
-//! without one, its `[population]` summary values — into the core's population model.
+//! Turn a profile's population models (`[model]`, or several `[[model]]`: published models
+//! written declaratively, of one or two compartments) and its `[population]` summary values
+//! into the core's population models, and say which one a case gets by default and why.
 //!
 //! Variability is written as `cv_percent` (turned into ω = sqrt(ln(1 + CV²)), the log-normal
 //! identity), or as the printed `omega` (SD of the log) or `omega_sq` (its variance). The
@@ -9,7 +10,8 @@ use serde::{Deserialize, Serialize};
 
 pub use crate::core::prior::log_sd;
 use crate::core::prior::{
-    Covariate, CrclRule, CrclWeight, Elimination, Form, Model, Parameter, Range, Residual, Term,
+    Covariate, CrclRule, CrclWeight, Elimination, Form, Model, Parameter, Peripheral, Range,
+    Residual, Term,
 };
 use crate::profiles::schema::{problem, FieldProblem, Profile};
 
@@ -61,8 +63,49 @@ pub struct ModelFile {
     /// Elimination rate constant, 1/h (instead of `clearance`).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub k: Option<ParameterFile>,
-    /// Volume, L.
+    /// Volume, L (the central volume V1 of a two-compartment model).
     pub volume: ParameterFile,
+    /// Intercompartmental clearance Q, L/h (two compartments; with `v2`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub q: Option<ParameterFile>,
+    /// Peripheral volume V2, L (two compartments; with `q`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub v2: Option<ParameterFile>,
+}
+
+/// `model` as written: one `[model]` table or an array of `[[model]]` tables.
+///
+/// # Errors
+/// Neither a table nor an array of tables, or a table that is not a model.
+pub fn one_or_many<'de, D>(d: D) -> Result<Vec<ModelFile>, D::Error>
+where
+    D: serde::Deserializer<'de>,
+{
+    struct OneOrMany;
+    impl<'de> serde::de::Visitor<'de> for OneOrMany {
+        type Value = Vec<ModelFile>;
+        fn expecting(&self, f: &mut std::fmt::Formatter) -> std::fmt::Result {
+            f.write_str("a [model] table or [[model]] tables")
+        }
+        fn visit_map<A: serde::de::MapAccess<'de>>(self, map: A) -> Result<Self::Value, A::Error> {
+            ModelFile::deserialize(serde::de::value::MapAccessDeserializer::new(map))
+                .map(|m| vec![m])
+        }
+        fn visit_seq<A: serde::de::SeqAccess<'de>>(self, seq: A) -> Result<Self::Value, A::Error> {
+            Vec::<ModelFile>::deserialize(serde::de::value::SeqAccessDeserializer::new(seq))
+        }
+    }
+    d.deserialize_any(OneOrMany)
+}
+
+/// How messages name the `i`-th model (from 0) of `profile`: `model` when it has one,
+/// `model[i + 1]` when several.
+pub fn model_place(profile: &Profile, i: usize) -> String {
+    if profile.models.len() == 1 {
+        "model".to_string()
+    } else {
+        format!("model[{}]", i + 1)
+    }
 }
 
 fn yes() -> bool {
@@ -232,23 +275,39 @@ fn parameter(p: &ParameterFile, field: &str) -> Result<Parameter, FieldProblem> 
     })
 }
 
-/// The core model a `[model]` section describes; `per_mg_l` converts the profile's level unit
-/// to mg/L (for the additive error), `cite` writes a source key out.
+/// The core model a `[model]` section describes, naming its fields from `place` (`model`
+/// or `model[2]`); `level_per_mg_l` converts the profile's level unit to mg/L (for the
+/// additive error), `cite` writes a source key out.
 ///
 /// # Errors
-/// The first field that cannot be read, named `model.…`.
+/// The first field that cannot be read, named `PLACE.…`.
 pub fn model_of(
     m: &ModelFile,
+    place: &str,
     level_per_mg_l: f64,
     cite: &dyn Fn(&str) -> Vec<String>,
 ) -> Result<Model, FieldProblem> {
+    let at = |f: &str| format!("{place}.{f}");
     let (elimination_kind, elimination) = match (&m.clearance, &m.k) {
-        (Some(c), None) => (Elimination::Clearance, parameter(c, "model.clearance")?),
-        (None, Some(k)) => (Elimination::RateConstant, parameter(k, "model.k")?),
+        (Some(c), None) => (Elimination::Clearance, parameter(c, &at("clearance"))?),
+        (None, Some(k)) => (Elimination::RateConstant, parameter(k, &at("k"))?),
         _ => {
             return Err(problem(
-                "model",
-                "give [model.clearance] or [model.k], one of the two",
+                place,
+                format!("give [{place}.clearance] or [{place}.k], one of the two"),
+            ))
+        }
+    };
+    let peripheral = match (&m.q, &m.v2) {
+        (Some(q), Some(v2)) => Some(Peripheral {
+            q: parameter(q, &at("q"))?,
+            v2: parameter(v2, &at("v2"))?,
+        }),
+        (None, None) => None,
+        _ => {
+            return Err(problem(
+                place,
+                format!("a two-compartment model gives both [{place}.q] and [{place}.v2]"),
             ))
         }
     };
@@ -261,7 +320,7 @@ pub fn model_of(
                 "adjusted" => CrclWeight::Adjusted,
                 other => {
                     return Err(problem(
-                        "model.crcl.weight",
+                        at("crcl.weight"),
                         format!("unknown weight \"{other}\"; use total, ideal or adjusted"),
                     ))
                 }
@@ -274,7 +333,7 @@ pub fn model_of(
     let mut envelope = Vec::new();
     for (i, r) in m.ranges.iter().enumerate() {
         envelope.push(Range {
-            of: covariate(&r.of, &format!("model.ranges[{}]", i + 1))?,
+            of: covariate(&r.of, &format!("{place}.ranges[{}]", i + 1))?,
             low: r.low,
             high: r.high,
         });
@@ -284,7 +343,8 @@ pub fn model_of(
         label: m.label.clone(),
         elimination_kind,
         elimination,
-        volume: parameter(&m.volume, "model.volume")?,
+        volume: parameter(&m.volume, &at("volume"))?,
+        peripheral,
         correlation: m.correlation,
         residual: Residual {
             additive_mg_l: m.residual.additive / level_per_mg_l,
@@ -299,7 +359,12 @@ pub fn model_of(
         assumptions: m.assumptions.clone(),
         sources: cite(&m.source),
     };
-    model.check().map_err(|e| problem("model", e.to_string()))?;
+    model.check().map_err(|e| {
+        problem(
+            place,
+            e.to_string().replacen("model.", &format!("{place}."), 1),
+        )
+    })?;
     Ok(model)
 }
 
@@ -355,6 +420,7 @@ fn summary_model(profile: &Profile, cite: &dyn Fn(&str) -> Vec<String>) -> Optio
             }],
             omega: Some(omega_v),
         },
+        peripheral: None,
         correlation: 0.0,
         residual: Residual {
             additive_mg_l: 0.0,
@@ -380,21 +446,95 @@ fn summary_model(profile: &Profile, cite: &dyn Fn(&str) -> Vec<String>) -> Optio
     model.check().ok().map(|_| model)
 }
 
-/// The profile's population model: its `[model]`, else one made of its `[population]`
-/// summary values when they are complete, else None.
-pub fn prior_of(profile: &Profile) -> Option<Model> {
+/// The name the summary values of `[population]` go by as a model.
+pub const SUMMARY_VALUES: &str = "summary-values";
+
+/// Every population model the profile offers, in file order: each `[model]`, then one made
+/// of its `[population]` summary values when they are complete.
+pub fn models_of(profile: &Profile) -> Vec<Model> {
     let cite = |keys: &str| cite_keys(profile, keys);
-    match &profile.model {
-        Some(m) => {
-            let per = profile
-                .unit()
-                .ok()
-                .and_then(|u| u.per_mg_l(profile.molar_mass_g_mol.as_ref().map(|x| x.value)))
-                .unwrap_or(1.0);
-            model_of(m, per, &cite).ok()
-        }
-        None => summary_model(profile, &cite),
+    let per = level_per_mg_l(profile);
+    let mut out: Vec<Model> = profile
+        .models
+        .iter()
+        .enumerate()
+        .filter_map(|(i, m)| model_of(m, &model_place(profile, i), per, &cite).ok())
+        .collect();
+    out.extend(summary_model(profile, &cite));
+    out
+}
+
+fn level_per_mg_l(profile: &Profile) -> f64 {
+    profile
+        .unit()
+        .ok()
+        .and_then(|u| u.per_mg_l(profile.molar_mass_g_mol.as_ref().map(|x| x.value)))
+        .unwrap_or(1.0)
+}
+
+/// The name of the model a case gets by default: `default_model`, else the first `[model]`,
+/// else the summary values (None when the profile offers no model).
+pub fn default_model_name(profile: &Profile) -> Option<String> {
+    if let Some(n) = &profile.default_model {
+        return Some(n.clone());
     }
+    models_of(profile).first().map(|m| m.name.clone())
+}
+
+/// The profile's default population model (see [`default_model_name`]), else None.
+pub fn prior_of(profile: &Profile) -> Option<Model> {
+    let name = default_model_name(profile)?;
+    models_of(profile).into_iter().find(|m| m.name == name)
+}
+
+/// Check every model of the profile, their names (distinct, not the summary values' name)
+/// and the default.
+///
+/// # Errors
+/// The first field in the way, named `model[i].…`, `default_model` or
+/// `default_model_reason`.
+pub fn check_models(profile: &Profile) -> Result<(), FieldProblem> {
+    let per = level_per_mg_l(profile);
+    let mut names: Vec<String> = Vec::new();
+    for (i, m) in profile.models.iter().enumerate() {
+        let place = model_place(profile, i);
+        model_of(m, &place, per, &|k| vec![k.to_string()])?;
+        if m.name == SUMMARY_VALUES || names.contains(&m.name) {
+            return Err(problem(
+                format!("{place}.name"),
+                format!("\"{}\" names another model of the profile already", m.name),
+            ));
+        }
+        names.push(m.name.clone());
+    }
+    names.extend(summary_model(profile, &|k| vec![k.to_string()]).map(|m| m.name));
+    if let Some(d) = &profile.default_model {
+        if !names.contains(d) {
+            return Err(problem(
+                "default_model",
+                format!(
+                    "the profile has no model \"{d}\"; it has {}",
+                    if names.is_empty() {
+                        "none".to_string()
+                    } else {
+                        names.join(", ")
+                    }
+                ),
+            ));
+        }
+    }
+    if names.len() > 1
+        && profile
+            .default_model_reason
+            .as_deref()
+            .is_none_or(|r| r.trim().is_empty())
+    {
+        return Err(problem(
+            "default_model_reason",
+            "the profile offers several population models: say why the default is the default",
+        ));
+    }
+    Ok(())
 }
 
 /// Each `[Key]` in `text` written out from the profile's `[sources]`, or the text itself.
@@ -428,8 +568,9 @@ mod tests {
         let g = Profile::clone(&cat.get("gentamicin").unwrap().profile);
         let mut without = g.clone();
         without.population.as_mut().unwrap().residual_error_percent = None;
-        assert_eq!(prior_of(&without), None);
-        let m = prior_of(&g).unwrap();
+        let summary = |p: &Profile| models_of(p).into_iter().find(|m| m.name == SUMMARY_VALUES);
+        assert_eq!(summary(&without), None);
+        let m = summary(&g).unwrap();
         let pop = g.population.as_ref().unwrap();
         let hl = pop.half_life_h.as_ref().unwrap();
         assert_eq!(m.elimination_kind, Elimination::RateConstant);

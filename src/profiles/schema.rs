@@ -80,9 +80,23 @@ pub struct Profile {
     /// Optional population values for later Bayesian work.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub population: Option<Population>,
-    /// A published population model (docs/profiles.md, `[model]`).
+    /// Published population models (docs/profiles.md): one `[model]` table, or several
+    /// `[[model]]` tables.
+    #[serde(
+        default,
+        rename = "model",
+        deserialize_with = "crate::profiles::prior::one_or_many",
+        skip_serializing_if = "Vec::is_empty"
+    )]
+    pub models: Vec<crate::profiles::prior::ModelFile>,
+    /// The `name` of the population model a case gets when its `[fit] model` is silent
+    /// (default: the first `[model]`, else the summary values of `[population]`).
     #[serde(default, skip_serializing_if = "Option::is_none")]
-    pub model: Option<crate::profiles::prior::ModelFile>,
+    pub default_model: Option<String>,
+    /// Why the default model is the default, in words shown with the estimate (needed when
+    /// the profile offers more than one model).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub default_model_reason: Option<String>,
     /// Saturable (Michaelis-Menten) elimination: a drug with `kinetics.first_order = "no"`
     /// and this section gets the saturable analysis instead of a refusal.
     #[serde(default, skip_serializing_if = "Option::is_none")]
@@ -576,8 +590,11 @@ impl Profile {
                 out.push((format!("population.{name}"), &e.source));
             }
         }
-        if let Some(m) = &self.model {
-            out.push(("model.source".to_string(), &m.source));
+        for (i, m) in self.models.iter().enumerate() {
+            out.push((
+                format!("{}.source", crate::profiles::prior::model_place(self, i)),
+                &m.source,
+            ));
         }
         if let Some(m) = &self.saturable {
             for (name, x) in m.numbers() {
@@ -806,14 +823,7 @@ impl Profile {
                 }
             }
         }
-        if let Some(m) = &self.model {
-            let per = self
-                .unit()
-                .ok()
-                .and_then(|u| u.per_mg_l(self.molar_mass_g_mol.as_ref().map(|x| x.value)))
-                .unwrap_or(1.0);
-            crate::profiles::prior::model_of(m, per, &|k| vec![k.to_string()])?;
-        }
+        crate::profiles::prior::check_models(self)?;
         if let Some(m) = &self.saturable {
             m.validate()?;
         }

@@ -50,6 +50,7 @@ fn model_on_k() -> Model {
             terms: vec![per_weight()],
             omega: Some(0.25),
         },
+        peripheral: None,
         correlation: 0.0,
         residual: Residual {
             additive_mg_l: 0.0,
@@ -455,6 +456,9 @@ fn the_built_in_gentamicin_profile_gives_a_bayesian_fit_from_one_level() {
     let text = r#"
 [patient]
 weight_kg = 70.0
+age_years = 60.0
+sex = "male"
+creatinine_mg_dl = 1.0
 [drug]
 level_unit = "mg/L"
 profile = "gentamicin"
@@ -490,6 +494,9 @@ fn reference_case(profile: &str, unit: &str, extra: &str) -> String {
     )
 }
 
+/// Pins the vancomycin profile's one-compartment model (its default is Goti 2018).
+const BUELGA: &str = "[fit]\nmodel = \"buelga-2005\"\n";
+
 fn typical(profile: &str, unit: &str, extra: &str) -> Population {
     let file = CaseFile::parse(&reference_case(profile, unit, extra)).unwrap();
     let a = ebb::cli::analyse_parsed(&file, None).unwrap();
@@ -505,7 +512,7 @@ fn built_in_models_give_their_published_typical_values_for_the_reference_patient
     };
     // Hand-worked from CL = 1.08 x CrCl [L/h], V = 0.98 x weight (Buelga et al., Antimicrob
     // Agents Chemother 2005;49:4934-4941, Table 4).
-    let p = typical("vancomycin", "mg/L", "");
+    let p = typical("vancomycin", "mg/L", BUELGA);
     assert!(
         (p.clearance_l_per_h - 1.08 * crcl * 0.06).abs() < 1e-9,
         "{}",
@@ -544,8 +551,12 @@ fn built_in_models_give_their_published_typical_values_for_the_reference_patient
     let p = typical("theophylline", "mg/L", "");
     assert!((p.clearance_l_per_h - 0.05796 * 70.0).abs() < 1e-9);
     // Gentamicin, tobramycin and lithium have no one-compartment population model in the
-    // profiles: gentamicin keeps its summary values, tobramycin and lithium have none.
-    assert_eq!(typical("gentamicin", "mg/L", "").model, "summary-values");
+    // profiles: gentamicin keeps its summary values (beside its two-compartment default),
+    // tobramycin and lithium have none.
+    assert_eq!(
+        typical("gentamicin", "mg/L", "[fit]\nmodel = \"summary-values\"\n").model,
+        "summary-values"
+    );
     for (drug, unit) in [("tobramycin", "mg/L"), ("lithium", "mmol/L")] {
         let file = CaseFile::parse(&reference_case(drug, unit, "")).unwrap();
         let case = ebb::cli::analyse_parsed(&file, None).unwrap().case.unwrap();
@@ -572,8 +583,8 @@ fn the_estimate_follows_creatinine_clearance() {
     // Renal impairment: creatinine 1.0 -> 4.0 mg/dL quarters Cockcroft-Gault, and with it the
     // Buelga clearance (proportional to creatinine clearance): the half-life before any level
     // is four times as long (hand-worked from the Buelga 2005 equations, Table 4).
-    let normal = typical("vancomycin", "mg/L", "");
-    let text = reference_case("vancomycin", "mg/L", "")
+    let normal = typical("vancomycin", "mg/L", BUELGA);
+    let text = reference_case("vancomycin", "mg/L", BUELGA)
         .replace("creatinine_mg_dl = 1.0", "creatinine_mg_dl = 4.0");
     let case = ebb::cli::analyse_parsed(&CaseFile::parse(&text).unwrap(), None)
         .unwrap()
@@ -589,7 +600,7 @@ fn a_new_patient_gets_a_regimen_with_the_population_range_before_any_level() {
     let text = reference_case(
         "vancomycin",
         "mg/L",
-        "[plan]\nstart = 2027-03-02T08:00:00\ndose_mg = 1250.0\ninterval_h = 12.0\nroute = \"infusion\"\ninfusion_h = 2.5\n",
+        "[fit]\nmodel = \"buelga-2005\"\n[plan]\nstart = 2027-03-02T08:00:00\ndose_mg = 1250.0\ninterval_h = 12.0\nroute = \"infusion\"\ninfusion_h = 2.5\n",
     );
     let a = ebb::cli::analyse_parsed(&CaseFile::parse(&text).unwrap(), None).unwrap();
     let r = a.finished().unwrap().report;
@@ -642,20 +653,24 @@ fn a_level_far_from_the_model_and_a_patient_outside_its_population_are_named() {
     let near = codes_of(&reference_case(
         "vancomycin",
         "mg/L",
-        &ONE_TROUGH.replace("VALUE", "9.0"),
+        &format!("{BUELGA}{}", ONE_TROUGH.replace("VALUE", "9.0")),
     ));
     assert!(!near.iter().any(|c| c == "level-unexpected"), "{near:?}");
     let far = codes_of(&reference_case(
         "vancomycin",
         "mg/L",
-        &ONE_TROUGH.replace("VALUE", "60.0"),
+        &format!("{BUELGA}{}", ONE_TROUGH.replace("VALUE", "60.0")),
     ));
     assert!(far.iter().any(|c| c == "level-unexpected"), "{far:?}");
     // 150 kg is beyond the cohort's mean + 2 SD (64.7 + 2 x 11.3 kg, Buelga 2005 Table 1), and
     // haemodialysis patients were not studied.
     assert!(!near.iter().any(|c| c == "outside-population"), "{near:?}");
-    let heavy = reference_case("vancomycin", "mg/L", &ONE_TROUGH.replace("VALUE", "9.0"))
-        .replace("weight_kg = 70.0", "weight_kg = 150.0\ndialysis = true");
+    let heavy = reference_case(
+        "vancomycin",
+        "mg/L",
+        &format!("{BUELGA}{}", ONE_TROUGH.replace("VALUE", "9.0")),
+    )
+    .replace("weight_kg = 70.0", "weight_kg = 150.0\ndialysis = true");
     let text = {
         let a = ebb::cli::analyse_parsed(&CaseFile::parse(&heavy).unwrap(), None).unwrap();
         let r = a.finished().unwrap().report;

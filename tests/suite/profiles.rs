@@ -114,8 +114,11 @@ fn check_numbers(stem: &str, at: &str, v: &toml::Value, source: Option<&str>, ke
                     format!("{at}.{k}")
                 };
                 // A table's own source covers its numbers; a nested table needs its own, except
-                // inside [model], where the one paper's source covers the whole model.
-                let inherit = (at == "model" || at.starts_with("model.")).then_some(source);
+                // inside a [model] (or each [[model]]), where the one paper's source covers
+                // the whole model.
+                let inherit =
+                    (at == "model" || at.starts_with("model.") || at.starts_with("model["))
+                        .then_some(source);
                 check_numbers(stem, &here, item, own.or(inherit.flatten()), keys);
             }
         }

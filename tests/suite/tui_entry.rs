@@ -693,7 +693,10 @@ fn fit_warnings_that_do_not_fit_scroll_into_view() {
     let r = app.figures.report.as_ref().unwrap();
     let last = r.warnings.last().unwrap().text().to_string();
     let tail: String = last.split_whitespace().last().unwrap().to_string();
-    for _ in 0..10 {
+    for _ in 0..40 {
+        if !text(&app, 80, 24).contains("more lines: PgDn") {
+            break;
+        }
         key(&mut app, KeyCode::PageDown);
     }
     let shown = text(&app, 80, 24);

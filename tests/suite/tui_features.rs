@@ -110,6 +110,19 @@ fn priors_dir() -> tempfile::TempDir {
         "[population]\nresidual_error_percent = { value = 15.0, source = \"from memory, unverified\", note = \"invented for a screen test\" }\n",
         1,
     );
+    // The summary values as the local profile's default model (the built-in's is Staatz 2006).
+    let text: String = text
+        .lines()
+        .map(|l| {
+            if l.starts_with("default_model = ") {
+                "default_model = \"summary-values\"\n".to_string()
+            } else if l.starts_with("default_model_reason = ") {
+                "default_model_reason = \"a screen test of the summary values\"\n".to_string()
+            } else {
+                format!("{l}\n")
+            }
+        })
+        .collect();
     std::fs::write(dir.join("gentamicin.toml"), text).unwrap();
     tmp
 }
@@ -424,6 +437,7 @@ fn dose_history_fit_at_both_sizes() {
     let mut app = demo_with(|f| {
         f.fit = Some(ebb::core::casefile::FitFile {
             method: Some("dose-history".into()),
+            model: None,
         })
     });
     app.screen = Screen::Fit;
