@@ -582,6 +582,83 @@ mod tests {
         );
     }
 
+    fn vancomycin_text() -> String {
+        std::fs::read_to_string(
+            std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("drug-profiles/vancomycin.toml"),
+        )
+        .unwrap()
+    }
+
+    fn refused(text: &str) -> String {
+        crate::profiles::parse_profile(text, "v.toml")
+            .expect_err("refused")
+            .to_string()
+    }
+
+    #[test]
+    fn a_profile_offers_each_model_and_its_default() {
+        let v = crate::profiles::parse_profile(&vancomycin_text(), "v.toml").unwrap();
+        let names: Vec<String> = models_of(&v).into_iter().map(|m| m.name).collect();
+        assert_eq!(names, ["goti-2018", "buelga-2005"]);
+        assert_eq!(default_model_name(&v).as_deref(), Some("goti-2018"));
+        let goti = prior_of(&v).unwrap();
+        assert_eq!(goti.compartments(), 2);
+        let p = goti.peripheral.as_ref().unwrap();
+        assert_eq!(p.q.omega, None);
+        assert!(p.v2.omega.is_some());
+        // Without default_model the first [[model]] is the default.
+        let first = vancomycin_text().replace("default_model = \"goti-2018\"\n", "");
+        let v = crate::profiles::parse_profile(&first, "v.toml").unwrap();
+        assert_eq!(default_model_name(&v).as_deref(), Some("goti-2018"));
+    }
+
+    #[test]
+    fn the_models_and_the_default_are_checked_by_name() {
+        let text = vancomycin_text();
+        let unknown = text.replace(
+            "default_model = \"goti-2018\"",
+            "default_model = \"goti-2019\"",
+        );
+        let e = refused(&unknown);
+        assert!(
+            e.contains("field default_model: the profile has no model \"goti-2019\"; it has goti-2018, buelga-2005"),
+            "{e}"
+        );
+        let silent: String = text
+            .lines()
+            .filter(|l| !l.starts_with("default_model_reason"))
+            .map(|l| format!("{l}\n"))
+            .collect();
+        let e = refused(&silent);
+        assert!(
+            e.contains("field default_model_reason: the profile offers several population models"),
+            "{e}"
+        );
+        let twice = text.replace("name = \"buelga-2005\"", "name = \"goti-2018\"");
+        let e = refused(&twice);
+        assert!(e.contains("field model[2].name"), "{e}");
+        // A peripheral volume without Q names the second model and its line.
+        let half = text.replacen("[model.q]\ntypical = 6.5\n", "", 1);
+        let e = refused(&half);
+        assert!(
+            e.contains(
+                "model[1]: a two-compartment model gives both [model[1].q] and [model[1].v2]"
+            ),
+            "{e}"
+        );
+        // A two-compartment model gives the central clearance, not k.
+        let on_k = text.replacen(
+            "[model.clearance]\ntypical = 4.5",
+            "[model.k]\ntypical = 0.1",
+            1,
+        );
+        let e = refused(&on_k);
+        assert!(
+            e.contains("a two-compartment model gives the central clearance, not k"),
+            "{e}"
+        );
+    }
+
     #[test]
     fn log_sd_of_a_cv() {
         // sqrt(ln(1 + 0.3²)) = 0.29356 (the log-normal identity; common practice).

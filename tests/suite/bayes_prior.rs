@@ -176,7 +176,7 @@ fn no_level_gives_the_prior_back() {
 }
 
 /// A Nelder-Mead simplex written here, independent of ebb's minimiser.
-fn nelder_mead(f: &dyn Fn(&[f64]) -> f64, x0: &[f64]) -> Vec<f64> {
+pub(crate) fn nelder_mead(f: &dyn Fn(&[f64]) -> f64, x0: &[f64]) -> Vec<f64> {
     let n = x0.len();
     let mut pts: Vec<Vec<f64>> = vec![x0.to_vec()];
     for i in 0..n {

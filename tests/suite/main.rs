@@ -27,6 +27,7 @@ mod note_cli;
 mod note_figures;
 mod oral;
 mod plot_svg;
+mod population_two;
 mod profile_lookup;
 mod profiles;
 mod profiles_cli;
