@@ -507,8 +507,7 @@ pub fn population_of(case: &Case) -> Result<Population> {
 pub fn fit(case: &Case) -> Result<Fit> {
     let model = case.prior.as_ref();
     let pop = population_of(case)?;
-    let two_name = pop.two.map(|_| pop.model.as_str());
-    let (used, mut warnings) = history::usable_levels_with(case, two_name);
+    let (used, mut warnings) = history::usable_levels(case);
     let given = if used.is_empty() && case.doses.is_empty() {
         Vec::new()
     } else {

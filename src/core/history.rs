@@ -367,16 +367,6 @@ pub(crate) fn check_plausible(ln_k: f64) -> std::result::Result<(), Failure> {
 /// The levels a dose-history or Bayesian fit can use: marked for use and drawn after the first
 /// dose began. Returns their indices, and warnings for the ones left out or drawn early.
 pub(crate) fn usable_levels(case: &Case) -> (Vec<usize>, Vec<Warning>) {
-    usable_levels_with(case, None)
-}
-
-/// As [`usable_levels`]; with `two_compartment` (the model's name) a level drawn during or
-/// soon after an infusion is said to be modelled by the two-compartment model's distribution
-/// phase rather than to bias the fit.
-pub(crate) fn usable_levels_with(
-    case: &Case,
-    two_compartment: Option<&str>,
-) -> (Vec<usize>, Vec<Warning>) {
     let mut warnings = Vec::new();
     let mut used = Vec::new();
     for (i, l) in case.levels.iter().enumerate() {
@@ -392,24 +382,6 @@ pub(crate) fn usable_levels_with(
         };
         used.push(i);
         let d = &case.doses[di];
-        if let Some(model) = two_compartment {
-            if in_distribution_phase(after, DISTRIBUTION_PHASE_H) {
-                let when = if after < 0.0 {
-                    format!("during the infusion of dose {}", d.row)
-                } else {
-                    format!(
-                        "{} after the end of dose {}",
-                        crate::core::clock::span_words(after),
-                        d.row
-                    )
-                };
-                warnings.push(Warning::about_level(Code::DistributionPhase, case.levels[i].row, format!(
-                    "{} was drawn {when}, in the distribution phase: the two-compartment model {model} describes that phase, so the level is used as drawn; its clock time must be exact",
-                    case.level_name(i),
-                )));
-            }
-            continue;
-        }
         if after < 0.0 {
             warnings.push(Warning::about_level(Code::DistributionPhase, case.levels[i].row, format!(
                 "{} was drawn during the infusion of dose {}: it may be in the distribution phase, which would bias k and V",

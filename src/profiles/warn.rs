@@ -136,23 +136,7 @@ pub fn warnings(profile: &Profile, case: &Case, report: &Report) -> Vec<Warning>
             } else {
                 format!("{} after the end of dose {dose_row}", span_words(after))
             };
-            let in_fit = report.fit.level_rows.contains(&row);
-            // A Bayesian fit of a two-compartment model describes the distribution phase:
-            // the level is used as drawn, not a bias.
-            let modelled = case
-                .prior
-                .as_ref()
-                .filter(|m| m.compartments() == 2 && report.fit.method == "bayesian");
-            if let (true, Some(m)) = (in_fit, modelled) {
-                out.push(Warning::about_level(Code::DistributionPhase, row, format!(
-                    "level {row} was drawn {when}, inside {name}'s first {} ({phase}) {}: the two-compartment model {} describes that phase, so it is used as drawn; its clock time must be exact",
-                    span_words(w.value),
-                    w.source,
-                    m.name
-                )));
-                continue;
-            }
-            let in_fit = if in_fit {
+            let in_fit = if report.fit.level_rows.contains(&row) {
                 "it is in the fit and would distort k; "
             } else {
                 ""
@@ -169,9 +153,7 @@ pub fn warnings(profile: &Profile, case: &Case, report: &Report) -> Vec<Warning>
     let typical = &profile.half_life_h;
     // A two-compartment fit's half-life is the terminal one (β), slower than the
     // one-compartment half-life the profile's range describes: the two do not compare.
-    let terminal = case.prior.as_ref().is_some_and(|m| m.compartments() == 2)
-        && matches!(report.fit.method, "bayesian" | "population");
-    if !terminal && clearly_outside(t_half, typical.low, typical.high) {
+    if report.fit.compartments == 1 && clearly_outside(t_half, typical.low, typical.high) {
         out.push(Warning::new(Code::HalfLifeImplausible, format!(
             "the fitted half-life {} h is outside {name}'s typical adult range with normal organ function ({}–{} h {}): a plausibility flag, not an error; check the sample and dose times, and renal or hepatic function",
             num(t_half),

@@ -10,6 +10,7 @@ use ebb::core::casefile::CaseFile;
 use ebb::core::fitted::{Fit, Method};
 use ebb::core::model::{Administration, Route, TwoCompartment};
 use ebb::core::population::Population;
+use ebb::core::warning::Code;
 
 use super::bayes_prior::nelder_mead;
 
@@ -353,23 +354,26 @@ fn a_level_in_the_distribution_phase_is_used_and_said_to_be_modelled() {
     assert_eq!(fit.method, Method::Bayesian);
     assert_eq!(fit.used.len(), 2, "both levels are in the fit");
     let r = a.finished().unwrap().report;
-    let about: Vec<String> = r
-        .warnings
-        .iter()
-        .filter(|w| w.level_row() == Some(1))
-        .map(|w| w.text().to_string())
-        .collect();
+    let said: Vec<String> = r.warnings.iter().map(|w| w.text().to_string()).collect();
     assert!(
-        about
-            .iter()
-            .any(|w| w.contains("the two-compartment model goti-2018 describes that phase")),
-        "{about:?}"
+        said.iter()
+            .any(|w| w.starts_with("level 1 drawn in the distribution phase: the two-compartment model describes that phase")),
+        "{said:?}"
     );
     assert!(
-        !about
+        !r.warnings
             .iter()
-            .any(|w| w.contains("would distort") || w.contains("would bias")),
-        "{about:?}"
+            .any(|w| w.level_row() == Some(1) && w.code() == Code::DistributionPhase),
+        "{said:?}"
+    );
+    // The terminal half-life of a two-compartment fit is not held against the profile's
+    // one-compartment half-life range (3-13 h).
+    assert!(fit.half_life_h > 13.0, "{}", fit.half_life_h);
+    assert!(
+        !r.warnings
+            .iter()
+            .any(|w| w.code() == Code::HalfLifeImplausible),
+        "{said:?}"
     );
     // With the one-compartment model the same level is still warned about.
     let buelga = text.replace(
