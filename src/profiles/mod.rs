@@ -28,7 +28,7 @@ use crate::core::regimen::RegimenOptions;
 use crate::core::units::LevelUnit;
 
 pub use parse::parse_profile;
-pub use prior::prior_of;
+pub use prior::{default_model_name, models_of, prior_of};
 pub use saturable::params_of as saturable_params;
 pub use schema::{FirstOrder, Profile, Strategy};
 pub use text::{write_list, write_profile_note, write_refusal, write_show};

@@ -53,6 +53,8 @@ pub enum Field {
     SwitchBelow,
     SwitchHalfLives,
     Strategy,
+    /// The population model (`[fit] model`), chosen from the drug profile's.
+    Model,
 }
 
 /// How a field is changed.
@@ -118,7 +120,8 @@ impl Field {
             | Field::DoseRoute(_)
             | Field::LevelUse(_)
             | Field::PlanRoute
-            | Field::Strategy => Kind::Choice,
+            | Field::Strategy
+            | Field::Model => Kind::Choice,
             _ => Kind::Text,
         }
     }
@@ -208,6 +211,11 @@ impl Field {
             Field::SwitchBelow => num(f.switch.as_ref().and_then(|s| s.start_below)),
             Field::SwitchHalfLives => num(f.switch.as_ref().and_then(|s| s.after_half_lives)),
             Field::Strategy => f.drug.strategy.clone().unwrap_or_default(),
+            Field::Model => f
+                .fit
+                .as_ref()
+                .and_then(|x| x.model.clone())
+                .unwrap_or_default(),
         }
     }
 
@@ -345,6 +353,8 @@ impl Field {
             Field::TimeZone => f.time_zone = text_opt(),
             // Chosen from the profile's strategies (`update`); only cleared as text.
             Field::Strategy => f.drug.strategy = text_opt(),
+            // Chosen from the profile's models (`update`); only cleared as text.
+            Field::Model => set_model(f, text_opt()),
             Field::SwitchTo => switch_mut(f).to = text_opt(),
             Field::SwitchBelow => switch_mut(f).start_below = entry::optional_number(text)?,
             Field::SwitchHalfLives => {
@@ -468,8 +478,17 @@ impl Field {
             Field::SwitchBelow => place == "switch.start_below",
             Field::SwitchHalfLives => place == "switch.after_half_lives",
             Field::Strategy => place == "drug.strategy",
+            Field::Model => place == "fit.model",
         }
     }
+}
+
+/// Name the case's population model (None: the profile's default), keeping `[fit]` only
+/// while it says something.
+pub fn set_model(f: &mut CaseFile, name: Option<String>) {
+    let mut fit = f.fit.clone().unwrap_or_default();
+    fit.model = name;
+    f.fit = (fit != crate::core::casefile::FitFile::default()).then_some(fit);
 }
 
 fn set_route(r: &str, route: &mut String, infusion_h: &mut Option<f64>, f: &mut Option<f64>) {

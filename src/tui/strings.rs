@@ -483,6 +483,7 @@ pub fn field_label(f: Field) -> (&'static str, &'static str) {
         Field::SwitchBelow => ("Start below", ""),
         Field::SwitchHalfLives => ("or after", "half-lives (one of the two)"),
         Field::Strategy => ("Strategy", ""),
+        Field::Model => ("Model", ""),
     }
 }
 
@@ -957,6 +958,26 @@ pub fn strategy_shown(label: &str, is_default: bool) -> String {
     } else {
         label.to_string()
     }
+}
+/// Stepping the population model of a case with no profile, or a profile without one.
+pub const MODEL_NEEDS_PROFILE: &str =
+    "A population model belongs to a drug profile that has one; choose a profile with p first.";
+/// The model after a step: its name and label; whether it is the profile's default (and why);
+/// how it is used.
+pub fn model_now(name: &str, label: &str, is_default: bool, reason: Option<&str>) -> String {
+    let which = if is_default {
+        format!("Model: the profile's default, {name} ({label})")
+    } else {
+        format!("Model: {name} ({label})")
+    };
+    match reason.filter(|_| is_default) {
+        Some(why) => format!("{which}, because {why}; for Bayesian and population estimates."),
+        None => format!("{which}; for Bayesian and population estimates."),
+    }
+}
+/// How the case screen shows the model beside its name: its label, or the default's.
+pub fn model_shown(label: &str, is_default: bool) -> String {
+    strategy_shown(label, is_default)
 }
 /// `i` without a profile.
 pub const NO_PROFILE_YET: &str =

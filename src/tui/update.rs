@@ -332,6 +332,9 @@ fn activate(app: &mut App, space: bool) {
     if field == Field::Strategy {
         return step_strategy(app);
     }
+    if field == Field::Model {
+        return step_model(app);
+    }
     match field.kind() {
         Kind::Choice => {
             let had_plan = app.file.plan.is_some();
@@ -582,7 +585,8 @@ fn clear(app: &mut App) {
             | Field::PlanDose
             | Field::PlanInterval
             | Field::Unit
-    ) || (field.kind() == Kind::Choice && field != Field::Strategy);
+    ) || (field.kind() == Kind::Choice
+        && !matches!(field, Field::Strategy | Field::Model));
     if required {
         return app.complain(strings::cannot_clear(&field.name()));
     }
@@ -985,6 +989,57 @@ fn step_strategy(app: &mut App) {
         next.is_none(),
         own_targets,
     ));
+}
+
+// ---- population model -----------------------------------------------------------------------
+
+/// Step the case's population model to the next of its profile's — the default (no
+/// `[fit] model`), then each other model in the profile's order — and say which it is now.
+fn step_model(app: &mut App) {
+    let Some(name) = app.file.drug.profile.clone() else {
+        return app.complain(strings::MODEL_NEEDS_PROFILE);
+    };
+    let p = match app.profiles.lookup(&name) {
+        Ok(e) => e.profile.clone(),
+        Err(e) => return app.complain(e),
+    };
+    let models = crate::profiles::models_of(&p);
+    let Some(default) = crate::profiles::default_model_name(&p) else {
+        return app.complain(strings::MODEL_NEEDS_PROFILE);
+    };
+    let order: Vec<Option<String>> = std::iter::once(None)
+        .chain(
+            models
+                .iter()
+                .filter(|m| m.name != default)
+                .map(|m| Some(m.name.clone())),
+        )
+        .collect();
+    let now = app
+        .file
+        .fit
+        .as_ref()
+        .and_then(|f| f.model.clone())
+        .filter(|n| *n != default);
+    let next = match order.iter().position(|o| *o == now) {
+        Some(i) => order[(i + 1) % order.len()].clone(),
+        // A name the profile does not have: back to the default.
+        None => None,
+    };
+    let r = app.change(|f| {
+        crate::tui::fields::set_model(f, next.clone());
+        Ok(())
+    });
+    if let Err(e) = r {
+        return app.complain(e);
+    }
+    let shown = next.as_deref().unwrap_or(&default);
+    let label = models
+        .iter()
+        .find(|m| m.name == shown)
+        .map_or("", |m| m.label.as_str());
+    let reason = p.default_model_reason.as_deref();
+    app.say(strings::model_now(shown, label, next.is_none(), reason));
 }
 
 // ---- fit method ----------------------------------------------------------------------------

@@ -860,6 +860,73 @@ fn the_dosing_strategy_is_chosen_from_the_profiles_strategies_and_undone() {
 }
 
 #[test]
+fn the_population_model_is_chosen_from_the_profiles_models_and_undone() {
+    // The gentamicin profile's models (drug-profiles/gentamicin.toml): the default
+    // "staatz-2006", then its summary values.
+    use ebb::tui::fields::Field;
+    let mut app = App::demo();
+    go_to(&mut app, CaseLine::Field(Field::Model));
+    let line = |app: &App| {
+        text(app, 160, 48)
+            .lines()
+            .find(|l| l.contains("Model "))
+            .unwrap_or_default()
+            .to_string()
+    };
+    assert!(
+        line(&app).contains("default: Staatz 2006"),
+        "{}",
+        line(&app)
+    );
+    key(&mut app, KeyCode::Enter);
+    assert_eq!(app.mode, Mode::Normal);
+    let chosen = |app: &App| app.file.fit.as_ref().and_then(|f| f.model.clone());
+    assert_eq!(chosen(&app).as_deref(), Some("summary-values"));
+    assert!(
+        message(&app).starts_with("Model: summary-values ("),
+        "{}",
+        message(&app)
+    );
+    assert!(app
+        .file
+        .to_toml()
+        .unwrap()
+        .contains("model = \"summary-values\""));
+    // The fit method stays its own choice beside it.
+    key(&mut app, KeyCode::Char('2'));
+    key(&mut app, KeyCode::Char('m'));
+    let method = app.file.fit.as_ref().and_then(|f| f.method.clone());
+    assert!(method.is_some());
+    assert_eq!(chosen(&app).as_deref(), Some("summary-values"));
+    key(&mut app, KeyCode::Char('1'));
+    // Round to the default again, with the reason said.
+    key(&mut app, KeyCode::Enter);
+    assert_eq!(chosen(&app), None);
+    assert!(
+        message(&app).contains("the profile's default, staatz-2006")
+            && message(&app).contains("because it follows creatinine clearance"),
+        "{}",
+        message(&app)
+    );
+    // Each step is one undo.
+    ctrl(&mut app, 'z');
+    assert_eq!(chosen(&app).as_deref(), Some("summary-values"));
+    // Delete goes back to the profile's default; without a method [fit] goes too.
+    key(&mut app, KeyCode::Delete);
+    assert_eq!(chosen(&app), None);
+    assert_eq!(app.file.fit.as_ref().and_then(|f| f.method.clone()), method);
+    let mut fresh = App::new_case();
+    go_to(&mut fresh, CaseLine::Field(Field::Model));
+    key(&mut fresh, KeyCode::Enter);
+    assert_eq!(fresh.file.fit, None);
+    assert!(
+        message(&fresh).contains("choose a profile with p first"),
+        "{}",
+        message(&fresh)
+    );
+}
+
+#[test]
 fn a_strategy_needs_a_profile() {
     use ebb::tui::fields::Field;
     let mut app = App::new_case();

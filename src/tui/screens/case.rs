@@ -152,9 +152,17 @@ fn field_rows(app: &App, lines: &[CaseLine], selected: CaseLine, width: usize) -
                 let room = width.saturating_sub(2 + 15 + shown.chars().count() + 1);
                 cut(&strings::strategy_shown(&label, is_default), room)
             });
-        let unit = match (*f, &strategy_label) {
-            (Field::SwitchBelow, _) => unit_now.as_str(),
-            (Field::Strategy, Some(l)) => l.as_str(),
+        // Likewise the population model's label beside its name.
+        let model_label = (*f == Field::Model)
+            .then(|| screens::model_in_force(app))
+            .flatten()
+            .map(|(label, is_default)| {
+                let room = width.saturating_sub(2 + 15 + shown.chars().count() + 1);
+                cut(&strings::model_shown(&label, is_default), room)
+            });
+        let unit = match (*f, &strategy_label, &model_label) {
+            (Field::SwitchBelow, _, _) => unit_now.as_str(),
+            (Field::Strategy, Some(l), _) | (Field::Model, _, Some(l)) => l.as_str(),
             _ => unit,
         };
         out.push((

@@ -47,10 +47,11 @@ pub const PATIENT_FIELDS: [Field; 10] = [
 ];
 
 /// The drug's fields, in screen order.
-pub const DRUG_FIELDS: [Field; 5] = [
+pub const DRUG_FIELDS: [Field; 6] = [
     Field::DrugName,
     Field::DrugProfile,
     Field::Strategy,
+    Field::Model,
     Field::Unit,
     Field::MolarMass,
 ];
@@ -173,6 +174,19 @@ pub fn strategy_in_force(app: &App) -> Option<(String, bool)> {
         .unwrap_or(&p.default_strategy);
     let s = p.strategy(name)?;
     Some((s.label.clone(), name == p.default_strategy))
+}
+
+/// The population model in force (the case's `[fit] model`, else the profile's default): its
+/// label, and whether it is the default. None without a profile that offers a model.
+pub fn model_in_force(app: &App) -> Option<(String, bool)> {
+    let p = &app.profiles.get(app.file.drug.profile.as_deref()?)?.profile;
+    let default = crate::profiles::default_model_name(p)?;
+    let chosen = app.file.fit.as_ref().and_then(|f| f.model.clone());
+    let name = chosen.unwrap_or_else(|| default.clone());
+    let m = crate::profiles::models_of(p)
+        .into_iter()
+        .find(|m| m.name == name)?;
+    Some((m.label, name == default))
 }
 
 /// One profile as lines: what it is, its levels and half-life, the targets of `strategy`
