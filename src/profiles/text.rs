@@ -219,6 +219,34 @@ pub fn write_show(w: &mut dyn Write, e: &Entry) -> io::Result<()> {
             }
         }
     }
+    let models = crate::profiles::models_of(p);
+    if !models.is_empty() {
+        let default = crate::profiles::default_model_name(p);
+        writeln!(w)?;
+        writeln!(
+            w,
+            "Population models (a case chooses with [fit] model; default: {}):",
+            default.as_deref().unwrap_or("none")
+        )?;
+        for m in &models {
+            let mark = if Some(&m.name) == default.as_ref() {
+                "*"
+            } else {
+                " "
+            };
+            let n = m.compartments();
+            writeln!(
+                w,
+                "  {mark} {:<16} {} ({n} compartment{})",
+                m.name,
+                m.label,
+                if n == 1 { "" } else { "s" }
+            )?;
+        }
+        if let (true, Some(r)) = (models.len() > 1, &p.default_model_reason) {
+            writeln!(w, "    the default because {r}")?;
+        }
+    }
     writeln!(w)?;
     writeln!(w, "Cautions:")?;
     for c in &p.cautions {

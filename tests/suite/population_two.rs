@@ -416,3 +416,23 @@ fn the_case_names_its_model_and_an_unknown_name_lists_the_profiles() {
         "{e}"
     );
 }
+
+#[test]
+fn profiles_show_lists_the_models_and_why_the_default() {
+    let out = crate::common::ebb()
+        .args(["profiles", "show", "gentamicin"])
+        .output()
+        .unwrap();
+    assert!(out.status.success());
+    let s = String::from_utf8(out.stdout).unwrap();
+    assert!(
+        s.contains("Population models (a case chooses with [fit] model; default: staatz-2006):"),
+        "{s}"
+    );
+    assert!(s.contains("  * staatz-2006 "), "{s}");
+    assert!(s.contains("    summary-values "), "{s}");
+    assert!(
+        s.contains("    the default because it follows creatinine clearance"),
+        "{s}"
+    );
+}
