@@ -160,6 +160,18 @@ fn a_dialysis_patients_a_priori_auc24_is_the_daily_dose_over_the_reduced_clearan
             ss.auc24_mg_h_l
         );
     }
+    // And the report's plan says the same.
+    let hd_text = reference("vancomycin", plan).replace(
+        "creatinine_mg_dl = 1.0",
+        "creatinine_mg_dl = 1.0\ndialysis = true",
+    );
+    let a = ebb::cli::analyse_parsed(&CaseFile::parse(&hd_text).unwrap(), None).unwrap();
+    let r = a.finished().unwrap().report;
+    let j: serde_json::Value = serde_json::from_str(&ebb::core::json::to_json(&r)).unwrap();
+    assert_eq!(j["fit"]["model"], "goti-2018");
+    assert_eq!(j["fit"]["compartments"], 2);
+    let auc = j["plan"]["auc24_ss"].as_f64().unwrap();
+    assert!((auc - 1000.0 / (0.7 * cl)).abs() < 1e-6, "{auc}");
     let ratio = with.clearance_l_per_h.unwrap() / without.clearance_l_per_h.unwrap();
     assert!((ratio - 0.7).abs() < 1e-12);
     // The population's 90 % range of CL is e^(±1.645 ω_CL) around it.
