@@ -962,6 +962,10 @@ pub fn strategy_shown(label: &str, is_default: bool) -> String {
 /// Stepping the population model of a case with no profile, or a profile without one.
 pub const MODEL_NEEDS_PROFILE: &str =
     "A population model belongs to a drug profile that has one; choose a profile with p first.";
+/// Stepping the population model of a case whose profile has none.
+pub fn no_model_in(display: &str) -> String {
+    format!("The {display} profile has no population model: Bayesian and population estimates are not available for it.")
+}
 /// The model after a step: its name and label; whether it is the profile's default (and why);
 /// how it is used.
 pub fn model_now(name: &str, label: &str, is_default: bool, reason: Option<&str>) -> String {

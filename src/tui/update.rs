@@ -885,8 +885,23 @@ fn pick_profile(app: &mut App, at: usize) {
     let name = entry.as_ref().map(|e| e.0.clone());
     let unit = entry.as_ref().map(|e| e.2.clone());
     let unit_before = app.file.drug.level_unit.clone();
+    // The new profile's population models: a model the case named that it lacks is dropped.
+    let offered: Vec<String> = name
+        .as_deref()
+        .and_then(|n| app.profiles.get(n))
+        .map(|e| {
+            crate::profiles::models_of(&e.profile)
+                .into_iter()
+                .map(|m| m.name)
+                .collect()
+        })
+        .unwrap_or_default();
     let r = app.change(|f| {
         f.drug.profile = name.clone();
+        let named = f.fit.as_ref().and_then(|x| x.model.clone());
+        if named.is_some_and(|m| !offered.contains(&m)) {
+            crate::tui::fields::set_model(f, None);
+        }
         if let Some(u) = &unit {
             if unit_is_free(f) {
                 f.drug.level_unit = Some(u.clone());
@@ -1005,7 +1020,7 @@ fn step_model(app: &mut App) {
     };
     let models = crate::profiles::models_of(&p);
     let Some(default) = crate::profiles::default_model_name(&p) else {
-        return app.complain(strings::MODEL_NEEDS_PROFILE);
+        return app.complain(strings::no_model_in(&p.display_name));
     };
     let order: Vec<Option<String>> = std::iter::once(None)
         .chain(

@@ -739,3 +739,33 @@ fn a_plan_edit_fits_a_bayesian_estimate_again_when_its_model_reads_the_daily_dos
     assert_eq!(app.figures.fit, fresh.fit);
     assert_eq!(app.figures.report, fresh.report);
 }
+
+#[test]
+fn a_model_the_new_profile_lacks_is_dropped_with_the_profile_change() {
+    // The demo (gentamicin) set to its summary values, then vancomycin chosen: vancomycin has
+    // no "summary-values", so the case goes back to vancomycin's default model in the same
+    // step (one undo brings both back).
+    let mut app = demo_with(|f| ebb::tui::fields::set_model(f, Some("summary-values".into())));
+    choose_profile(&mut app, Some("vancomycin"));
+    assert_eq!(app.file.drug.profile.as_deref(), Some("vancomycin"));
+    assert_eq!(app.file.fit.as_ref().and_then(|f| f.model.clone()), None);
+    app.mode = Mode::Normal;
+    app.handle_key(KeyEvent::new(KeyCode::Char('z'), KeyModifiers::CONTROL));
+    assert_eq!(app.file.drug.profile.as_deref(), Some("gentamicin"));
+    assert_eq!(
+        app.file.fit.as_ref().and_then(|f| f.model.as_deref()),
+        Some("summary-values")
+    );
+    // A profile without a population model says so on the Model line.
+    choose_profile(&mut app, Some("lithium"));
+    app.mode = Mode::Normal;
+    for _ in 0..100 {
+        if screens::selected_case_line(&app) == CaseLine::Field(Field::Model) {
+            break;
+        }
+        key(&mut app, KeyCode::Down);
+    }
+    key(&mut app, KeyCode::Enter);
+    let said = app.message.as_ref().unwrap().text.clone();
+    assert!(said.contains("profile has no population model"), "{said}");
+}
