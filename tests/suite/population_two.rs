@@ -448,3 +448,57 @@ fn profiles_show_lists_the_models_and_why_the_default() {
         "{s}"
     );
 }
+
+#[test]
+fn its_95_percent_interval_of_clearance_covers_the_truth_about_95_percent_of_the_time() {
+    // Patients drawn from Goti 2018 itself for the reference patient (η of CL, Vc and Vp
+    // from the prior, levels with the model's residual error; self-consistency), one estimate
+    // each from a level an hour after an infusion and a trough: the 95 % interval of clearance
+    // should hold the patient's true clearance in about 95 % of them. It holds it in about
+    // 92.5 % (seeds 1-3 and 12 of 2,000 patients: 92.4-92.9 %): the Laplace approximation is a
+    // little narrow for this model from two levels.
+    use rand::rngs::StdRng;
+    use rand::SeedableRng;
+    use rand_distr::{Distribution, StandardNormal};
+    let pop = population(&reference("vancomycin", ""));
+    let typical = pop.two.unwrap();
+    let om = pop.omega_two().map(|w| w.unwrap_or(0.0));
+    let doses: Vec<(f64, f64, f64)> = (0..4).map(|i| (12.0 * i as f64, 1000.0, 1.0)).collect();
+    let given: Vec<Administration> = doses
+        .iter()
+        .map(|&(t, mg, h)| Administration {
+            t,
+            amount_mg: mg,
+            route: Route::Infusion { hours: h },
+        })
+        .collect();
+    let mut rng = StdRng::seed_from_u64(12);
+    let (mut inside, n) = (0, 2000);
+    for _ in 0..n {
+        let mut z = [0.0; 3];
+        for x in &mut z {
+            *x = StandardNormal.sample(&mut rng);
+        }
+        let truth = TwoCompartment {
+            cl: typical.cl * (om[0] * z[0]).exp(),
+            v1: typical.v1 * (om[1] * z[1]).exp(),
+            q: typical.q,
+            v2: typical.v2 * (om[3] * z[2]).exp(),
+        };
+        let pts: Vec<(f64, f64)> = [38.0, 47.9]
+            .iter()
+            .map(|&t| {
+                let c = level(&truth, &doses, t);
+                let e: f64 = StandardNormal.sample(&mut rng);
+                (t, (c + pop.residual.variance(c).sqrt() * e).max(0.1))
+            })
+            .collect();
+        let e = bayes::estimate_two(&given, &pts, &[], &pop).unwrap();
+        let [lo, hi] = e.param_spread().interval(e.two.cl, &[1.0, 0.0, 0.0, 0.0]);
+        if (lo..=hi).contains(&truth.cl) {
+            inside += 1;
+        }
+    }
+    let share = inside as f64 / n as f64;
+    assert!((0.91..=0.95).contains(&share), "{share}");
+}
