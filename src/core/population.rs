@@ -434,3 +434,86 @@ pub fn covariate_words(c: Covariate) -> (&'static str, &'static str) {
         Covariate::DailyDoseMg => ("daily dose", "mg"),
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::core::prior::{Parameter, Peripheral, Residual};
+
+    fn fixed(typical: f64, omega: Option<f64>) -> Parameter {
+        Parameter {
+            typical,
+            terms: Vec::new(),
+            omega,
+        }
+    }
+
+    /// An invented two-compartment model of apparent values (self-consistency only).
+    fn apparent_two() -> Model {
+        Model {
+            name: "invented-two".into(),
+            label: String::new(),
+            elimination_kind: Elimination::Clearance,
+            elimination: fixed(4.0, Some(0.3)),
+            volume: fixed(20.0, Some(0.2)),
+            peripheral: Some(Peripheral {
+                q: fixed(2.0, None),
+                v2: fixed(30.0, Some(0.5)),
+            }),
+            correlation: 0.5,
+            residual: Residual {
+                additive_mg_l: 0.1,
+                proportional: 0.1,
+            },
+            apparent: true,
+            crcl: crate::core::renal::TOTAL_WEIGHT,
+            envelope: Vec::new(),
+            excludes_dialysis: false,
+            a_priori: true,
+            population: String::new(),
+            assumptions: Vec::new(),
+            sources: Vec::new(),
+        }
+    }
+
+    #[test]
+    fn an_apparent_two_compartment_model_scales_every_parameter_by_f() {
+        let p = evaluate(&apparent_two(), &Patient::default(), None, 0.5).unwrap();
+        let t = p.two.unwrap();
+        assert_eq!((t.cl, t.v1, t.q, t.v2), (2.0, 10.0, 1.0, 15.0));
+        assert_eq!(p.k_per_h, t.rates().1);
+        assert_eq!(p.omega_two(), [Some(0.3), Some(0.2), None, Some(0.5)]);
+        let m = p.omega_two_matrix();
+        assert!((m[0][1] - 0.5 * 0.3 * 0.2).abs() < 1e-15);
+        assert_eq!(m[2], [0.0; 4]);
+        assert!((m[3][3] - 0.25).abs() < 1e-15);
+        // η moves each parameter by e^η; Q stays without one.
+        let Disposition::Two(d) = p.disposition(&[0.1, 0.0, 0.0, -0.2]) else {
+            panic!("two compartments");
+        };
+        assert!((d.cl - 2.0 * 0.1f64.exp()).abs() < 1e-12);
+        assert!((d.v2 - 15.0 * (-0.2f64).exp()).abs() < 1e-12);
+        assert_eq!((d.v1, d.q), (10.0, 1.0));
+    }
+
+    #[test]
+    fn a_peripheral_parameter_the_patient_cannot_have_names_the_field() {
+        let mut m = apparent_two();
+        m.apparent = false;
+        if let Some(p) = m.peripheral.as_mut() {
+            p.v2.terms.push(crate::core::prior::Term {
+                of: Covariate::WeightKg,
+                form: Form::Add {
+                    reference: 100.0,
+                    slope: 1.0,
+                },
+            });
+        }
+        let patient = Patient {
+            weight_kg: Some(50.0),
+            ..Patient::default()
+        };
+        let e = evaluate(&m, &patient, None, 1.0).unwrap_err().to_string();
+        assert!(e.starts_with("patient.weight_kg: "), "{e}");
+    }
+}
