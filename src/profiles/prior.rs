@@ -359,11 +359,17 @@ pub fn model_of(
         assumptions: m.assumptions.clone(),
         sources: cite(&m.source),
     };
-    model.check().map_err(|e| {
-        problem(
-            place,
-            e.to_string().replacen("model.", &format!("{place}."), 1),
-        )
+    model.check().map_err(|e| match e {
+        // The check names `model.FIELD`: here it is this model's field.
+        crate::core::error::Error::Invalid { place: at, message } => problem(
+            at.replacen("model", place, 1).replacen(
+                ".elimination",
+                elimination_field(elimination_kind),
+                1,
+            ),
+            message,
+        ),
+        other => problem(place, other.to_string()),
     })?;
     Ok(model)
 }
@@ -444,6 +450,14 @@ fn summary_model(profile: &Profile, cite: &dyn Fn(&str) -> Vec<String>) -> Optio
         sources,
     };
     model.check().ok().map(|_| model)
+}
+
+/// How the profile spells the elimination parameter of a model of `kind`.
+fn elimination_field(kind: Elimination) -> &'static str {
+    match kind {
+        Elimination::Clearance => ".clearance",
+        Elimination::RateConstant => ".k",
+    }
 }
 
 /// The name the summary values of `[population]` go by as a model.
@@ -646,6 +660,15 @@ mod tests {
             ),
             "{e}"
         );
+        // A number the check refuses is named at its own field and line.
+        let negative = text.replacen("[model.q]\ntypical = 6.5", "[model.q]\ntypical = -6.5", 1);
+        let e = refused(&negative);
+        assert!(
+            e.contains("field model[1].q: typical must be above 0, got -6.5"),
+            "{e}"
+        );
+        let line = text.lines().position(|l| l == "[model.q]").unwrap() + 1;
+        assert!(e.contains(&format!("line {line}: ")), "{e}");
         // A two-compartment model gives the central clearance, not k.
         let on_k = text.replacen(
             "[model.clearance]\ntypical = 4.5",
