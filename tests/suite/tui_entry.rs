@@ -892,6 +892,21 @@ fn the_population_model_is_chosen_from_the_profiles_models_and_undone() {
         .to_toml()
         .unwrap()
         .contains("model = \"summary-values\""));
+    // Saved as written, beside the file's comments.
+    let original = "# the demo\n".to_string() + &app.file.to_toml().unwrap();
+    let (saved, _) = ebb::files::toml_keep::render_checked(&app.file, Some(&original)).unwrap();
+    assert!(
+        saved.contains("[fit]\nmodel = \"summary-values\""),
+        "{saved}"
+    );
+    assert_eq!(
+        ebb::core::casefile::CaseFile::parse(&saved)
+            .unwrap()
+            .fit
+            .and_then(|f| f.model)
+            .as_deref(),
+        Some("summary-values")
+    );
     // The fit method stays its own choice beside it.
     key(&mut app, KeyCode::Char('2'));
     key(&mut app, KeyCode::Char('m'));
