@@ -205,7 +205,11 @@ pub fn evaluate(
             Covariate::Dialysis => match patient.dialysis {
                 Some(d) => f64::from(u8::from(d)),
                 None => {
-                    assumed.push("the case does not say whether the patient is on haemodialysis: taken as not".to_string());
+                    let said = "the case does not say whether the patient is on haemodialysis: taken as not";
+                    // Several parameters may read it: say it once.
+                    if !assumed.iter().any(|a| a == said) {
+                        assumed.push(said.to_string());
+                    }
                     0.0
                 }
             },

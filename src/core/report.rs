@@ -94,6 +94,12 @@ pub struct Peripheral {
     pub alpha_per_h: f64,
     /// ln 2 / α, hours.
     pub distribution_half_life_h: f64,
+    /// The range of V2 when the model lets it vary between patients (95 %, or the population's
+    /// 90 % without a level); None when the model holds it at its typical value.
+    pub volume_range_l: Option<[f64; 2]>,
+    /// Whether the model holds the central volume at its typical value (no between-patient
+    /// spread), so no level moves it.
+    pub central_fixed: bool,
 }
 
 /// One target and whether the plan meets it.
@@ -315,11 +321,27 @@ pub fn build_from_fit(case: &Case, fit: &Fit) -> Result<Report> {
         compartments: fit.compartments(),
         peripheral: fit.two.map(|t| {
             let (alpha, _) = t.rates();
+            let var = |i: usize| {
+                fit.param_spread
+                    .as_ref()
+                    .and_then(|s| {
+                        s.cov
+                            .get(i)
+                            .and_then(|r| r.get(i))
+                            .map(|v| (*v, s.quantile))
+                    })
+                    .filter(|(v, _)| *v > 0.0)
+            };
             Peripheral {
                 volume_l: t.v2,
                 intercompartmental_l_per_h: t.q,
                 alpha_per_h: alpha,
                 distribution_half_life_h: crate::core::model::half_life(alpha),
+                volume_range_l: var(3).map(|(v, q)| {
+                    let h = q * v.sqrt();
+                    [t.v2 * (-h).exp(), t.v2 * h.exp()]
+                }),
+                central_fixed: var(1).is_none(),
             }
         }),
     };
@@ -989,6 +1011,10 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
                 _ if spans_doses => {
                     let how = if f.method == "population" {
                         "the population model's"
+                    } else if f.peripheral.is_some_and(|p| p.central_fixed) {
+                        "the model's typical value: the model does not let it vary"
+                    } else if f.peripheral.is_some() {
+                        "estimated with the clearance"
                     } else {
                         "fitted with k"
                     };
@@ -1004,10 +1030,23 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
             match &f.peripheral {
                 Some(pe) => {
                     writeln!(w, "  volume      {} L central  ({by})", num(v))?;
+                    let v2 = match (pe.volume_range_l, f.method == "population") {
+                        (Some([a, b]), true) => {
+                            format!(
+                                "the population model's; {range_words} {} to {}",
+                                num(a),
+                                num(b)
+                            )
+                        }
+                        (Some([a, b]), false) => {
+                            format!("estimated; {range_words} {} to {}", num(a), num(b))
+                        }
+                        (None, _) => "the model's typical value".to_string(),
+                    };
+                    writeln!(w, "              {} L peripheral  ({v2})", num(pe.volume_l))?;
                     writeln!(
                         w,
-                        "              {} L peripheral, exchanging at {} L/h (the model's typical values)",
-                        num(pe.volume_l),
+                        "              exchanging at {} L/h  (the model's typical value)",
                         num(pe.intercompartmental_l_per_h)
                     )?;
                 }

@@ -395,12 +395,18 @@ pub fn defaults_for_strategy(
         regimen.dialysis.pre_dialysis = Some([r.low * f, r.high * f]);
         regimen.dialysis.pre_dialysis_source = r.source.clone();
     }
+    // Every model once; the default is one of them.
+    let models = prior::models_of(profile);
+    let default = profile
+        .default_model
+        .clone()
+        .or_else(|| models.first().map(|m| m.name.clone()));
     Defaults {
         molar_mass_g_mol: profile.molar_mass_g_mol.as_ref().map(|m| m.value),
         bioavailability: profile.bioavailability.as_ref().map(|f| f.value),
         targets,
-        prior: prior_of(profile),
-        models: prior::models_of(profile),
+        prior: default.and_then(|n| models.iter().find(|m| m.name == n).cloned()),
+        models,
         model_reason: profile.default_model_reason.clone(),
         regimen: Some(regimen),
         strategies: profile.strategies.iter().map(|s| s.name.clone()).collect(),

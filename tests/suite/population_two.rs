@@ -502,3 +502,18 @@ fn its_95_percent_interval_of_clearance_covers_the_truth_about_95_percent_of_the
     let share = inside as f64 / n as f64;
     assert!((0.91..=0.95).contains(&share), "{share}");
 }
+
+#[test]
+fn an_unstated_dialysis_is_said_once_though_two_parameters_read_it() {
+    // Goti 2018 reads haemodialysis in both clearance and central volume.
+    let pop = population(&reference("vancomycin", ""));
+    let said = pop
+        .warnings
+        .iter()
+        .filter(|w| {
+            w.to_string()
+                .contains("does not say whether the patient is on haemodialysis")
+        })
+        .count();
+    assert_eq!(said, 1, "{:?}", pop.warnings);
+}
