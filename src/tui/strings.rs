@@ -549,15 +549,20 @@ pub const NO_FIT_YET: &str = "No fit yet:";
 /// The fit in one line under the case tables.
 pub fn fit_summary(r: &Report) -> String {
     let f = &r.fit;
+    let terminal = if f.peripheral.is_some() {
+        " (terminal, two compartments)"
+    } else {
+        ""
+    };
     if f.level_rows.is_empty() {
         return format!(
-            "Fit: k {} /h, half-life {} h, population model alone (no level) — screen 2 has the details",
+            "Fit: k {} /h, half-life {} h{terminal}, population model alone (no level) — screen 2 has the details",
             num(f.k_per_h),
             num(f.half_life_h)
         );
     }
     format!(
-        "Fit: k {} /h, half-life {} h, from levels {} ({}) — screen 2 has the details",
+        "Fit: k {} /h, half-life {} h{terminal}, from levels {} ({}) — screen 2 has the details",
         num(f.k_per_h),
         num(f.half_life_h),
         f.level_rows
@@ -581,13 +586,17 @@ pub const K: &str = "k";
 pub const HALF_LIFE: &str = "half-life";
 /// Label of the model's compartments on the fit screen.
 pub const COMPARTMENTS: &str = "model";
+/// Label of the peripheral volume and the intercompartmental clearance on the fit screen.
+pub const PERIPHERAL: &str = "V2, Q";
 
-/// A two-compartment fit: the distribution half-life, the peripheral volume and the exchange;
-/// k and the half-life shown are the terminal ones.
-pub fn two_compartments(distribution_h: &str, v2: &str, q: &str) -> String {
-    format!(
-        "two compartments: distribution half-life {distribution_h} h, peripheral {v2} L at {q} L/h; k, half-life and volume below are terminal and central"
-    )
+/// A two-compartment fit in a line short enough for the fit screen's figures.
+pub fn two_compartments(distribution_h: &str) -> String {
+    format!("2-cmt, distribution t½ {distribution_h} h")
+}
+
+/// The peripheral compartment, and which figures below are the terminal or central ones.
+pub fn peripheral(v2: &str, q: &str) -> String {
+    format!("{v2} L, {q} L/h; k, t½ terminal")
 }
 /// Label.
 pub const R_SQUARED: &str = "r²";

@@ -239,3 +239,24 @@ fn phenytoin_on_two_daily_doses_charts_the_record_fit_with_its_band() {
         draw(&app, 160, 48).backend()
     );
 }
+
+#[test]
+fn a_two_compartment_fit_shows_its_phases_on_the_fit_screen() {
+    let path = std::path::Path::new("tests/cases/valid/vancomycin_two_compartment.toml");
+    let mut app = App::open(path);
+    assert!(app.load_error.is_none());
+    app.screen = Screen::Fit;
+    for (w, h) in [(80, 24), (160, 48)] {
+        let text = screen_text(&app, w, h);
+        assert!(text.contains("2-cmt, distribution t½ 2.67 h"), "{text}");
+        assert!(text.contains("k, t½ terminal"), "{text}");
+        assert!(text.contains("two-compartment"), "{text}");
+        insta::assert_snapshot!(
+            format!("two_compartment_fit_{w}x{h}"),
+            draw(&app, w, h).backend()
+        );
+    }
+    app.screen = Screen::Case;
+    let text = screen_text(&app, 160, 48);
+    assert!(text.contains("(terminal, two compartments)"), "{text}");
+}

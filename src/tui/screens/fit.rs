@@ -123,11 +123,15 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
             2,
             kv(
                 strings::COMPARTMENTS,
-                strings::two_compartments(
-                    &num(pe.distribution_half_life_h),
-                    &num(pe.volume_l),
-                    &num(pe.intercompartmental_l_per_h),
-                ),
+                strings::two_compartments(&num(pe.distribution_half_life_h)),
+                String::new(),
+            ),
+        );
+        lines.insert(
+            3,
+            kv(
+                strings::PERIPHERAL,
+                strings::peripheral(&num(pe.volume_l), &num(pe.intercompartmental_l_per_h)),
                 String::new(),
             ),
         );
