@@ -532,7 +532,8 @@ fn windows_pre_dose_at_dose_time_and_levels_during_infusion() {
 /// A fixture for a saturable drug, or with a free level: it needs its drug profile.
 fn names_a_strategy(name: &str) -> bool {
     let text = std::fs::read_to_string(fixture("valid", name)).unwrap();
-    text.contains("\nstrategy = ")
+    // A profile's strategy, or a Bayesian fit (its population model is in the profile).
+    text.contains("\nstrategy = ") || text.contains("method = \"bayesian\"")
 }
 
 /// A valid fixture through the analysis with the built-in profiles: its case, report and JSON.
@@ -569,6 +570,46 @@ fn vancomycin_haemodialysis() {
     assert_eq!(s, [(0.0, 4.0), (48.0, 52.0)]);
     assert_eq!(case.regimen.dialysis.pre_dialysis, Some([15.0, 20.0]));
     assert!(case.regimen.dialysis.dose_after_session);
+}
+
+#[test]
+fn vancomycin_two_compartment() {
+    let (_, _, v) = analysed("vancomycin_two_compartment.toml");
+    let f = &v["fit"];
+    assert_eq!(f["compartments"], 2);
+    assert_eq!(f["model"], "goti-2018");
+    let (cl, v1, v2, q) = (
+        num(&f["clearance_l_per_h"]),
+        num(&f["volume_l"]),
+        num(&f["peripheral_volume_l"]),
+        num(&f["intercompartmental_clearance_l_per_h"]),
+    );
+    // The macro-constants written out: α, β the roots of λ² − (k10 + k12 + k21)λ + k10·k21,
+    // A = (α − k21)/(V1(α − β)), B = (k21 − β)/(V1(α − β)).
+    let (k10, k12, k21) = (cl / v1, q / v1, q / v2);
+    let sum = k10 + k12 + k21;
+    let alpha = (sum + (sum * sum - 4.0 * k10 * k21).sqrt()) / 2.0;
+    let beta = k10 * k21 / alpha;
+    same(num(&f["k_per_h"]), beta);
+    same(num(&f["distribution_half_life_h"]), LN_2 / alpha);
+    let a = (alpha - k21) / (v1 * (alpha - beta));
+    let b = (k21 - beta) / (v1 * (alpha - beta));
+    // The plan, 1250 mg over 1.5 h every 12 h: each mode's steady-state infusion course,
+    // R0·c/λ·(1 − e^(−λT))·e^(−λ(τ − T))/(1 − e^(−λτ)) at the trough, summed.
+    let (r0, t, tau) = (1250.0 / 1.5, 1.5, 12.0);
+    let mode = |c: f64, l: f64, s: f64| {
+        r0 * c / l * (1.0 - (-l * t).exp()) * (-l * (s - t)).exp() / (1.0 - (-l * tau).exp())
+    };
+    same(
+        num(&v["plan"]["trough_ss"]),
+        mode(a, alpha, tau) + mode(b, beta, tau),
+    );
+    same(
+        num(&v["plan"]["peak_ss"]),
+        mode(a, alpha, t) + mode(b, beta, t),
+    );
+    // AUC24 = daily dose / CL.
+    same(num(&v["plan"]["auc24_ss"]), 2500.0 / cl);
 }
 
 fn saturable(name: &str, dir: &str) -> bool {
