@@ -305,7 +305,11 @@ impl SemiLogChart<'_> {
                 while t <= f.x[1] {
                     if let (Some(c), Some(s)) = (f.col(t), clock.at_minute(t)) {
                         let midnight = minute_of_day(&s) == 0;
-                        let fmt = if step >= 24.0 || (!long && midnight) {
+                        // Days apart: the weekday and day; weeks apart, the day and month
+                        // (a weekday and a day of the month repeat from month to month).
+                        let fmt = if step > 24.0 * 7.0 - 1e-9 {
+                            "%-d %b"
+                        } else if step >= 24.0 || (!long && midnight) {
                             "%a %-d"
                         } else if long {
                             "%a %H:%M"
