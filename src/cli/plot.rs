@@ -155,7 +155,6 @@ pub fn plot_svg_from(case: &Case, fit: &Fit, r: &Report) -> Result<String> {
         .map(|(_, l)| (l.t, l.value))
         .collect();
     let threshold = case.threshold.as_ref().map(|t| t.below);
-    let procedure = case.threshold.as_ref().and_then(|t| t.procedure_t);
 
     // The level axis: a decade or so either side of the data, never below 1/10 000 of the top.
     let mut ys: Vec<f64> = case.levels.iter().map(|l| l.value).collect();
@@ -166,6 +165,189 @@ pub fn plot_svg_from(case: &Case, fit: &Fit, r: &Report) -> Result<String> {
         .copied()
         .filter(|y| y.is_finite())
         .fold(0.0, f64::max);
+    let data_low = case
+        .levels
+        .iter()
+        .map(|l| l.value)
+        .chain(threshold)
+        .fold(top, f64::min);
+    let y = level_axis(top, data_low, u)?;
+    let title = match (&case.patient.label, case.drug.name.as_str()) {
+        (Some(l), "") => l.clone(),
+        (Some(l), d) => format!("{l}: {d}"),
+        (None, d) => d.to_string(),
+    };
+    // The SVG writer escapes markup; control characters, which XML does not allow at all,
+    // are made visible here.
+    let title = crate::core::text::printable(&title).into_owned();
+    let caution = crate::core::report::caution_for(r.fit.compartments).0;
+    draw_frame(case, caution, title, [x0, x1], y, u, |chart, keep| {
+        let black = BLACK.stroke_width(2);
+        chart
+            .draw_series(LineSeries::new(keep(&recorded), black))
+            .map_err(draw_err)?
+            .label(LEGEND[0])
+            .legend(move |(x, y)| PathElement::new([(x, y), (x + 30, y)], black));
+        if !planned.is_empty() {
+            let style = RGBColor(0, 70, 160).stroke_width(2);
+            chart
+                .draw_series(DashedLineSeries::new(keep(&planned), 12, 6, style))
+                .map_err(draw_err)?
+                .label(LEGEND[1])
+                .legend(move |(x, y)| {
+                    Rectangle::new([(x, y - 1), (x + 12, y + 1)], style.filled())
+                });
+        }
+        let fit_style = RGBColor(160, 40, 0).stroke_width(2);
+        chart
+            .draw_series(DashedLineSeries::new(keep(&line), 4, 4, fit_style))
+            .map_err(draw_err)?
+            .label(LEGEND[2])
+            .legend(move |(x, y)| Rectangle::new([(x, y - 1), (x + 4, y + 1)], fit_style.filled()));
+        chart
+            .draw_series(
+                keep(&used)
+                    .into_iter()
+                    .map(|pt| Circle::new(pt, 5, BLACK.filled())),
+            )
+            .map_err(draw_err)?
+            .label(LEGEND[3])
+            .legend(|(x, y)| Circle::new((x + 10, y), 5, BLACK.filled()));
+        if !unused.is_empty() {
+            chart
+                .draw_series(
+                    keep(&unused)
+                        .into_iter()
+                        .map(|pt| Cross::new(pt, 6, BLACK.stroke_width(2))),
+                )
+                .map_err(draw_err)?
+                .label(LEGEND[4])
+                .legend(|(x, y)| Cross::new((x + 10, y), 6, BLACK.stroke_width(2)));
+        }
+        Ok(())
+    })
+}
+
+/// The legend of the saturable plot's levels: they are the deciding levels (adjusted for
+/// albumin, or a free level over the free fraction, when the case has them).
+pub const LEGEND_DECIDING: &str = "level (as it decides)";
+
+/// The legend of the saturable plot's band: the edges of the model's 95 % range.
+pub const LEGEND_BAND: &str = "95 % range of the model";
+
+/// Draw the course of a drug with saturable (Michaelis-Menten) elimination: the integrated
+/// model over the dose record and the plan (the core's `chart_course`), the deciding levels,
+/// the threshold and the procedure, with the saturable caution at the foot.
+///
+/// # Errors
+/// No volume (no weight: the course cannot be integrated), nothing above zero to draw, or a
+/// drawing error.
+pub fn plot_saturable_svg(case: &Case, r: &SaturableReport) -> Result<String> {
+    if r.volume_l.is_none() {
+        return Err(Error::invalid(
+            "patient.weight_kg",
+            "needed to draw the course of a drug with saturable elimination (the volume comes \
+             from the weight); `ebb report` gives the figures without it",
+        ));
+    }
+    let to = |x: f64| case.drug.scale.to_level(x);
+    let u = case.drug.scale.unit.as_str();
+    let [first, last] = saturable_report::chart_span(case, r);
+    let (x0, x1) = (first - 0.02 * (last - first), last);
+    let course = saturable_report::chart_course(case, r, [first, last], SAMPLES);
+    let in_unit = |pts: Vec<(f64, f64)>| -> Vec<(f64, f64)> {
+        pts.into_iter().map(|(t, c)| (t, to(c))).collect()
+    };
+    let (record, plan) = (in_unit(course.record), in_unit(course.plan));
+    let band: Vec<Vec<(f64, f64)>> = course.band.into_iter().flatten().map(in_unit).collect();
+    let levels: Vec<(f64, f64)> = r
+        .readings
+        .iter()
+        .map(|x| (x.t, to(x.decision_mg_l)))
+        .collect();
+    let threshold = case.threshold.as_ref().map(|t| t.below);
+    let top = record
+        .iter()
+        .chain(&plan)
+        .chain(band.iter().flatten())
+        .chain(&levels)
+        .map(|p| p.1)
+        .chain(threshold)
+        .filter(|y| y.is_finite())
+        .fold(0.0, f64::max);
+    let low = levels
+        .iter()
+        .map(|p| p.1)
+        .chain(threshold)
+        .fold(top, f64::min);
+    let y = level_axis(top, low, u)?;
+    let title = match (&case.patient.label, case.drug.name.as_str()) {
+        (Some(l), "") => l.clone(),
+        (Some(l), d) => format!("{l}: {d}"),
+        (None, d) => d.to_string(),
+    };
+    let title = format!(
+        "{} (saturable elimination: Vmax {} mg/day, Km {} mg/L)",
+        crate::core::text::printable(&title),
+        num(r.vmax_mg_per_day),
+        num(r.km_mg_l)
+    );
+    draw_frame(
+        case,
+        saturable_report::CAUTION,
+        title,
+        [x0, x1],
+        y,
+        u,
+        |chart, keep| {
+            let black = BLACK.stroke_width(2);
+            let light = RGBColor(150, 150, 150).stroke_width(1);
+            for (i, edge) in band.iter().enumerate() {
+                let series = chart
+                    .draw_series(LineSeries::new(keep(edge), light))
+                    .map_err(draw_err)?;
+                if i == 0 {
+                    series
+                        .label(LEGEND_BAND)
+                        .legend(move |(x, y)| PathElement::new([(x, y), (x + 30, y)], light));
+                }
+            }
+            chart
+                .draw_series(LineSeries::new(keep(&record), black))
+                .map_err(draw_err)?
+                .label(LEGEND[0])
+                .legend(move |(x, y)| PathElement::new([(x, y), (x + 30, y)], black));
+            if !plan.is_empty() {
+                let style = RGBColor(0, 70, 160).stroke_width(2);
+                chart
+                    .draw_series(DashedLineSeries::new(keep(&plan), 12, 6, style))
+                    .map_err(draw_err)?
+                    .label(LEGEND[1])
+                    .legend(move |(x, y)| {
+                        Rectangle::new([(x, y - 1), (x + 12, y + 1)], style.filled())
+                    });
+            }
+            chart
+                .draw_series(
+                    keep(&levels)
+                        .into_iter()
+                        .map(|pt| Circle::new(pt, 5, BLACK.filled())),
+                )
+                .map_err(draw_err)?
+                .label(LEGEND_DECIDING)
+                .legend(|(x, y)| Circle::new((x + 10, y), 5, BLACK.filled()));
+            Ok(())
+        },
+    )
+}
+
+/// The level axis for values up to `top` with the lowest data value `low`: a decade or so
+/// either side of the data, never below 1/10 000 of the top, with headroom above for the
+/// legend.
+///
+/// # Errors
+/// Nothing above zero to draw, or a value too high to draw.
+fn level_axis(top: f64, low: f64, u: &str) -> Result<[f64; 2]> {
     if top <= 0.0 {
         return Err(Error::invalid("plot", "no level above zero to draw"));
     }
@@ -180,28 +362,42 @@ pub fn plot_svg_from(case: &Case, fit: &Fit, r: &Report) -> Result<String> {
             ),
         ));
     }
-    let data_low = case
-        .levels
-        .iter()
-        .map(|l| l.value)
-        .chain(threshold)
-        .fold(top, f64::min);
-    // Headroom above the top for the legend box.
-    let (y0, y1) = ((data_low / 3.0).max(top / 1e4), top * 4.0);
+    Ok([(low / 3.0).max(top / 1e4), top * 4.0])
+}
+
+/// The chart both plots draw on: clock time across, the level on a log scale up.
+type Chart<'a, 'b> = ChartContext<
+    'a,
+    SVGBackend<'b>,
+    Cartesian2d<plotters::coord::types::RangedCoordf64, LogCoord<f64>>,
+>;
+
+/// Draw what every plot has — the caution at the foot, the title, the axes, the dialysis
+/// sessions as shaded bands, the threshold, the procedure and the legend — around the curves
+/// and levels `series` draws (given the chart and a filter that keeps the points in view).
+fn draw_frame(
+    case: &Case,
+    caution: &str,
+    title: String,
+    [x0, x1]: [f64; 2],
+    [y0, y1]: [f64; 2],
+    u: &str,
+    series: impl FnOnce(&mut Chart, &dyn Fn(&[(f64, f64)]) -> Vec<(f64, f64)>) -> Result<()>,
+) -> Result<String> {
     let keep = |v: &[(f64, f64)]| -> Vec<(f64, f64)> {
         v.iter()
             .copied()
             .filter(|&(t, c)| c.is_finite() && c >= y0 && t >= x0 && t <= x1)
             .collect()
     };
-
     let clock = case.clock;
     let label_x = move |h: &f64| -> String {
         clock
             .at_minute(*h)
             .map_or(String::new(), |s| s.axis_label())
     };
-
+    let threshold = case.threshold.as_ref().map(|t| t.below);
+    let procedure = case.threshold.as_ref().and_then(|t| t.procedure_t);
     let mut svg = String::new();
     {
         let whole = SVGBackend::with_string(&mut svg, SIZE).into_drawing_area();
@@ -209,7 +405,7 @@ pub fn plot_svg_from(case: &Case, fit: &Fit, r: &Report) -> Result<String> {
         // The caution goes with the drawing wherever it is copied: two lines at the foot.
         let (root, foot) = whole.split_vertically(SIZE.1 - CAUTION_HEIGHT);
         let style = ("sans-serif", 13).into_font().color(&BLACK);
-        for (i, line) in caution_lines(r.fit.compartments).iter().enumerate() {
+        for (i, line) in caution_lines_of(caution).iter().enumerate() {
             foot.draw(&Text::new(
                 line.clone(),
                 (14, 4 + 16 * i as i32),
@@ -217,14 +413,6 @@ pub fn plot_svg_from(case: &Case, fit: &Fit, r: &Report) -> Result<String> {
             ))
             .map_err(draw_err)?;
         }
-        let title = match (&case.patient.label, case.drug.name.as_str()) {
-            (Some(l), "") => l.clone(),
-            (Some(l), d) => format!("{l}: {d}"),
-            (None, d) => d.to_string(),
-        };
-        // The SVG writer escapes markup; control characters, which XML does not allow at
-        // all, are made visible here.
-        let title = crate::core::text::printable(&title).into_owned();
         let mut chart = ChartBuilder::on(&root)
             .caption(title, ("sans-serif", 20))
             .margin(12)
@@ -270,238 +458,9 @@ pub fn plot_svg_from(case: &Case, fit: &Fit, r: &Report) -> Result<String> {
                 .map_err(draw_err)?;
         }
 
-        let black = BLACK.stroke_width(2);
+        series(&mut chart, &keep)?;
+
         let grey = RGBColor(90, 90, 90).stroke_width(2);
-        chart
-            .draw_series(LineSeries::new(keep(&recorded), black))
-            .map_err(draw_err)?
-            .label(LEGEND[0])
-            .legend(move |(x, y)| PathElement::new([(x, y), (x + 30, y)], black));
-        if !planned.is_empty() {
-            let style = RGBColor(0, 70, 160).stroke_width(2);
-            chart
-                .draw_series(DashedLineSeries::new(keep(&planned), 12, 6, style))
-                .map_err(draw_err)?
-                .label(LEGEND[1])
-                .legend(move |(x, y)| {
-                    Rectangle::new([(x, y - 1), (x + 12, y + 1)], style.filled())
-                });
-        }
-        let fit_style = RGBColor(160, 40, 0).stroke_width(2);
-        chart
-            .draw_series(DashedLineSeries::new(keep(&line), 4, 4, fit_style))
-            .map_err(draw_err)?
-            .label(LEGEND[2])
-            .legend(move |(x, y)| Rectangle::new([(x, y - 1), (x + 4, y + 1)], fit_style.filled()));
-        chart
-            .draw_series(
-                keep(&used)
-                    .into_iter()
-                    .map(|pt| Circle::new(pt, 5, BLACK.filled())),
-            )
-            .map_err(draw_err)?
-            .label(LEGEND[3])
-            .legend(|(x, y)| Circle::new((x + 10, y), 5, BLACK.filled()));
-        if !unused.is_empty() {
-            chart
-                .draw_series(
-                    keep(&unused)
-                        .into_iter()
-                        .map(|pt| Cross::new(pt, 6, BLACK.stroke_width(2))),
-                )
-                .map_err(draw_err)?
-                .label(LEGEND[4])
-                .legend(|(x, y)| Cross::new((x + 10, y), 6, BLACK.stroke_width(2)));
-        }
-        if let Some(b) = threshold.filter(|b| *b >= y0) {
-            chart
-                .draw_series(DashedLineSeries::new([(x0, b), (x1, b)], 16, 4, grey))
-                .map_err(draw_err)?
-                .label(format!("{} ({} {u})", LEGEND[5], num(b)))
-                .legend(move |(x, y)| Rectangle::new([(x, y - 1), (x + 16, y + 1)], grey.filled()));
-        }
-        if let Some(tp) = procedure.filter(|t| *t >= x0 && *t <= x1) {
-            chart
-                .draw_series(DashedLineSeries::new([(tp, y0), (tp, y1)], 2, 5, grey))
-                .map_err(draw_err)?
-                .label("procedure")
-                .legend(move |(x, y)| {
-                    Rectangle::new([(x + 8, y - 6), (x + 10, y + 6)], grey.filled())
-                });
-        }
-        chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::UpperRight)
-            .background_style(WHITE.mix(0.9))
-            .border_style(BLACK)
-            .draw()
-            .map_err(draw_err)?;
-        whole.present().map_err(draw_err)?;
-    }
-    Ok(svg)
-}
-
-/// The legend of the saturable plot's levels: they are the deciding levels (adjusted for
-/// albumin, or a free level over the free fraction, when the case has them).
-pub const LEGEND_DECIDING: &str = "level (as it decides)";
-
-/// The legend of the saturable plot's band: the edges of the model's 95 % range.
-pub const LEGEND_BAND: &str = "95 % range of the model";
-
-/// Draw the course of a drug with saturable (Michaelis-Menten) elimination: the integrated
-/// model over the dose record and the plan (the core's `chart_course`), the deciding levels,
-/// the threshold and the procedure, with the saturable caution at the foot.
-///
-/// # Errors
-/// No volume (no weight: the course cannot be integrated), nothing above zero to draw, or a
-/// drawing error.
-pub fn plot_saturable_svg(case: &Case, r: &SaturableReport) -> Result<String> {
-    if r.volume_l.is_none() {
-        return Err(Error::invalid(
-            "patient.weight_kg",
-            "needed to draw the course of a drug with saturable elimination (the volume comes \
-             from the weight); `ebb report` gives the figures without it",
-        ));
-    }
-    let to = |x: f64| case.drug.scale.to_level(x);
-    let u = case.drug.scale.unit.as_str();
-    let [first, last] = saturable_report::chart_span(case, r);
-    let (x0, x1) = (first - 0.02 * (last - first), last);
-    let course = saturable_report::chart_course(case, r, [first, last], SAMPLES);
-    let in_unit = |pts: Vec<(f64, f64)>| -> Vec<(f64, f64)> {
-        pts.into_iter().map(|(t, c)| (t, to(c))).collect()
-    };
-    let (record, plan) = (in_unit(course.record), in_unit(course.plan));
-    let band: Vec<Vec<(f64, f64)>> = course.band.into_iter().flatten().map(in_unit).collect();
-    let levels: Vec<(f64, f64)> = r
-        .readings
-        .iter()
-        .map(|x| (x.t, to(x.decision_mg_l)))
-        .collect();
-    let threshold = case.threshold.as_ref().map(|t| t.below);
-    let procedure = case.threshold.as_ref().and_then(|t| t.procedure_t);
-    let top = record
-        .iter()
-        .chain(&plan)
-        .chain(band.iter().flatten())
-        .chain(&levels)
-        .map(|p| p.1)
-        .chain(threshold)
-        .filter(|y| y.is_finite())
-        .fold(0.0, f64::max);
-    if top <= 0.0 {
-        return Err(Error::invalid("plot", "no level above zero to draw"));
-    }
-    if top > MAX_LEVEL_DRAWN {
-        return Err(Error::invalid(
-            "plot",
-            format!(
-                "the highest value to draw is {} {u}; levels above {MAX_LEVEL_DRAWN:e} cannot be drawn, check the values",
-                num(top)
-            ),
-        ));
-    }
-    let low = levels
-        .iter()
-        .map(|p| p.1)
-        .chain(threshold)
-        .fold(top, f64::min);
-    let (y0, y1) = ((low / 3.0).max(top / 1e4), top * 4.0);
-    let keep = |v: &[(f64, f64)]| -> Vec<(f64, f64)> {
-        v.iter()
-            .copied()
-            .filter(|&(t, c)| c.is_finite() && c >= y0 && t >= x0 && t <= x1)
-            .collect()
-    };
-    let clock = case.clock;
-    let label_x = move |h: &f64| -> String {
-        clock
-            .at_minute(*h)
-            .map_or(String::new(), |s| s.axis_label())
-    };
-    let mut svg = String::new();
-    {
-        let whole = SVGBackend::with_string(&mut svg, SIZE).into_drawing_area();
-        whole.fill(&WHITE).map_err(draw_err)?;
-        let (root, foot) = whole.split_vertically(SIZE.1 - CAUTION_HEIGHT);
-        let style = ("sans-serif", 13).into_font().color(&BLACK);
-        for (i, line) in caution_lines_of(saturable_report::CAUTION)
-            .iter()
-            .enumerate()
-        {
-            foot.draw(&Text::new(
-                line.clone(),
-                (14, 4 + 16 * i as i32),
-                style.clone(),
-            ))
-            .map_err(draw_err)?;
-        }
-        let title = match (&case.patient.label, case.drug.name.as_str()) {
-            (Some(l), "") => l.clone(),
-            (Some(l), d) => format!("{l}: {d}"),
-            (None, d) => d.to_string(),
-        };
-        let title = format!(
-            "{} (saturable elimination: Vmax {} mg/day, Km {} mg/L)",
-            crate::core::text::printable(&title),
-            num(r.vmax_mg_per_day),
-            num(r.km_mg_l)
-        );
-        let mut chart = ChartBuilder::on(&root)
-            .caption(title, ("sans-serif", 20))
-            .margin(12)
-            .x_label_area_size(50)
-            .y_label_area_size(70)
-            .build_cartesian_2d(x0..x1, (y0..y1).log_scale())
-            .map_err(draw_err)?;
-        chart
-            .configure_mesh()
-            .x_labels(8)
-            .y_labels(10)
-            .x_label_formatter(&label_x)
-            .y_label_formatter(&|y: &f64| num(*y))
-            .x_desc("clock time")
-            .y_desc(format!("level ({u}, log scale)"))
-            .light_line_style(WHITE)
-            .draw()
-            .map_err(draw_err)?;
-        let black = BLACK.stroke_width(2);
-        let grey = RGBColor(90, 90, 90).stroke_width(2);
-        let light = RGBColor(150, 150, 150).stroke_width(1);
-        for (i, edge) in band.iter().enumerate() {
-            let series = chart
-                .draw_series(LineSeries::new(keep(edge), light))
-                .map_err(draw_err)?;
-            if i == 0 {
-                series
-                    .label(LEGEND_BAND)
-                    .legend(move |(x, y)| PathElement::new([(x, y), (x + 30, y)], light));
-            }
-        }
-        chart
-            .draw_series(LineSeries::new(keep(&record), black))
-            .map_err(draw_err)?
-            .label(LEGEND[0])
-            .legend(move |(x, y)| PathElement::new([(x, y), (x + 30, y)], black));
-        if !plan.is_empty() {
-            let style = RGBColor(0, 70, 160).stroke_width(2);
-            chart
-                .draw_series(DashedLineSeries::new(keep(&plan), 12, 6, style))
-                .map_err(draw_err)?
-                .label(LEGEND[1])
-                .legend(move |(x, y)| {
-                    Rectangle::new([(x, y - 1), (x + 12, y + 1)], style.filled())
-                });
-        }
-        chart
-            .draw_series(
-                keep(&levels)
-                    .into_iter()
-                    .map(|pt| Circle::new(pt, 5, BLACK.filled())),
-            )
-            .map_err(draw_err)?
-            .label(LEGEND_DECIDING)
-            .legend(|(x, y)| Circle::new((x + 10, y), 5, BLACK.filled()));
         if let Some(b) = threshold.filter(|b| *b >= y0) {
             chart
                 .draw_series(DashedLineSeries::new([(x0, b), (x1, b)], 16, 4, grey))
