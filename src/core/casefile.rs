@@ -807,6 +807,10 @@ pub const MAX_DOSES: usize = 100_000;
 pub const MAX_LEVELS: usize = 100_000;
 /// The most `[[dialysis_session]]` rows a case may hold (as `MAX_DOSES`).
 pub const MAX_SESSIONS: usize = 100_000;
+
+/// How far (hours) a session may seem to start before the one before ends and still count as
+/// starting when it ends: a millisecond, for the rounding of times in hours.
+const SESSION_SLACK_H: f64 = 1e-3 / 3600.0;
 /// The largest case file read, in bytes (16 MiB; a real case is a few kilobytes).
 pub const MAX_CASE_BYTES: u64 = 16 * 1024 * 1024;
 
@@ -910,7 +914,9 @@ fn validate_sessions(
     }
     out.sort_by(|a, b| a.t.total_cmp(&b.t));
     for w in out.windows(2) {
-        if w[1].t < w[0].end() {
+        // A session may start as the one before ends: a millisecond of slack for the
+        // rounding of hours (3 h 42 min is not a whole number of hours in binary).
+        if w[1].t < w[0].end() - SESSION_SLACK_H {
             return Err(Error::invalid(
                 format!("dialysis_session {}", w[1].row),
                 format!(
