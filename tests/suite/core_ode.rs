@@ -1,133 +1,23 @@
 //! The closed forms of the model against a numerical integration of the one-compartment ODE.
 //!
-//! dC/dt = -k·C + R(t)/V, with R(t) the sum of the running infusions' rates and a jump of
-//! F·D/V at each bolus or instant oral dose; an absorbed oral dose fills a gut store that
-//! empties first-order into the blood (dG/dt = −ka·G, dC/dt += ka·G/V). The integrator is a fixed-step classic Runge-Kutta
-//! (RK4) written here, stepping exactly to every infusion start and stop so the forcing is
-//! constant within each step. These are self-consistency checks: no outside source needed.
+//! dA/dt = −k·A + R(t), C = A/V, with R(t) the sum of the running infusions' rates and a jump
+//! of F·D at each bolus or instant oral dose; an absorbed oral dose fills a gut store that
+//! empties first-order into the blood (dG/dt = −ka·G, dA/dt += ka·G). The integrator is the
+//! fixed-step classic Runge-Kutta (RK4) of `super::ode`, written in the tests. These are
+//! self-consistency checks: no outside source needed.
 
 use ebb::core::casefile::CaseFile;
 use ebb::core::fit;
 use ebb::core::model::{self, Administration, Route};
 use ebb::core::projection::{self, Patient};
 
-/// The largest RK4 step, in hours.
-const H_MAX: f64 = 0.005;
 /// Relative agreement asked of every closed form.
 const REL: f64 = 1e-6;
 
 /// Concentration (mg/L) and its running area (mg·h/L) at each of the `at` times (any
-/// order), integrating the ODE from before the first dose. A value at a dose time is the one
-/// just before that dose (the pre-dose level). An absorbed oral dose puts F·D into a gut
-/// store of its own at the end of its lag; the store empties into the blood at ka times its
-/// content: dG/dt = −ka·G, and dC/dt gains ka·G/V.
+/// order), from the shared RK4 integration (`super::ode`) of the one-compartment model.
 fn integrate(doses: &[Administration], k: f64, v: f64, at: &[f64]) -> Vec<(f64, f64)> {
-    let start = doses.iter().map(|d| d.t).fold(f64::INFINITY, f64::min);
-    let entry = |d: &Administration| d.t + d.route.absorption().map_or(0.0, |a| a.lag_h);
-    let mut marks: Vec<f64> = doses
-        .iter()
-        .flat_map(|d| [d.t, d.end(), entry(d)])
-        .collect();
-    marks.extend(at.iter().copied().filter(|&t| t > start));
-    marks.sort_by(f64::total_cmp);
-    marks.dedup();
-    let rate = |t: f64| -> f64 {
-        doses
-            .iter()
-            .filter_map(|d| match d.route {
-                Route::Infusion { hours } if d.t <= t && t < d.t + hours => {
-                    Some(d.amount_mg / hours)
-                }
-                _ => None,
-            })
-            .sum()
-    };
-    // One gut store per absorption rate: dose j empties into store `store[j]`.
-    let mut rates: Vec<f64> = Vec::new();
-    let store: Vec<Option<usize>> = doses
-        .iter()
-        .map(|d| {
-            d.route.absorption().map(|a| {
-                rates
-                    .iter()
-                    .position(|r| *r == a.ka_per_h)
-                    .unwrap_or_else(|| {
-                        rates.push(a.ka_per_h);
-                        rates.len() - 1
-                    })
-            })
-        })
-        .collect();
-    let n = rates.len();
-    // State: [C, AUC, G_1 … G_n].
-    let mut y = vec![0.0f64; n + 2];
-    let deriv = |y: &[f64], r: f64, d: &mut [f64]| {
-        let mut into = r;
-        for j in 0..n {
-            into += rates[j] * y[j + 2];
-            d[j + 2] = -rates[j] * y[j + 2];
-        }
-        d[0] = -k * y[0] + into / v;
-        d[1] = y[0];
-    };
-    let axpy = |y: &[f64], h: f64, d: &[f64], out: &mut [f64]| {
-        for i in 0..y.len() {
-            out[i] = y[i] + h * d[i];
-        }
-    };
-    let mut values: Vec<(f64, (f64, f64))> = Vec::new();
-    let mut t = start;
-    for &mark in &marks {
-        // Integrate from t to mark with the forcing constant on (t, mark).
-        if mark > t {
-            let r = rate(0.5 * (t + mark));
-            let steps = ((mark - t) / H_MAX).ceil().max(1.0) as usize;
-            let h = (mark - t) / steps as f64;
-            let m = y.len();
-            let (mut k1, mut k2, mut k3, mut k4) =
-                (vec![0.0; m], vec![0.0; m], vec![0.0; m], vec![0.0; m]);
-            let mut tmp = vec![0.0; m];
-            for _ in 0..steps {
-                deriv(&y, r, &mut k1);
-                axpy(&y, 0.5 * h, &k1, &mut tmp);
-                deriv(&tmp, r, &mut k2);
-                axpy(&y, 0.5 * h, &k2, &mut tmp);
-                deriv(&tmp, r, &mut k3);
-                axpy(&y, h, &k3, &mut tmp);
-                deriv(&tmp, r, &mut k4);
-                for i in 0..m {
-                    y[i] += h / 6.0 * (k1[i] + 2.0 * k2[i] + 2.0 * k3[i] + k4[i]);
-                }
-            }
-            t = mark;
-        }
-        // Record before applying the jumps at this mark (a level at a dose time is pre-dose).
-        values.push((mark, (y[0], y[1])));
-        for (j, d) in doses.iter().enumerate() {
-            match store[j] {
-                Some(g) if entry(d) == mark => y[g + 2] += d.route.bioavailability() * d.amount_mg,
-                None if d.t == mark => {
-                    if let Route::Bolus | Route::Oral { .. } = d.route {
-                        y[0] += d.route.bioavailability() * d.amount_mg / v;
-                    }
-                }
-                _ => {}
-            }
-        }
-    }
-    at.iter()
-        .map(|&x| {
-            if x <= start {
-                (0.0, 0.0)
-            } else {
-                values
-                    .iter()
-                    .find(|(m, _)| *m == x)
-                    .map(|(_, cv)| *cv)
-                    .expect("every asked time is a mark")
-            }
-        })
-        .collect()
+    super::ode::integrate(doses, &super::ode::One { k, v }, at)
 }
 
 fn close(got: f64, want: f64, what: &str) {

@@ -25,6 +25,7 @@ mod hostile_cli;
 mod layout;
 mod note_cli;
 mod note_figures;
+mod ode;
 mod oral;
 mod plot_svg;
 mod population_two;

@@ -3,125 +3,19 @@
 //!
 //! dA1/dt = R(t) + Σ ka·G − (k10 + k12)·A1 + k21·A2, dA2/dt = k12·A1 − k21·A2, C = A1/V1,
 //! with a jump of F·D into A1 at each bolus or instant oral dose and a gut store per
-//! absorption rate (dG/dt = −ka·G) filled at the end of each absorbed dose's lag. Fixed-step
-//! classic Runge-Kutta (RK4) written here, stepping exactly to every infusion start and stop.
+//! absorption rate (dG/dt = −ka·G) filled at the end of each absorbed dose's lag: the
+//! fixed-step classic Runge-Kutta (RK4) of `super::ode`, written in the tests.
 //! Self-consistency checks: no outside source needed.
 
 use ebb::core::model::{Administration, Disposition, Route, Schedule, TwoCompartment};
 
-/// The largest RK4 step, in hours.
-const H_MAX: f64 = 0.002;
 /// Relative agreement asked of every closed form.
 const REL: f64 = 1e-6;
 
-/// Concentration (mg/L) and its running area (mg·h/L) at each of the `at` times (any order,
-/// after the first dose). A value at a dose time is the one just before that dose.
+/// Level (mg/L) and its running area (mg·h/L) at each of the `at` times (any order), from the
+/// shared RK4 integration (`super::ode`) of the two-compartment model.
 fn integrate(doses: &[Administration], p: TwoCompartment, at: &[f64]) -> Vec<(f64, f64)> {
-    let (k10, k12, k21) = p.micro();
-    let start = doses.iter().map(|d| d.t).fold(f64::INFINITY, f64::min);
-    let entry = |d: &Administration| d.t + d.route.absorption().map_or(0.0, |a| a.lag_h);
-    let mut marks: Vec<f64> = doses
-        .iter()
-        .flat_map(|d| [d.t, d.end(), entry(d)])
-        .collect();
-    marks.extend(at.iter().copied().filter(|&t| t > start));
-    marks.sort_by(f64::total_cmp);
-    marks.dedup();
-    let rate = |t: f64| -> f64 {
-        doses
-            .iter()
-            .filter_map(|d| match d.route {
-                Route::Infusion { hours } if d.t <= t && t < d.t + hours => {
-                    Some(d.amount_mg / hours)
-                }
-                _ => None,
-            })
-            .sum()
-    };
-    let mut kas: Vec<f64> = Vec::new();
-    let store: Vec<Option<usize>> = doses
-        .iter()
-        .map(|d| {
-            d.route.absorption().map(|a| {
-                kas.iter()
-                    .position(|r| *r == a.ka_per_h)
-                    .unwrap_or_else(|| {
-                        kas.push(a.ka_per_h);
-                        kas.len() - 1
-                    })
-            })
-        })
-        .collect();
-    let n = kas.len();
-    // State: [A1, A2, AUC, G_1 … G_n].
-    let mut y = vec![0.0f64; n + 3];
-    let deriv = |y: &[f64], r: f64, d: &mut [f64]| {
-        let mut into = r;
-        for j in 0..n {
-            into += kas[j] * y[j + 3];
-            d[j + 3] = -kas[j] * y[j + 3];
-        }
-        d[0] = into - (k10 + k12) * y[0] + k21 * y[1];
-        d[1] = k12 * y[0] - k21 * y[1];
-        d[2] = y[0] / p.v1;
-    };
-    let mut values: Vec<(f64, (f64, f64))> = Vec::new();
-    let mut t = start;
-    let m = y.len();
-    let (mut k1, mut k2, mut k3, mut k4, mut tmp) = (
-        vec![0.0; m],
-        vec![0.0; m],
-        vec![0.0; m],
-        vec![0.0; m],
-        vec![0.0; m],
-    );
-    for &mark in &marks {
-        if mark > t {
-            let r = rate(0.5 * (t + mark));
-            let steps = ((mark - t) / H_MAX).ceil().max(1.0) as usize;
-            let h = (mark - t) / steps as f64;
-            for _ in 0..steps {
-                deriv(&y, r, &mut k1);
-                for i in 0..m {
-                    tmp[i] = y[i] + 0.5 * h * k1[i];
-                }
-                deriv(&tmp, r, &mut k2);
-                for i in 0..m {
-                    tmp[i] = y[i] + 0.5 * h * k2[i];
-                }
-                deriv(&tmp, r, &mut k3);
-                for i in 0..m {
-                    tmp[i] = y[i] + h * k3[i];
-                }
-                deriv(&tmp, r, &mut k4);
-                for i in 0..m {
-                    y[i] += h / 6.0 * (k1[i] + 2.0 * k2[i] + 2.0 * k3[i] + k4[i]);
-                }
-            }
-            t = mark;
-        }
-        values.push((mark, (y[0] / p.v1, y[2])));
-        for (j, d) in doses.iter().enumerate() {
-            match store[j] {
-                Some(g) if entry(d) == mark => y[g + 3] += d.route.bioavailability() * d.amount_mg,
-                None if d.t == mark => {
-                    if let Route::Bolus | Route::Oral { .. } = d.route {
-                        y[0] += d.route.bioavailability() * d.amount_mg;
-                    }
-                }
-                _ => {}
-            }
-        }
-    }
-    at.iter()
-        .map(|&x| {
-            values
-                .iter()
-                .find(|(mk, _)| *mk == x)
-                .map(|(_, cv)| *cv)
-                .unwrap_or((0.0, 0.0))
-        })
-        .collect()
+    super::ode::integrate(doses, &super::ode::Two(p), at)
 }
 
 fn close(got: f64, want: f64, what: &str) {
