@@ -130,6 +130,18 @@ pub fn warnings(profile: &Profile, case: &Case, report: &Report) -> Vec<Warning>
             .note
             .as_deref()
             .unwrap_or("distribution or absorption phase");
+        // A two-compartment model of the profile would use such a level as drawn.
+        let two = profile
+            .models
+            .iter()
+            .find(|m| m.q.is_some() && m.v2.is_some())
+            .map(|m| {
+                format!(
+                    ", or ask for the Bayesian fit ([fit] method = \"bayesian\", model \"{}\"), whose two compartments describe that phase",
+                    crate::core::text::printable(&m.name)
+                )
+            })
+            .unwrap_or_default();
         for (row, dose_row, after) in window_hits(profile, case) {
             let when = if after < 0.0 {
                 format!("during dose {dose_row}")
@@ -142,7 +154,7 @@ pub fn warnings(profile: &Profile, case: &Case, report: &Report) -> Vec<Warning>
                 ""
             };
             out.push(Warning::about_level(Code::DistributionPhase, row, format!(
-                "level {row} was drawn {when}, inside {name}'s first {} ({phase}) {}: {in_fit}use a later level, or set use = false",
+                "level {row} was drawn {when}, inside {name}'s first {} ({phase}) {}: {in_fit}use a later level, or set use = false{two}",
                 span_words(w.value),
                 w.source
             )));

@@ -517,3 +517,31 @@ fn an_unstated_dialysis_is_said_once_though_two_parameters_read_it() {
         .count();
     assert_eq!(said, 1, "{:?}", pop.warnings);
 }
+
+#[test]
+fn a_one_compartment_fit_through_a_distribution_phase_level_points_to_the_two_compartment_model() {
+    // Two vancomycin levels in one interval, the first 30 min after the end of the infusion:
+    // the log-linear fit (the contract's choice for two levels) is warned about, and the
+    // warning names the profile's two-compartment model, which would use the level as drawn.
+    let mut text = reference("vancomycin", "");
+    for h in [0.0, 12.0, 24.0] {
+        text += &format!(
+            "[[dose]]\ntime = 2027-04-0{}T{:02}:00:00\namount_mg = 1250.0\nroute = \"infusion\"\ninfusion_h = 1.5\n",
+            1 + (8 + h as u32) / 24,
+            (8 + h as u32) % 24
+        );
+    }
+    text += "[[level]]\ntime = 2027-04-02T10:00:00\nvalue = 31.0\n";
+    text += "[[level]]\ntime = 2027-04-02T19:30:00\nvalue = 16.2\n";
+    let file = CaseFile::parse(&text).unwrap();
+    let a = ebb::cli::analyse_parsed(&file, None).unwrap();
+    let r = a.report.expect("a report");
+    assert_eq!(r.fit.method, "two-point");
+    let w = r
+        .warnings
+        .iter()
+        .map(|w| w.to_string())
+        .find(|w| w.starts_with("level 1 was drawn"))
+        .expect("a distribution-phase warning");
+    assert!(w.ends_with("or ask for the Bayesian fit ([fit] method = \"bayesian\", model \"goti-2018\"), whose two compartments describe that phase"), "{w}");
+}
