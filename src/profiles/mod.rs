@@ -78,7 +78,34 @@ pub struct Entry {
     /// The parsed, validated profile.
     pub profile: Arc<Profile>,
     /// The TOML text as written (for `ebb profiles show NAME --toml`).
-    pub text: Arc<str>,
+    pub text: ProfileText,
+}
+
+/// A profile's TOML text: a built-in's is the program's own (never copied), a local file's
+/// is read once and shared between the entries that use it.
+#[derive(Debug, Clone, PartialEq)]
+pub enum ProfileText {
+    /// Embedded in the program.
+    BuiltIn(&'static str),
+    /// Read from a file.
+    Local(Arc<str>),
+}
+
+impl From<String> for ProfileText {
+    fn from(text: String) -> ProfileText {
+        ProfileText::Local(Arc::from(text))
+    }
+}
+
+impl std::ops::Deref for ProfileText {
+    type Target = str;
+
+    fn deref(&self) -> &str {
+        match self {
+            ProfileText::BuiltIn(t) => t,
+            ProfileText::Local(t) => t,
+        }
+    }
 }
 
 impl Entry {
@@ -130,7 +157,7 @@ pub fn override_dir(flag: Option<&Path>) -> Option<PathBuf> {
 /// both ways and compare the two profiles field for field; a debug build checks the JSON's
 /// profile again here. Should the JSON not give a valid profile, the TOML goes through the
 /// ordinary loader, so any error is the loader's own, naming the file, line and field.
-fn built_in_entry(name: &str, text: &str, json: &str) -> Result<Entry> {
+fn built_in_entry(name: &str, text: &'static str, json: &str) -> Result<Entry> {
     let profile = match serde_json::from_str::<Profile>(json) {
         Ok(p) if !cfg!(debug_assertions) || p.validate().is_ok() => p,
         _ => parse_profile(text, &format!("drug-profiles/{name}.toml (built-in)"))?,
@@ -139,7 +166,7 @@ fn built_in_entry(name: &str, text: &str, json: &str) -> Result<Entry> {
         name: name.to_string(),
         origin: Origin::BuiltIn,
         profile: Arc::new(profile),
-        text: Arc::from(text),
+        text: ProfileText::BuiltIn(text),
     })
 }
 
@@ -247,7 +274,7 @@ impl Catalog {
                 name: name.to_string(),
                 origin,
                 profile: Arc::clone(&profile),
-                text: Arc::clone(&text),
+                text: ProfileText::Local(Arc::clone(&text)),
             };
             match cat.entries.iter().position(|e| e.name == name) {
                 Some(i) => cat.entries[i] = entry(Origin::Replaces(path.clone())),
