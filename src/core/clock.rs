@@ -134,18 +134,56 @@ impl ClockTime {
 
     /// ISO 8601 to the minute, with the offset when there is one (`2027-03-03T14:10`).
     pub fn iso_minute(&self) -> String {
-        match self {
-            ClockTime::Local(t) => t.format("%Y-%m-%dT%H:%M").to_string(),
-            ClockTime::Offset(t) => t.format("%Y-%m-%dT%H:%M%:z").to_string(),
-        }
+        self.iso(false)
     }
 
     /// ISO 8601 to the second, as a TOML date-time (for saving a case).
     pub fn iso_second(&self) -> String {
-        match self {
-            ClockTime::Local(t) => t.format("%Y-%m-%dT%H:%M:%S").to_string(),
-            ClockTime::Offset(t) => t.format("%Y-%m-%dT%H:%M:%S%:z").to_string(),
+        self.iso(true)
+    }
+
+    /// The two ISO forms, written field by field: the same text as chrono's `%Y-%m-%dT%H:%M`
+    /// (`:%S`) (`%:z`), without parsing a format string each time (a report writes a dozen
+    /// times). Years beyond four digits and offsets with seconds go through chrono itself.
+    fn iso(&self, seconds: bool) -> String {
+        use std::fmt::Write as _;
+        let (wall, offset) = match self {
+            ClockTime::Local(t) => (*t, None),
+            ClockTime::Offset(t) => (t.naive_local(), Some(t.offset().local_minus_utc())),
+        };
+        if !(0..=9999).contains(&wall.year()) || offset.is_some_and(|o| o % 60 != 0) {
+            return match (self, seconds) {
+                (ClockTime::Local(t), false) => t.format("%Y-%m-%dT%H:%M").to_string(),
+                (ClockTime::Offset(t), false) => t.format("%Y-%m-%dT%H:%M%:z").to_string(),
+                (ClockTime::Local(t), true) => t.format("%Y-%m-%dT%H:%M:%S").to_string(),
+                (ClockTime::Offset(t), true) => t.format("%Y-%m-%dT%H:%M:%S%:z").to_string(),
+            };
         }
+        let mut s = String::with_capacity(25);
+        // Writing to a String cannot fail.
+        let _ = write!(
+            s,
+            "{:04}-{:02}-{:02}T{:02}:{:02}",
+            wall.year(),
+            wall.month(),
+            wall.day(),
+            wall.hour(),
+            wall.minute()
+        );
+        if seconds {
+            // chrono's `%S` shows a leap second as 60.
+            let _ = write!(
+                s,
+                ":{:02}",
+                wall.second() + wall.nanosecond() / 1_000_000_000
+            );
+        }
+        if let Some(o) = offset {
+            let sign = if o < 0 { '-' } else { '+' };
+            let m = o.abs() / 60;
+            let _ = write!(s, "{sign}{:02}:{:02}", m / 60, m % 60);
+        }
+        s
     }
 
     /// A reading for people that shows the year only when it is not `reference`'s year
@@ -337,6 +375,32 @@ pub fn place_in_zone(wall: NaiveDateTime, zone: Zone) -> std::result::Result<Clo
 mod tests {
     use super::*;
     use chrono::NaiveDate;
+
+    proptest::proptest! {
+        /// The ISO forms written field by field are chrono's own text, for every date (years
+        /// before 0 and after 9999 included), leap second, and offset (with seconds too).
+        #[test]
+        fn iso_forms_are_chronos_text(
+            days in -1_000_000i64..4_000_000,
+            secs in 0u32..86_400,
+            leap in proptest::bool::weighted(0.05),
+            off in -86_399i32..86_400,
+            whole in proptest::bool::ANY,
+        ) {
+            let date = NaiveDate::from_ymd_opt(1970, 1, 1).unwrap() + Duration::days(days);
+            let nano = if leap && secs % 60 == 59 { 1_500_000_000 } else { 0 };
+            let time = chrono::NaiveTime::from_num_seconds_from_midnight_opt(secs, nano).unwrap();
+            let wall = date.and_time(time);
+            let off = if whole { off - off % 60 } else { off };
+            let at = FixedOffset::east_opt(off).unwrap().from_local_datetime(&wall).unwrap();
+            let local = ClockTime::Local(wall);
+            let offset = ClockTime::Offset(at);
+            proptest::prop_assert_eq!(local.iso_minute(), wall.format("%Y-%m-%dT%H:%M").to_string());
+            proptest::prop_assert_eq!(local.iso_second(), wall.format("%Y-%m-%dT%H:%M:%S").to_string());
+            proptest::prop_assert_eq!(offset.iso_minute(), at.format("%Y-%m-%dT%H:%M%:z").to_string());
+            proptest::prop_assert_eq!(offset.iso_second(), at.format("%Y-%m-%dT%H:%M:%S%:z").to_string());
+        }
+    }
 
     #[test]
     fn hours_across_a_daylight_saving_change_are_real_hours() {
