@@ -146,7 +146,6 @@ impl ClockTime {
     /// (`:%S`) (`%:z`), without parsing a format string each time (a report writes a dozen
     /// times). Years beyond four digits and offsets with seconds go through chrono itself.
     fn iso(&self, seconds: bool) -> String {
-        use std::fmt::Write as _;
         let (wall, offset) = match self {
             ClockTime::Local(t) => (*t, None),
             ClockTime::Offset(t) => (t.naive_local(), Some(t.offset().local_minus_utc())),
@@ -159,29 +158,34 @@ impl ClockTime {
                 (ClockTime::Offset(t), true) => t.format("%Y-%m-%dT%H:%M:%S%:z").to_string(),
             };
         }
+        // Digits pushed one by one: every field is known to fit its width here.
+        fn digits(s: &mut String, n: u32, width: u32) {
+            for p in (0..width).rev() {
+                let d = (n / 10u32.pow(p)) % 10;
+                s.push(char::from(b'0' + d as u8));
+            }
+        }
         let mut s = String::with_capacity(25);
-        // Writing to a String cannot fail.
-        let _ = write!(
-            s,
-            "{:04}-{:02}-{:02}T{:02}:{:02}",
-            wall.year(),
-            wall.month(),
-            wall.day(),
-            wall.hour(),
-            wall.minute()
-        );
+        digits(&mut s, wall.year().unsigned_abs(), 4);
+        s.push('-');
+        digits(&mut s, wall.month(), 2);
+        s.push('-');
+        digits(&mut s, wall.day(), 2);
+        s.push('T');
+        digits(&mut s, wall.hour(), 2);
+        s.push(':');
+        digits(&mut s, wall.minute(), 2);
         if seconds {
             // chrono's `%S` shows a leap second as 60.
-            let _ = write!(
-                s,
-                ":{:02}",
-                wall.second() + wall.nanosecond() / 1_000_000_000
-            );
+            s.push(':');
+            digits(&mut s, wall.second() + wall.nanosecond() / 1_000_000_000, 2);
         }
         if let Some(o) = offset {
-            let sign = if o < 0 { '-' } else { '+' };
-            let m = o.abs() / 60;
-            let _ = write!(s, "{sign}{:02}:{:02}", m / 60, m % 60);
+            s.push(if o < 0 { '-' } else { '+' });
+            let m = o.unsigned_abs() / 60;
+            digits(&mut s, m / 60, 2);
+            s.push(':');
+            digits(&mut s, m % 60, 2);
         }
         s
     }
