@@ -443,11 +443,13 @@ impl CaseFile {
         let mut stamps: Vec<(String, ClockTime)> = Vec::new();
         for (i, d) in self.doses.iter().enumerate() {
             let place = format!("dose {}", i + 1);
-            stamps.push((place.clone(), to_stamp(&d.time, &format!("{place}: time"))?));
+            let s = to_stamp(&d.time, format_args!("{place}: time"))?;
+            stamps.push((place, s));
         }
         for (i, l) in self.levels.iter().enumerate() {
             let place = format!("level {}", i + 1);
-            stamps.push((place.clone(), to_stamp(&l.time, &format!("{place}: time"))?));
+            let s = to_stamp(&l.time, format_args!("{place}: time"))?;
+            stamps.push((place, s));
         }
         let plan_start = match &self.plan {
             Some(PlanFile { start: Some(s), .. }) => Some(to_stamp(s, "plan.start")?),
@@ -486,7 +488,7 @@ impl CaseFile {
         let mut sessions_at = Vec::with_capacity(self.dialysis_sessions.len());
         for (i, d) in self.dialysis_sessions.iter().enumerate() {
             let place = format!("dialysis_session {}", i + 1);
-            let s = to_stamp(&d.start, &format!("{place}: start"))?;
+            let s = to_stamp(&d.start, format_args!("{place}: start"))?;
             // As a dose's time: through the case's zone, an impossible wall time named.
             let s = match (zone, s) {
                 (Some(z), ClockTime::Local(wall)) => crate::core::clock::place_in_zone(wall, z)
@@ -499,14 +501,15 @@ impl CaseFile {
         let procedure = procedure
             .map(|s| in_zone("threshold.procedure", s))
             .transpose()?;
-        let mut all: Vec<(String, ClockTime)> = stamps.clone();
+        let mut all: Vec<(&str, ClockTime)> =
+            stamps.iter().map(|(p, s)| (p.as_str(), *s)).collect();
         if let Some(s) = plan_start {
-            all.push(("plan.start".into(), s));
+            all.push(("plan.start", s));
         }
         if let Some(p) = procedure {
-            all.push(("threshold.procedure".into(), p));
+            all.push(("threshold.procedure", p));
         }
-        all.extend(sessions_at.iter().cloned());
+        all.extend(sessions_at.iter().map(|(p, s)| (p.as_str(), *s)));
         let clock = build_clock(&all)?;
         let clock = match zone {
             Some(z) => Clock::in_zone(
@@ -522,9 +525,9 @@ impl CaseFile {
         // Doses.
         let mut doses = Vec::with_capacity(self.doses.len());
         for (i, d) in self.doses.iter().enumerate() {
-            let place = format!("dose {}", i + 1);
+            let place = &stamps[i].0;
             if let Some(a) = d.amount_mg {
-                positive(a, &format!("{place}: amount_mg"))?;
+                positive(a, format_args!("{place}: amount_mg"))?;
             }
             let route = validate_route(
                 &d.route,
@@ -532,7 +535,7 @@ impl CaseFile {
                 d.bioavailability,
                 d.formulation.as_deref(),
                 defaults,
-                &place,
+                place,
             )?;
             let time = stamps[i].1;
             doses.push(Dose {
@@ -560,7 +563,7 @@ impl CaseFile {
         // Levels.
         let mut levels = Vec::with_capacity(self.levels.len());
         for (i, l) in self.levels.iter().enumerate() {
-            let place = format!("level {}", i + 1);
+            let place = &stamps[self.doses.len() + i].0;
             if !l.value.is_finite() || l.value <= 0.0 {
                 return Err(Error::invalid(
                     format!("{place}: value"),
@@ -1167,11 +1170,14 @@ fn place_on_line(text: &str, line: usize) -> Option<String> {
     None
 }
 
-fn positive(x: f64, place: &str) -> Result<()> {
+fn positive(x: f64, place: impl std::fmt::Display) -> Result<()> {
     if x.is_finite() && x > 0.0 {
         Ok(())
     } else {
-        Err(Error::invalid(place, format!("must be above 0, got {x}")))
+        Err(Error::invalid(
+            place.to_string(),
+            format!("must be above 0, got {x}"),
+        ))
     }
 }
 
@@ -1364,7 +1370,7 @@ fn validate_route(
                     "an infusion needs infusion_h, its duration in hours",
                 )
             })?;
-            positive(h, &format!("{place}: infusion_h"))?;
+            positive(h, format_args!("{place}: infusion_h"))?;
             Ok(Route::Infusion { hours: h })
         }
         "oral" => {
@@ -1540,10 +1546,10 @@ pub const LAST_YEAR: u16 = 2200;
 
 /// A TOML date-time as a stamp; a date alone, a time alone, or a year outside
 /// `FIRST_YEAR..=LAST_YEAR` is an error.
-pub fn to_stamp(dt: &Datetime, place: &str) -> Result<ClockTime> {
+pub fn to_stamp(dt: &Datetime, place: impl std::fmt::Display) -> Result<ClockTime> {
     let (Some(date), Some(time)) = (dt.date, dt.time) else {
         return Err(Error::invalid(
-            place,
+            place.to_string(),
             format!("needs a date and a time, like 2027-03-02T08:00:00; got {dt}"),
         ));
     };
@@ -1551,7 +1557,7 @@ pub fn to_stamp(dt: &Datetime, place: &str) -> Result<ClockTime> {
     // would put projected times where the report's day-and-month readings mislead.
     if !(FIRST_YEAR..=LAST_YEAR).contains(&date.year) {
         return Err(Error::invalid(
-            place,
+            place.to_string(),
             format!(
                 "year {} is outside {FIRST_YEAR} to {LAST_YEAR}; check the date",
                 date.year
@@ -1559,14 +1565,14 @@ pub fn to_stamp(dt: &Datetime, place: &str) -> Result<ClockTime> {
         ));
     }
     let d = NaiveDate::from_ymd_opt(date.year.into(), date.month.into(), date.day.into())
-        .ok_or_else(|| Error::invalid(place, format!("no such date: {dt}")))?;
+        .ok_or_else(|| Error::invalid(place.to_string(), format!("no such date: {dt}")))?;
     let t = NaiveTime::from_hms_nano_opt(
         time.hour.into(),
         time.minute.into(),
         time.second.into(),
         time.nanosecond,
     )
-    .ok_or_else(|| Error::invalid(place, format!("no such time: {dt}")))?;
+    .ok_or_else(|| Error::invalid(place.to_string(), format!("no such time: {dt}")))?;
     let naive = NaiveDateTime::new(d, t);
     match dt.offset {
         None => Ok(ClockTime::Local(naive)),
@@ -1575,13 +1581,14 @@ pub fn to_stamp(dt: &Datetime, place: &str) -> Result<ClockTime> {
                 Offset::Z => 0,
                 Offset::Custom { minutes } => minutes.into(),
             };
-            let fixed = FixedOffset::east_opt(minutes * 60)
-                .ok_or_else(|| Error::invalid(place, format!("offset out of range: {dt}")))?;
+            let fixed = FixedOffset::east_opt(minutes * 60).ok_or_else(|| {
+                Error::invalid(place.to_string(), format!("offset out of range: {dt}"))
+            })?;
             naive
                 .and_local_timezone(fixed)
                 .single()
                 .map(ClockTime::Offset)
-                .ok_or_else(|| Error::invalid(place, format!("cannot place {dt}")))
+                .ok_or_else(|| Error::invalid(place.to_string(), format!("cannot place {dt}")))
         }
     }
 }
@@ -1616,7 +1623,7 @@ pub fn from_stamp(s: &ClockTime) -> Datetime {
     }
 }
 
-fn build_clock(stamps: &[(String, ClockTime)]) -> Result<Clock> {
+fn build_clock(stamps: &[(&str, ClockTime)]) -> Result<Clock> {
     let first_kind = stamps
         .first()
         .map(|(_, s)| matches!(s, ClockTime::Offset(_)));
