@@ -201,11 +201,28 @@ pub struct RangeFile {
     pub high: f64,
 }
 
-fn covariate(name: &str, field: &str) -> Result<Covariate, FieldProblem> {
+/// A field path below `field`: `field.child`, or `field.child[n]` (written only for an error).
+struct Below<'a> {
+    field: &'a dyn std::fmt::Display,
+    child: &'a str,
+    item: Option<usize>,
+}
+
+impl std::fmt::Display for Below<'_> {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(f, "{}.{}", self.field, self.child)?;
+        match self.item {
+            Some(n) => write!(f, "[{n}]"),
+            None => Ok(()),
+        }
+    }
+}
+
+fn covariate(name: &str, field: &dyn std::fmt::Display) -> Result<Covariate, FieldProblem> {
     Covariate::parse(name).ok_or_else(|| {
         let names: Vec<&str> = Covariate::ALL.iter().map(|(_, n)| *n).collect();
         problem(
-            field,
+            field.to_string(),
             format!(
                 "unknown covariate \"{name}\"; use one of {}",
                 names.join(", ")
@@ -214,7 +231,7 @@ fn covariate(name: &str, field: &str) -> Result<Covariate, FieldProblem> {
     })
 }
 
-fn parameter(p: &ParameterFile, field: &str) -> Result<Parameter, FieldProblem> {
+fn parameter(p: &ParameterFile, field: &dyn std::fmt::Display) -> Result<Parameter, FieldProblem> {
     let omega = match (p.cv_percent, p.omega, p.omega_sq) {
         (Some(cv), None, None) => Some(log_sd(cv)),
         (None, Some(w), None) => Some(w),
@@ -222,16 +239,25 @@ fn parameter(p: &ParameterFile, field: &str) -> Result<Parameter, FieldProblem> 
         (None, None, None) => None,
         _ => {
             return Err(problem(
-                field,
+                field.to_string(),
                 "give one of cv_percent, omega and omega_sq, not several",
             ))
         }
     };
     let mut terms = Vec::new();
     for (i, t) in p.terms.iter().enumerate() {
-        let at = format!("{field}.terms[{}]", i + 1);
+        let at = Below {
+            field,
+            child: "terms",
+            item: Some(i + 1),
+        };
         let need = |x: Option<f64>, what: &str| {
-            x.ok_or_else(|| problem(&at, format!("a \"{}\" term needs {what}", t.form)))
+            x.ok_or_else(|| {
+                problem(
+                    at.to_string(),
+                    format!("a \"{}\" term needs {what}", t.form),
+                )
+            })
         };
         let form = match t.form.as_str() {
             "power" => Form::Power {
@@ -256,7 +282,7 @@ fn parameter(p: &ParameterFile, field: &str) -> Result<Parameter, FieldProblem> 
             },
             other => {
                 return Err(problem(
-                    &at,
+                    at.to_string(),
                     format!(
                         "unknown form \"{other}\"; use power, linear, exponential, add or factor"
                     ),
@@ -288,9 +314,14 @@ pub fn model_of(
     cite: &dyn Fn(&str) -> Vec<String>,
 ) -> Result<Model, FieldProblem> {
     let at = |f: &str| format!("{place}.{f}");
+    let below = |child| Below {
+        field: &place,
+        child,
+        item: None,
+    };
     let (elimination_kind, elimination) = match (&m.clearance, &m.k) {
-        (Some(c), None) => (Elimination::Clearance, parameter(c, &at("clearance"))?),
-        (None, Some(k)) => (Elimination::RateConstant, parameter(k, &at("k"))?),
+        (Some(c), None) => (Elimination::Clearance, parameter(c, &below("clearance"))?),
+        (None, Some(k)) => (Elimination::RateConstant, parameter(k, &below("k"))?),
         _ => {
             return Err(problem(
                 place,
@@ -300,8 +331,8 @@ pub fn model_of(
     };
     let peripheral = match (&m.q, &m.v2) {
         (Some(q), Some(v2)) => Some(Peripheral {
-            q: parameter(q, &at("q"))?,
-            v2: parameter(v2, &at("v2"))?,
+            q: parameter(q, &below("q"))?,
+            v2: parameter(v2, &below("v2"))?,
         }),
         (None, None) => None,
         _ => {
@@ -333,7 +364,14 @@ pub fn model_of(
     let mut envelope = Vec::new();
     for (i, r) in m.ranges.iter().enumerate() {
         envelope.push(Range {
-            of: covariate(&r.of, &format!("{place}.ranges[{}]", i + 1))?,
+            of: covariate(
+                &r.of,
+                &Below {
+                    field: &place,
+                    child: "ranges",
+                    item: Some(i + 1),
+                },
+            )?,
             low: r.low,
             high: r.high,
         });
@@ -343,7 +381,7 @@ pub fn model_of(
         label: m.label.clone(),
         elimination_kind,
         elimination,
-        volume: parameter(&m.volume, &at("volume"))?,
+        volume: parameter(&m.volume, &below("volume"))?,
         peripheral,
         correlation: m.correlation,
         residual: Residual {
@@ -624,6 +662,53 @@ mod tests {
         let first = vancomycin_text().replace("default_model = \"goti-2018\"\n", "");
         let v = crate::profiles::parse_profile(&first, "v.toml").unwrap();
         assert_eq!(default_model_name(&v).as_deref(), Some("goti-2018"));
+    }
+
+    #[test]
+    fn a_refused_term_or_range_is_named_by_its_whole_path() {
+        let text = vancomycin_text();
+        let term = text.replacen(
+            "{ of = \"dialysis\", form = \"factor\", value = 0.5 }",
+            "{ of = \"dialysis\", form = \"square\", value = 0.5 }",
+            1,
+        );
+        let e = refused(&term);
+        assert!(
+            e.contains("field model[1].volume.terms[2]: unknown form \"square\""),
+            "{e}"
+        );
+        let needs = text.replacen(
+            "{ of = \"crcl_ml_min\", form = \"power\", reference = 120.0, exponent = 0.8 }",
+            "{ of = \"crcl_ml_min\", form = \"power\", reference = 120.0 }",
+            1,
+        );
+        let e = refused(&needs);
+        assert!(
+            e.contains("field model[1].clearance.terms[1]: a \"power\" term needs exponent"),
+            "{e}"
+        );
+        let range = text.replacen(
+            "{ of = \"weight_kg\", low = 33.0, high = 255.0 }",
+            "{ of = \"shoe_size\", low = 33.0, high = 255.0 }",
+            1,
+        );
+        let e = refused(&range);
+        assert!(
+            e.contains("field model[1].ranges[2]: unknown covariate \"shoe_size\""),
+            "{e}"
+        );
+        let several = text.replacen(
+            "typical = 4.5\ncv_percent = 39.8",
+            "typical = 4.5\ncv_percent = 39.8\nomega = 0.4",
+            1,
+        );
+        let e = refused(&several);
+        assert!(
+            e.contains(
+                "field model[1].clearance: give one of cv_percent, omega and omega_sq, not several"
+            ),
+            "{e}"
+        );
     }
 
     #[test]
