@@ -1504,26 +1504,28 @@ pub fn clock_change_warning(
     if case.clock.zone().is_some() {
         return None;
     }
-    let mut rows: Vec<(String, NaiveDateTime)> = Vec::new();
+    // Rows as (kind, number, time); their names are written only into a warning.
+    let mut rows: Vec<(&str, usize, NaiveDateTime)> = Vec::new();
     for d in &case.doses {
         if let ClockTime::Local(t) = d.time {
-            rows.push((format!("dose {}", d.row), t));
+            rows.push(("dose", d.row, t));
         }
     }
     for l in &case.levels {
         if let ClockTime::Local(t) = l.time {
-            rows.push((format!("level {}", l.row), t));
+            rows.push(("level", l.row, t));
         }
     }
-    rows.sort_by_key(|(_, t)| *t);
-    let (first_row, first_t) = rows.first()?;
-    let first = offset_at(*first_t)?;
-    let (row, _, off) = rows
+    rows.sort_by_key(|(_, _, t)| *t);
+    let (first_rows, rest) = rows.split_first()?;
+    let (first_kind, first_row, first_t) = *first_rows;
+    let first = offset_at(first_t)?;
+    let (kind, row, off) = rest
         .iter()
-        .filter_map(|(r, t)| offset_at(*t).map(|o| (r, t, o)))
+        .filter_map(|(k, r, t)| offset_at(*t).map(|o| (k, r, o)))
         .find(|(_, _, o)| *o != first)?;
     Some(format!(
-        "the times have no time zone, and this computer's clock changes between {first_row} (UTC{first}) and {row} (UTC{off}), as at a daylight-saving change: hours across it may be off by one, and k with them; if the times were written in that zone, give time_zone (for example time_zone = \"Europe/Paris\") so the hours count as they passed"
+        "the times have no time zone, and this computer's clock changes between {first_kind} {first_row} (UTC{first}) and {kind} {row} (UTC{off}), as at a daylight-saving change: hours across it may be off by one, and k with them; if the times were written in that zone, give time_zone (for example time_zone = \"Europe/Paris\") so the hours count as they passed"
     ))
 }
 
