@@ -440,14 +440,14 @@ impl CaseFile {
         let scale = drug.scale;
 
         // Times: all local or all with an offset.
-        let mut stamps: Vec<(String, ClockTime)> = Vec::new();
+        let mut stamps: Vec<(Row, ClockTime)> = Vec::new();
         for (i, d) in self.doses.iter().enumerate() {
-            let place = format!("dose {}", i + 1);
+            let place = Row::Dose(i + 1);
             let s = to_stamp(&d.time, format_args!("{place}: time"))?;
             stamps.push((place, s));
         }
         for (i, l) in self.levels.iter().enumerate() {
-            let place = format!("level {}", i + 1);
+            let place = Row::Level(i + 1);
             let s = to_stamp(&l.time, format_args!("{place}: time"))?;
             stamps.push((place, s));
         }
@@ -475,7 +475,7 @@ impl CaseFile {
         };
         // With a zone, local times are placed through it (a time that does not exist or
         // happens twice there is an error naming its row).
-        let in_zone = |place: &str, s: ClockTime| -> Result<ClockTime> {
+        let in_zone = |place: Row, s: ClockTime| -> Result<ClockTime> {
             match (zone, s) {
                 (Some(z), ClockTime::Local(wall)) => crate::core::clock::place_in_zone(wall, z)
                     .map_err(|m| Error::invalid(format!("{place}: time"), m)),
@@ -483,11 +483,11 @@ impl CaseFile {
             }
         };
         for (place, s) in stamps.iter_mut() {
-            *s = in_zone(place, *s)?;
+            *s = in_zone(*place, *s)?;
         }
         let mut sessions_at = Vec::with_capacity(self.dialysis_sessions.len());
         for (i, d) in self.dialysis_sessions.iter().enumerate() {
-            let place = format!("dialysis_session {}", i + 1);
+            let place = Row::Session(i + 1);
             let s = to_stamp(&d.start, format_args!("{place}: start"))?;
             // As a dose's time: through the case's zone, an impossible wall time named.
             let s = match (zone, s) {
@@ -497,19 +497,20 @@ impl CaseFile {
             };
             sessions_at.push((place, s));
         }
-        let plan_start = plan_start.map(|s| in_zone("plan.start", s)).transpose()?;
-        let procedure = procedure
-            .map(|s| in_zone("threshold.procedure", s))
+        let plan_start = plan_start
+            .map(|s| in_zone(Row::Field("plan.start"), s))
             .transpose()?;
-        let mut all: Vec<(&str, ClockTime)> =
-            stamps.iter().map(|(p, s)| (p.as_str(), *s)).collect();
+        let procedure = procedure
+            .map(|s| in_zone(Row::Field("threshold.procedure"), s))
+            .transpose()?;
+        let mut all: Vec<(Row, ClockTime)> = stamps.clone();
         if let Some(s) = plan_start {
-            all.push(("plan.start", s));
+            all.push((Row::Field("plan.start"), s));
         }
         if let Some(p) = procedure {
-            all.push(("threshold.procedure", p));
+            all.push((Row::Field("threshold.procedure"), p));
         }
-        all.extend(sessions_at.iter().map(|(p, s)| (p.as_str(), *s)));
+        all.extend(sessions_at.iter().copied());
         let clock = build_clock(&all)?;
         let clock = match zone {
             Some(z) => Clock::in_zone(
@@ -525,7 +526,7 @@ impl CaseFile {
         // Doses.
         let mut doses = Vec::with_capacity(self.doses.len());
         for (i, d) in self.doses.iter().enumerate() {
-            let place = &stamps[i].0;
+            let place = stamps[i].0;
             if let Some(a) = d.amount_mg {
                 positive(a, format_args!("{place}: amount_mg"))?;
             }
@@ -535,7 +536,7 @@ impl CaseFile {
                 d.bioavailability,
                 d.formulation.as_deref(),
                 defaults,
-                place,
+                &place,
             )?;
             let time = stamps[i].1;
             doses.push(Dose {
@@ -563,7 +564,7 @@ impl CaseFile {
         // Levels.
         let mut levels = Vec::with_capacity(self.levels.len());
         for (i, l) in self.levels.iter().enumerate() {
-            let place = &stamps[self.doses.len() + i].0;
+            let place = stamps[self.doses.len() + i].0;
             if !l.value.is_finite() || l.value <= 0.0 {
                 return Err(Error::invalid(
                     format!("{place}: value"),
@@ -586,13 +587,13 @@ impl CaseFile {
             match doses.first() {
                 None => {
                     return Err(Error::invalid(
-                        place,
+                        place.to_string(),
                         "there is no dose on record; enter the doses given before the levels",
                     ))
                 }
                 Some(first) if t < first.t => {
                     return Err(Error::invalid(
-                        place,
+                        place.to_string(),
                         format!(
                             "drawn at {}, before the first dose (dose {} at {})",
                             time.iso_minute(),
@@ -644,7 +645,7 @@ impl CaseFile {
                     p.bioavailability,
                     p.formulation.as_deref(),
                     defaults,
-                    "plan",
+                    &"plan",
                 )?;
                 if route.infusion_h() > p.interval_h {
                     return Err(Error::invalid(
@@ -892,16 +893,15 @@ impl CaseFile {
 /// above 0 and at most `MAX_SESSION_H`, and no two sessions overlapping.
 fn validate_sessions(
     rows: &[DialysisSessionFile],
-    stamps: &[(String, ClockTime)],
+    stamps: &[(Row, ClockTime)],
     clock: &Clock,
 ) -> Result<Vec<DialysisSession>> {
     let mut out = Vec::with_capacity(rows.len());
     for (i, (d, (place, start))) in rows.iter().zip(stamps).enumerate() {
-        let field = format!("{place}: duration_h");
-        positive(d.duration_h, &field)?;
+        positive(d.duration_h, format_args!("{place}: duration_h"))?;
         if d.duration_h > MAX_SESSION_H {
             return Err(Error::invalid(
-                field,
+                format!("{place}: duration_h"),
                 format!(
                     "must be at most {MAX_SESSION_H} hours (an intermittent session), got {}",
                     d.duration_h
@@ -1331,7 +1331,7 @@ fn validate_route(
     bioavailability: Option<f64>,
     formulation: Option<&str>,
     defaults: &Defaults,
-    place: &str,
+    place: &dyn std::fmt::Display,
 ) -> Result<Route> {
     let default_f = defaults.bioavailability;
     if formulation.is_some() && route != "oral" {
@@ -1546,6 +1546,27 @@ pub const FIRST_YEAR: u16 = 1900;
 /// The last year a case's date may be in.
 pub const LAST_YEAR: u16 = 2200;
 
+/// A dated row of a case file as messages name it: `dose 2`, `level 1`, `dialysis_session 3`,
+/// or a field such as `plan.start` (written out only when a message needs it).
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum Row {
+    Dose(usize),
+    Level(usize),
+    Session(usize),
+    Field(&'static str),
+}
+
+impl std::fmt::Display for Row {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            Row::Dose(n) => write!(f, "dose {n}"),
+            Row::Level(n) => write!(f, "level {n}"),
+            Row::Session(n) => write!(f, "dialysis_session {n}"),
+            Row::Field(name) => f.write_str(name),
+        }
+    }
+}
+
 /// A TOML date-time as a stamp; a date alone, a time alone, or a year outside
 /// `FIRST_YEAR..=LAST_YEAR` is an error.
 pub fn to_stamp(dt: &Datetime, place: impl std::fmt::Display) -> Result<ClockTime> {
@@ -1625,7 +1646,7 @@ pub fn from_stamp(s: &ClockTime) -> Datetime {
     }
 }
 
-fn build_clock(stamps: &[(&str, ClockTime)]) -> Result<Clock> {
+fn build_clock(stamps: &[(Row, ClockTime)]) -> Result<Clock> {
     let first_kind = stamps
         .first()
         .map(|(_, s)| matches!(s, ClockTime::Offset(_)));
@@ -1640,7 +1661,7 @@ fn build_clock(stamps: &[(&str, ClockTime)]) -> Result<Clock> {
                 ("an offset time", "local times")
             };
             // A session's time is its `start`; every other row's is `time`.
-            let field = if place.starts_with("dialysis_session") {
+            let field = if matches!(place, Row::Session(_)) {
                 "start"
             } else {
                 "time"
@@ -1662,7 +1683,7 @@ fn build_clock(stamps: &[(&str, ClockTime)]) -> Result<Clock> {
     // Computed times carry the offset of the latest dose or level.
     let offset = stamps
         .iter()
-        .filter(|(p, _)| p.starts_with("dose") || p.starts_with("level"))
+        .filter(|(p, _)| matches!(p, Row::Dose(_) | Row::Level(_)))
         .max_by_key(|(_, s)| s.axis_time())
         .and_then(|(_, s)| match s {
             ClockTime::Offset(t) => Some(*t.offset()),
