@@ -21,7 +21,10 @@ struct Cli {
     profiles: Option<PathBuf>,
 }
 
+// Each subcommand's arguments are built only when that subcommand is parsed or its help is
+// shown (start-up; the names, help and usage are the same).
 #[derive(Subcommand)]
+#[command(defer = true)]
 enum Command {
     /// Print the report of one or more case files (or of the demo case).
     Report {
@@ -84,6 +87,7 @@ enum Command {
 }
 
 #[derive(Subcommand)]
+#[command(defer = true)]
 enum ProfilesAction {
     /// Print one profile: every number with its source, the strategies and the cautions.
     Show {
@@ -158,5 +162,17 @@ fn main() -> ExitCode {
             Some(path) => ebb::tui::run::screen(|| ebb::tui::App::open_in(&path, ui())),
             None => ebb::tui::run::screen(|| ebb::tui::App::new_case_in(ui()).offer_recovery()),
         },
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use clap::CommandFactory;
+
+    /// clap's own checks of every command and argument, the deferred subcommands built too.
+    #[test]
+    fn the_command_line_is_well_formed() {
+        Cli::command().debug_assert();
     }
 }
