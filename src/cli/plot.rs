@@ -131,7 +131,8 @@ pub fn plot_svg_from(case: &Case, fit: &Fit, r: &Report) -> Result<String> {
         },
         _ => Vec::new(),
     };
-    // The fitted line is straight on the log axis: its two ends draw it.
+    // The fitted line is straight on the log axis: its two ends draw it. A two-compartment
+    // fit has no straight line (the model's own curve is the fit), so none is drawn.
     let window = &case.doses[fit.window_dose];
     let fitted_end = fit
         .used
@@ -140,6 +141,7 @@ pub fn plot_svg_from(case: &Case, fit: &Fit, r: &Report) -> Result<String> {
         .fold(window.end(), f64::max);
     let line: Vec<(f64, f64)> = [window.end(), fitted_end]
         .into_iter()
+        .filter(|_| fit.two.is_none())
         .map(|t| (t, to(fit.line_mg_l(t))))
         .collect();
     let used: Vec<(f64, f64)> = fit
@@ -198,12 +200,16 @@ pub fn plot_svg_from(case: &Case, fit: &Fit, r: &Report) -> Result<String> {
                     Rectangle::new([(x, y - 1), (x + 12, y + 1)], style.filled())
                 });
         }
-        let fit_style = RGBColor(160, 40, 0).stroke_width(2);
-        chart
-            .draw_series(DashedLineSeries::new(keep(&line), 4, 4, fit_style))
-            .map_err(draw_err)?
-            .label(LEGEND[2])
-            .legend(move |(x, y)| Rectangle::new([(x, y - 1), (x + 4, y + 1)], fit_style.filled()));
+        if !line.is_empty() {
+            let fit_style = RGBColor(160, 40, 0).stroke_width(2);
+            chart
+                .draw_series(DashedLineSeries::new(keep(&line), 4, 4, fit_style))
+                .map_err(draw_err)?
+                .label(LEGEND[2])
+                .legend(move |(x, y)| {
+                    Rectangle::new([(x, y - 1), (x + 4, y + 1)], fit_style.filled())
+                });
+        }
         chart
             .draw_series(
                 keep(&used)

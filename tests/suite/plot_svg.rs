@@ -178,3 +178,20 @@ fn the_saturable_chart_course_rises_by_dose_over_volume_at_each_plan_dose() {
         assert!((jump - rise).abs() < 1e-4, "{n}: {jump} vs {rise}");
     }
 }
+
+#[test]
+fn a_two_compartment_fit_draws_its_model_without_a_straight_fitted_line() {
+    // The two-compartment model's curve is the fit: a straight line with the terminal slope
+    // through the fitted levels would not be it.
+    let text = std::fs::read_to_string(concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/tests/cases/valid/vancomycin_two_compartment.toml"
+    ))
+    .unwrap();
+    let svg = svg_of(&text);
+    let doc = roxmltree::Document::parse(&svg).unwrap();
+    let t = texts(&doc);
+    assert!(t.iter().any(|x| x == LEGEND[0]), "{t:?}");
+    assert!(!t.iter().any(|x| x == LEGEND[2]), "{t:?}");
+    assert!(svg.contains("two-compartment kinetics"));
+}
