@@ -1,9 +1,15 @@
 #!/usr/bin/env bash
 # Whole-process timing: `ebb report --demo` against the start-up of a minimal Rust binary
-# built with the same toolchain. Needs hyperfine (Debian package `hyperfine`).
+# built with the same toolchain, for the usual release build and for the static-pie build
+# (glibc linked in, still position-independent) that avoids the dynamic loader's work.
+# Needs hyperfine (Debian package `hyperfine`) and, for the static build, glibc's static
+# libraries (libc6-dev) on x86_64 Linux.
 set -euo pipefail
 cd "$(dirname "$0")/.."
 cargo build --release --quiet
+static=target/static/x86_64-unknown-linux-gnu/release/ebb
+RUSTFLAGS="-C target-feature=+crt-static" cargo build --release --quiet \
+  --target x86_64-unknown-linux-gnu --target-dir target/static
 tmp=$(mktemp -d)
 trap 'rm -rf "$tmp"' EXIT
 printf 'fn main() {}\n' > "$tmp/minimal.rs"
@@ -12,4 +18,5 @@ hyperfine --warmup 20 --runs 300 -N \
   "$tmp/minimal" \
   "./target/release/ebb report --demo" \
   "./target/release/ebb report --demo --json" \
+  "./$static report --demo --json" \
   --export-markdown "${1:-/dev/stdout}"
