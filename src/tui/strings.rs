@@ -781,9 +781,17 @@ pub const NO_THRESHOLD: &str =
     "No threshold set: press Enter on Below and type the level it must fall under.";
 /// No procedure time.
 pub const NO_PROCEDURE: &str = "Set a procedure time to see the last plan dose that may be given.";
-/// No interval for the range.
-pub const NO_RANGE: &str =
-    "95 % range not known (k has no interval: three or more levels give one).";
+/// No interval for the range, by the fit's method: a two-point fit has none; a fit to the dose
+/// record may have one too wide to bound the time; a log-linear fit's may reach zero.
+pub fn no_range(method: &str) -> &'static str {
+    match method {
+        "two-point" => "95 % range not known (k has no interval: three or more levels give one).",
+        "dose-history" | "bayesian" | "population" => {
+            "95 % range not known (the spread of k and V is too wide to bound it)."
+        }
+        _ => "95 % range not known (the interval of k reaches zero).",
+    }
+}
 /// The clock time it is below.
 pub fn below_at(when: &str, span: &str) -> String {
     format!("{when}, in {span}")

@@ -259,4 +259,11 @@ fn a_two_compartment_fit_shows_its_phases_on_the_fit_screen() {
     app.screen = Screen::Case;
     let text = screen_text(&app, 160, 48);
     assert!(text.contains("(terminal, two compartments)"), "{text}");
+    // Its k has an interval: the threshold's range is missing because the band is too wide.
+    app.screen = Screen::Threshold;
+    let text = screen_text(&app, 160, 48);
+    assert!(
+        text.contains("95 % range not known (the spread of k and V is too wide"),
+        "{text}"
+    );
 }

@@ -86,7 +86,12 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
                     strings::range95(&a.readable_near(&t.t0), &b.readable_near(&t.t0)),
                     Style::new(),
                 ),
-                None => wrapped(&mut lines, strings::NO_RANGE.into(), quiet()),
+                None => wrapped(
+                    &mut lines,
+                    strings::no_range(app.figures.report.as_ref().map_or("", |r| r.fit.method))
+                        .into(),
+                    quiet(),
+                ),
             }
             if let Some(p) = &t.procedure {
                 lines.push(Line::styled(

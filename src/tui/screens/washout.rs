@@ -97,7 +97,7 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
             strings::switch_start(&sw.start_at.readable(false), &num(sw.level_at_start), unit);
         let range = match &sw.start_at_ci95 {
             Some([a, b]) => strings::range95(&a.readable(false), &b.readable(false)),
-            None => strings::NO_RANGE.to_string(),
+            None => strings::no_range(r.fit.method).to_string(),
         };
         for (text, style) in [
             (rule, quiet()),
