@@ -862,6 +862,11 @@ pub fn level_at_procedure(level: &str, unit: &str, below: bool) -> String {
 pub fn washout_heading(from: &str, half_life: &str) -> String {
     format!("From {from}, each half-life ({half_life})")
 }
+/// The washout heading of a two-compartment fit: by its terminal half-life (the level in
+/// each row is the model's, which falls faster at first).
+pub fn washout_heading_terminal(from: &str, half_life: &str) -> String {
+    format!("From {from}, each terminal half-life ({half_life}; the levels are the two-compartment model's)")
+}
 /// Table heading.
 pub const WASHOUT_COLUMNS: [&str; 4] = ["n", "when", "level", "left"];
 /// No threshold.

@@ -266,4 +266,8 @@ fn a_two_compartment_fit_shows_its_phases_on_the_fit_screen() {
         text.contains("95 % range not known (the spread of k and V is too wide"),
         "{text}"
     );
+    // The washout counts terminal half-lives, and says so.
+    app.screen = Screen::Washout;
+    let text = screen_text(&app, 160, 48);
+    assert!(text.contains("each terminal half-life"), "{text}");
 }

@@ -47,10 +47,12 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
     let w = usize::from(left_w).saturating_sub(2);
     // The half-life stays whole on one line when the heading wraps.
     const KEEP: char = '\u{1}';
-    let title = strings::washout_heading(
-        &r.washout_from.readable(false),
-        &span_words(r.fit.half_life_h).replace(' ', &KEEP.to_string()),
-    );
+    let half_life = span_words(r.fit.half_life_h).replace(' ', &KEEP.to_string());
+    let title = if r.fit.peripheral.is_some() {
+        strings::washout_heading_terminal(&r.washout_from.readable(false), &half_life)
+    } else {
+        strings::washout_heading(&r.washout_from.readable(false), &half_life)
+    };
     let mut lines: Vec<Line> = widgets::wrap(&title, w)
         .into_iter()
         .map(|l| Line::styled(l.replace(KEEP, " "), heading()))
