@@ -205,10 +205,17 @@ pub fn write_note(
     }
 
     heading(w, "Method")?;
-    writeln!(
-        w,
-        "{item}Linear one-compartment model, first-order elimination"
-    )?;
+    match &r.fit.peripheral {
+        Some(pe) => writeln!(
+            w,
+            "{item}Linear two-compartment model, first-order elimination (distribution half-life {} h; k and half-life are the terminal phase's; the levels may be drawn in the distribution phase)",
+            num(pe.distribution_half_life_h)
+        )?,
+        None => writeln!(
+            w,
+            "{item}Linear one-compartment model, first-order elimination"
+        )?,
+    }
     let routes = || {
         case.doses
             .iter()

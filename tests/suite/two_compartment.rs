@@ -372,6 +372,15 @@ fn the_report_of_a_two_compartment_fit_says_so() {
         .contains("two-compartment kinetics"));
     let svg = ebb::cli::plot::plot_svg_from(&case, &f, &r).unwrap();
     assert!(svg.contains("two-compartment kinetics"));
+    // The record note's method says which model.
+    let meta = ebb::core::note::NoteMeta {
+        made_at: "2027-02-05 07:15".into(),
+        version: "9.9.9".into(),
+        source: "case.toml".into(),
+    };
+    let note = ebb::core::note::note_text(&case, &r, &meta, ebb::core::note::NoteFormat::Text);
+    assert!(note.contains("Linear two-compartment model"), "{note}");
+    assert!(!note.contains("Linear one-compartment model"), "{note}");
     // The one-compartment report of the same case says nothing of it.
     let one = ebb::core::report::build(&case).unwrap();
     assert_eq!(one.fit.compartments, 1);
