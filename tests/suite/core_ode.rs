@@ -6,38 +6,16 @@
 //! fixed-step classic Runge-Kutta (RK4) of `super::ode`, written in the tests. These are
 //! self-consistency checks: no outside source needed.
 
+use super::ode::{close, regimen, REL};
 use ebb::core::casefile::CaseFile;
 use ebb::core::fit;
 use ebb::core::model::{self, Administration, Route};
 use ebb::core::projection::{self, Patient};
 
-/// Relative agreement asked of every closed form.
-const REL: f64 = 1e-6;
-
 /// Concentration (mg/L) and its running area (mg·h/L) at each of the `at` times (any
 /// order), from the shared RK4 integration (`super::ode`) of the one-compartment model.
 fn integrate(doses: &[Administration], k: f64, v: f64, at: &[f64]) -> Vec<(f64, f64)> {
     super::ode::integrate(doses, &super::ode::One { k, v }, at)
-}
-
-fn close(got: f64, want: f64, what: &str) {
-    let tol = REL * want.abs().max(1e-12);
-    assert!(
-        (got - want).abs() <= tol,
-        "{what}: closed form {got:.12e}, ODE {want:.12e}, rel {:.2e}",
-        ((got - want) / want).abs()
-    );
-}
-
-/// `n` doses of `amount` by `route` every `tau` hours from t = 0.
-fn regimen(n: usize, amount: f64, route: Route, tau: f64) -> Vec<Administration> {
-    (0..n)
-        .map(|j| Administration {
-            t: j as f64 * tau,
-            amount_mg: amount,
-            route,
-        })
-        .collect()
 }
 
 /// A spread of times over the record, including dose times, infusion ends and odd moments.

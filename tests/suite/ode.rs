@@ -15,6 +15,31 @@ use ebb::core::model::{Administration, Route};
 /// The largest RK4 step, in hours.
 pub const H_MAX: f64 = 0.005;
 
+/// Relative agreement asked of every closed form.
+pub const REL: f64 = 1e-6;
+
+/// A closed form `got` against the ODE's `want`, to `REL` relative.
+#[track_caller]
+pub fn close(got: f64, want: f64, what: &str) {
+    let tol = REL * want.abs().max(1e-12);
+    assert!(
+        (got - want).abs() <= tol,
+        "{what}: closed form {got:.12e}, ODE {want:.12e}, rel {:.2e}",
+        ((got - want) / want).abs()
+    );
+}
+
+/// `n` doses of `amount` by `route` every `tau` hours from t = 0.
+pub fn regimen(n: usize, amount: f64, route: Route, tau: f64) -> Vec<Administration> {
+    (0..n)
+        .map(|j| Administration {
+            t: j as f64 * tau,
+            amount_mg: amount,
+            route,
+        })
+        .collect()
+}
+
 /// A disposition to integrate: the derivative of its compartments' amounts given the rate of
 /// input into the central one, and the level (mg/L) from the amounts.
 pub trait Linear {

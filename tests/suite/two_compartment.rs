@@ -7,35 +7,13 @@
 //! fixed-step classic Runge-Kutta (RK4) of `super::ode`, written in the tests.
 //! Self-consistency checks: no outside source needed.
 
+use super::ode::{close, regimen};
 use ebb::core::model::{Administration, Disposition, Route, Schedule, TwoCompartment};
-
-/// Relative agreement asked of every closed form.
-const REL: f64 = 1e-6;
 
 /// Level (mg/L) and its running area (mg·h/L) at each of the `at` times (any order), from the
 /// shared RK4 integration (`super::ode`) of the two-compartment model.
 fn integrate(doses: &[Administration], p: TwoCompartment, at: &[f64]) -> Vec<(f64, f64)> {
     super::ode::integrate(doses, &super::ode::Two(p), at)
-}
-
-fn close(got: f64, want: f64, what: &str) {
-    let tol = REL * want.abs().max(1e-9);
-    assert!(
-        (got - want).abs() <= tol,
-        "{what}: closed form {got:.12e}, ODE {want:.12e}, rel {:.2e}",
-        ((got - want) / want).abs()
-    );
-}
-
-/// `n` doses of `amount` by `route` every `tau` hours from t = 0.
-fn regimen(n: usize, amount: f64, route: Route, tau: f64) -> Vec<Administration> {
-    (0..n)
-        .map(|j| Administration {
-            t: j as f64 * tau,
-            amount_mg: amount,
-            route,
-        })
-        .collect()
 }
 
 /// The typical adult of a vancomycin-like and a gentamicin-like disposition (invented values
