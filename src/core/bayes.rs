@@ -261,12 +261,7 @@ pub fn estimate_two(
         let f = |x: &[f64]| objective_two_with(pop, &schedule, points, below, &free, &inv, x);
         let m = minimise::minimise(&f, &vec![0.0; free.len()])
             .ok_or(history::Failure::NoElimination)?;
-        let half: Vec<Vec<f64>> = m
-            .hessian
-            .iter()
-            .map(|r| r.iter().map(|v| v / 2.0).collect())
-            .collect();
-        let cov = minimise::inverse(&half).ok_or(history::Failure::NotSeparable)?;
+        let cov = minimise::laplace_covariance(&m.hessian).ok_or(history::Failure::NotSeparable)?;
         if (0..free.len()).any(|i| cov[i][i].is_nan() || cov[i][i] <= 0.0) {
             return Err(history::Failure::NotSeparable);
         }
@@ -331,12 +326,7 @@ pub fn estimate_with_bounds(
     } else {
         let f = |x: &[f64]| objective(pop, &schedule, points, below, x);
         let m = minimise::minimise(&f, &vec![0.0; n]).ok_or(history::Failure::NoElimination)?;
-        let half: Vec<Vec<f64>> = m
-            .hessian
-            .iter()
-            .map(|r| r.iter().map(|v| v / 2.0).collect())
-            .collect();
-        let inv = minimise::inverse(&half).ok_or(history::Failure::NotSeparable)?;
+        let inv = minimise::laplace_covariance(&m.hessian).ok_or(history::Failure::NotSeparable)?;
         let mut cov = [[0.0; 2]; 2];
         for i in 0..n {
             for j in 0..n {

@@ -52,6 +52,16 @@ pub fn hessian(f: &dyn Fn(&[f64]) -> f64, x: &[f64]) -> Vec<Vec<f64>> {
     gradient_hessian(f, x, f(x)).1
 }
 
+/// The Laplace covariance at the minimum of an objective that is −2 ln of a density, from its
+/// Hessian `h` there: (h/2)⁻¹. None when `h` is singular.
+pub fn laplace_covariance(h: &[Vec<f64>]) -> Option<Vec<Vec<f64>>> {
+    let half: Vec<Vec<f64>> = h
+        .iter()
+        .map(|r| r.iter().map(|v| v / 2.0).collect())
+        .collect();
+    inverse(&half)
+}
+
 /// Solve `a·x = b` by Gaussian elimination with partial pivoting; None when singular.
 pub fn solve(a: &[Vec<f64>], b: &[f64]) -> Option<Vec<f64>> {
     let n = b.len();

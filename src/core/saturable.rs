@@ -528,11 +528,7 @@ pub fn map_objective(
 /// The covariance of (ln Vmax, ln Km) from the Hessian `h` of an objective that is −2 ln of
 /// a density: (h/2)⁻¹. `None` unless it is positive definite.
 fn laplace(h: &[Vec<f64>]) -> Option<[[f64; 2]; 2]> {
-    let half: Vec<Vec<f64>> = h
-        .iter()
-        .map(|r| r.iter().map(|v| v / 2.0).collect())
-        .collect();
-    let inv = crate::core::minimise::inverse(&half)?;
+    let inv = crate::core::minimise::laplace_covariance(h)?;
     let c = [[inv[0][0], inv[0][1]], [inv[1][0], inv[1][1]]];
     let det = c[0][0] * c[1][1] - c[0][1] * c[1][0];
     (c[0][0] > 0.0 && c[1][1] > 0.0 && det > 0.0 && c.iter().flatten().all(|v| v.is_finite()))
