@@ -75,5 +75,33 @@ fn bench_scaling(c: &mut Criterion) {
     g.finish();
 }
 
-criterion_group!(benches, bench_demo, bench_scaling);
+/// The two-compartment course over a dose record with as many sample times as doses, doses
+/// and times grown together (one forward pass per mode: linear in both).
+fn bench_two_compartment(c: &mut Criterion) {
+    use ebb::core::model::{Administration, Disposition, Route, Schedule, TwoCompartment};
+    let d = Disposition::Two(TwoCompartment {
+        cl: 3.2,
+        v1: 58.0,
+        q: 6.5,
+        v2: 38.0,
+    });
+    let mut g = c.benchmark_group("two-compartment course, doses and times together");
+    g.sample_size(20);
+    for n in [250usize, 1_000, 4_000] {
+        let doses: Vec<Administration> = (0..n)
+            .map(|j| Administration {
+                t: j as f64 * 12.0,
+                amount_mg: 1000.0,
+                route: Route::Infusion { hours: 1.0 },
+            })
+            .collect();
+        let ts: Vec<f64> = (0..n).map(|j| j as f64 * 12.0 + 5.3).collect();
+        g.bench_with_input(BenchmarkId::from_parameter(n), &n, |b, _| {
+            b.iter(|| d.levels(&Schedule::new(&doses), &ts))
+        });
+    }
+    g.finish();
+}
+
+criterion_group!(benches, bench_demo, bench_scaling, bench_two_compartment);
 criterion_main!(benches);
