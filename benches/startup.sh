@@ -7,9 +7,8 @@
 set -euo pipefail
 cd "$(dirname "$0")/.."
 cargo build --release --quiet
-static=target/static/x86_64-unknown-linux-gnu/release/ebb
-RUSTFLAGS="-C target-feature=+crt-static" cargo build --release --quiet \
-  --target x86_64-unknown-linux-gnu --target-dir target/static
+static=target/x86_64-unknown-linux-gnu/release/ebb
+cargo static-build --quiet  # the alias in .cargo/config.toml
 tmp=$(mktemp -d)
 trap 'rm -rf "$tmp"' EXIT
 printf 'fn main() {}\n' > "$tmp/minimal.rs"
