@@ -196,7 +196,12 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
         };
         let when = l.time.weekday_time();
         let text = format!("{:<2} {when}  {:>7} ", l.row, l.value_words());
-        let resid = kind.1.map(|x| format!("{x:+.3}")).unwrap_or_default();
+        // A residual that rounds to zero is shown as +0.000, not -0.000 (an exact two-level
+        // fit leaves residuals of a few 1e-16 of either sign).
+        let resid = kind
+            .1
+            .map(|x| format!("{:+.3}", if x.abs() < 5e-4 { 0.0 } else { x }))
+            .unwrap_or_default();
         let body = Style::new();
         lines.push(Line::from(vec![
             Span::raw(if is_sel { "▸ " } else { "  " }),
