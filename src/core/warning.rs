@@ -89,6 +89,10 @@ pub enum Code {
     /// The case's own targets contradict its dosing strategy's (a target the strategy does
     /// not use, or a bound outside the strategy's); the case's are the ones used.
     TargetsNotStrategy,
+    /// The regimen's dosing interval is not among the strategy in force's usual intervals
+    /// but is among another strategy's (a once-daily regimen read against conventional
+    /// targets).
+    IntervalNotStrategy,
     /// Saturable elimination: a dose increase larger than the small steps of common practice.
     LargeDoseStep,
     /// Saturable elimination: a level drawn before the dose rate could reach steady state.
@@ -117,7 +121,7 @@ pub enum Code {
 
 impl Code {
     /// Every code, in declaration order.
-    pub const ALL: [Code; 52] = [
+    pub const ALL: [Code; 53] = [
         Code::OutsideWindow,
         Code::DistributionPhase,
         Code::RisingLevels,
@@ -158,6 +162,7 @@ impl Code {
         Code::ClockChange,
         Code::BelowLimit,
         Code::TargetsNotStrategy,
+        Code::IntervalNotStrategy,
         Code::LargeDoseStep,
         Code::NotSteadyState,
         Code::BindingUncertain,
@@ -215,6 +220,7 @@ impl Code {
             Code::ClockChange => "clock-change",
             Code::BelowLimit => "below-limit",
             Code::TargetsNotStrategy => "targets-not-strategy",
+            Code::IntervalNotStrategy => "interval-not-strategy",
             Code::LargeDoseStep => "large-dose-step",
             Code::NotSteadyState => "not-steady-state",
             Code::BindingUncertain => "binding-uncertain",

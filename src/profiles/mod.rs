@@ -911,4 +911,121 @@ infusion_h = 2.0
             "{w:?}"
         );
     }
+
+    /// The interval warning of a case, if any.
+    fn interval_warning(profile: &str, text: &str) -> Option<String> {
+        codes_of(profile, text)
+            .into_iter()
+            .find(|(c, _)| *c == crate::core::warning::Code::IntervalNotStrategy)
+            .map(|(_, t)| t)
+    }
+
+    const ONCE_DAILY: &str = r#"[patient]
+weight_kg = 80.0
+[drug]
+profile = "amikacin"
+level_unit = "mg/L"
+[[dose]]
+time = 2027-06-01T10:00:00
+amount_mg = 1200.0
+route = "infusion"
+infusion_h = 0.5
+[[level]]
+time = 2027-06-01T12:00:00
+value = 48.0
+[[level]]
+time = 2027-06-01T18:00:00
+value = 14.5
+[plan]
+dose_mg = 1200.0
+interval_h = 24.0
+route = "infusion"
+infusion_h = 0.5
+"#;
+
+    #[test]
+    fn a_once_daily_regimen_read_against_the_conventional_strategy_is_flagged() {
+        // The amikacin profile: conventional dosing every 8 or 12 h (from memory,
+        // unverified), once daily every 24 h [ReviewODA][ForthValleyAmik]. A 24-hourly plan
+        // with no strategy named gets the conventional one by default: the warning names
+        // the strategy whose interval it is.
+        let w = interval_warning("amikacin", ONCE_DAILY).unwrap();
+        assert!(
+            w.starts_with(
+                "the dosing interval of 24 h (the plan's) is not one of the usual intervals of \
+                 the strategy in force, \"conventional\" (8, 12 h), but is one of strategy \
+                 \"once-daily\" (Once daily"
+            ),
+            "{w}"
+        );
+        // Chosen, it is in force and nothing is said.
+        let chosen = ONCE_DAILY.replace(
+            "profile = \"amikacin\"\n",
+            "profile = \"amikacin\"\nstrategy = \"once-daily\"\n",
+        );
+        assert_eq!(interval_warning("amikacin", &chosen), None);
+        // A conventional plan is the conventional strategy's own.
+        let q12 = ONCE_DAILY.replace("interval_h = 24.0", "interval_h = 12.0");
+        assert_eq!(interval_warning("amikacin", &q12), None);
+        // An interval no strategy uses (every 36 h) has no other strategy to point to.
+        let q36 = ONCE_DAILY.replace("interval_h = 24.0", "interval_h = 36.0");
+        assert_eq!(interval_warning("amikacin", &q36), None);
+        // Without a plan the interval between the last two recorded doses is read, to within
+        // 10 % (a dose given an hour late still counts as 24-hourly).
+        let record = ONCE_DAILY
+            .split("[plan]")
+            .next()
+            .unwrap()
+            .replacen(
+                "[[level]]",
+                "[[dose]]\ntime = 2027-06-02T11:00:00\namount_mg = 1200.0\nroute = \"infusion\"\ninfusion_h = 0.5\n[[level]]",
+                1,
+            );
+        let w = interval_warning("amikacin", &record).unwrap();
+        assert!(
+            w.starts_with("the dosing interval of 25 h (between the last two doses)"),
+            "{w}"
+        );
+    }
+
+    #[test]
+    fn a_haemodialysis_strategy_is_pointed_to_only_for_a_patient_on_haemodialysis() {
+        // Vancomycin: the default AUC24 strategy uses the profile's 8, 12 and 24 h; the
+        // haemodialysis strategy 48 and 72 h (both from memory, unverified). A 48-hourly
+        // plan in renal impairment is not a reason to dose as on dialysis.
+        let text = r#"[patient]
+weight_kg = 70.0
+age_years = 70
+sex = "male"
+creatinine_umol_l = 250.0
+[drug]
+profile = "vancomycin"
+level_unit = "mg/L"
+[fit]
+method = "log-linear"
+[[dose]]
+time = 2027-03-02T08:00:00
+amount_mg = 1000.0
+route = "infusion"
+infusion_h = 2.0
+[[level]]
+time = 2027-03-02T12:00:00
+value = 30.0
+[[level]]
+time = 2027-03-03T08:00:00
+value = 18.0
+[plan]
+dose_mg = 1000.0
+interval_h = 48.0
+route = "infusion"
+infusion_h = 2.0
+"#;
+        assert_eq!(interval_warning("vancomycin", text), None);
+        let on_dialysis = text.replace("sex = \"male\"\n", "sex = \"male\"\ndialysis = true\n");
+        let w = interval_warning("vancomycin", &on_dialysis).unwrap();
+        assert!(
+            w.contains("but is one of strategy \"haemodialysis\""),
+            "{w}"
+        );
+    }
 }

@@ -175,6 +175,7 @@ pub fn warnings(profile: &Profile, case: &Case, report: &Report) -> Vec<Warning>
         )));
     }
     out.extend(targets_against_strategy(profile, case));
+    out.extend(interval_against_strategy(profile, case));
     plausibility(profile, case, report, &mut out);
     out
 }
@@ -278,6 +279,81 @@ fn targets_against_strategy(profile: &Profile, case: &Case) -> Option<Warning> {
             targets_words(&theirs, unit),
             cited.join(""),
             why.join("; ")
+        ),
+    ))
+}
+
+/// Whether `interval` is one of `usual` (within 10 %: recorded doses are given to the
+/// nearest hour or so).
+fn among(interval: f64, usual: &[f64]) -> bool {
+    usual.iter().any(|u| (interval - u).abs() <= 0.1 * u)
+}
+
+/// The regimen's dosing interval against the strategy in force: a warning when it is not
+/// one of that strategy's usual intervals but is one of another strategy's (a 24-hourly
+/// aminoglycoside read against the conventional strategy's peak and trough, whose
+/// suggestions would move it to 8 or 12 hours). The interval is the plan's, else the last
+/// one between recorded doses. A haemodialysis strategy is offered only to a patient on
+/// haemodialysis.
+fn interval_against_strategy(profile: &Profile, case: &Case) -> Option<Warning> {
+    let (interval, whose) = match &case.plan {
+        Some(p) => (p.interval_h, "the plan's"),
+        None => {
+            let [.., a, b] = case.doses.as_slice() else {
+                return None;
+            };
+            (b.t - a.t, "between the last two doses")
+        }
+    };
+    if !(interval.is_finite() && interval > 0.0) {
+        return None;
+    }
+    let in_force = case
+        .regimen
+        .strategy
+        .as_deref()
+        .and_then(|n| profile.strategy(n))?;
+    let usual = in_force
+        .usual_intervals_h
+        .as_ref()
+        .or(profile.usual_intervals_h.as_ref())?;
+    if among(interval, &usual.values) {
+        return None;
+    }
+    let dialysis = case.patient.dialysis == Some(true) || !case.dialysis_sessions.is_empty();
+    let fits: Vec<&crate::profiles::schema::Strategy> = profile
+        .strategies
+        .iter()
+        .filter(|s| s.name != in_force.name)
+        .filter(|s| dialysis || (s.pre_dialysis.is_none() && s.dose_after_session.is_none()))
+        .filter(|s| {
+            s.usual_intervals_h
+                .as_ref()
+                .is_some_and(|l| among(interval, &l.values))
+        })
+        .collect();
+    if fits.is_empty() {
+        return None;
+    }
+    let hours = |v: &[f64]| v.iter().map(|x| num(*x)).collect::<Vec<_>>().join(", ");
+    let others: Vec<String> = fits
+        .iter()
+        .map(|s| {
+            format!(
+                "strategy {} ({})",
+                crate::core::text::quoted(&s.name),
+                s.label
+            )
+        })
+        .collect();
+    let name = crate::core::text::quoted(&in_force.name);
+    Some(Warning::new(
+        Code::IntervalNotStrategy,
+        format!(
+            "the dosing interval of {} h ({whose}) is not one of the usual intervals of the strategy in force, {name} ({} h), but is one of {}: the targets, checks and suggested regimens here are those of {name}; if the patient is dosed that way, choose that strategy (drug.strategy, or Strategy on screen 1)",
+            num(interval),
+            hours(&usual.values),
+            others.join(" or "),
         ),
     ))
 }

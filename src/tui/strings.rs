@@ -956,6 +956,8 @@ pub fn profile_chosen(display: &str, unit_now: Option<&str>) -> String {
 }
 /// Under the plan's targets when they contradict the dosing strategy (at most 41 columns).
 pub const TARGETS_NOT_STRATEGY: &str = "✗ targets not the strategy's: screen 2";
+/// Under the targets when the interval is another strategy's (warning `interval-not-strategy`).
+pub const INTERVAL_NOT_STRATEGY: &str = "✗ interval not the strategy's: screen 2";
 /// Stepping the strategy of a case with no profile.
 pub const STRATEGY_NEEDS_PROFILE: &str =
     "A dosing strategy belongs to a drug profile; choose one with p first.";

@@ -63,13 +63,20 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
             app.cursors.plan == i,
         ));
     }
-    let contradicts = app.figures.report.as_ref().is_some_and(|r| {
-        r.warnings
-            .iter()
-            .any(|w| w.code() == crate::core::warning::Code::TargetsNotStrategy)
-    });
-    if contradicts {
+    let has = |code: crate::core::warning::Code| {
+        app.figures
+            .report
+            .as_ref()
+            .is_some_and(|r| r.warnings.iter().any(|w| w.code() == code))
+    };
+    if has(crate::core::warning::Code::TargetsNotStrategy) {
         lines.push(Line::styled(strings::TARGETS_NOT_STRATEGY, problem_style()));
+    }
+    if has(crate::core::warning::Code::IntervalNotStrategy) {
+        lines.push(Line::styled(
+            strings::INTERVAL_NOT_STRATEGY,
+            problem_style(),
+        ));
     }
     lines.push(Line::styled(strings::AT_STEADY_STATE, heading()));
     let saturable = app
