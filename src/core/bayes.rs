@@ -1,26 +1,25 @@
-//! Bayesian (maximum a posteriori) estimate of k and V — or, with a two-compartment model,
-//! of CL, V1, Q and V2 — from a published population model and any number of levels — none
-//! gives the population values for this patient (the a-priori estimate).
+//! Bayesian (maximum a posteriori) estimate of a patient's disposition — k (or CL) and V of a
+//! one-compartment model, CL, V1, Q and V2 of a two-compartment one, by one path for both —
+//! from a published population model and any number of levels; none gives the population
+//! values for this patient (the a-priori estimate).
 //!
-//! The objective (η: the patient's log-deviations from the typical clearance or k and from
-//! the typical volume; Ω: their between-patient covariance; y: the levels; ŷ(η): the model's
-//! levels at their times over the whole dose record; Var = additive² + (proportional·ŷ)²):
+//! The objective (η: the patient's log-deviations from the model's typical values of
+//! (elimination, V) or of (CL, V1, Q, V2), one for each parameter with a between-patient
+//! variability, the others staying at their typical values; Ω: their between-patient
+//! covariance; y: the levels; ŷ(η): the model's levels at their times over the whole dose
+//! record, `Disposition::levels`, so a level drawn in a distribution phase counts as drawn;
+//! Var = additive² + (proportional·ŷ)²):
 //!
 //!   OBJ(η) = Σ_j [ (y_j − ŷ_j)² / Var_j + ln Var_j ] + ηᵀ Ω⁻¹ η
 //!
 //! minimised by `minimise`. A level reported below the assay's limit L enters as a bound
 //! (the likelihood that the level lies below L): − 2 ln Φ((L − ŷ)/√Var) instead of its
-//! squared residual. A parameter the model fixes has no η. The posterior covariance
-//! of η is the inverse of half the Hessian of OBJ at the minimum (the Laplace approximation);
-//! carried to (ln k, ln V) it gives the 95 % intervals (normal quantile 1.96). With no level
-//! the covariance is Ω itself and the intervals are the population's 90 % range (1.645).
-//!
-//! A two-compartment model has an η for each of (CL, V1, Q, V2) that has a between-patient
-//! variability (the others stay at their typical values); ŷ is the two-compartment level
-//! over the whole dose record (`Disposition::levels`), so a level drawn in the distribution
-//! phase counts as drawn. The posterior covariance of η is that of ln(CL, V1, Q, V2) (zero for
-//! a fixed parameter), from which the intervals of β (the terminal k), V1 and CL follow by
-//! the delta method.
+//! squared residual. The posterior covariance of η is the inverse of half the Hessian of OBJ
+//! at the minimum (the Laplace approximation), and the intervals are 95 % (normal quantile
+//! 1.96); with no level the covariance is Ω itself and the intervals are the population's
+//! 90 % range (1.645). One compartment carries it to (ln k, ln V); for two it is that of
+//! ln(CL, V1, Q, V2) (zero for a fixed parameter), from which the intervals of β (the terminal
+//! k), V1 and CL follow by the delta method.
 
 use statrs::distribution::{ContinuousCDF, Normal};
 
@@ -41,34 +40,114 @@ pub fn normal_quantile(p: f64) -> f64 {
         .unwrap_or(f64::NAN)
 }
 
-/// A maximum a posteriori estimate on plain numbers.
-#[derive(Debug, Clone, PartialEq)]
-pub struct Estimate {
-    /// k, V, the spread of (ln k, ln V) and the log residuals, as every fit carries them.
-    pub solution: Solution,
-    /// η at the minimum (elimination, volume; 0 for a fixed one).
-    pub eta: [f64; 2],
-    /// Posterior covariance of η.
-    pub cov_eta: [[f64; 2]; 2],
-    /// The model's level at each point, mg/L.
-    pub predicted: Vec<f64>,
+/// The η a population model lets the levels move, as indices into (elimination, V) of one
+/// compartment or (CL, V1, Q, V2) of two — those with a between-patient variability (the
+/// elimination always has one) — and how their prior term is reckoned.
+struct Etas {
+    free: Vec<usize>,
+    prior: Prior,
 }
 
-/// Which η the model lets vary: the elimination always, the volume when it has a variability.
-fn free(pop: &Population) -> usize {
-    if pop.omega[1].is_some() {
-        2
-    } else {
-        1
+/// How ηᵀ Ω⁻¹ η is reckoned over the free η. The two forms are the same quantity; each model
+/// keeps the arithmetic its estimates have always had, since the minimum of a flat objective
+/// moves with the last bits of its value.
+enum Prior {
+    /// One compartment: the SDs of the free η of (elimination, V) and their correlation r,
+    /// written out as (a² − 2rab + b²)/(1 − r²), a and b the η over their SDs (a² alone when V
+    /// is fixed).
+    Pair { sd: Vec<f64>, r: f64 },
+    /// Two compartments: Ω⁻¹ over the free η (None when Ω is singular).
+    Inverse(Option<Vec<Vec<f64>>>),
+}
+
+impl Etas {
+    fn of(pop: &Population) -> Etas {
+        let w = pop.omega_two();
+        let free: Vec<usize> = (0..4).filter(|&i| w[i].is_some()).collect();
+        let prior = if pop.two.is_some() {
+            let full = pop.omega_two_matrix();
+            let omega: Vec<Vec<f64>> = free
+                .iter()
+                .map(|&i| free.iter().map(|&j| full[i][j]).collect())
+                .collect();
+            Prior::Inverse(minimise::inverse(&omega))
+        } else {
+            Prior::Pair {
+                sd: free.iter().filter_map(|&i| w[i]).collect(),
+                r: pop.correlation,
+            }
+        };
+        Etas { free, prior }
+    }
+
+    /// The η of every parameter for the free values `x` (in the order of `free`); 0 for a
+    /// fixed parameter.
+    fn all(&self, x: &[f64]) -> [f64; 4] {
+        let mut eta = [0.0; 4];
+        for (&i, &xi) in self.free.iter().zip(x) {
+            eta[i] = xi;
+        }
+        eta
+    }
+
+    /// The covariance of every η from that of the free ones; zero for a fixed parameter.
+    fn all_cov(&self, cov: &[Vec<f64>]) -> [[f64; 4]; 4] {
+        let mut out = [[0.0; 4]; 4];
+        for (a, &i) in self.free.iter().enumerate() {
+            for (b, &j) in self.free.iter().enumerate() {
+                out[i][j] = cov[a][b];
+            }
+        }
+        out
+    }
+
+    /// ηᵀ Ω⁻¹ η over the free η `x` (NaN when Ω is singular).
+    fn prior_term(&self, x: &[f64]) -> f64 {
+        match &self.prior {
+            Prior::Pair { sd, r } => match (x, &sd[..]) {
+                ([x0, x1], [w0, w1]) => {
+                    let (a, b) = (x0 / w0, x1 / w1);
+                    (a * a - 2.0 * r * a * b + b * b) / (1.0 - r * r)
+                }
+                ([x0], [w0]) => {
+                    let a = x0 / w0;
+                    a * a
+                }
+                _ => 0.0,
+            },
+            Prior::Inverse(None) => f64::NAN,
+            Prior::Inverse(Some(inv)) => {
+                let mut prior = 0.0;
+                for (i, xi) in x.iter().enumerate() {
+                    for (j, xj) in x.iter().enumerate() {
+                        prior += xi * inv[i][j] * xj;
+                    }
+                }
+                prior
+            }
+        }
+    }
+
+    /// OBJ at the free η `x`.
+    fn objective(
+        &self,
+        pop: &Population,
+        schedule: &Schedule,
+        points: &[(f64, f64)],
+        below: &[(f64, f64)],
+        x: &[f64],
+    ) -> f64 {
+        let d = pop.disposition(&self.all(x));
+        let ts: Vec<f64> = points.iter().chain(below).map(|p| p.0).collect();
+        let predicted = d.levels(schedule, &ts);
+        data_term(pop, points, below, &predicted) + self.prior_term(x)
     }
 }
 
-fn eta_of(x: &[f64]) -> [f64; 2] {
-    [x[0], x.get(1).copied().unwrap_or(0.0)]
-}
-
 /// OBJ(η) as documented above, for `points` `(t, mg/L)` after `schedule` and levels
-/// `below` `(t, limit mg/L)` reported below the assay's limit.
+/// `below` `(t, limit mg/L)` reported below the assay's limit; `x` holds the free η: the
+/// elimination's, then the volume's when it varies (one compartment), or those of (CL, V1, Q,
+/// V2) that vary, in that order (two).
 pub fn objective(
     pop: &Population,
     schedule: &Schedule,
@@ -76,15 +155,11 @@ pub fn objective(
     below: &[(f64, f64)],
     x: &[f64],
 ) -> f64 {
-    if pop.two.is_some() {
-        return objective_two(pop, schedule, points, below, x);
-    }
-    let eta = eta_of(x);
-    let (k, v) = pop.k_and_v(eta);
-    let ts: Vec<f64> = points.iter().chain(below).map(|p| p.0).collect();
-    let predicted = schedule.levels(k, v, &ts);
-    data_term(pop, points, below, &predicted) + prior_term(pop, x)
+    Etas::of(pop).objective(pop, schedule, points, below, x)
 }
+
+/// [`objective`], under the name the two-compartment checks use.
+pub use self::objective as objective_two;
 
 /// The levels' part of OBJ: Σ [(y − ŷ)²/Var + ln Var] over `points`, − 2 ln Φ((L − ŷ)/√Var)
 /// over the levels `below` the assay's limit; `predicted` holds ŷ at the points, then at
@@ -109,88 +184,41 @@ fn data_term(
     total
 }
 
-/// ηᵀ Ω⁻¹ η over the free η.
-fn prior_term(pop: &Population, x: &[f64]) -> f64 {
-    let w0 = pop.omega[0].unwrap_or(1.0);
-    if x.len() == 1 {
-        return (x[0] / w0).powi(2);
+/// A maximum a posteriori estimate of either disposition.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Estimate {
+    /// The disposition at the estimate.
+    pub disposition: Disposition,
+    /// The terminal k and the central volume, the log residuals and, for one compartment, the
+    /// spread of (ln k, ln V), as every fit carries them.
+    pub solution: Solution,
+    /// η of (elimination, V, —, —) or of (CL, V1, Q, V2) at the minimum (0 for a fixed one).
+    pub eta: [f64; 4],
+    /// Posterior covariance of η (zero rows and columns for a fixed one); Ω itself with no
+    /// level. For two compartments it is that of ln(CL, V1, Q, V2).
+    pub cov_eta: [[f64; 4]; 4],
+    /// Two-sided quantile of the intervals: 1.959964 (95 %) after levels, 1.644854 (the
+    /// population's 90 % range) with none.
+    pub quantile: f64,
+    /// The model's level at each point, mg/L.
+    pub predicted: Vec<f64>,
+}
+
+impl Estimate {
+    /// The joint uncertainty of ln(CL, V1, Q, V2) (two compartments).
+    pub fn param_spread(&self) -> ParamSpread {
+        param_spread(&self.cov_eta, self.quantile)
     }
-    let w1 = pop.omega[1].unwrap_or(1.0);
-    let r = pop.correlation;
-    let (a, b) = (x[0] / w0, x[1] / w1);
-    (a * a - 2.0 * r * a * b + b * b) / (1.0 - r * r)
 }
 
-/// The parameters of a two-compartment model that have a between-patient variability, as
-/// indices into (CL, V1, Q, V2).
-pub fn free_two(pop: &Population) -> Vec<usize> {
-    pop.omega_two()
-        .iter()
-        .enumerate()
-        .filter(|(_, w)| w.is_some())
-        .map(|(i, _)| i)
-        .collect()
-}
-
-/// The η of (CL, V1, Q, V2) for the free values `x` (in the order of [`free_two`]); 0 for a
-/// fixed parameter.
-fn eta_two(free: &[usize], x: &[f64]) -> [f64; 4] {
-    let mut eta = [0.0; 4];
-    for (&i, &xi) in free.iter().zip(x) {
-        eta[i] = xi;
+fn param_spread(cov_eta: &[[f64; 4]; 4], quantile: f64) -> ParamSpread {
+    ParamSpread {
+        cov: cov_eta.iter().map(|r| r.to_vec()).collect(),
+        quantile,
     }
-    eta
 }
 
-/// Ω over the free η of a two-compartment model, and its inverse.
-fn omega_free(pop: &Population, free: &[usize]) -> (Vec<Vec<f64>>, Option<Vec<Vec<f64>>>) {
-    let full = pop.omega_two_matrix();
-    let om: Vec<Vec<f64>> = free
-        .iter()
-        .map(|&i| free.iter().map(|&j| full[i][j]).collect())
-        .collect();
-    let inv = minimise::inverse(&om);
-    (om, inv)
-}
-
-/// OBJ(η) for a two-compartment model, `x` the free η in the order of [`free_two`].
-pub fn objective_two(
-    pop: &Population,
-    schedule: &Schedule,
-    points: &[(f64, f64)],
-    below: &[(f64, f64)],
-    x: &[f64],
-) -> f64 {
-    let free = free_two(pop);
-    let (_, inv) = omega_free(pop, &free);
-    let Some(inv) = inv else {
-        return f64::NAN;
-    };
-    objective_two_with(pop, schedule, points, below, &free, &inv, x)
-}
-
-fn objective_two_with(
-    pop: &Population,
-    schedule: &Schedule,
-    points: &[(f64, f64)],
-    below: &[(f64, f64)],
-    free: &[usize],
-    inv: &[Vec<f64>],
-    x: &[f64],
-) -> f64 {
-    let d = pop.disposition(&eta_two(free, x));
-    let ts: Vec<f64> = points.iter().chain(below).map(|p| p.0).collect();
-    let predicted = d.levels(schedule, &ts);
-    let mut prior = 0.0;
-    for (i, xi) in x.iter().enumerate() {
-        for (j, xj) in x.iter().enumerate() {
-            prior += xi * inv[i][j] * xj;
-        }
-    }
-    data_term(pop, points, below, &predicted) + prior
-}
-
-/// A maximum a posteriori estimate of a two-compartment model.
+/// A maximum a posteriori estimate of a two-compartment model, as [`estimate_two`] gives it.
 #[derive(Debug, Clone, PartialEq)]
 pub struct TwoEstimate {
     /// CL, V1, Q and V2 at the estimate.
@@ -200,8 +228,7 @@ pub struct TwoEstimate {
     /// Posterior covariance of η, which is that of ln(CL, V1, Q, V2) (zero rows and columns
     /// for a fixed parameter); Ω itself with no level.
     pub cov_eta: [[f64; 4]; 4],
-    /// Two-sided quantile of the intervals: 1.959964 (95 %) after levels, 1.644854 (the
-    /// population's 90 % range) with none.
+    /// As [`Estimate::quantile`].
     pub quantile: f64,
     /// The model's level at each point, mg/L.
     pub predicted: Vec<f64>,
@@ -212,10 +239,7 @@ pub struct TwoEstimate {
 impl TwoEstimate {
     /// The joint uncertainty of ln(CL, V1, Q, V2).
     pub fn param_spread(&self) -> ParamSpread {
-        ParamSpread {
-            cov: self.cov_eta.iter().map(|r| r.to_vec()).collect(),
-            quantile: self.quantile,
-        }
+        param_spread(&self.cov_eta, self.quantile)
     }
 }
 
@@ -237,61 +261,27 @@ pub fn terminal_gradient(two: &TwoCompartment) -> [f64; 4] {
     g
 }
 
-/// The two-compartment estimate from points `(t, mg/L)` after `doses` and levels `below`
-/// `(t, limit mg/L)` reported below the assay's limit (none of either: the population
-/// values with Ω).
+/// [`estimate_with_bounds`] of a two-compartment model.
 ///
 /// # Errors
-/// None found (the objective is not finite at the population values, or does not settle),
-/// or a terminal half-life outside what the levels can have determined.
+/// As [`estimate_with_bounds`], and a one-compartment model.
 pub fn estimate_two(
     doses: &[Administration],
     points: &[(f64, f64)],
     below: &[(f64, f64)],
     pop: &Population,
 ) -> std::result::Result<TwoEstimate, history::Failure> {
-    let schedule = Schedule::new(doses);
-    let free = free_two(pop);
-    let (om, inv) = omega_free(pop, &free);
-    let inv = inv.ok_or(history::Failure::NotSeparable)?;
-    let none = points.is_empty() && below.is_empty();
-    let (x, cov_free) = if none || free.is_empty() {
-        (vec![0.0; free.len()], om)
-    } else {
-        let f = |x: &[f64]| objective_two_with(pop, &schedule, points, below, &free, &inv, x);
-        let m = minimise::minimise(&f, &vec![0.0; free.len()])
-            .ok_or(history::Failure::NoElimination)?;
-        let cov = minimise::laplace_covariance(&m.hessian).ok_or(history::Failure::NotSeparable)?;
-        if (0..free.len()).any(|i| cov[i][i].is_nan() || cov[i][i] <= 0.0) {
-            return Err(history::Failure::NotSeparable);
-        }
-        (m.x, cov)
-    };
-    let eta = eta_two(&free, &x);
-    let mut cov_eta = [[0.0; 4]; 4];
-    for (a, &i) in free.iter().enumerate() {
-        for (b, &j) in free.iter().enumerate() {
-            cov_eta[i][j] = cov_free[a][b];
-        }
-    }
-    let Disposition::Two(two) = pop.disposition(&eta) else {
+    let e = estimate_with_bounds(doses, points, below, pop)?;
+    let Disposition::Two(two) = e.disposition else {
         return Err(history::Failure::NoElimination);
     };
-    history::check_plausible(two.rates().1.ln())?;
-    let ts: Vec<f64> = points.iter().map(|p| p.0).collect();
-    let predicted = Disposition::Two(two).levels(&schedule, &ts);
-    let residuals = points
-        .iter()
-        .zip(&predicted)
-        .map(|((_, y), yhat)| y.ln() - yhat.ln())
-        .collect();
     Ok(TwoEstimate {
         two,
-        eta,
-        cov_eta,
-        quantile: normal_quantile(if none { 0.90 } else { 0.95 }),
-        predicted,
-        residuals,
+        eta: e.eta,
+        cov_eta: e.cov_eta,
+        quantile: e.quantile,
+        predicted: e.predicted,
+        residuals: e.solution.residuals,
     })
 }
 
@@ -299,7 +289,7 @@ pub fn estimate_two(
 /// population values with the population's spread).
 ///
 /// # Errors
-/// None found (the objective is not finite at the population values, or does not settle).
+/// As [`estimate_with_bounds`].
 pub fn estimate_points(
     doses: &[Administration],
     points: &[(f64, f64)],
@@ -308,11 +298,13 @@ pub fn estimate_points(
     estimate_with_bounds(doses, points, &[], pop)
 }
 
-/// As [`estimate_points`], with levels `below` `(t, limit mg/L)` reported below the assay's
-/// limit entering as bounds.
+/// The estimate from points `(t, mg/L)` after `doses` and levels `below` `(t, limit mg/L)`
+/// reported below the assay's limit entering as bounds (none of either: the population values
+/// with Ω).
 ///
 /// # Errors
-/// As [`estimate_points`].
+/// None found (the objective is not finite at the population values, or does not settle),
+/// or a terminal half-life outside what the levels can have determined.
 pub fn estimate_with_bounds(
     doses: &[Administration],
     points: &[(f64, f64)],
@@ -320,26 +312,61 @@ pub fn estimate_with_bounds(
     pop: &Population,
 ) -> std::result::Result<Estimate, history::Failure> {
     let schedule = Schedule::new(doses);
-    let n = free(pop);
-    let (eta, cov_eta) = if points.is_empty() && below.is_empty() {
-        ([0.0, 0.0], pop.omega_matrix())
+    let etas = Etas::of(pop);
+    if matches!(etas.prior, Prior::Inverse(None)) {
+        return Err(history::Failure::NotSeparable);
+    }
+    let none = points.is_empty() && below.is_empty();
+    let (eta, cov_eta) = if none {
+        ([0.0; 4], pop.omega_two_matrix())
     } else {
-        let f = |x: &[f64]| objective(pop, &schedule, points, below, x);
-        let m = minimise::minimise(&f, &vec![0.0; n]).ok_or(history::Failure::NoElimination)?;
-        let inv = minimise::laplace_covariance(&m.hessian).ok_or(history::Failure::NotSeparable)?;
-        let mut cov = [[0.0; 2]; 2];
-        for i in 0..n {
-            for j in 0..n {
-                cov[i][j] = inv[i][j];
-            }
-        }
-        if cov[0][0] <= 0.0 || cov[1][1] < 0.0 {
+        let f = |x: &[f64]| etas.objective(pop, &schedule, points, below, x);
+        let m = minimise::minimise(&f, &vec![0.0; etas.free.len()])
+            .ok_or(history::Failure::NoElimination)?;
+        let cov = minimise::laplace_covariance(&m.hessian).ok_or(history::Failure::NotSeparable)?;
+        if (0..cov.len()).any(|i| cov[i][i].is_nan() || cov[i][i] <= 0.0) {
             return Err(history::Failure::NotSeparable);
         }
-        (eta_of(&m.x), cov)
+        (etas.all(&m.x), etas.all_cov(&cov))
     };
-    let (k, v) = pop.k_and_v(eta);
+    let disposition = pop.disposition(&eta);
+    let k = disposition.terminal_k();
     history::check_plausible(k.ln())?;
+    let ts: Vec<f64> = points.iter().map(|p| p.0).collect();
+    let predicted = disposition.levels(&schedule, &ts);
+    let residuals = points
+        .iter()
+        .zip(&predicted)
+        .map(|((_, y), yhat)| y.ln() - yhat.ln())
+        .collect();
+    let quantile = normal_quantile(if none { 0.90 } else { 0.95 });
+    // A one-compartment fit carries the spread of (ln k, ln V); a two-compartment one that of
+    // ln(CL, V1, Q, V2) (`param_spread`).
+    let spread = match disposition {
+        Disposition::One { .. } => Some(Spread {
+            cov: ln_k_v_cov(pop, &cov_eta),
+            quantile,
+        }),
+        Disposition::Two(_) => None,
+    };
+    Ok(Estimate {
+        disposition,
+        solution: Solution {
+            k,
+            v: disposition.central_volume(),
+            spread,
+            residuals,
+            iterations: 0,
+        },
+        eta,
+        cov_eta,
+        quantile,
+        predicted,
+    })
+}
+
+/// The covariance of (ln k, ln V) of a one-compartment model from that of its η.
+fn ln_k_v_cov(pop: &Population, cov_eta: &[[f64; 4]; 4]) -> [[f64; 2]; 2] {
     let a = pop.jacobian();
     let mut cov = [[0.0; 2]; 2];
     for i in 0..2 {
@@ -350,50 +377,13 @@ pub fn estimate_with_bounds(
                 .sum();
         }
     }
-    let ts: Vec<f64> = points.iter().map(|p| p.0).collect();
-    let predicted = schedule.levels(k, v, &ts);
-    let residuals = points
-        .iter()
-        .zip(&predicted)
-        .map(|((_, y), yhat)| y.ln() - yhat.ln())
-        .collect();
-    let quantile = normal_quantile(if points.is_empty() && below.is_empty() {
-        0.90
-    } else {
-        0.95
-    });
-    Ok(Estimate {
-        solution: Solution {
-            k,
-            v,
-            spread: Some(Spread { cov, quantile }),
-            residuals,
-            iterations: 0,
-        },
-        eta,
-        cov_eta,
-        predicted,
-    })
+    cov
 }
 
-/// How far an estimate lies from the population values, and how much of it the levels decided.
+/// How far an estimate lies from the population values, and how much of it the levels
+/// decided: for two compartments CL stands for the elimination and V1 for the volume, and Q
+/// and V2 have their own shift and share.
 pub fn summarise(pop: &Population, est: &Estimate, sources: &[String]) -> Summary {
-    let shift = |i: usize| pop.omega[i].map_or(0.0, |w| est.eta[i] / w);
-    let share = |i: usize| pop.omega[i].map(|w| est.cov_eta[i][i] / (w * w));
-    Summary {
-        population: pop.clone(),
-        elimination_shift_sd: shift(0),
-        volume_shift_sd: shift(1),
-        prior_share: [share(0), share(1)],
-        peripheral_shift_sd: [None, None],
-        peripheral_prior_share: [None, None],
-        sources: sources.to_vec(),
-    }
-}
-
-/// As [`summarise`], for a two-compartment estimate: CL stands for the elimination and V1 for
-/// the volume, and Q and V2 have their own shift and share.
-pub fn summarise_two(pop: &Population, est: &TwoEstimate, sources: &[String]) -> Summary {
     let w = pop.omega_two();
     let shift = |i: usize| w[i].map(|w| est.eta[i] / w);
     let share = |i: usize| w[i].map(|w| est.cov_eta[i][i] / (w * w));
@@ -536,15 +526,8 @@ pub fn fit(case: &Case) -> Result<Fit> {
         )
     };
     let sources = model.map_or(&[][..], |m| &m.sources);
-    let (est, summary) = if pop.two.is_some() {
-        let e = estimate_two(&given, &points, &below, &pop).map_err(no_estimate)?;
-        let summary = summarise_two(&pop, &e, sources);
-        (Estimated::Two(e), summary)
-    } else {
-        let e = estimate_with_bounds(&given, &points, &below, &pop).map_err(no_estimate)?;
-        let summary = summarise(&pop, &e, sources);
-        (Estimated::One(e), summary)
-    };
+    let est = estimate_with_bounds(&given, &points, &below, &pop).map_err(no_estimate)?;
+    let summary = summarise(&pop, &est, sources);
     warnings.extend(pop.warnings.iter().cloned());
     if used.is_empty() && below.is_empty() && !model.is_none_or(|m| m.a_priori) {
         return Err(Error::invalid(
@@ -556,21 +539,28 @@ pub fn fit(case: &Case) -> Result<Fit> {
             ),
         ));
     }
-    let two = pop.two.is_some();
+    // The words that differ with the compartments: the parameters, the kind of model, and
+    // which parameters the levels move (all of them with one compartment).
+    let (params, kind, varied, compartments) = if pop.two.is_some() {
+        (
+            "CL, V1, Q and V2",
+            "two-compartment ",
+            format!(
+                " ({} from the levels, the rest at the model's typical values)",
+                varied_words(&pop)
+            ),
+            "two compartments",
+        )
+    } else {
+        ("k and V", "", String::new(), "one compartment")
+    };
     let method = if used.is_empty() && below.is_empty() {
         warnings.push(Warning::new(
             Code::PriorWeighs,
-            if two {
-                format!(
-                    "no level is in the fit: CL, V1, Q and V2 are the typical values of the two-compartment population model {} for this patient, not measured ones; the ranges are the population's 90 % range",
-                    pop.model
-                )
-            } else {
-                format!(
-                    "no level is in the fit: k and V are the typical values of the population model {} for this patient, not measured ones; the ranges are the population's 90 % range",
-                    pop.model
-                )
-            },
+            format!(
+                "no level is in the fit: {params} are the typical values of the {kind}population model {} for this patient, not measured ones; the ranges are the population's 90 % range",
+                pop.model
+            ),
         ));
         Method::Population
     } else {
@@ -597,31 +587,17 @@ pub fn fit(case: &Case) -> Result<Fit> {
                     (1.0 - share) * 100.0
                 ),
             ));
-        } else if two {
-            warnings.push(Warning::new(
-                Code::PriorWeighs,
-                format!(
-                    "CL, V1, Q and V2 are a Bayesian estimate from {levels} and the two-compartment population model {} ({} from the levels, the rest at the model's typical values); the levels carry {:.0} % of what is known of this patient's clearance, the model the rest",
-                    pop.model,
-                    varied_words(&pop),
-                    (1.0 - share) * 100.0
-                ),
-            ));
         } else {
             warnings.push(Warning::new(
                 Code::PriorWeighs,
                 format!(
-                    "k and V are a Bayesian estimate from {levels} and the population model {}; the levels carry {:.0} % of what is known of this patient's {what}, the model the rest",
+                    "{params} are a Bayesian estimate from {levels} and the {kind}population model {}{varied}; the levels carry {:.0} % of what is known of this patient's {what}, the model the rest",
                     pop.model,
                     (1.0 - share) * 100.0
                 ),
             ));
         }
-        if two {
-            warnings.extend(unexpected_levels_two(case, &used, &given, &points, &pop));
-        } else {
-            warnings.extend(unexpected_levels(case, &used, &given, &points, &pop));
-        }
+        warnings.extend(unexpected_levels(case, &used, &given, &points, &pop));
         Method::Bayesian
     };
     warnings.extend(dose_dependence(case, &pop));
@@ -632,35 +608,16 @@ pub fn fit(case: &Case) -> Result<Fit> {
     if let Some(reason) = &case.prior_reason {
         warnings.push(Warning::new(
             Code::ModelChoice,
-            format!(
-                "population model {} ({}): {reason}",
-                pop.model,
-                if two {
-                    "two compartments"
-                } else {
-                    "one compartment"
-                }
-            ),
+            format!("population model {} ({compartments}): {reason}", pop.model),
         ));
     }
-    Ok(match est {
-        Estimated::One(e) => {
-            history::to_fit(case, method, used, &e.solution, warnings, Some(summary))
-        }
-        Estimated::Two(e) => to_fit_two(case, method, used, &given, &e, warnings, summary),
-    })
-}
-
-/// The estimate of either kind of model.
-enum Estimated {
-    One(Estimate),
-    Two(TwoEstimate),
+    Ok(to_fit(case, method, used, &given, &est, warnings, summary))
 }
 
 /// Which of CL, V1, Q and V2 the levels can move, in words ("CL, V1 and V2").
 fn varied_words(pop: &Population) -> String {
     let names = ["CL", "V1", "Q", "V2"];
-    let free: Vec<&str> = free_two(pop).iter().map(|&i| names[i]).collect();
+    let free: Vec<&str> = Etas::of(pop).free.iter().map(|&i| names[i]).collect();
     match free.split_last() {
         None => "none".to_string(),
         Some((last, [])) => (*last).to_string(),
@@ -668,29 +625,24 @@ fn varied_words(pop: &Population) -> String {
     }
 }
 
-/// A `Fit` from a two-compartment estimate: the disposition itself, k = β (the terminal rate
-/// constant) and its half-life, V1 as the volume, CL, the joint spread of ln(CL, V1, Q, V2) and
-/// the intervals of β, its half-life, V1 and CL by the delta method on it.
-fn to_fit_two(
+/// A `Fit` from an estimate. A two-compartment one adds the disposition itself, k = β (the
+/// terminal rate constant) and its half-life, V1 as the volume, CL, the joint spread of ln(CL,
+/// V1, Q, V2) and the intervals of β, its half-life, V1 and CL by the delta method on it.
+fn to_fit(
     case: &Case,
     method: Method,
     used: Vec<usize>,
     given: &[Administration],
-    est: &TwoEstimate,
+    est: &Estimate,
     warnings: Vec<Warning>,
     summary: Summary,
 ) -> Fit {
-    let two = est.two;
-    let beta = two.rates().1;
-    let sol = history::Solution {
-        k: beta,
-        v: two.v1,
-        spread: None,
-        residuals: est.residuals.clone(),
-        iterations: 0,
+    let mut fit = history::to_fit(case, method, used, &est.solution, warnings, Some(summary));
+    let Disposition::Two(two) = est.disposition else {
+        return fit;
     };
-    let mut fit = history::to_fit(case, method, used, &sol, warnings, Some(summary));
-    let d = Disposition::Two(two);
+    let beta = est.solution.k;
+    let d = est.disposition;
     // The terminal line through the model's level at the last fitted level (else the end of
     // the last dose), as the one-compartment fits leave it.
     let t_ref = fit
@@ -731,9 +683,10 @@ fn to_fit_two(
     fit
 }
 
-/// As [`unexpected_levels`], for a two-compartment model: the between-patient spread of every
-/// free η of (CL, V1, Q, V2) carried to each level's log by central differences.
-fn unexpected_levels_two(
+/// Levels far from the population model's prediction for this patient: more than 3 SDs on
+/// the log scale, counting the between-patient spread of every free η carried to each level's
+/// log (delta method, by forward differences) and the residual error.
+fn unexpected_levels(
     case: &Case,
     used: &[usize],
     given: &[Administration],
@@ -745,7 +698,7 @@ fn unexpected_levels_two(
     let at = |eta: [f64; 4]| pop.disposition(&eta).levels(&schedule, &ts);
     let base = at([0.0; 4]);
     let h = 1e-5;
-    let free = free_two(pop);
+    let free = Etas::of(pop).free;
     let moved: Vec<Vec<f64>> = free
         .iter()
         .map(|&i| {
@@ -762,50 +715,17 @@ fn unexpected_levels_two(
             continue;
         }
         let g: Vec<f64> = moved.iter().map(|m| (m[j].ln() - yhat.ln()) / h).collect();
+        // gᵀ Ω g over the free η, each pair once (the cross terms doubled).
         let mut between = 0.0;
         for (a, &p) in free.iter().enumerate() {
-            for (b, &q) in free.iter().enumerate() {
-                between += g[a] * om[p][q] * g[b];
+            for (b, &q) in free.iter().enumerate().skip(a) {
+                between += if a == b {
+                    g[a] * g[a] * om[p][p]
+                } else {
+                    2.0 * g[a] * g[b] * om[p][q]
+                };
             }
         }
-        let var = between + pop.residual.variance(yhat) / (yhat * yhat);
-        let z = (y.ln() - yhat.ln()) / var.sqrt();
-        if z.abs() > 3.0 {
-            out.push(far_level(case, i, y, yhat, z, &pop.model));
-        }
-    }
-    out
-}
-
-/// Levels far from the population model's prediction for this patient: more than 3 SDs on
-/// the log scale, counting the between-patient spread (delta method) and the residual error.
-fn unexpected_levels(
-    case: &Case,
-    used: &[usize],
-    given: &[Administration],
-    points: &[(f64, f64)],
-    pop: &Population,
-) -> Vec<Warning> {
-    let schedule = Schedule::new(given);
-    let ts: Vec<f64> = points.iter().map(|p| p.0).collect();
-    let at = |eta: [f64; 2]| {
-        let (k, v) = pop.k_and_v(eta);
-        schedule.levels(k, v, &ts)
-    };
-    let base = at([0.0, 0.0]);
-    let h = 1e-5;
-    let d0 = at([h, 0.0]);
-    let d1 = at([0.0, h]);
-    let om = pop.omega_matrix();
-    let mut out = Vec::new();
-    for (j, &i) in used.iter().enumerate() {
-        let (y, yhat) = (points[j].1, base[j]);
-        if yhat.is_nan() || yhat <= 0.0 {
-            continue;
-        }
-        let g = [(d0[j].ln() - yhat.ln()) / h, (d1[j].ln() - yhat.ln()) / h];
-        let between =
-            g[0] * g[0] * om[0][0] + 2.0 * g[0] * g[1] * om[0][1] + g[1] * g[1] * om[1][1];
         let var = between + pop.residual.variance(yhat) / (yhat * yhat);
         let z = (y.ln() - yhat.ln()) / var.sqrt();
         if z.abs() > 3.0 {
