@@ -791,3 +791,39 @@ fn covariate_words(pop: &Population) -> String {
         }
     )
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn the_two_forms_of_the_prior_term_are_the_same_quantity() {
+        // Ω of (elimination, V) with SDs 0.4 and 0.3 and correlation −0.5: the pair written
+        // out and ηᵀ Ω⁻¹ η through the matrix inverse.
+        let (w0, w1, r) = (0.4, 0.3, -0.5);
+        let omega = vec![vec![w0 * w0, r * w0 * w1], vec![r * w0 * w1, w1 * w1]];
+        let pair = Etas {
+            free: vec![0, 1],
+            prior: Prior::Pair {
+                sd: vec![w0, w1],
+                r,
+            },
+        };
+        let inverse = Etas {
+            free: vec![0, 1],
+            prior: Prior::Inverse(minimise::inverse(&omega)),
+        };
+        for x in [[0.1, -0.2], [0.5, 0.5], [-0.3, 0.0]] {
+            let (a, b) = (pair.prior_term(&x), inverse.prior_term(&x));
+            assert!((a / b - 1.0).abs() < 1e-12, "{x:?}: {a} vs {b}");
+        }
+        // Hand-worked from the bivariate normal's quadratic form: η = (0.4, 0) gives a = 1,
+        // b = 0, so 1 / (1 − 0.25) = 4/3; with V fixed, (0.4 / 0.4)² = 1.
+        assert!((pair.prior_term(&[0.4, 0.0]) - 4.0 / 3.0).abs() < 1e-12);
+        let alone = Etas {
+            free: vec![0],
+            prior: Prior::Pair { sd: vec![w0], r },
+        };
+        assert!((alone.prior_term(&[0.4]) - 1.0).abs() < 1e-12);
+    }
+}
