@@ -639,6 +639,11 @@ fn to_fit(
 ) -> Fit {
     let mut fit = history::to_fit(case, method, used, &est.solution, warnings, Some(summary));
     let Disposition::Two(two) = est.disposition else {
+        // A volume the model holds at its typical value has no interval (not one of zero
+        // width).
+        if est.cov_eta[1][1] <= 0.0 {
+            fit.volume_ci95 = None;
+        }
         return fit;
     };
     let beta = est.solution.k;

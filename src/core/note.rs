@@ -52,7 +52,10 @@ fn method_words(method: &str) -> String {
     }
 }
 
-fn volume_words(method: Option<&str>, pre_row: Option<usize>) -> String {
+fn volume_words(method: Option<&str>, pre_row: Option<usize>, fixed: bool) -> String {
+    if fixed && method == Some("bayesian") {
+        return "volume: the population model's typical value (the model gives it no between-patient variability, so the levels do not move it)".into();
+    }
     match (method, pre_row) {
         (Some("pre-dose level"), Some(r)) => format!(
             "volume by the Sawchuk-Zaske one-compartment infusion equation with pre-dose level {r}"
@@ -253,7 +256,14 @@ pub fn write_note(
     writeln!(
         w,
         "{item}{}",
-        volume_words(r.fit.volume_method, r.fit.pre_dose_row)
+        volume_words(
+            r.fit.volume_method,
+            r.fit.pre_dose_row,
+            r.fit
+                .population
+                .as_ref()
+                .is_some_and(|s| s.prior_share[1].is_none()),
+        )
     )?;
     writeln!(
         w,

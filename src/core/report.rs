@@ -1004,6 +1004,12 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
     if let Some(r2) = f.r_squared {
         writeln!(w, "  r²          {r2:.4}")?;
     }
+    // A population model that gives the volume no between-patient variability holds it at
+    // its typical value: the levels cannot move it.
+    let volume_fixed = f
+        .population
+        .as_ref()
+        .is_some_and(|s| s.prior_share[1].is_none());
     match (f.volume_l, f.volume_method) {
         (Some(v), Some(m)) => {
             let by = match f.pre_dose_row {
@@ -1011,7 +1017,7 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
                 _ if spans_doses => {
                     let how = if f.method == "population" {
                         "the population model's"
-                    } else if f.peripheral.is_some_and(|p| p.central_fixed) {
+                    } else if f.peripheral.is_some_and(|p| p.central_fixed) || volume_fixed {
                         "the model's typical value: the model does not let it vary"
                     } else if f.peripheral.is_some() {
                         "estimated with the clearance"
@@ -1112,11 +1118,24 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
                     )
                 })
                 .unwrap_or_default();
-            writeln!(
-                w,
-                "  moved       {what} {:+.2} and volume {:+.2} between-patient SDs from the population toward the levels{share}",
-                s.elimination_shift_sd, s.volume_shift_sd
-            )?;
+            if volume_fixed {
+                let which = if f.peripheral.is_some() {
+                    "central volume"
+                } else {
+                    "volume"
+                };
+                writeln!(
+                    w,
+                    "  moved       {what} {:+.2} between-patient SDs from the population toward the levels (the model fixes the {which}){share}",
+                    s.elimination_shift_sd
+                )?;
+            } else {
+                writeln!(
+                    w,
+                    "  moved       {what} {:+.2} and volume {:+.2} between-patient SDs from the population toward the levels{share}",
+                    s.elimination_shift_sd, s.volume_shift_sd
+                )?;
+            }
         }
         if !s.sources.is_empty() {
             writeln!(w, "  model from  {}", s.sources.join("; "))?;

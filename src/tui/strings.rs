@@ -610,6 +610,8 @@ pub const NOT_FOR_TWO: &str = "— (two levels)";
 pub const NOT_KNOWN: &str = "not known";
 /// No interval.
 pub const NO_INTERVAL: &str = "no 95 % interval";
+/// Beside a volume the population model holds at its typical value.
+pub const VOLUME_FIXED: &str = "the model's value: it does not vary";
 /// A 95 % interval.
 pub fn ci95(lo: &str, hi: &str) -> String {
     format!("(95 % {lo}–{hi})")
@@ -1075,8 +1077,12 @@ pub fn population_basis(model: &str, weight: Option<&str>, crcl: Option<&str>) -
     format!("({})", parts.join(", "))
 }
 /// How far the estimate moved, in between-patient SDs.
-pub fn population_moved(what: &str, elim: f64, vol: f64) -> String {
-    format!("{what} {elim:+.2} SD, V {vol:+.2} SD from it")
+/// `vol` is None when the model fixes the volume.
+pub fn population_moved(what: &str, elim: f64, vol: Option<f64>) -> String {
+    match vol {
+        Some(vol) => format!("{what} {elim:+.2} SD, V {vol:+.2} SD from it"),
+        None => format!("{what} {elim:+.2} SD from it; V fixed by the model"),
+    }
 }
 /// Label.
 pub const WEIGHS: &str = "decided";

@@ -762,3 +762,64 @@ fn a_plan_at_another_daily_dose_says_how_a_dose_dependent_clearance_would_move()
         "{w:?}"
     );
 }
+
+#[test]
+fn a_volume_the_model_fixes_is_said_to_be_fixed_not_given_an_interval() {
+    // The built-in digoxin model (Hirai 2022, drug-profiles/digoxin.toml) gives clearance a
+    // between-patient variability and the volume none: the levels move clearance only, so
+    // the volume has no interval (not one of zero width) and nothing says it moved.
+    let text = r#"schema = 1
+[patient]
+weight_kg = 65.0
+age_years = 82
+sex = "male"
+creatinine_umol_l = 130.0
+[drug]
+profile = "digoxin"
+level_unit = "ng/mL"
+[fit]
+method = "bayesian"
+[[dose]]
+time = 2027-05-01T09:00:00
+amount_mg = 0.125
+route = "oral"
+[[dose]]
+time = 2027-05-02T09:00:00
+amount_mg = 0.125
+route = "oral"
+[[level]]
+time = 2027-05-03T08:00:00
+value = 0.9
+"#;
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("digoxin.toml");
+    std::fs::write(&path, text).unwrap();
+    let run = |args: &[&str]| {
+        let out = crate::common::ebb().args(args).arg(&path).output().unwrap();
+        assert!(out.status.success(), "{out:?}");
+        String::from_utf8(out.stdout).unwrap()
+    };
+    let report = run(&["report"]);
+    assert!(report.contains("Fit: Bayesian"), "{report}");
+    assert!(
+        report.contains(
+            "L  (the model's typical value: the model does not let it vary; no interval)"
+        ),
+        "{report}"
+    );
+    assert!(
+        report.contains("between-patient SDs from the population toward the levels (the model fixes the volume)"),
+        "{report}"
+    );
+    assert!(!report.contains("and volume +0.00"), "{report}");
+    let j: serde_json::Value = serde_json::from_str(&run(&["report", "--json"])).unwrap();
+    assert!(j["fit"]["v_ci95_l"].is_null(), "{}", j["fit"]);
+    // k (through clearance) still has its interval.
+    assert!(j["fit"]["k_ci95_per_h"].is_array(), "{}", j["fit"]);
+    let note = run(&["note"]);
+    assert!(
+        note.contains("volume: the population model's typical value (the model gives it no between-patient variability"),
+        "{note}"
+    );
+    assert!(!note.contains("volume estimated together with k"), "{note}");
+}

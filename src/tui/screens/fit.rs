@@ -60,6 +60,11 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
     let rows: Vec<String> = f.level_rows.iter().map(|x| x.to_string()).collect();
     let record_fit = matches!(f.method, "dose-history" | "bayesian" | "population");
     let prior_only = f.method == "population";
+    // A population model with no between-patient variability of the volume fixes it.
+    let volume_fixed = f
+        .population
+        .as_ref()
+        .is_some_and(|s| s.prior_share[1].is_none());
     let ci = |c: Option<[f64; 2]>| match (c, prior_only) {
         (Some([a, b]), true) => strings::pi90(&num(a), &num(b)),
         (c, _) => ci(c),
@@ -100,7 +105,9 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
             f.volume_l
                 .map(|v| format!("{} L", num(v)))
                 .unwrap_or_else(|| strings::NOT_KNOWN.into()),
-            if record_fit {
+            if volume_fixed {
+                strings::VOLUME_FIXED.into()
+            } else if record_fit {
                 ci(f.volume_ci95_l)
             } else {
                 strings::volume_how(f.volume_method, f.pre_dose_row)
@@ -163,7 +170,11 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
         if !prior_only {
             lines.push(kv(
                 strings::MOVED,
-                strings::population_moved(what, s.elimination_shift_sd, s.volume_shift_sd),
+                strings::population_moved(
+                    what,
+                    s.elimination_shift_sd,
+                    (!volume_fixed).then_some(s.volume_shift_sd),
+                ),
                 String::new(),
             ));
         }
