@@ -158,9 +158,6 @@ pub fn objective(
     Etas::of(pop).objective(pop, schedule, points, below, x)
 }
 
-/// [`objective`], under the name the two-compartment checks use.
-pub use self::objective as objective_two;
-
 /// The levels' part of OBJ: Σ [(y − ŷ)²/Var + ln Var] over `points`, − 2 ln Φ((L − ŷ)/√Var)
 /// over the levels `below` the assay's limit; `predicted` holds ŷ at the points, then at
 /// the bounds.
@@ -207,39 +204,10 @@ pub struct Estimate {
 impl Estimate {
     /// The joint uncertainty of ln(CL, V1, Q, V2) (two compartments).
     pub fn param_spread(&self) -> ParamSpread {
-        param_spread(&self.cov_eta, self.quantile)
-    }
-}
-
-fn param_spread(cov_eta: &[[f64; 4]; 4], quantile: f64) -> ParamSpread {
-    ParamSpread {
-        cov: cov_eta.iter().map(|r| r.to_vec()).collect(),
-        quantile,
-    }
-}
-
-/// A maximum a posteriori estimate of a two-compartment model, as [`estimate_two`] gives it.
-#[derive(Debug, Clone, PartialEq)]
-pub struct TwoEstimate {
-    /// CL, V1, Q and V2 at the estimate.
-    pub two: TwoCompartment,
-    /// η of (CL, V1, Q, V2) at the minimum (0 for a fixed parameter).
-    pub eta: [f64; 4],
-    /// Posterior covariance of η, which is that of ln(CL, V1, Q, V2) (zero rows and columns
-    /// for a fixed parameter); Ω itself with no level.
-    pub cov_eta: [[f64; 4]; 4],
-    /// As [`Estimate::quantile`].
-    pub quantile: f64,
-    /// The model's level at each point, mg/L.
-    pub predicted: Vec<f64>,
-    /// ln(measured) − ln(predicted), per point.
-    pub residuals: Vec<f64>,
-}
-
-impl TwoEstimate {
-    /// The joint uncertainty of ln(CL, V1, Q, V2).
-    pub fn param_spread(&self) -> ParamSpread {
-        param_spread(&self.cov_eta, self.quantile)
+        ParamSpread {
+            cov: self.cov_eta.iter().map(|r| r.to_vec()).collect(),
+            quantile: self.quantile,
+        }
     }
 }
 
@@ -259,43 +227,6 @@ pub fn terminal_gradient(two: &TwoCompartment) -> [f64; 4] {
         *gi = (at(h) - at(-h)) / (2.0 * h);
     }
     g
-}
-
-/// [`estimate_with_bounds`] of a two-compartment model.
-///
-/// # Errors
-/// As [`estimate_with_bounds`], and a one-compartment model.
-pub fn estimate_two(
-    doses: &[Administration],
-    points: &[(f64, f64)],
-    below: &[(f64, f64)],
-    pop: &Population,
-) -> std::result::Result<TwoEstimate, history::Failure> {
-    let e = estimate_with_bounds(doses, points, below, pop)?;
-    let Disposition::Two(two) = e.disposition else {
-        return Err(history::Failure::NoElimination);
-    };
-    Ok(TwoEstimate {
-        two,
-        eta: e.eta,
-        cov_eta: e.cov_eta,
-        quantile: e.quantile,
-        predicted: e.predicted,
-        residuals: e.solution.residuals,
-    })
-}
-
-/// The estimate from points `(t, mg/L)` after `doses` (any number of points; none gives the
-/// population values with the population's spread).
-///
-/// # Errors
-/// As [`estimate_with_bounds`].
-pub fn estimate_points(
-    doses: &[Administration],
-    points: &[(f64, f64)],
-    pop: &Population,
-) -> std::result::Result<Estimate, history::Failure> {
-    estimate_with_bounds(doses, points, &[], pop)
 }
 
 /// The estimate from points `(t, mg/L)` after `doses` and levels `below` `(t, limit mg/L)`

@@ -148,7 +148,7 @@ fn covariate_sets_the_typical_k_and_weight_the_volume() {
 fn no_level_gives_the_prior_back() {
     for m in [model_on_k(), model_on_clearance()] {
         let pop = evaluate(&m, &patient());
-        let e = bayes::estimate_points(&doses(), &[], &pop).unwrap();
+        let e = bayes::estimate_with_bounds(&doses(), &[], &[], &pop).unwrap();
         let s = &e.solution;
         assert!(
             (s.k / pop.k_per_h - 1.0).abs() < 1e-12,
@@ -255,7 +255,7 @@ fn the_estimate_is_the_minimum_an_independent_minimiser_finds() {
                 + eta[1] * eta[1] * inv[1][1]
         };
         let nm = nelder_mead(&obj, &[0.0, 0.0]);
-        let e = bayes::estimate_points(&doses, &pts, &pop).unwrap();
+        let e = bayes::estimate_with_bounds(&doses, &pts, &[], &pop).unwrap();
         assert!((e.eta[0] - nm[0]).abs() < 1e-5, "{:?} vs {nm:?}", e.eta);
         assert!((e.eta[1] - nm[1]).abs() < 1e-5, "{:?} vs {nm:?}", e.eta);
         assert!(obj(&e.eta) <= obj(&nm) + 1e-9);
@@ -287,7 +287,7 @@ fn its_95_percent_interval_covers_the_truth_about_95_percent_of_the_time() {
                 (t, (c + m.residual.variance(c).sqrt() * e).max(0.01))
             })
             .collect();
-        let est = bayes::estimate_points(&doses, &pts, &pop).unwrap();
+        let est = bayes::estimate_with_bounds(&doses, &pts, &[], &pop).unwrap();
         let s = &est.solution;
         let [lo, hi] = s.spread.unwrap().interval(s.k * s.v, [1.0, 1.0]);
         if (lo..=hi).contains(&(k * v)) {
@@ -323,7 +323,9 @@ fn more_levels_move_it_to_the_dose_history_fit() {
             .into_iter()
             .map(|t| (t, model::superpose(&doses, k, v, t)))
             .collect();
-        let s = bayes::estimate_points(&doses, &pts, &pop).unwrap().solution;
+        let s = bayes::estimate_with_bounds(&doses, &pts, &[], &pop)
+            .unwrap()
+            .solution;
         let gap = (s.k / k).ln().abs().max((s.v / v).ln().abs());
         let cost = prior_cost(s.k, s.v);
         assert!(
@@ -349,7 +351,9 @@ fn more_levels_move_it_to_the_dose_history_fit() {
                 (t, model::superpose(&doses, k, v, t) * (0.1 * e).exp())
             })
             .collect();
-        let b = bayes::estimate_points(&doses, &pts, &pop).unwrap().solution;
+        let b = bayes::estimate_with_bounds(&doses, &pts, &[], &pop)
+            .unwrap()
+            .solution;
         let d = fit_points(&doses, &pts).unwrap();
         (b.k / d.k).ln().abs().max((b.v / d.v).ln().abs())
     };
