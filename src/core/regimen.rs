@@ -719,6 +719,58 @@ pub fn current_regimen(case: &Case) -> Option<Current> {
     })
 }
 
+/// The dose a trough-only strategy keeps: the plan's, else the last recorded one, with
+/// whose it is in words.
+fn kept_dose(case: &Case) -> Option<(f64, &'static str)> {
+    match &case.plan {
+        Some(p) => Some((p.dose_mg, "the plan's")),
+        None => case
+            .doses
+            .last()
+            .and_then(|d| d.amount_mg)
+            .map(|d| (d, "the last recorded dose")),
+    }
+    .filter(|(d, _)| d.is_finite() && *d > 0.0)
+}
+
+/// The regimens that keep `dose` on each of the strategy's usual intervals and meet every
+/// target (a trough ceiling), shortest interval first: how extended-interval dosing adjusts
+/// (the dose fixed, the interval lengthened until the trough is low enough). The regimen the
+/// patient is on is marked when it is one of them.
+pub fn same_dose(
+    disp: &Disposition,
+    route: Route,
+    dose: f64,
+    t: &Targets,
+    opts: &RegimenOptions,
+    current: Option<Current>,
+) -> Vec<Suggestion> {
+    if !disp.params().iter().all(|x| x.is_finite() && *x > 0.0) {
+        return Vec::new();
+    }
+    let mut taus: Vec<f64> = opts
+        .intervals_h
+        .iter()
+        .copied()
+        .filter(|x| x.is_finite() && *x > 0.0)
+        .collect();
+    taus.sort_by(f64::total_cmp);
+    taus.dedup();
+    let mut out: Vec<Suggestion> = taus
+        .into_iter()
+        .filter_map(|tau| candidate(dose, route, tau, disp, t, opts))
+        .collect();
+    if let Some(c) = current {
+        for s in &mut out {
+            s.current = s.dose_mg == c.dose_mg
+                && (s.interval_h - c.interval_h).abs() < 1e-9
+                && s.route == c.route;
+        }
+    }
+    out.truncate(MAX_SUGGESTIONS);
+    out
+}
+
 /// A level above this fraction of the aimed peak at the time a loading dose would be given
 /// counts as drug on board (our rule: a loading dose is for starting with none).
 pub const ON_BOARD_FRACTION: f64 = 0.05;
@@ -750,10 +802,38 @@ pub fn advise(p: &Patient, plan_peak_mg_l: Option<f64>, opts: &RegimenOptions) -
                         )));
                     }
                 }
-            } else if t.trough_max.is_some() {
-                advice.notes.push(Warning::new(Code::NoSuggestion,
-                    "no regimen suggested: a trough ceiling alone does not pick a dose; give a peak or AUC24 range",
-                ));
+            } else if let Some(ceiling) = t.trough_max {
+                match kept_dose(case).filter(|_| opts.drug_free_time) {
+                    Some((dose, whose)) => {
+                        let unit = case.drug.scale.unit.as_str();
+                        let per = case.drug.scale.per_mg_l;
+                        advice.suggestions =
+                            same_dose(&disp, route, dose, &t, opts, current_regimen(case));
+                        let hours: Vec<String> = opts
+                            .intervals_h
+                            .iter()
+                            .map(|x| crate::core::format::num(*x))
+                            .collect();
+                        if advice.suggestions.is_empty() {
+                            advice.notes.push(Warning::new(Code::NoSuggestion, format!(
+                                "no usual interval ({} h) keeps the steady-state trough at or below {} {unit} with the dose of {} mg ({whose}): review the dose and the interval",
+                                hours.join(", "),
+                                crate::core::format::num(ceiling * per),
+                                crate::core::format::num(dose)
+                            )));
+                        } else {
+                            advice.notes.push(Warning::new(Code::DoseKept, format!(
+                                "the strategy sets only a trough ceiling, which does not pick a dose: the suggestions keep the dose of {} mg ({whose}) and take the usual intervals ({} h), shortest first, whose steady-state trough is at or below {} {unit}, as extended-interval dosing adjusts the interval (common practice)",
+                                crate::core::format::num(dose),
+                                hours.join(", "),
+                                crate::core::format::num(ceiling * per)
+                            )));
+                        }
+                    }
+                    None => advice.notes.push(Warning::new(Code::NoSuggestion,
+                        "no regimen suggested: a trough ceiling alone does not pick a dose; give a peak or AUC24 range",
+                    )),
+                }
             }
             let aim = match (t.peak, advice.suggestions.first(), plan_peak_mg_l) {
                 (Some([lo, hi]), _, _) => Some(((lo + hi) / 2.0, LoadingBasis::PeakTarget)),
@@ -889,6 +969,50 @@ mod tests {
             None,
         );
         assert!(s.is_empty());
+    }
+
+    #[test]
+    fn a_trough_ceiling_alone_keeps_the_dose_and_lengthens_the_interval() {
+        // Extended-interval dosing keeps the dose and chooses the interval (24, 36 or 48 h by
+        // the level [Nicolau95]). One compartment, k 0.1 /h, V 20 L, a bolus of 400 mg: the
+        // steady-state trough is 400/20 x e^(-0.1 tau)/(1 - e^(-0.1 tau)) — hand-worked from
+        // the one-compartment bolus accumulation formula — 2.0 mg/L at 24 h, 0.56 at 36 h,
+        // 0.17 at 48 h; with a ceiling of 1 mg/L the 36 and 48 h regimens meet it.
+        let d = Disposition::One { k: 0.1, v: 20.0 };
+        let t = Targets {
+            trough_max: Some(1.0),
+            ..Targets::default()
+        };
+        let opts = RegimenOptions {
+            intervals_h: vec![48.0, 24.0, 36.0],
+            drug_free_time: true,
+            ..RegimenOptions::default()
+        };
+        let trough = |tau: f64| 20.0 * (-0.1 * tau).exp() / (1.0 - (-0.1 * tau).exp());
+        assert!(trough(24.0) > 1.0 && trough(36.0) < 1.0);
+        let current = Current {
+            dose_mg: 400.0,
+            interval_h: 48.0,
+            route: Route::Bolus,
+        };
+        let s = same_dose(&d, Route::Bolus, 400.0, &t, &opts, Some(current));
+        let taus: Vec<f64> = s.iter().map(|x| x.interval_h).collect();
+        assert_eq!(taus, vec![36.0, 48.0]);
+        for x in &s {
+            assert_eq!(x.dose_mg, 400.0);
+            assert!((x.steady.trough_mg_l - trough(x.interval_h)).abs() < 1e-9);
+            assert!(x.drug_free_h.is_some_and(|h| h > 0.0));
+        }
+        assert_eq!(
+            s.iter().map(|x| x.current).collect::<Vec<_>>(),
+            [false, true]
+        );
+        // A ceiling no usual interval reaches leaves nothing to suggest.
+        let strict = Targets {
+            trough_max: Some(0.01),
+            ..Targets::default()
+        };
+        assert!(same_dose(&d, Route::Bolus, 400.0, &strict, &opts, None).is_empty());
     }
 
     #[test]

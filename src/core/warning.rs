@@ -42,6 +42,9 @@ pub enum Code {
     LevelUnexpected,
     /// No regimen meets every target, or none can be chosen from the targets given.
     NoSuggestion,
+    /// A strategy with only a trough ceiling: the suggestions keep the dose and lengthen the
+    /// interval (extended-interval dosing).
+    DoseKept,
     /// The dose adjustment is proportional (no volume).
     Proportional,
     /// The plan's first dose overlaps the last recorded dose.
@@ -121,7 +124,7 @@ pub enum Code {
 
 impl Code {
     /// Every code, in declaration order.
-    pub const ALL: [Code; 53] = [
+    pub const ALL: [Code; 54] = [
         Code::OutsideWindow,
         Code::DistributionPhase,
         Code::RisingLevels,
@@ -139,6 +142,7 @@ impl Code {
         Code::ModelAssumes,
         Code::LevelUnexpected,
         Code::NoSuggestion,
+        Code::DoseKept,
         Code::Proportional,
         Code::PlanOverlap,
         Code::Extrapolation,
@@ -197,6 +201,7 @@ impl Code {
             Code::ModelAssumes => "model-assumes",
             Code::LevelUnexpected => "level-unexpected",
             Code::NoSuggestion => "no-suggestion",
+            Code::DoseKept => "dose-kept",
             Code::Proportional => "proportional",
             Code::PlanOverlap => "plan-overlap",
             Code::Extrapolation => "extrapolation",
