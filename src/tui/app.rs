@@ -103,6 +103,9 @@ pub struct Editor {
     /// The length of the undo list before the new row was added (a finished row is one
     /// undo step; a dropped one leaves none).
     pub undo_mark: Option<usize>,
+    /// The text is a proposal (a new row's time): the first character typed replaces it,
+    /// while a cursor key, Backspace or Delete keeps it to edit.
+    pub proposed: bool,
 }
 
 /// A row being added.
@@ -125,6 +128,7 @@ impl Editor {
             then: Vec::new(),
             new_row: None,
             undo_mark: None,
+            proposed: false,
         }
     }
 }

@@ -162,6 +162,7 @@ fn start_walk(
     ed.then = walk;
     ed.new_row = Some(row);
     ed.undo_mark = Some(mark);
+    ed.proposed = !ed.buffer.is_empty();
     app.mode = Mode::Editing(ed);
     app.say(hint);
 }

@@ -166,10 +166,10 @@ pub const NO_TIME_FOR_ROW: &str =
     "No time could be proposed for the new row; check the last row's time.";
 /// After `a` on the doses.
 pub const NEW_DOSE_HINT: &str =
-    "New dose: type its time, Enter, then its amount. Esc drops the row.";
+    "New dose: type its time (or ← to edit the proposed one), Enter, then its amount. Esc drops the row.";
 /// After `a` on the levels.
 pub const NEW_LEVEL_HINT: &str =
-    "New level: type its time, Enter, then its value. Esc drops the row.";
+    "New level: type its time (or ← to edit the proposed one), Enter, then its value. Esc drops the row.";
 /// Nothing to clear.
 pub const NOTHING_TO_CLEAR: &str = "Nothing to clear.";
 /// A plan was made from the record.

@@ -380,9 +380,15 @@ fn check(app: &App, ed: &mut Editor) {
 fn edit(app: &mut App, mut ed: Editor, action: Action) {
     let len = ed.buffer.chars().count();
     let byte = |s: &str, i: usize| s.char_indices().nth(i).map(|(b, _)| b).unwrap_or(s.len());
+    // A proposal gives way to the first character typed; any other key keeps it to edit.
+    let proposed = std::mem::take(&mut ed.proposed);
     match action {
         Action::Quit => return quit_while_typing(app, ed),
         Action::Type(c) => {
+            if proposed {
+                ed.buffer.clear();
+                ed.cursor = 0;
+            }
             let at = byte(&ed.buffer, ed.cursor);
             ed.buffer.insert(at, c);
             ed.cursor += 1;

@@ -983,3 +983,43 @@ fn height_albumin_and_dialysis_are_entered_on_the_case_screen() {
     let shown = text(&app, 160, 48);
     assert!(shown.contains("IBW 54.19 kg (Devine)"), "{shown}");
 }
+
+#[test]
+fn typing_replaces_a_proposed_time_and_a_cursor_key_keeps_it_to_edit() {
+    // The new row's time starts at a proposal: the first character typed replaces it...
+    let mut app = App::demo();
+    go_to(&mut app, CaseLine::AddLevel);
+    key(&mut app, KeyCode::Char('a'));
+    let Mode::Editing(ed) = &app.mode else {
+        panic!("no editor")
+    };
+    assert!(ed.proposed && !ed.buffer.is_empty());
+    typed(&mut app, "2027-03-03 15:30");
+    let Mode::Editing(ed) = &app.mode else {
+        panic!("no editor")
+    };
+    assert_eq!(ed.buffer, "2027-03-03 15:30");
+    assert!(!ed.proposed);
+    // ...while Backspace keeps the rest of it to edit (here the last minute digit).
+    key(&mut app, KeyCode::Esc);
+    key(&mut app, KeyCode::Char('a'));
+    let Mode::Editing(ed) = &app.mode else {
+        panic!("no editor")
+    };
+    let proposal = ed.buffer.clone();
+    key(&mut app, KeyCode::Backspace);
+    typed(&mut app, "5");
+    let Mode::Editing(ed) = &app.mode else {
+        panic!("no editor")
+    };
+    let mut want = proposal.clone();
+    want.pop();
+    want.push('5');
+    assert_eq!(ed.buffer, want);
+    // The next field of the row starts empty and is not a proposal.
+    key(&mut app, KeyCode::Enter);
+    let Mode::Editing(ed) = &app.mode else {
+        panic!("no editor")
+    };
+    assert!(ed.buffer.is_empty() && !ed.proposed);
+}

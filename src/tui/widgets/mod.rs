@@ -168,6 +168,13 @@ pub fn editor_spans(e: &Editor) -> Vec<Span<'static>> {
     let under: String = chars.get(at).map(|c| c.to_string()).unwrap_or(" ".into());
     let after: String = chars.iter().skip(at + 1).collect();
     let field = Style::new().fg(Color::White).bg(Color::DarkGray);
+    if e.proposed {
+        // The whole proposal is marked: typing replaces it.
+        return vec![
+            Span::styled(e.buffer.clone(), field.add_modifier(Modifier::REVERSED)),
+            Span::styled(" ", field),
+        ];
+    }
     vec![
         Span::styled(before, field),
         Span::styled(under, field.add_modifier(Modifier::REVERSED)),
