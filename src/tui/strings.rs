@@ -1107,6 +1107,26 @@ pub fn suggestions_short(unit: &str) -> String {
 }
 /// Column names of the suggestions: dose, interval, route, peak, trough, AUC24.
 pub const SUGGESTION_COLUMNS: [&str; 6] = ["dose", "every", "route", "peak", "trough", "AUC24"];
+/// Before the suggested regimen the patient is on (when it is not the selected one).
+pub const CURRENT_MARK: &str = "•";
+/// Under the suggestions: what the mark means, and where their peak is drawn when the
+/// strategy draws it `after` the end of the infusion; one line when it fits in `width`
+/// columns, else one line each.
+pub fn suggestions_key(current: bool, after: Option<&str>, width: usize) -> Vec<String> {
+    let mut parts = Vec::new();
+    if current {
+        parts.push(format!("{CURRENT_MARK} the regimen now"));
+    }
+    if let Some(h) = after {
+        parts.push(format!("peak: {h} after the infusion"));
+    }
+    let one = parts.join("; ");
+    if one.chars().count() <= width {
+        vec![one]
+    } else {
+        parts
+    }
+}
 /// No targets, no suggestions.
 pub const NO_TARGETS_NO_SUGGESTIONS: &str =
     "Set targets (or choose a drug profile) for suggestions.";

@@ -319,6 +319,14 @@ fn suggestion_lines(app: &App, wide: bool, unit: &str, rows: usize) -> Vec<Line<
     // The window of `rows` suggestions that holds the selected one.
     let sel = app.cursors.plan.checked_sub(PLAN_FIELDS.len());
     let first = sel.map_or(0, |s| (s + 1).saturating_sub(rows));
+    // Where the strategy draws the peak after the end of the infusion, the column shows that
+    // level, the one the peak target judges (the end-of-infusion peak would look above it).
+    let sampled_after = app
+        .figures
+        .case
+        .as_ref()
+        .map_or(0.0, |c| c.regimen.peak_sampled_after_h);
+    let sampled = peak_target && sampled_after > 0.0;
     for (i, s) in list.iter().enumerate().skip(first).take(rows) {
         let selected = sel == Some(i);
         let text = row(
@@ -326,12 +334,23 @@ fn suggestion_lines(app: &App, wide: bool, unit: &str, rows: usize) -> Vec<Line<
             &format!("{} mg", num(s.dose_mg)),
             &format!("{} h", num(s.interval_h)),
             &strings::route_words(s.route, s.infusion_h),
-            &num(s.peak_ss),
+            &num(if sampled {
+                s.peak_sampled_ss
+            } else {
+                s.peak_ss
+            }),
             &num(s.trough_ss),
             &num(s.auc24_ss),
         );
+
         out.push(Line::from(vec![
-            Span::raw(if selected { "▸" } else { " " }),
+            Span::raw(if selected {
+                "▸"
+            } else if s.current {
+                strings::CURRENT_MARK
+            } else {
+                " "
+            }),
             Span::styled(
                 text,
                 if selected {
@@ -341,6 +360,14 @@ fn suggestion_lines(app: &App, wide: bool, unit: &str, rows: usize) -> Vec<Line<
                 },
             ),
         ]));
+    }
+    let current = list.iter().any(|s| s.current);
+    if current || (sampled && !list.is_empty()) {
+        let after = sampled.then(|| span_words(sampled_after));
+        let width = if wide { 60 } else { 37 };
+        for l in strings::suggestions_key(current, after.as_deref(), width) {
+            out.push(Line::styled(l, quiet()));
+        }
     }
     if let Some(l) = &a.loading {
         out.push(Line::raw(if wide {
