@@ -196,12 +196,17 @@ pub fn evaluate(
             Covariate::AgeYears => patient.age_years.ok_or_else(|| need("age_years", "age"))?,
             Covariate::CrclMlMin => crcl.map_or(0.0, |c| c.ml_min),
             Covariate::CrclLPerH => crcl.map_or(0.0, |c| c.ml_min * 0.06),
-            Covariate::CreatinineUmolL => {
-                patient
-                    .creatinine_mg_dl
-                    .ok_or_else(|| need("creatinine_mg_dl", "serum creatinine"))?
-                    * 88.4
-            }
+            // As entered when entered in µmol/L; else from mg/dL (1 mg/dL = 88.4 µmol/L,
+            // drug-facts.md, Cockcroft-Gault SI row).
+            Covariate::CreatinineUmolL => match patient.creatinine_umol_l {
+                Some(c) => c,
+                None => {
+                    patient
+                        .creatinine_mg_dl
+                        .ok_or_else(|| need("creatinine_mg_dl", "serum creatinine"))?
+                        * 88.4
+                }
+            },
             Covariate::Dialysis => match patient.dialysis {
                 Some(d) => f64::from(u8::from(d)),
                 None => {
@@ -229,15 +234,19 @@ pub fn evaluate(
             })?,
         })
     };
+    // The covariate a term reads, lowered to the term's cap when it has one.
+    let term_value = |t: &crate::core::prior::Term, assumed: &mut Vec<String>| {
+        value(t.of, assumed).map(|c| t.cap.map_or(c, |cap| c.min(cap)))
+    };
     let mut eval = |p: &crate::core::prior::Parameter| -> Result<f64> {
         let mut x = p.typical;
         for t in &p.terms {
             if let Form::Add { reference, slope } = t.form {
-                x += slope * (value(t.of, &mut assumed)? - reference);
+                x += slope * (term_value(t, &mut assumed)? - reference);
             }
         }
         for t in &p.terms {
-            let c = value(t.of, &mut assumed)?;
+            let c = term_value(t, &mut assumed)?;
             x *= match t.form {
                 Form::Power {
                     reference,
@@ -258,6 +267,14 @@ pub fn evaluate(
                     }
                 }
             };
+        }
+        if p.add_after_terms != 0.0 {
+            // The terms' part below zero is beyond the model's reach even when the constant
+            // after it would hide it: NaN makes the check below name the patient's fields.
+            if x.is_nan() || x < 0.0 {
+                return Ok(f64::NAN);
+            }
+            x += p.add_after_terms;
         }
         Ok(x)
     };
@@ -325,6 +342,17 @@ pub fn evaluate(
             ),
         ));
     }
+    // A model whose terms read serum creatinine itself and no clearance (Tod 1998) did not
+    // use a Cockcroft-Gault clearance: one formed only to compare with its population's range
+    // is not said to be a covariate it used.
+    let reported_crcl = if in_terms(Covariate::CreatinineUmolL)
+        && !in_terms(Covariate::CrclMlMin)
+        && !in_terms(Covariate::CrclLPerH)
+    {
+        None
+    } else {
+        crcl
+    };
     let mut warnings = Vec::new();
     for r in &model.envelope {
         let x = match r.of {
@@ -409,7 +437,7 @@ pub fn evaluate(
             .as_ref()
             .map_or([None, None], |p| [p.q.omega, p.v2.omega]),
         residual: model.residual,
-        creatinine_clearance: crcl,
+        creatinine_clearance: reported_crcl,
         weight_kg: patient.weight_kg,
         body,
         daily_dose_mg: if uses(Covariate::DailyDoseMg) {
@@ -448,6 +476,7 @@ mod tests {
         Parameter {
             typical,
             terms: Vec::new(),
+            add_after_terms: 0.0,
             omega,
         }
     }
@@ -468,6 +497,7 @@ mod tests {
             residual: Residual {
                 additive_mg_l: 0.1,
                 proportional: 0.1,
+                exponent: 1.0,
             },
             apparent: true,
             crcl: crate::core::renal::TOTAL_WEIGHT,
@@ -511,6 +541,7 @@ mod tests {
                     reference: 100.0,
                     slope: 1.0,
                 },
+                cap: None,
             });
         }
         let patient = Patient {
@@ -519,5 +550,57 @@ mod tests {
         };
         let e = evaluate(&m, &patient, None, 1.0).unwrap_err().to_string();
         assert!(e.starts_with("patient.weight_kg: "), "{e}");
+    }
+
+    /// CL = (2 − 0.02·age, age capped at `cap`) + 1 after the terms (invented numbers, for the
+    /// order of the operations only).
+    fn with_constant_after(cap: Option<f64>) -> Model {
+        let mut m = apparent_two();
+        m.apparent = false;
+        m.elimination.typical = 2.0;
+        m.elimination.add_after_terms = 1.0;
+        m.elimination.terms.push(crate::core::prior::Term {
+            of: Covariate::AgeYears,
+            form: Form::Add {
+                reference: 0.0,
+                slope: -0.02,
+            },
+            cap,
+        });
+        m.elimination.terms.push(crate::core::prior::Term {
+            of: Covariate::WeightKg,
+            form: Form::Power {
+                reference: 50.0,
+                exponent: 1.0,
+            },
+            cap: None,
+        });
+        m
+    }
+
+    #[test]
+    fn a_constant_after_the_terms_is_added_last_and_a_cap_holds_the_covariate() {
+        let patient = |age: f64| Patient {
+            weight_kg: Some(100.0),
+            age_years: Some(age),
+            ..Patient::default()
+        };
+        // (2 − 0.02·40) × 100/50 + 1 = 3.4: the constant is not doubled by the weight.
+        let p = evaluate(&with_constant_after(None), &patient(40.0), None, 1.0).unwrap();
+        assert!((p.two.unwrap().cl - 3.4).abs() < 1e-12);
+        // Age 120 would make the part before the constant negative: an error naming the
+        // patient's fields, not a clearance of 1 − 0.8 hidden by the constant.
+        let e = evaluate(&with_constant_after(None), &patient(120.0), None, 1.0)
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.starts_with("patient.age_years, patient.weight_kg: "),
+            "{e}"
+        );
+        // Capped at 90: (2 − 1.8) × 2 + 1 = 1.4 at any age from 90 up.
+        for age in [90.0, 120.0] {
+            let p = evaluate(&with_constant_after(Some(90.0)), &patient(age), None, 1.0).unwrap();
+            assert!((p.two.unwrap().cl - 1.4).abs() < 1e-12, "{age}");
+        }
     }
 }

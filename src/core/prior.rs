@@ -94,6 +94,8 @@ pub enum Form {
         slope: f64,
     },
     /// + slope·(x − reference), added to the typical value before any multiplying term.
+    ///
+    /// A constant added after them is the parameter's `add_after_terms`.
     Add {
         /// The covariate value at which the term adds nothing.
         reference: f64,
@@ -116,15 +118,24 @@ pub struct Term {
     pub of: Covariate,
     /// How it acts.
     pub form: Form,
+    /// A covariate above this is taken as this in the term (a guard the profile states, e.g.
+    /// an age factor that would reach zero); None: the patient's value as it is.
+    pub cap: Option<f64>,
 }
 
 /// One structural parameter: typical value, covariate terms and between-patient variability.
+///
+/// Its value for a patient is (typical + every `Add` term) × every multiplying term +
+/// `add_after_terms`.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Parameter {
     /// The typical value before the terms, in the parameter's unit (L/h, 1/h or L).
     pub typical: f64,
     /// Covariate terms, applied in order: every `Add` first, then the multiplying ones.
     pub terms: Vec<Term>,
+    /// A constant added after every term, in the parameter's unit (a non-renal clearance
+    /// beside a renal part that the terms form); 0 for none.
+    pub add_after_terms: f64,
     /// Between-patient SD of the log (ω); None when the model fixes the parameter.
     pub omega: Option<f64>,
 }
@@ -162,19 +173,31 @@ pub struct CrclRule {
     pub max_ml_min: Option<f64>,
 }
 
-/// The residual error of one level: Var = additive² + (proportional·prediction)².
+/// The residual error of one level predicted at c mg/L:
+/// Var = additive² + (proportional·c^exponent)² (exponent 1: the usual combined error; a
+/// power model, SD = proportional·c^b, has no additive part and exponent b).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Residual {
     /// Additive SD, mg/L.
     pub additive_mg_l: f64,
-    /// Proportional SD, a fraction.
+    /// Proportional SD, a fraction (of c^exponent).
     pub proportional: f64,
+    /// The power of the prediction in the proportional part; 1 for the usual proportional
+    /// error.
+    pub exponent: f64,
 }
 
 impl Residual {
     /// The variance of a level predicted at `c` mg/L.
     pub fn variance(&self, c: f64) -> f64 {
-        self.additive_mg_l * self.additive_mg_l + (self.proportional * c).powi(2)
+        // Exponent 1 takes c itself, so the usual combined error is computed exactly as it
+        // always was; a power takes |c| (the square does not see the sign).
+        let scaled = if self.exponent == 1.0 {
+            c
+        } else {
+            c.abs().powf(self.exponent)
+        };
+        self.additive_mg_l * self.additive_mg_l + (self.proportional * scaled).powi(2)
     }
 }
 
@@ -306,6 +329,23 @@ impl Model {
                         format!("the term of {} has an impossible number", t.of.name()),
                     );
                 }
+                if let Some(cap) = t.cap {
+                    if !cap.is_finite() {
+                        return bad(
+                            name,
+                            format!(
+                                "the cap of the term of {} must be a finite number, got {cap}",
+                                t.of.name()
+                            ),
+                        );
+                    }
+                }
+            }
+            if !p.add_after_terms.is_finite() {
+                return bad(
+                    &format!("{name}.add_after_terms"),
+                    format!("must be a finite number, got {}", p.add_after_terms),
+                );
             }
         }
         if self.elimination.omega.is_none() {
@@ -330,6 +370,21 @@ impl Model {
             return bad(
                 "residual",
                 "needs an additive or a proportional error above 0".into(),
+            );
+        }
+        if !(r.exponent.is_finite() && r.exponent > 0.0) {
+            return bad(
+                "residual.exponent",
+                format!(
+                    "the power of the prediction in the proportional error must be above 0, got {}",
+                    r.exponent
+                ),
+            );
+        }
+        if r.exponent != 1.0 && r.proportional == 0.0 {
+            return bad(
+                "residual.exponent",
+                "a power of the prediction needs a proportional error above 0".into(),
             );
         }
         for e in &self.envelope {

@@ -4,7 +4,8 @@
 //!
 //! Variability is written as `cv_percent` (turned into ω = sqrt(ln(1 + CV²)), the log-normal
 //! identity), or as the printed `omega` (SD of the log) or `omega_sq` (its variance). The
-//! additive residual error is in the profile's level unit and is converted to mg/L here.
+//! additive residual error (and a power-model proportional one) is in the profile's level
+//! unit and is converted to mg/L here.
 
 use serde::{Deserialize, Serialize};
 
@@ -130,6 +131,9 @@ pub struct ParameterFile {
     /// Covariate terms.
     #[serde(default)]
     pub terms: Vec<TermFile>,
+    /// A constant added after every term (a non-renal clearance beside a renal part).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub add_after_terms: Option<f64>,
 }
 
 /// One covariate term as written.
@@ -155,6 +159,9 @@ pub struct TermFile {
     /// Threshold of a numeric covariate (factor).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub at_least: Option<f64>,
+    /// A covariate above this is taken as this in the term (any form).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub cap: Option<f64>,
 }
 
 /// The residual error as written.
@@ -167,6 +174,9 @@ pub struct ResidualFile {
     /// Proportional SD, a fraction.
     #[serde(default)]
     pub proportional: f64,
+    /// The power of the prediction in the proportional part (default 1; a power model).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub exponent: Option<f64>,
     /// How it was read (e.g. a printed variance taken as such).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub note: Option<String>,
@@ -292,11 +302,13 @@ fn parameter(p: &ParameterFile, field: &dyn std::fmt::Display) -> Result<Paramet
         terms.push(Term {
             of: covariate(&t.of, &at)?,
             form,
+            cap: t.cap,
         });
     }
     Ok(Parameter {
         typical: p.typical,
         terms,
+        add_after_terms: p.add_after_terms.unwrap_or(0.0),
         omega,
     })
 }
@@ -384,10 +396,7 @@ pub fn model_of(
         volume: parameter(&m.volume, &below("volume"))?,
         peripheral,
         correlation: m.correlation,
-        residual: Residual {
-            additive_mg_l: m.residual.additive / level_per_mg_l,
-            proportional: m.residual.proportional,
-        },
+        residual: residual_of(&m.residual, level_per_mg_l),
         apparent: m.apparent,
         crcl,
         envelope,
@@ -410,6 +419,23 @@ pub fn model_of(
         other => problem(place, other.to_string()),
     })?;
     Ok(model)
+}
+
+/// The residual error as the core holds it, in mg/L: the additive SD divided by the level
+/// unit's size; a proportional SD of the prediction to a power b ≠ 1 is in the level unit's
+/// scale too (SD = p·c^b in the profile's unit is p·u^(b−1)·c^b in mg/L, u the profile's unit
+/// per mg/L), while with b = 1 it is a plain fraction and stays as written.
+fn residual_of(r: &ResidualFile, level_per_mg_l: f64) -> Residual {
+    let exponent = r.exponent.unwrap_or(1.0);
+    Residual {
+        additive_mg_l: r.additive / level_per_mg_l,
+        proportional: if exponent == 1.0 {
+            r.proportional
+        } else {
+            r.proportional * level_per_mg_l.powf(exponent - 1.0)
+        },
+        exponent,
+    }
 }
 
 /// The summary values of `[population]` as a model: a typical elimination (clearance, else
@@ -451,6 +477,7 @@ fn summary_model(profile: &Profile, cite: &dyn Fn(&str) -> Vec<String>) -> Optio
         elimination: Parameter {
             typical,
             terms: Vec::new(),
+            add_after_terms: 0.0,
             omega: Some(omega),
         },
         volume: Parameter {
@@ -461,7 +488,9 @@ fn summary_model(profile: &Profile, cite: &dyn Fn(&str) -> Vec<String>) -> Optio
                     reference: 1.0,
                     exponent: 1.0,
                 },
+                cap: None,
             }],
+            add_after_terms: 0.0,
             omega: Some(omega_v),
         },
         peripheral: None,
@@ -469,6 +498,7 @@ fn summary_model(profile: &Profile, cite: &dyn Fn(&str) -> Vec<String>) -> Optio
         residual: Residual {
             additive_mg_l: 0.0,
             proportional: residual.value / 100.0,
+            exponent: 1.0,
         },
         apparent: false,
         crcl: crate::core::renal::TOTAL_WEIGHT,
@@ -765,6 +795,32 @@ mod tests {
             e.contains("a two-compartment model gives the central clearance, not k"),
             "{e}"
         );
+    }
+
+    #[test]
+    fn a_power_residual_in_another_level_unit_is_the_same_error_in_mg_per_l() {
+        // SD = 0.4·c^0.9 with c in ng/mL (1 mg/L = 1000 ng/mL): at 2 mg/L = 2000 ng/mL the SD
+        // is 0.4 x 2000^0.9 ng/mL, i.e. that / 1000 mg/L (self-consistency of the units).
+        let file = ResidualFile {
+            additive: 0.0,
+            proportional: 0.4,
+            exponent: Some(0.9),
+            note: None,
+        };
+        let r = residual_of(&file, 1000.0);
+        let want = 0.4 * 2000f64.powf(0.9) / 1000.0;
+        assert!((r.variance(2.0).sqrt() / want - 1.0).abs() < 1e-12);
+        // Exponent 1 (written or not) keeps the fraction as written.
+        for exponent in [None, Some(1.0)] {
+            let r = residual_of(
+                &ResidualFile {
+                    exponent,
+                    ..file.clone()
+                },
+                1000.0,
+            );
+            assert_eq!((r.proportional, r.exponent), (0.4, 1.0));
+        }
     }
 
     #[test]

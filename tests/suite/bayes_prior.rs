@@ -25,6 +25,7 @@ fn per_weight() -> Term {
             reference: 1.0,
             exponent: 1.0,
         },
+        cap: None,
     }
 }
 
@@ -42,12 +43,15 @@ fn model_on_k() -> Model {
                     reference: 0.0,
                     slope: 0.003,
                 },
+                cap: None,
             }],
+            add_after_terms: 0.0,
             omega: Some(0.35),
         },
         volume: Parameter {
             typical: 0.3,
             terms: vec![per_weight()],
+            add_after_terms: 0.0,
             omega: Some(0.25),
         },
         peripheral: None,
@@ -55,6 +59,7 @@ fn model_on_k() -> Model {
         residual: Residual {
             additive_mg_l: 0.0,
             proportional: 0.1,
+            exponent: 1.0,
         },
         apparent: false,
         crcl: renal::TOTAL_WEIGHT,
@@ -75,12 +80,14 @@ fn model_on_clearance() -> Model {
         elimination: Parameter {
             typical: 4.5,
             terms: Vec::new(),
+            add_after_terms: 0.0,
             omega: Some(0.3),
         },
         correlation: 0.4,
         residual: Residual {
             additive_mg_l: 0.2,
             proportional: 0.1,
+            exponent: 1.0,
         },
         ..model_on_k()
     }
