@@ -5,6 +5,7 @@
 
 mod common;
 
+mod amikacin_tod;
 mod bayes_prior;
 mod cli_json_keys;
 mod cli_report;

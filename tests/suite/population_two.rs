@@ -44,7 +44,7 @@ fn fit_of(text: &str) -> Fit {
 
 /// α and β of a two-compartment model, the roots of λ² − (k10 + k12 + k21)·λ + k10·k21 = 0
 /// (written out here from the quadratic formula).
-fn macro_rates(t: &TwoCompartment) -> (f64, f64) {
+pub(super) fn macro_rates(t: &TwoCompartment) -> (f64, f64) {
     let (k10, k12, k21) = (t.cl / t.v1, t.q / t.v1, t.q / t.v2);
     let b = k10 + k12 + k21;
     let root = (b * b - 4.0 * k10 * k21).sqrt();
@@ -53,7 +53,7 @@ fn macro_rates(t: &TwoCompartment) -> (f64, f64) {
 
 /// The level (mg/L) at `t` after constant-rate infusions `(start, mg, hours)`, each mode's
 /// infusion response summed over the doses, written out here.
-fn level(t2: &TwoCompartment, doses: &[(f64, f64, f64)], t: f64) -> f64 {
+pub(super) fn level(t2: &TwoCompartment, doses: &[(f64, f64, f64)], t: f64) -> f64 {
     let (alpha, beta) = macro_rates(t2);
     let k21 = t2.q / t2.v2;
     let d = t2.v1 * (alpha - beta);
@@ -547,7 +547,7 @@ fn a_one_compartment_fit_through_a_distribution_phase_level_points_to_the_two_co
 }
 
 /// The Bayesian estimate of a two-compartment model, and its CL, V1, Q and V2.
-fn estimate_two(
+pub(super) fn estimate_two(
     given: &[ebb::core::model::Administration],
     pts: &[(f64, f64)],
     pop: &bayes::Population,
