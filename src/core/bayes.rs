@@ -8,7 +8,7 @@
 //! variability, the others staying at their typical values; Ω: their between-patient
 //! covariance; y: the levels; ŷ(η): the model's levels at their times over the whole dose
 //! record, `Disposition::levels`, so a level drawn in a distribution phase counts as drawn;
-//! Var = additive² + (proportional·ŷ)²):
+//! Var = additive² + (proportional·ŷ^b)², b the model's exponent, 1 unless it says):
 //!
 //!   OBJ(η) = Σ_j [ (y_j − ŷ_j)² / Var_j + ln Var_j ] + ηᵀ Ω⁻¹ η
 //!
@@ -717,6 +717,7 @@ fn covariate_words(pop: &Population) -> String {
     if let Some(d) = pop.daily_dose_mg {
         parts.push(format!("daily dose {} mg", num(d)));
     }
+    parts.extend(pop.other_covariates.iter().cloned());
     format!(
         "the population model {} used {}",
         pop.model,

@@ -40,3 +40,23 @@ pub fn num(x: f64) -> String {
 pub fn when(s: &ClockTime) -> String {
     s.readable(false)
 }
+
+/// `x` with its sign and two decimals ("+0.22", "-0.89"); a value that rounds to zero is
+/// "+0.00", never "-0.00".
+pub fn signed2(x: f64) -> String {
+    let x = if x.abs() < 0.005 { 0.0 } else { x };
+    format!("{x:+.2}")
+}
+
+#[cfg(test)]
+mod signed_tests {
+    use super::signed2;
+
+    #[test]
+    fn a_value_that_rounds_to_zero_has_no_minus_sign() {
+        assert_eq!(signed2(-0.001), "+0.00");
+        assert_eq!(signed2(-0.0), "+0.00");
+        assert_eq!(signed2(-0.89), "-0.89");
+        assert_eq!(signed2(0.224), "+0.22");
+    }
+}

@@ -45,6 +45,10 @@ pub struct Population {
     pub body: BodySize,
     /// The daily dose used, when the model uses one, mg/day.
     pub daily_dose_mg: Option<f64>,
+    /// The other patient values the model's terms read (age, sex, serum creatinine, height,
+    /// ideal or adjusted weight), in words with their unit ("age 60 years", "male"), in the
+    /// order of `Covariate::ALL`: weight, creatinine clearance and the daily dose are above.
+    pub other_covariates: Vec<String>,
     /// Where the patient lies outside the model's population, and what it assumes.
     pub warnings: Vec<Warning>,
 }
@@ -418,6 +422,33 @@ pub fn evaluate(
             ),
         ));
     }
+    let mut other_covariates = Vec::new();
+    for (c, _) in Covariate::ALL {
+        let reported = matches!(
+            c,
+            Covariate::WeightKg
+                | Covariate::CrclMlMin
+                | Covariate::CrclLPerH
+                | Covariate::DailyDoseMg
+                | Covariate::Dialysis
+        );
+        if reported || !in_terms(c) {
+            continue;
+        }
+        if matches!(c, Covariate::Male | Covariate::Female) {
+            let said = other_covariates
+                .iter()
+                .any(|w: &String| w == "male" || w == "female");
+            if let (Some(sex), false) = (patient.sex, said) {
+                other_covariates.push(if sex == Sex::Female { "female" } else { "male" }.into());
+            }
+            continue;
+        }
+        if let Ok(x) = value(c, &mut Vec::new()) {
+            let (what, unit) = covariate_words(c);
+            other_covariates.push(format!("{what} {} {unit}", crate::core::format::num(x)));
+        }
+    }
     Ok(Population {
         model: model.name.clone(),
         label: model.label.clone(),
@@ -445,6 +476,7 @@ pub fn evaluate(
         } else {
             None
         },
+        other_covariates,
         warnings,
     })
 }

@@ -1098,6 +1098,7 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
         if let Some(d) = p.daily_dose_mg {
             basis.push(format!("daily dose {} mg", num(d)));
         }
+        basis.extend(p.other_covariates.iter().cloned());
         writeln!(
             w,
             "  population  {what} {} {unit}, volume {} L{}",
@@ -1126,14 +1127,15 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
                 };
                 writeln!(
                     w,
-                    "  moved       {what} {:+.2} between-patient SDs from the population toward the levels (the model fixes the {which}){share}",
-                    s.elimination_shift_sd
+                    "  moved       {what} {} between-patient SDs from the population toward the levels (the model fixes the {which}){share}",
+                    crate::core::format::signed2(s.elimination_shift_sd)
                 )?;
             } else {
                 writeln!(
                     w,
-                    "  moved       {what} {:+.2} and volume {:+.2} between-patient SDs from the population toward the levels{share}",
-                    s.elimination_shift_sd, s.volume_shift_sd
+                    "  moved       {what} {} and volume {} between-patient SDs from the population toward the levels{share}",
+                    crate::core::format::signed2(s.elimination_shift_sd),
+                    crate::core::format::signed2(s.volume_shift_sd)
                 )?;
             }
         }

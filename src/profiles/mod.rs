@@ -1028,4 +1028,52 @@ infusion_h = 2.0
             "{w}"
         );
     }
+
+    const TOD_CASE: &str = r#"[patient]
+weight_kg = 80.0
+age_years = 58
+sex = "male"
+creatinine_umol_l = 95.0
+[drug]
+profile = "amikacin"
+level_unit = "mg/L"
+[fit]
+method = "bayesian"
+model = "tod-1998"
+[[dose]]
+time = 2027-06-01T10:00:00
+amount_mg = 1200.0
+route = "infusion"
+infusion_h = 0.5
+[[level]]
+time = 2027-06-01T12:00:00
+value = 48.0
+[[level]]
+time = 2027-06-01T18:00:00
+value = 14.5
+"#;
+
+    #[test]
+    fn a_two_compartment_volume_is_judged_whole_and_every_covariate_is_named() {
+        // Tod 1998 (amikacin, two compartments): V1 8.92 L and V2 11.4 L; the profile's
+        // 0.25-0.28 L/kg [NottmRLO][Bauer3e-AG][TraumaHartford] describes the whole volume,
+        // so the central 8.92 L alone is no unit slip at 80 kg: V1 + V2 = 20.3 L is inside.
+        let w = warnings_of("amikacin", TOD_CASE);
+        assert!(!w.iter().any(|x| x.contains("far outside")), "{w:?}");
+        // At 200 kg the whole volume is far below 0.25 x 200 / 2 = 25 L, and said as such.
+        let heavy = TOD_CASE.replace("weight_kg = 80.0", "weight_kg = 200.0");
+        let w = warnings_of("amikacin", &heavy);
+        assert!(
+            w.iter()
+                .any(|x| x.starts_with("the steady-state volume (central + peripheral)")),
+            "{w:?}"
+        );
+        // The model reads age, sex and serum creatinine as well as weight: all are named.
+        let w = warnings_of("amikacin", TOD_CASE);
+        assert!(
+            w.iter().any(|x| x
+                == "the population model tod-1998 used weight 80 kg, age 58 years, serum creatinine 95 µmol/L, male"),
+            "{w:?}"
+        );
+    }
 }

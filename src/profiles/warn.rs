@@ -370,7 +370,16 @@ pub fn clearly_outside(x: f64, low: f64, high: f64) -> bool {
 fn plausibility(profile: &Profile, case: &Case, report: &Report, out: &mut Vec<Warning>) {
     let name = &profile.display_name;
     let per_kg = &profile.volume.l_per_kg;
-    if let Some(v) = report.fit.volume_l {
+    // A two-compartment fit's volume is the central one: the profile's L/kg range describes
+    // the whole volume of distribution, so it is compared with the steady-state volume V1 + V2.
+    let whole = report.fit.volume_l.map(|v| match &report.fit.peripheral {
+        Some(pe) => (
+            v + pe.volume_l,
+            "steady-state volume (central + peripheral)",
+        ),
+        None => (v, "fitted volume"),
+    });
+    if let Some((v, what)) = whole {
         // Per kg of the recorded weight; without one, any adult from 30 to 200 kg.
         let (lo, hi, per) = match case.patient.weight_kg {
             Some(w) => (per_kg.low * w, per_kg.high * w, format!("{} kg", num(w))),
@@ -387,7 +396,7 @@ fn plausibility(profile: &Profile, case: &Case, report: &Report, out: &mut Vec<W
                 ""
             };
             out.push(Warning::new(Code::VolumeImplausible, format!(
-                "the fitted volume {} L is far outside {name}'s {}–{} L/kg {} for {per}: check the level unit (a slip of x1000 moves the volume as much), the dose amounts and the times{from_model}",
+                "the {what} {} L is far outside {name}'s {}–{} L/kg {} for {per}: check the level unit (a slip of x1000 moves the volume as much), the dose amounts and the times{from_model}",
                 num(v),
                 num(per_kg.low),
                 num(per_kg.high),

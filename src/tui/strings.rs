@@ -1,6 +1,7 @@
 //! Every word the bedside UI shows, in one place.
 
 use crate::core::fit::VolumeMethod;
+use crate::core::format::signed2;
 use crate::core::report::{method_word, num, Report};
 use crate::core::units::auc_unit;
 use crate::tui::app::{App, Screen};
@@ -1080,8 +1081,8 @@ pub fn population_basis(model: &str, weight: Option<&str>, crcl: Option<&str>) -
 /// `vol` is None when the model fixes the volume.
 pub fn population_moved(what: &str, elim: f64, vol: Option<f64>) -> String {
     match vol {
-        Some(vol) => format!("{what} {elim:+.2} SD, V {vol:+.2} SD from it"),
-        None => format!("{what} {elim:+.2} SD from it; V fixed by the model"),
+        Some(vol) => format!("{what} {} SD, V {} SD from it", signed2(elim), signed2(vol)),
+        None => format!("{what} {} SD from it; V fixed by the model", signed2(elim)),
     }
 }
 /// Label.
