@@ -86,8 +86,8 @@ fn scratch_file(text: &str) -> tempfile::NamedTempFile {
 }
 
 /// The places a message may name: a row, a table's field, a line of the file.
-fn names_a_place(e: &Error) -> bool {
-    const PLACES: [&str; 14] = [
+pub(crate) fn names_a_place(e: &Error) -> bool {
+    const PLACES: [&str; 16] = [
         "dose ",
         "level",
         "plan",
@@ -102,6 +102,8 @@ fn names_a_place(e: &Error) -> bool {
         "washout",
         "prior.",
         "output",
+        "dialysis_session",
+        "plot",
     ];
     match e {
         Error::InFile { source, .. } => names_a_place(source),
@@ -120,7 +122,7 @@ fn check_rejection(e: &Error, text: &str) -> Result<(), TestCaseError> {
 }
 
 /// Words that would mean a non-finite number reached the output.
-fn non_finite_word(out: &str) -> Option<&str> {
+pub(crate) fn non_finite_word(out: &str) -> Option<&str> {
     out.split(|c: char| !c.is_ascii_alphanumeric())
         .find(|w| matches!(*w, "NaN" | "nan" | "inf" | "Inf" | "Infinity" | "infinity"))
 }

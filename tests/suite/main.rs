@@ -23,6 +23,7 @@ mod files_safety;
 mod history_cases;
 mod history_recovery;
 mod hostile_cli;
+mod hostile_features;
 mod layout;
 mod note_cli;
 mod note_figures;
