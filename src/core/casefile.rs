@@ -12,6 +12,7 @@ use crate::core::case::{
 };
 use crate::core::clock::{Clock, ClockTime};
 use crate::core::error::{Error, Result};
+use crate::core::format::written;
 use crate::core::model::{Absorption, Route};
 use crate::core::prior::Model;
 use crate::core::text;
@@ -568,7 +569,7 @@ impl CaseFile {
             if !l.value.is_finite() || l.value <= 0.0 {
                 return Err(Error::invalid(
                     format!("{place}: value"),
-                    format!("must be above 0, got {}", l.value),
+                    format!("must be above 0, got {}", written(l.value)),
                 ));
             }
             let time = stamps[self.doses.len() + i].1;
@@ -904,7 +905,7 @@ fn validate_sessions(
                 format!("{place}: duration_h"),
                 format!(
                     "must be at most {MAX_SESSION_H} hours (an intermittent session), got {}",
-                    d.duration_h
+                    written(d.duration_h)
                 ),
             ));
         }
@@ -945,7 +946,7 @@ fn validate_resume(th: &ThresholdFile) -> Result<()> {
         if !(h.is_finite() && (0.0..=8760.0).contains(&h)) {
             return Err(Error::invalid(
                 "threshold.resume_after_h",
-                format!("must be from 0 to 8760 hours, got {h}"),
+                format!("must be from 0 to 8760 hours, got {}", written(h)),
             ));
         }
     }
@@ -953,7 +954,7 @@ fn validate_resume(th: &ThresholdFile) -> Result<()> {
         if !(h.is_finite() && (0.0..=720.0).contains(&h)) {
             return Err(Error::invalid(
                 "threshold.procedure_h",
-                format!("must be from 0 to 720 hours, got {h}"),
+                format!("must be from 0 to 720 hours, got {}", written(h)),
             ));
         }
     }
@@ -1002,7 +1003,7 @@ fn validate_switch(s: &SwitchFile) -> Result<Switch> {
             if !(n.is_finite() && n > 0.0 && n <= 20.0) {
                 return Err(Error::invalid(
                     "switch.after_half_lives",
-                    format!("must be above 0 and at most 20, got {n}"),
+                    format!("must be above 0 and at most 20, got {}", written(n)),
                 ));
             }
             SwitchRule::AfterHalfLives(n)
@@ -1176,7 +1177,7 @@ fn positive(x: f64, place: impl std::fmt::Display) -> Result<()> {
     } else {
         Err(Error::invalid(
             place.to_string(),
-            format!("must be above 0, got {x}"),
+            format!("must be above 0, got {}", written(x)),
         ))
     }
 }
@@ -1186,7 +1187,7 @@ fn validate_patient(p: &PatientFile) -> Result<Patient> {
         if !(w.is_finite() && w > 0.0 && w <= 700.0) {
             return Err(Error::invalid(
                 "patient.weight_kg",
-                format!("must be above 0 and at most 700 kg, got {w}"),
+                format!("must be above 0 and at most 700 kg, got {}", written(w)),
             ));
         }
     }
@@ -1194,7 +1195,7 @@ fn validate_patient(p: &PatientFile) -> Result<Patient> {
         if !(a.is_finite() && (0.0..=130.0).contains(&a)) {
             return Err(Error::invalid(
                 "patient.age_years",
-                format!("must be from 0 to 130, got {a}"),
+                format!("must be from 0 to 130, got {}", written(a)),
             ));
         }
     }
@@ -1234,7 +1235,7 @@ fn validate_patient(p: &PatientFile) -> Result<Patient> {
         if !(h.is_finite() && (30.0..=272.0).contains(&h)) {
             return Err(Error::invalid(
                 "patient.height_cm",
-                format!("must be from 30 to 272 cm, got {h}"),
+                format!("must be from 30 to 272 cm, got {}", written(h)),
             ));
         }
     }
@@ -1279,7 +1280,7 @@ fn albumin_range(a: f64, low: f64, high: f64, place: &str, unit: &str) -> Result
     } else {
         Err(Error::invalid(
             place,
-            format!("must be from {low} to {high} {unit}, got {a}"),
+            format!("must be from {low} to {high} {unit}, got {}", written(a)),
         ))
     }
 }
@@ -1378,7 +1379,7 @@ fn validate_route(
             if !(f.is_finite() && f > 0.0 && f <= 1.0) {
                 return Err(Error::invalid(
                     format!("{place}: bioavailability"),
-                    format!("must be above 0 and at most 1, got {f}"),
+                    format!("must be above 0 and at most 1, got {}", written(f)),
                 ));
             }
             let absorption = match formulation {

@@ -201,7 +201,7 @@ pub fn fit_log_linear(case: &Case) -> Result<Fit> {
     if !(k.is_finite() && k > 0.0) {
         let values = in_fit
             .iter()
-            .map(|&i| format!("{}", case.levels[i].value))
+            .map(|&i| crate::core::format::written(case.levels[i].value))
             .collect::<Vec<_>>()
             .join(" then ");
         return Err(Error::invalid(

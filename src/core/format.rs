@@ -36,6 +36,18 @@ pub fn num(x: f64) -> String {
     }
 }
 
+/// A number from a file as a message quotes it back: as written in plain form when that is
+/// short (`0.5`, `-3`, `NaN`), in exponent form when the plain form would run to hundreds of
+/// digits (`1e300`, `5e-324`).
+pub fn written(x: f64) -> String {
+    let plain = x.to_string();
+    if plain.len() <= 20 {
+        plain
+    } else {
+        format!("{x:e}")
+    }
+}
+
 /// A readable stamp, with the year only when it differs from `reference`'s.
 pub fn when(s: &ClockTime) -> String {
     s.readable(false)

@@ -12,6 +12,7 @@
 
 use crate::core::case::{Patient, Sex};
 use crate::core::error::{Error, Result};
+use crate::core::format::written;
 use crate::core::prior::{CrclRule, CrclWeight};
 
 /// Body size derived from weight, height and sex.
@@ -120,13 +121,13 @@ pub fn creatinine_clearance_by(p: &Patient, rule: &CrclRule) -> Result<Creatinin
     if !(weight.is_finite() && weight > 0.0) {
         return Err(Error::invalid(
             "patient.weight_kg",
-            format!("must be above 0, got {weight}"),
+            format!("must be above 0, got {}", written(weight)),
         ));
     }
     if !(scr.is_finite() && scr > 0.0) {
         return Err(Error::invalid(
             "patient.creatinine_mg_dl",
-            format!("must be above 0, got {scr}"),
+            format!("must be above 0, got {}", written(scr)),
         ));
     }
     if !(age.is_finite() && age < 140.0) {

@@ -698,3 +698,29 @@ proptest! {
         check(&features_case(&f))?;
     }
 }
+
+#[test]
+fn numbers_of_hundreds_of_digits_are_quoted_in_exponent_form() {
+    // A level of -1e300 was quoted back as 301 digits; a level of 1e300 beside a smaller
+    // one was quoted so in "do not fall".
+    let case = |second: &str| {
+        format!(
+            "[drug]\nlevel_unit = \"mg/L\"\n[[dose]]\ntime = 2027-03-02T08:00:00\namount_mg = 400.0\nroute = \"bolus\"\n[[level]]\ntime = 2027-03-02T10:00:00\nvalue = 3.0\n[[level]]\ntime = 2027-03-02T16:00:00\nvalue = {second}\n"
+        )
+    };
+    let message = |text: String| {
+        CaseFile::parse(&text)
+            .and_then(|f| f.validate())
+            .and_then(|c| ebb::core::report::build(&c).map(|_| ()))
+            .unwrap_err()
+            .to_string()
+    };
+    assert_eq!(
+        message(case("-1e300")),
+        "level 2: value: must be above 0, got -1e300"
+    );
+    assert_eq!(
+        message(case("1e300")),
+        "level: level 1, level 2 do not fall (3 then 1e300 mg/L): no elimination rate can be found; check the times and values, or untick a level"
+    );
+}
