@@ -137,12 +137,25 @@ pub fn fit(case: &Case) -> Result<Fit> {
     }
 }
 
-/// Which levels there are, in words, when fewer than two are marked for use.
+/// Which levels there are, in words, when fewer than two are marked for use; levels reported
+/// below the assay's limit are named, since they are out of these fits without being unticked.
 fn too_few_levels(case: &Case) -> String {
-    match case.levels.iter().position(|l| l.use_in_fit) {
+    let which = match case.levels.iter().position(|l| l.use_in_fit) {
         Some(i) => format!("only {} is marked for use", case.level_name(i)),
         None if case.levels.is_empty() => "the case has no levels yet".to_string(),
         None => "no level is marked for use".to_string(),
+    };
+    let below: Vec<String> = (0..case.levels.len())
+        .filter(|&i| case.levels[i].below_limit)
+        .map(|i| case.level_name(i))
+        .collect();
+    match below.len() {
+        0 => which,
+        n => format!(
+            "{which} ({} {} reported below the assay's limit: only a Bayesian estimate, with a drug profile's population model, can use such a level)",
+            below.join(", "),
+            if n == 1 { "was" } else { "were" }
+        ),
     }
 }
 
