@@ -677,6 +677,19 @@ impl CaseFile {
                         (t, true)
                     }
                     None => match doses.last() {
+                        // The first plan dose one interval after the last: it must fall on
+                        // the calendar (an interval of 1e300 h would not, and every chart and
+                        // clock time of the plan would then be lost).
+                        Some(last) if clock.at_minute(last.t + p.interval_h).is_none() => {
+                            return Err(Error::invalid(
+                                "plan.interval_h",
+                                format!(
+                                    "{} h after the last recorded dose (dose {}), the plan's first dose would fall too far from the case's dates to be placed on a calendar; check the interval, or give plan.start",
+                                    written(p.interval_h),
+                                    last.row
+                                ),
+                            ));
+                        }
                         Some(last) => (last.t + p.interval_h, false),
                         None => {
                             return Err(Error::invalid(

@@ -522,3 +522,22 @@ fn a_half_life_of_one_second_gets_a_plausibility_warning() {
     let out = String::from_utf8(run(&["report", "ok.toml"], d).stdout).unwrap();
     assert!(!out.contains("far below any drug"), "{out}");
 }
+
+#[test]
+fn a_phenytoin_plan_every_1e308_hours_is_refused_by_the_plot_in_time() {
+    // The plot once never finished: its time axis ran to the plan's first dose, 1.8e308 h
+    // after the last recorded dose (tests/suite/hostile_features.rs found it).
+    let tmp = scratch();
+    let d = tmp.path();
+    let case = Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("tests/cases/invalid/plan_interval_beyond_calendar.toml");
+    fs::copy(case, d.join("c.toml")).unwrap();
+    let mut cmd = ebb();
+    cmd.args(["plot", "c.toml", "-o", "c.svg"]).current_dir(d);
+    let e = one_line_error(&finishes(cmd, 60));
+    assert!(
+        e.starts_with("c.toml: plan.interval_h: 1.7976931348623157e308 h after"),
+        "{e}"
+    );
+    assert!(!d.join("c.svg").exists());
+}

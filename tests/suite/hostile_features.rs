@@ -700,6 +700,30 @@ proptest! {
 }
 
 #[test]
+fn a_phenytoin_plan_every_1e308_hours_is_refused_at_its_interval() {
+    // Found by the generator above: the chart of the course never finished drawing, its
+    // time axis running to the plan's first dose 1.8e308 h after the last one.
+    let text = std::fs::read_to_string(concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/tests/cases/invalid/plan_interval_beyond_calendar.toml"
+    ))
+    .unwrap();
+    let file = CaseFile::parse(&text).unwrap();
+    let e = cli::analyse_parsed(&file, None)
+        .unwrap()
+        .finished()
+        .unwrap_err()
+        .to_string();
+    assert!(
+        e.starts_with(
+            "plan.interval_h: 1.7976931348623157e308 h after the last recorded dose (dose 2)"
+        ),
+        "{e}"
+    );
+    check(&text).unwrap();
+}
+
+#[test]
 fn numbers_of_hundreds_of_digits_are_quoted_in_exponent_form() {
     // A level of -1e300 was quoted back as 301 digits; a level of 1e300 beside a smaller
     // one was quoted so in "do not fall".
