@@ -451,7 +451,12 @@ pub fn steady_peak_after_lag(k: f64, ka: f64, tau: f64) -> f64 {
     if d == 0.0 {
         return 1.0 / k - tau / (k * tau).exp_m1();
     }
-    let x = (-k * tau).exp() * one_minus_exp_neg(d * tau) / one_minus_exp_neg(k * tau);
+    let mut x = (-k * tau).exp() * one_minus_exp_neg(d * tau) / one_minus_exp_neg(k * tau);
+    if !x.is_finite() {
+        // ka far below k: e^(−(ka − k)·τ) overflows. The same x as the difference
+        // (e^(−k·τ) − e^(−ka·τ))/(1 − e^(−k·τ)), where e^(−k·τ) only underflows to 0.
+        x = ((-k * tau).exp() - (-ka * tau).exp()) / one_minus_exp_neg(k * tau);
+    }
     ((d / k).ln_1p() - x.ln_1p()) / d
 }
 
