@@ -1111,11 +1111,13 @@ pub fn write_text(w: &mut dyn Write, case: &Case, r: &Report) -> io::Result<()> 
             }
         )?;
         if f.method != "population" {
+            // A posterior variance at or above the prior's (a Laplace approximation can give
+            // one) means the levels carry nothing: 0 %, never "-0 %" or "-1 %".
             let share = s.prior_share[0]
                 .map(|x| {
                     format!(
                         "; the levels carry {:.0} % of what is known of {what}",
-                        (1.0 - x) * 100.0
+                        ((1.0 - x) * 100.0).clamp(0.0, 100.0)
                     )
                 })
                 .unwrap_or_default();

@@ -1089,6 +1089,9 @@ pub fn population_moved(what: &str, elim: f64, vol: Option<f64>) -> String {
 pub const WEIGHS: &str = "decided";
 /// How much of what is known of the elimination the levels decided, and how much the model.
 pub fn population_weighs(levels_share: f64) -> String {
+    // Never a negative share (a posterior variance above the prior's means the levels add
+    // nothing).
+    let levels_share = levels_share.clamp(0.0, 1.0);
     format!(
         "levels {:.0} %, model {:.0} %",
         levels_share * 100.0,

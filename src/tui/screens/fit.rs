@@ -208,9 +208,11 @@ pub fn draw(app: &App, area: Rect, buf: &mut Buffer) {
         let when = l.time.weekday_time();
         let text = format!("{:<2} {when}  {:>7} ", l.row, l.value_words());
         // A residual that rounds to zero is shown as +0.000, not -0.000 (an exact two-level
-        // fit leaves residuals of a few 1e-16 of either sign).
+        // fit leaves residuals of a few 1e-16 of either sign); one that is not finite is not
+        // shown.
         let resid = kind
             .1
+            .filter(|x| x.is_finite())
             .map(|x| format!("{:+.3}", if x.abs() < 5e-4 { 0.0 } else { x }))
             .unwrap_or_default();
         let body = Style::new();
