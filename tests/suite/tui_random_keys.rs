@@ -103,3 +103,27 @@ fn random_keys_on_the_demo_never_panic() {
 fn random_keys_on_a_new_case_never_panic() {
     walk(0x5eed_0002, App::new_case(), 3000);
 }
+
+#[test]
+fn random_keys_on_the_later_features_never_panic() {
+    // Two compartments, haemodialysis sessions, saturable kinetics with a free level and
+    // albumin, and oral doses: each case copied to a scratch folder and opened from there.
+    let tmp = tempfile::tempdir().unwrap();
+    for (i, name) in [
+        "vancomycin_two_compartment.toml",
+        "vancomycin_haemodialysis.toml",
+        "phenytoin_free_level.toml",
+        "phenytoin_one_level_albumin.toml",
+        "oral_pre_dose.toml",
+    ]
+    .iter()
+    .enumerate()
+    {
+        let from = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+            .join("tests/cases/valid")
+            .join(name);
+        let to = tmp.path().join(name);
+        std::fs::copy(from, &to).unwrap();
+        walk(0x5eed_0010 + i as u64, App::open(&to), 1500);
+    }
+}
