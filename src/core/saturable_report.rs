@@ -959,6 +959,20 @@ pub fn analyse(case: &Case, p: &Params) -> Result<SaturableReport> {
             ));
         }
     }
+    if let Some(pl) = case.plan.as_ref() {
+        // A plan interval of 5e-324 h makes the daily dose infinite: refuse it rather than
+        // write "— mg/day" in the plan and its warnings.
+        if !(pl.dose_mg * HOURS_PER_DAY / pl.interval_h).is_finite() {
+            return Err(Error::invalid(
+                "plan",
+                format!(
+                    "{} mg every {} h gives no finite daily dose; check plan.dose_mg and plan.interval_h",
+                    crate::core::format::written(pl.dose_mg),
+                    crate::core::format::written(pl.interval_h)
+                ),
+            ));
+        }
+    }
     let plan = case.plan.as_ref().map(|pl| {
         let written = pl.dose_mg * HOURS_PER_DAY / pl.interval_h;
         daily(written)
