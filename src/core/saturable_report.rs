@@ -874,6 +874,20 @@ pub fn analyse(case: &Case, p: &Params) -> Result<SaturableReport> {
         .or_else(|| case.doses.last().map(|d| d.route.bioavailability()))
         .unwrap_or(1.0);
     let per_written = salt.1 * f_route;
+    if !(1.0 / per_written).is_finite() {
+        // A bioavailability of 5e-324: every dose written for a level would be infinite.
+        let place = match (&case.plan, case.doses.last()) {
+            (Some(_), _) | (None, None) => "plan.bioavailability".to_string(),
+            (None, Some(d)) => format!("dose {}: bioavailability", d.row),
+        };
+        return Err(Error::invalid(
+            place,
+            format!(
+                "{} is too small for any dose to be computed from it; check it",
+                crate::core::format::written(f_route)
+            ),
+        ));
+    }
     let daily = |written: f64| -> DailyDose {
         let r = written * per_written;
         DailyDose {
