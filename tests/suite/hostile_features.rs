@@ -666,7 +666,10 @@ pub(crate) fn check(text: &str) -> Result<(), TestCaseError> {
         f.residuals.retain(|r| r.is_finite());
     }
     let held = format!("{:?}\n{:?}\n{:?}", fit, a.report, saturable);
-    let bad = non_finite_word(&held);
+    // Only a finished analysis is written out: a stopped one says why in one line (its fit
+    // may hold anything, e.g. the infinite intercept of a Bayesian estimate from a level below
+    // the assay's limit alone, which stops at the washout; left to src/core/bayes.rs).
+    let bad = non_finite_word(&held).filter(|_| a.stop.is_none());
     prop_assert!(bad.is_none(), "{:?} in\n{}\n{}", bad, held, text);
     for as_json in [false, true] {
         let mut out = Vec::new();
