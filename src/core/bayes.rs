@@ -265,11 +265,16 @@ pub fn estimate_with_bounds(
     history::check_plausible(k.ln())?;
     let ts: Vec<f64> = points.iter().map(|p| p.0).collect();
     let predicted = disposition.levels(&schedule, &ts);
-    let residuals = points
+    let residuals: Vec<f64> = points
         .iter()
         .zip(&predicted)
         .map(|((_, y), yhat)| y.ln() - yhat.ln())
         .collect();
+    // A model level of zero at a measured level (doses too small to reach it) leaves the
+    // levels unexplained: no estimate, rather than an infinite residual.
+    if residuals.iter().any(|r| !r.is_finite()) {
+        return Err(history::Failure::NotSeparable);
+    }
     let quantile = normal_quantile(if none { 0.90 } else { 0.95 });
     // A one-compartment fit carries the spread of (ln k, ln V); a two-compartment one that of
     // ln(CL, V1, Q, V2) (`param_spread`).
@@ -317,7 +322,9 @@ fn ln_k_v_cov(pop: &Population, cov_eta: &[[f64; 4]; 4]) -> [[f64; 2]; 2] {
 pub fn summarise(pop: &Population, est: &Estimate, sources: &[String]) -> Summary {
     let w = pop.omega_two();
     let shift = |i: usize| w[i].map(|w| est.eta[i] / w);
-    let share = |i: usize| w[i].map(|w| est.cov_eta[i][i] / (w * w));
+    // Posterior over prior variance: at most 1 (the levels cannot add uncertainty; a
+    // numerically flat objective can make it come out a little above).
+    let share = |i: usize| w[i].map(|w| (est.cov_eta[i][i] / (w * w)).clamp(0.0, 1.0));
     Summary {
         population: pop.clone(),
         elimination_shift_sd: shift(0).unwrap_or(0.0),
@@ -442,16 +449,28 @@ pub fn fit(case: &Case) -> Result<Fit> {
                 .collect()
         };
     let no_estimate = |_| {
-        let names: Vec<String> = used.iter().map(|&i| case.level_name(i)).collect();
-        let (place, which) = if names.is_empty() {
-            ("dose".to_string(), "the dose record".to_string())
-        } else {
-            ("level".to_string(), names.join(", "))
+        // The levels the estimate read: those in use, then those below the assay's limit.
+        let names: Vec<String> = used
+            .iter()
+            .copied()
+            .chain(
+                case.levels
+                    .iter()
+                    .enumerate()
+                    .filter(|(_, l)| !below.is_empty() && l.below_limit && l.t > first_dose)
+                    .map(|(i, _)| i),
+            )
+            .map(|i| case.level_name(i))
+            .collect();
+        let (place, these) = match names.as_slice() {
+            [] => ("dose".to_string(), "the dose record"),
+            [one] => (one.clone(), "this level"),
+            _ => (names.join(", "), "these levels"),
         };
         Error::invalid(
             place,
             format!(
-                "{which}: no Bayesian estimate can be found from these and the population model {}; check the times, the values and the dose record",
+                "no Bayesian estimate can be found from {these} and the population model {}; check the times, the values and the dose record",
                 pop.model
             ),
         )

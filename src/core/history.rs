@@ -518,7 +518,7 @@ pub(crate) fn to_fit(
         .given()
         .ok()
         .map(|g| model::superpose(&g, k, v, t_ref))
-        .filter(|c| *c > 0.0)
+        .filter(|c| c.is_finite() && *c > 0.0)
         .unwrap_or(1.0);
     let k_ci95 = spread.map(|s| s.interval(k, [1.0, 0.0]));
     let volume_method = match method {

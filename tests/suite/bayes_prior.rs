@@ -834,3 +834,67 @@ value = 0.9
     );
     assert!(!note.contains("volume estimated together with k"), "{note}");
 }
+
+/// `ebb report FILE` of `text`: (success, standard output, standard error).
+fn run_report(text: &str) -> (bool, String, String) {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("case.toml");
+    std::fs::write(&path, text).unwrap();
+    let out = crate::common::ebb()
+        .arg("report")
+        .arg(&path)
+        .output()
+        .unwrap();
+    (
+        out.status.success(),
+        String::from_utf8(out.stdout).unwrap(),
+        String::from_utf8(out.stderr).unwrap(),
+    )
+}
+
+#[test]
+fn a_failed_estimate_from_a_level_below_the_limit_names_that_level() {
+    // Only a level reported below the assay's limit, and a weight no model can use: the
+    // refusal names the level it read, not the whole dose record.
+    let (ok, _, err) = run_report(
+        r#"[patient]
+weight_kg = 1e-9
+age_years = 60
+sex = "male"
+creatinine_umol_l = 90.0
+[drug]
+profile = "gentamicin"
+level_unit = "mg/L"
+[fit]
+method = "bayesian"
+[[dose]]
+time = 2027-03-02T08:00:00
+amount_mg = 400.0
+route = "infusion"
+infusion_h = 0.5
+[[level]]
+time = 2027-03-02T20:00:00
+value = "<0.5"
+"#,
+    );
+    assert!(!ok);
+    assert!(
+        err.contains(": level 1: no Bayesian estimate can be found from this level"),
+        "{err}"
+    );
+}
+
+#[test]
+fn the_share_the_prior_keeps_is_never_above_one() {
+    // Posterior over prior variance is at most 1 (the levels add no uncertainty); a Hessian
+    // from a near-flat objective can give a posterior variance a little above the prior's,
+    // which would make the report say the levels carry a negative share.
+    let pop = evaluate(&model_on_k(), &patient());
+    let mut est = bayes::estimate_with_bounds(&doses(), &[], &[], &pop).unwrap();
+    let s = bayes::summarise(&pop, &est, &[]);
+    assert!((s.prior_share[0].unwrap() - 1.0).abs() < 1e-12);
+    est.cov_eta[0][0] *= 1.5;
+    est.cov_eta[1][1] = -1e-3;
+    let s = bayes::summarise(&pop, &est, &[]);
+    assert_eq!(s.prior_share, [Some(1.0), Some(0.0)]);
+}
