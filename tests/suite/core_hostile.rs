@@ -61,7 +61,7 @@ fn field(ordinary: impl Strategy<Value = f64>) -> impl Strategy<Value = Option<f
 }
 
 /// A float as TOML writes it (nan and inf included).
-fn toml_f(x: f64) -> String {
+pub(crate) fn toml_f(x: f64) -> String {
     if x.is_nan() {
         "nan".into()
     } else if x.is_infinite() {
@@ -71,7 +71,8 @@ fn toml_f(x: f64) -> String {
     }
 }
 
-fn line(key: &str, v: Option<f64>) -> String {
+/// `key = value` and a newline, or nothing for no value.
+pub(crate) fn line(key: &str, v: Option<f64>) -> String {
     v.map(|x| format!("{key} = {}\n", toml_f(x)))
         .unwrap_or_default()
 }

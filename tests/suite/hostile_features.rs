@@ -17,7 +17,7 @@ use ebb::core::casefile::CaseFile;
 use ebb::core::note::{NoteFormat, NoteMeta};
 use ebb::core::Error;
 
-use crate::core_hostile::{names_a_place, non_finite_word};
+use crate::core_hostile::{line, names_a_place, non_finite_word, toml_f};
 
 fn config(cases: u32) -> ProptestConfig {
     ProptestConfig {
@@ -62,22 +62,6 @@ fn field(ordinary: impl Strategy<Value = f64>) -> impl Strategy<Value = Option<f
 /// A field that is mostly given.
 fn usual(ordinary: impl Strategy<Value = f64>) -> impl Strategy<Value = Option<f64>> {
     prop::option::weighted(0.92, mostly(ordinary))
-}
-
-/// A float as TOML writes it (nan and inf included).
-fn toml_f(x: f64) -> String {
-    if x.is_nan() {
-        "nan".into()
-    } else if x.is_infinite() {
-        if x > 0.0 { "inf" } else { "-inf" }.into()
-    } else {
-        format!("{x:?}")
-    }
-}
-
-fn line(key: &str, v: Option<f64>) -> String {
-    v.map(|x| format!("{key} = {}\n", toml_f(x)))
-        .unwrap_or_default()
 }
 
 fn base() -> NaiveDateTime {
