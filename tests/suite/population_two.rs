@@ -226,14 +226,7 @@ fn the_two_compartment_map_is_the_minimum_an_independent_minimiser_finds() {
     // with the two-compartment level from the macro-constants above; η on CL, Vc and Vp.
     let pop = population(&reference("vancomycin", ""));
     let doses: Vec<(f64, f64, f64)> = (0..4).map(|i| (12.0 * i as f64, 1000.0, 1.0)).collect();
-    let given: Vec<Administration> = doses
-        .iter()
-        .map(|&(t, mg, h)| Administration {
-            t,
-            amount_mg: mg,
-            route: Route::Infusion { hours: h },
-        })
-        .collect();
+    let given = infusions(&doses);
     let pts = [(35.9, 14.0), (37.25, 38.0), (42.0, 24.0)];
     let typical = pop.two.unwrap();
     let om = pop.omega_two().map(|w| w.unwrap_or(0.0));
@@ -286,14 +279,7 @@ fn with_many_exact_levels_the_estimate_approaches_the_truth() {
         v2: typical.v2 * 1.3,
     };
     let doses: Vec<(f64, f64, f64)> = (0..6).map(|i| (12.0 * i as f64, 1250.0, 1.5)).collect();
-    let given: Vec<Administration> = doses
-        .iter()
-        .map(|&(t, mg, h)| Administration {
-            t,
-            amount_mg: mg,
-            route: Route::Infusion { hours: h },
-        })
-        .collect();
+    let given = infusions(&doses);
     let pts: Vec<(f64, f64)> = (0..120)
         .map(|i| 0.6 + i as f64 * 0.6)
         .map(|t| (t, level(&truth, &doses, t)))
@@ -464,14 +450,7 @@ fn its_95_percent_interval_of_clearance_covers_the_truth_about_95_percent_of_the
     let typical = pop.two.unwrap();
     let om = pop.omega_two().map(|w| w.unwrap_or(0.0));
     let doses: Vec<(f64, f64, f64)> = (0..4).map(|i| (12.0 * i as f64, 1000.0, 1.0)).collect();
-    let given: Vec<Administration> = doses
-        .iter()
-        .map(|&(t, mg, h)| Administration {
-            t,
-            amount_mg: mg,
-            route: Route::Infusion { hours: h },
-        })
-        .collect();
+    let given = infusions(&doses);
     let mut rng = StdRng::seed_from_u64(12);
     let (mut inside, n) = (0, 2000);
     for _ in 0..n {
@@ -557,4 +536,16 @@ pub(super) fn estimate_two(
         panic!("a two-compartment model gives a two-compartment estimate");
     };
     (e, two)
+}
+
+/// The infusions `(start h, mg, hours)` as administrations.
+fn infusions(doses: &[(f64, f64, f64)]) -> Vec<Administration> {
+    doses
+        .iter()
+        .map(|&(t, mg, h)| Administration {
+            t,
+            amount_mg: mg,
+            route: Route::Infusion { hours: h },
+        })
+        .collect()
 }
